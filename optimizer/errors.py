@@ -1,0 +1,113 @@
+"""The exceptions Quartet raises.
+
+Every error the package raises derives from :class:`QuartetError`; each subclass also derives
+from the builtin that fits (``ValueError``), so callers may catch either. Messages are built
+from structured fields and say what was found, what was expected and where::
+
+    QuartetError
+    ├── UnitError(ValueError)          a token of engineering notation that does not parse
+    ├── ModelError(ValueError)         a domain object built with an impossible field value
+    ├── SpecError(ValueError)          a spec file problem, with file, line and key path
+    ├── CatalogError(ValueError)       a catalog problem, with file, row and column
+    ├── DesignError(ValueError)        a user's design (part strings, ids, mapping) is wrong
+    ├── InfeasibleError                nothing in the catalog meets the spec
+    └── SolverTimeout                  the time limit ended the search before any design
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+
+class QuartetError(Exception):
+    """Base class of every error raised by Quartet."""
+
+
+class UnitError(QuartetError, ValueError):
+    """A token of engineering notation could not be read as the expected quantity."""
+
+    def __init__(self, token: object, expected: str, reason: str = "") -> None:
+        self.token = token
+        self.expected = expected
+        self.reason = reason
+        detail = f" ({reason})" if reason else ""
+        super().__init__(f"cannot read {token!r}{detail}: expected {expected}")
+
+
+class ModelError(QuartetError, ValueError):
+    """A domain object was given a field value that is physically impossible."""
+
+    def __init__(self, owner: str, field: str, message: str) -> None:
+        self.owner = owner
+        self.field = field
+        self.message = message
+        super().__init__(f"{owner}: {field}: {message}")
+
+
+def _where(path: str | None, line: int | None) -> str:
+    if path is None:
+        return ""
+    if line is None:
+        return f"{path}: "
+    return f"{path}:{line}: "
+
+
+class SpecError(QuartetError, ValueError):
+    """A problem in a spec file, located by file, line and key path (``signal.common_mode``)."""
+
+    def __init__(
+        self, message: str, *, path: str | None = None, key: str = "", line: int | None = None
+    ) -> None:
+        self.path = path
+        self.key = key
+        self.line = line
+        self.message = message
+        at = f"{key}: " if key else ""
+        super().__init__(f"{_where(path, line)}{at}{message}")
+
+
+class CatalogError(QuartetError, ValueError):
+    """A problem in a catalog file, located by file, row (1-based, as an editor shows it) and column."""
+
+    def __init__(
+        self,
+        message: str,
+        *,
+        path: str | None = None,
+        row: int | None = None,
+        column: str = "",
+    ) -> None:
+        self.path = path
+        self.row = row
+        self.column = column
+        self.message = message
+        loc = _where(path, row)
+        at = f"column '{column}': " if column else ""
+        super().__init__(f"{loc}{at}{message}")
+
+
+class DesignError(QuartetError, ValueError):
+    """A user-supplied design is malformed: bad part string, unknown part id, bad mapping."""
+
+
+@dataclass(frozen=True)
+class BestReachable:
+    """The best value of one requirement that the catalog can reach (for a diagnosis)."""
+
+    requirement: str
+    asked: str
+    reachable: str
+    note: str = ""
+
+
+class InfeasibleError(QuartetError):
+    """No design from the catalogs meets the spec; ``binding`` names the requirements that bind."""
+
+    def __init__(self, binding: tuple[str, ...], best: tuple[BestReachable, ...], text: str) -> None:
+        self.binding = binding
+        self.best = best
+        super().__init__(text)
+
+
+class SolverTimeout(QuartetError):
+    """The time limit ended the search before any feasible design was found."""
