@@ -76,7 +76,7 @@ def _add_spec_commands(commands: argparse._SubParsersAction[argparse.ArgumentPar
 
 def _catalog_show(args: argparse.Namespace, console: Console) -> int:
     from .catalog import load_catalogs
-    from .report import render_catalog_summary
+    from .report.catalog import render_catalog_summary
 
     catalog = load_catalogs(args.paths, include_builtin=not args.paths)
     console.print(render_catalog_summary(catalog))
@@ -85,7 +85,7 @@ def _catalog_show(args: argparse.Namespace, console: Console) -> int:
 
 def _catalog_validate(args: argparse.Namespace, console: Console) -> int:
     from .catalog import load_catalogs
-    from .report import render_catalog_summary
+    from .report.catalog import render_catalog_summary
 
     catalog = load_catalogs(args.paths, include_builtin=False)
     console.print(render_catalog_summary(catalog))
@@ -94,7 +94,7 @@ def _catalog_validate(args: argparse.Namespace, console: Console) -> int:
 
 
 def _spec_validate(args: argparse.Namespace, console: Console) -> int:
-    from .report import render_spec_summary
+    from .report.spec import render_spec_summary
     from .specfile import load_spec
 
     spec = load_spec(args.path)
