@@ -11,7 +11,8 @@ from structured fields and say what was found, what was expected and where::
     ├── CatalogError(ValueError)       a catalog problem, with file, row and column
     ├── DesignError(ValueError)        a user's design (part strings, ids, mapping) is wrong
     ├── InfeasibleError                nothing in the catalog meets the spec
-    └── SolverTimeout                  the time limit ended the search before any design
+    ├── SolverTimeout                  the time limit ended the search before any design
+    └── SimulatorError                 the ngspice cross-check could not run or did not solve
 """
 
 from __future__ import annotations
@@ -111,3 +112,9 @@ class InfeasibleError(QuartetError):
 
 class SolverTimeout(QuartetError):
     """The time limit ended the search before any feasible design was found."""
+
+
+class SimulatorError(QuartetError):
+    """The circuit simulator (ngspice) is missing, failed, or did not solve the circuit exactly
+    (a singular matrix, gmin or source stepping, a missing result). Used only by
+    :mod:`optimizer.spice`, never by the analysis or the solver."""
