@@ -203,7 +203,11 @@ class Distribution(str, Enum):
 
 @dataclass(frozen=True)
 class Preferences:
-    """How to search: topologies, catalogs, stock policy, alternatives, objective, statistics."""
+    """How to search: topologies, catalogs, stock policy, alternatives, objective, statistics.
+
+    ``resistance_min_ohm``/``resistance_max_ohm`` bound the values the pick considers for any
+    position (default 100 Ω … 1 MΩ: inputs well above typical source impedances, feedback
+    low enough for bias-current and noise budgets — common practice)."""
 
     topologies: tuple[Topology, ...] = tuple(Topology)
     catalogs: tuple[str, ...] = ()
@@ -220,9 +224,14 @@ class Preferences:
     samples: int = 100_000
     seed: int = 1
     same_lot_tracking: bool = False
+    resistance_min_ohm: float = 100.0
+    resistance_max_ohm: float = 1e6
 
     def __post_init__(self) -> None:
         owner = "preferences"
+        _ordered(owner, "resistance_range min", self.resistance_min_ohm, "resistance_range max", self.resistance_max_ohm)
+        if self.resistance_min_ohm <= 0.0:
+            raise ModelError(owner, "resistance_range min", "expected above zero")
         if not self.topologies:
             raise ModelError(owner, "topologies", "expected at least one topology")
         if isinstance(self.alternatives, bool) or not isinstance(self.alternatives, int) or not 1 <= self.alternatives <= 1000:
@@ -249,7 +258,8 @@ class Preferences:
 class Spec:
     """A whole spec: the amplifier, rails, signal, reference, requirements and preferences.
 
-    ``source_path`` is the file it came from (for messages and relative catalog paths)."""
+    ``source_path`` is the file it came from (for messages and relative catalog paths);
+    ``title`` the spec file's optional free-text title (for reports)."""
 
     amplifier: Amplifier
     rails: Rails
@@ -258,3 +268,4 @@ class Spec:
     requirements: Requirements
     preferences: Preferences = field(default_factory=Preferences)
     source_path: str | None = None
+    title: str | None = None
