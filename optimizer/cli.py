@@ -12,6 +12,7 @@ import sys
 from collections.abc import Callable, Sequence
 
 from rich.console import Console
+from rich.markup import escape
 
 from ._version import __version__
 from .errors import QuartetError
@@ -125,7 +126,9 @@ def main(argv: Sequence[str] | None = None, *, console: Console | None = None, e
     try:
         return handler(args, out)
     except QuartetError as exc:
-        errors.print(f"[bold red]{type(exc).__name__}[/bold red]: {exc}", highlight=False)
+        # escape: messages quote the user's own text, which may contain [markup].
+        name = type(exc).__name__
+        errors.print(f"[bold red]{name}[/bold red]: {escape(str(exc))}", highlight=False)
         return EXIT_BAD_INPUT
     except KeyboardInterrupt:
         errors.print("interrupted")

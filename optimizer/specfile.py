@@ -1,0 +1,1244 @@
+"""Read a spec file (YAML) into a :class:`~optimizer.spec.Spec`.
+
+The file is read with PyYAML's *safe* loader only: it is composed into a node tree with
+``yaml.SafeLoader`` (which keeps every node's line) and each plain value is built by
+``SafeConstructor`` (strings, numbers, yes/no, null); no Python object is ever constructed.
+The tree is then walked key by key against the schema below.
+
+Every problem becomes a :class:`~optimizer.errors.SpecError` naming the file, the 1-based line
+and the dotted key path (``motor.yaml:14: requirements.cmrr_floor: cannot read '80 dBB' ...``).
+The loader does not stop at the first problem: every independent problem is collected and
+reported together (sorted by line); values that depend on a broken one are not checked.
+
+Schema (format version 1; see the README for every key, its unit and its default)::
+
+    quartet_spec: 1
+    title: ...
+    amplifier:    {label, cmrr, open_loop_gain, gbw, slew_rate, offset_voltage, bias_current,
+                   offset_current, voltage_noise, current_noise, input_range, output_swing}
+    rails:        {positive, negative}
+    signal:       {differential, common_mode, max_frequency, source_impedance, mains_derived}
+    reference:    {voltage, impedance}
+    requirements: {gain, gain_accuracy, cmrr_floor, cmrr_basis, yield, temperature,
+                   operating_life, min_input_impedance, output_noise}
+    preferences:  {topologies, catalogs, builtin_catalogs, stock, stock_penalty, alternatives,
+                   objective, cost_cap, placement_cost, line_cost, monte_carlo, same_lot_tracking,
+                   resistance_range}
+"""
+
+from __future__ import annotations
+
+import difflib
+import math
+import os
+from collections.abc import Callable, Mapping, Sequence
+from dataclasses import dataclass
+from enum import Enum
+from pathlib import Path
+from typing import NoReturn, TypeVar
+
+import yaml
+from yaml.constructor import SafeConstructor
+from yaml.nodes import MappingNode, Node, ScalarNode, SequenceNode
+
+from .design import Topology
+from .errors import ModelError, SpecError, UnitError
+from .parts import Amplifier, RailSpan
+from .spec import (
+    CmrrBasis,
+    Distribution,
+    Objective,
+    Preferences,
+    Rails,
+    Reference,
+    Requirements,
+    Signal,
+    SourceImpedance,
+    Spec,
+    StockPolicy,
+)
+from .units import (
+    format_quantity,
+    format_resistance,
+    format_temperature,
+    parse_current,
+    parse_current_noise,
+    parse_db,
+    parse_duration,
+    parse_fraction,
+    parse_frequency,
+    parse_resistance,
+    parse_slew_rate,
+    parse_temperature,
+    parse_voltage,
+    parse_voltage_noise,
+)
+
+__all__ = ["FORMAT_VERSION", "load_spec", "parse_spec_text"]
+
+#: The spec-file format version this module reads (the ``quartet_spec`` key).
+FORMAT_VERSION = 1
+
+#: At most this many problems are listed in one error; the rest are counted.
+MAX_LISTED_PROBLEMS = 25
+
+T = TypeVar("T")
+E = TypeVar("E", bound=Enum)
+Parse = Callable[[object], float]
+Read = Callable[[Node, str], T]
+
+
+_NULL_TAG = "tag:yaml.org,2002:null"
+_MAP_TAG = "tag:yaml.org,2002:map"
+_SEQ_TAG = "tag:yaml.org,2002:seq"
+ZERO_OR_RESISTANCE = "a resistance of zero or more such as 0, 100R or 4.99k"
+_SPAN_FORMS = (
+    "from_negative and from_positive (distances from the rails) or min and max (absolute volts)"
+)
+
+
+class _Recorded(Exception):
+    """Internal: a problem was recorded; the value being read falls back to its placeholder."""
+
+
+def _expected(parse: Parse) -> str:
+    """The description of what ``parse`` accepts, in the units module's own words."""
+    try:
+        parse("")
+    except UnitError as exc:
+        return exc.expected
+    return "a value"  # pragma: no cover - every parser refuses the empty string
+
+
+def _line(node: Node) -> int:
+    return int(node.start_mark.line) + 1
+
+
+def _kind(node: Node) -> str:
+    if isinstance(node, MappingNode):
+        return "a mapping"
+    if isinstance(node, SequenceNode):
+        return "a list"
+    if node.tag == _NULL_TAG:
+        return "no value"
+    return "a single value"
+
+
+def _join(names: Sequence[str]) -> str:
+    return ", ".join(names)
+
+
+def _volts(value: float) -> str:
+    return format_quantity(value, "V", 6)
+
+
+def _ohms(value: float) -> str:
+    return format_resistance(value, 6)
+
+
+def _hertz(value: float) -> str:
+    return format_quantity(value, "Hz", 6)
+
+
+def _celsius(value: float) -> str:
+    return format_temperature(value, 6)
+
+
+@dataclass
+class _Map:
+    """A mapping node whose keys were checked: ``entries`` maps each key to its value node."""
+
+    reader: _Reader
+    key: str
+    line: int
+    entries: dict[str, Node]
+    key_lines: dict[str, int]
+    suggested: set[str]
+
+    def child(self, name: str) -> str:
+        return f"{self.key}.{name}" if self.key else name
+
+    def has(self, name: str) -> bool:
+        return name in self.entries
+
+    def line_of(self, name: str) -> int:
+        """The line of key ``name`` (this mapping's line when the key is absent)."""
+        return self.key_lines.get(name, self.line)
+
+    def opt(self, name: str, read: Read[T], default: T) -> T:
+        """The value of an optional key: ``default`` when absent or (after recording) unreadable."""
+        node = self.entries.get(name)
+        if node is None:
+            return default
+        return self.reader.attempt(node, self.child(name), read, default)
+
+    def need(self, name: str, read: Read[T], expected: str, placeholder: T) -> T:
+        """The value of a required key; a missing key is recorded at this mapping's line."""
+        node = self.entries.get(name)
+        if node is None:
+            if name in self.suggested:  # already reported: "unknown key ...; did you mean ..."
+                self.reader.bad.add(self.child(name))
+            else:
+                self.reader.problem(
+                    self.child(name), self.line, f"required key is missing; expected {expected}"
+                )
+            return placeholder
+        return self.reader.attempt(node, self.child(name), read, placeholder)
+
+
+class _Reader:
+    """Walks the node tree of one spec file, collecting located problems."""
+
+    def __init__(self, path: str) -> None:
+        self.path = path
+        self.folder = Path(path).parent
+        self.problems: list[SpecError] = []
+        self.bad: set[str] = set()
+        self.lines: dict[str, int] = {}
+        self._constructor = SafeConstructor()
+
+    # -- problems ---------------------------------------------------------------------------
+
+    def problem(self, key: str, line: int, message: str) -> None:
+        self.problems.append(SpecError(message, path=self.path, key=key, line=line))
+        self.bad.add(key)
+
+    def fail(self, key: str, line: int, message: str) -> NoReturn:
+        self.problem(key, line, message)
+        raise _Recorded
+
+    def ok(self, *keys: str) -> bool:
+        """True when no problem was recorded at, above or below any of ``keys``."""
+        for bad in self.bad:
+            for key in keys:
+                if (
+                    bad == key
+                    or bad.startswith((f"{key}.", f"{key}["))
+                    or key.startswith(f"{bad}.")
+                ):
+                    return False
+        return True
+
+    def attempt(self, node: Node, key: str, read: Read[T], placeholder: T) -> T:
+        self.lines.setdefault(key, _line(node))
+        try:
+            return read(node, key)
+        except _Recorded:
+            return placeholder
+
+    def model_error(self, exc: ModelError, section: str, fields: Mapping[str, str]) -> None:
+        """Record a dataclass's refusal at the key its field came from (or the nearest parent)."""
+        key = fields.get(exc.field, section)
+        while key not in self.lines and "." in key:
+            key = key.rsplit(".", 1)[0]
+        line = self.lines.get(key, 1)
+        wanted = fields.get(exc.field)
+        message = exc.message if wanted == key else f"{exc.field}: {exc.message}"
+        self.problem(key, line, message)
+
+    # -- plain values -----------------------------------------------------------------------
+
+    def value(self, node: Node, key: str) -> object:
+        """The Python value of a scalar node, built as ``yaml.safe_load`` would build it."""
+        try:
+            return self._constructor.construct_object(node, deep=True)
+        except yaml.YAMLError as exc:
+            problem = getattr(exc, "problem", None) or str(exc)
+            self.fail(key, _line(node), f"cannot read this value: {problem}")
+
+    def scalar(self, node: Node, key: str, expected: str) -> object:
+        if not isinstance(node, ScalarNode):
+            self.fail(key, _line(node), f"expected {expected}, got {_kind(node)}")
+        value = self.value(node, key)
+        if value is None:
+            self.fail(key, _line(node), f"no value given; expected {expected}")
+        return value
+
+    def quantity(self, parse: Parse) -> Read[float]:
+        expected = _expected(parse)
+
+        def read(node: Node, key: str) -> float:
+            value = self.scalar(node, key, expected)
+            try:
+                return parse(value)
+            except UnitError as exc:
+                self.fail(key, _line(node), str(exc))
+
+        return read
+
+    def zero_or_resistance(self, node: Node, key: str) -> float:
+        """A resistance that may be zero (a source or REF impedance): ``0``, ``10``, ``4k99``."""
+        expected = ZERO_OR_RESISTANCE
+        value = self.scalar(node, key, expected)
+        try:
+            return parse_resistance(value)
+        except UnitError as exc:
+            # parse_resistance refuses zero and below with this reason; zero is allowed here.
+            if exc.reason == "not above zero" and not str(value).lstrip().startswith("-"):
+                return 0.0
+            if exc.reason == "not above zero":
+                self.fail(
+                    key, _line(node), f"cannot read {value!r} (below zero): expected {expected}"
+                )
+            self.fail(key, _line(node), str(exc))
+
+    def number(self, expected: str) -> Read[float]:
+        def read(node: Node, key: str) -> float:
+            value = self.scalar(node, key, expected)
+            if isinstance(value, bool) or not isinstance(value, (int, float)):
+                self.fail(key, _line(node), f"expected {expected}, got {node.value!r}")
+            if not math.isfinite(value):
+                self.fail(
+                    key,
+                    _line(node),
+                    f"expected {expected}, got {node.value!r} (not a finite number)",
+                )
+            return float(value)
+
+        return read
+
+    def integer(self, expected: str) -> Read[int]:
+        def read(node: Node, key: str) -> int:
+            value = self.scalar(node, key, expected)
+            if isinstance(value, bool) or not isinstance(value, int):
+                self.fail(key, _line(node), f"expected {expected}, got {node.value!r}")
+            return value
+
+        return read
+
+    def boolean(self, node: Node, key: str) -> bool:
+        value = self.scalar(node, key, "true or false")
+        if not isinstance(value, bool):
+            self.fail(key, _line(node), f"expected true or false, got {node.value!r}")
+        return value
+
+    def text(self, node: Node, key: str) -> str:
+        self.scalar(node, key, "text")
+        assert isinstance(node, ScalarNode)
+        text = str(node.value).strip()
+        if not text:
+            self.fail(key, _line(node), "expected text, got an empty value")
+        return text
+
+    def choice(self, enum: type[E]) -> Read[E]:
+        valid = [str(member.value) for member in enum]
+
+        def read(node: Node, key: str) -> E:
+            self.scalar(node, key, f"one of {_join(valid)}")
+            assert isinstance(node, ScalarNode)
+            for member in enum:
+                if member.value == node.value:
+                    return member
+            close = difflib.get_close_matches(str(node.value), valid, n=1)
+            hint = f"; did you mean {close[0]!r}?" if close else ""
+            self.fail(key, _line(node), f"{node.value!r} is not one of {_join(valid)}{hint}")
+
+        return read
+
+    # -- containers -------------------------------------------------------------------------
+
+    def mapping(
+        self, node: Node, key: str, allowed: Sequence[str], *, line: int | None = None
+    ) -> _Map:
+        """Check that ``node`` is a mapping whose keys are all in ``allowed``; unknown keys are
+        recorded with a suggestion. ``line`` is where missing keys are reported (default: the
+        mapping's own first line)."""
+        where = _line(node) if line is None else line
+        if not isinstance(node, MappingNode):
+            self.fail(
+                key,
+                _line(node),
+                f"expected a mapping with keys {_join(allowed)}, got {_kind(node)}",
+            )
+        if node.tag != _MAP_TAG:
+            self.fail(
+                key, _line(node), f"the tag {node.tag!r} is not allowed here; write a plain mapping"
+            )
+        try:
+            self._constructor.flatten_mapping(node)  # YAML merge keys (<<: *anchor)
+        except yaml.YAMLError as exc:
+            self.fail(key, _line(node), f"cannot merge: {getattr(exc, 'problem', None) or exc}")
+        entries: dict[str, Node] = {}
+        key_lines: dict[str, int] = {}
+        suggested: set[str] = set()
+        for key_node, value_node in node.value:
+            child_line = _line(key_node)
+            if not isinstance(key_node, ScalarNode):
+                self.problem(key, child_line, f"expected a key name, got {_kind(key_node)}")
+                continue
+            name = str(key_node.value)
+            child = f"{key}.{name}" if key else name
+            if name in entries:
+                self.problem(child, child_line, f"key {name!r} is given twice in this mapping")
+                continue
+            if name not in allowed:
+                close = difflib.get_close_matches(name, allowed, n=1)
+                if close:
+                    suggested.add(close[0])
+                    self.problem(
+                        child, child_line, f"unknown key {name!r}; did you mean {close[0]!r}?"
+                    )
+                else:
+                    self.problem(
+                        child,
+                        child_line,
+                        f"unknown key {name!r}; valid keys here: {_join(allowed)}",
+                    )
+                continue
+            entries[name] = value_node
+            key_lines[name] = child_line
+            self.lines[child] = child_line
+        return _Map(self, key, where, entries, key_lines, suggested)
+
+    def section(self, parent: _Map, name: str, allowed: Sequence[str]) -> _Map | None:
+        """A child mapping of ``parent`` (None when absent or not a mapping); missing keys in it
+        are reported at the line of its own key."""
+        node = parent.entries.get(name)
+        if node is None:
+            return None
+        key = parent.child(name)
+        try:
+            return self.mapping(node, key, allowed, line=parent.line_of(name))
+        except _Recorded:
+            return None
+
+    def sequence(self, node: Node, key: str, expected: str) -> list[Node]:
+        if isinstance(node, ScalarNode) and node.tag != _NULL_TAG:
+            return [node]  # a single item may be written without brackets
+        if not isinstance(node, SequenceNode):
+            self.fail(key, _line(node), f"expected a list of {expected}, got {_kind(node)}")
+        if node.tag != _SEQ_TAG:
+            self.fail(
+                key, _line(node), f"the tag {node.tag!r} is not allowed here; write a plain list"
+            )
+        return list(node.value)
+
+    def span_pair(
+        self,
+        node: Node,
+        key: str,
+        read: Read[float],
+        expected: str,
+        fmt: Callable[[float], str],
+        *,
+        strict: bool = False,
+    ) -> tuple[float, float]:
+        """``{min: .., max: ..}`` with min ≤ max (min < max when ``strict``)."""
+        m = self.mapping(node, key, ("min", "max"), line=self.lines.get(key))
+        low = m.need("min", read, expected, math.nan)
+        high = m.need("max", read, expected, math.nan)
+        if not self.ok(key):
+            raise _Recorded
+        if low > high or (strict and low == high):
+            relation = "is not below" if strict else "is above"
+            self.fail(
+                m.child("min"), m.line_of("min"), f"min {fmt(low)} {relation} max {fmt(high)}"
+            )
+        return low, high
+
+    def pair(
+        self, read: Read[float], expected: str, fmt: Callable[[float], str], *, scalar: bool = False
+    ) -> Read[tuple[float, float]]:
+        """A reader of ``{min: .., max: ..}``; with ``scalar`` also of one value (min = max)."""
+
+        def inner(node: Node, key: str) -> tuple[float, float]:
+            if scalar and not isinstance(node, MappingNode):
+                value = read(node, key)
+                return value, value
+            return self.span_pair(node, key, read, expected, fmt)
+
+        return inner
+
+
+# ---------------------------------------------------------------------------------------------
+# The schema, section by section
+# ---------------------------------------------------------------------------------------------
+
+TOP_KEYS = (
+    "quartet_spec",
+    "title",
+    "amplifier",
+    "rails",
+    "signal",
+    "reference",
+    "requirements",
+    "preferences",
+)
+AMPLIFIER_KEYS = (
+    "label",
+    "cmrr",
+    "open_loop_gain",
+    "gbw",
+    "slew_rate",
+    "offset_voltage",
+    "bias_current",
+    "offset_current",
+    "voltage_noise",
+    "current_noise",
+    "input_range",
+    "output_swing",
+)
+SPAN_KEYS = ("from_negative", "from_positive", "min", "max")
+RAILS_KEYS = ("positive", "negative")
+SIGNAL_KEYS = ("differential", "common_mode", "max_frequency", "source_impedance", "mains_derived")
+SOURCE_KEYS = ("min", "max", "imbalance")
+REFERENCE_KEYS = ("voltage", "impedance")
+REQUIREMENT_KEYS = (
+    "gain",
+    "gain_accuracy",
+    "cmrr_floor",
+    "cmrr_basis",
+    "yield",
+    "temperature",
+    "operating_life",
+    "min_input_impedance",
+    "output_noise",
+)
+NOISE_KEYS = ("max", "band")
+BAND_KEYS = ("low", "high")
+PREFERENCE_KEYS = (
+    "topologies",
+    "catalogs",
+    "builtin_catalogs",
+    "stock",
+    "stock_penalty",
+    "alternatives",
+    "objective",
+    "cost_cap",
+    "placement_cost",
+    "line_cost",
+    "monte_carlo",
+    "same_lot_tracking",
+    "resistance_range",
+)
+MONTE_CARLO_KEYS = ("samples", "seed", "distribution", "sigma_k")
+
+#: Default lower edge of the output-noise band when the spec gives none (Hz).
+DEFAULT_NOISE_BAND_LOW_HZ = 0.1
+
+
+class _Schema:
+    """Reads each section of one spec file with one :class:`_Reader`."""
+
+    def __init__(self, reader: _Reader) -> None:
+        self.r = reader
+        r = reader
+        self.voltage = r.quantity(parse_voltage)
+        self.frequency = r.quantity(parse_frequency)
+        self.temperature = r.quantity(parse_temperature)
+        self.fraction = r.quantity(parse_fraction)
+        self.db = r.quantity(parse_db)
+        self.impedance = r.zero_or_resistance
+
+    # -- amplifier --------------------------------------------------------------------------
+
+    def level(self, node: Node, key: str) -> float:
+        """A minimum level in dB, or the word ``ideal`` (infinite)."""
+        expected = "a level in decibels such as 100 dB, or ideal"
+        value = self.r.scalar(node, key, expected)
+        if isinstance(value, str) and value.strip().lower() == "ideal":
+            return math.inf
+        try:
+            return parse_db(value)
+        except UnitError as exc:
+            self.r.fail(key, _line(node), str(exc))
+
+    def span(self, node: Node, key: str) -> RailSpan:
+        """``{from_negative, from_positive}`` (distances from the rails) or ``{min, max}``."""
+        r = self.r
+        m = r.mapping(node, key, SPAN_KEYS, line=r.lines.get(key))
+        relative = [n for n in ("from_negative", "from_positive") if m.has(n)]
+        absolute = [n for n in ("min", "max") if m.has(n)]
+        if relative and absolute:
+            r.fail(
+                key,
+                m.line,
+                f"give either {_SPAN_FORMS}, not both",
+            )
+        if not relative and not absolute:
+            r.fail(
+                key,
+                m.line,
+                f"expected {_SPAN_FORMS}",
+            )
+        names = ("from_negative", "from_positive") if relative else ("min", "max")
+        what = _expected(parse_voltage)
+        low = m.need(names[0], self.voltage, what, math.nan)
+        high = m.need(names[1], self.voltage, what, math.nan)
+        if not r.ok(key):
+            raise _Recorded
+        if not relative and low >= high:
+            r.fail(
+                m.child("min"),
+                m.line_of("min"),
+                f"min {_volts(low)} is not below max {_volts(high)}",
+            )
+        return RailSpan(low, high, relative=bool(relative))
+
+    def amplifier(self, m: _Map) -> Amplifier | None:
+        r = self.r
+        label = m.opt("label", r.text, "op-amp")
+        cmrr = m.need("cmrr", self.level, "a level in decibels such as 100 dB, or ideal", math.nan)
+        aol = m.need(
+            "open_loop_gain", self.level, "a level in decibels such as 120 dB, or ideal", math.nan
+        )
+        gbw = m.need("gbw", self.frequency, _expected(parse_frequency), math.nan)
+        slew = m.need(
+            "slew_rate", r.quantity(parse_slew_rate), _expected(parse_slew_rate), math.nan
+        )
+        offset = m.need(
+            "offset_voltage", self.bound(parse_voltage), _expected(parse_voltage), math.nan
+        )
+        bias = m.need("bias_current", self.bound(parse_current), _expected(parse_current), math.nan)
+        offset_current = m.opt("offset_current", self.bound(parse_current), None)
+        en = m.need(
+            "voltage_noise",
+            r.quantity(parse_voltage_noise),
+            _expected(parse_voltage_noise),
+            math.nan,
+        )
+        in_ = m.need(
+            "current_noise",
+            r.quantity(parse_current_noise),
+            _expected(parse_current_noise),
+            math.nan,
+        )
+        span_expected = (
+            "from_negative and from_positive (distances from the rails) or min and max (volts)"
+        )
+        placeholder = RailSpan(0.0, 0.0)
+        input_span = m.need("input_range", self.span, span_expected, placeholder)
+        output_span = m.need("output_swing", self.span, span_expected, placeholder)
+        if not r.ok("amplifier"):
+            return None
+        try:
+            return Amplifier(
+                name=label,
+                cmrr_db=cmrr,
+                open_loop_gain_db=aol,
+                gbw_hz=gbw,
+                slew_v_per_s=slew,
+                offset_v=offset,
+                bias_a=bias,
+                voltage_noise_v_rthz=en,
+                current_noise_a_rthz=in_,
+                input_span=input_span,
+                output_span=output_span,
+                offset_current_a=offset_current,
+            )
+        except ModelError as exc:
+            r.model_error(exc, "amplifier", {f: f"amplifier.{f}" for f in AMPLIFIER_KEYS})
+            return None
+
+    def bound(self, parse: Parse) -> Read[float]:
+        """A datasheet bound (a magnitude): zero or more."""
+        read = self.r.quantity(parse)
+
+        def inner(node: Node, key: str) -> float:
+            value = read(node, key)
+            if value < 0.0:
+                self.r.fail(
+                    key,
+                    _line(node),
+                    f"expected a bound of zero or more (a magnitude), got {node.value!r}",
+                )
+            return value
+
+        return inner
+
+    def check_spans(self, amp: Amplifier, rails: Rails) -> None:
+        """The input range must be non-empty and the output swing inside the rails."""
+        r = self.r
+        low, high = amp.input_span.resolve(rails.negative_v, rails.positive_v)
+        if low >= high:
+            r.problem(
+                "amplifier.input_range",
+                r.lines.get("amplifier.input_range", 1),
+                f"with rails {_volts(rails.negative_v)} and {_volts(rails.positive_v)} this range "
+                f"({_volts(low)} to {_volts(high)}) is empty",
+            )
+        out = amp.output_span
+        key = "amplifier.output_swing"
+        if out.relative:
+            for name, distance in (("from_negative", out.low_v), ("from_positive", out.high_v)):
+                if distance < 0.0:
+                    r.problem(
+                        f"{key}.{name}",
+                        r.lines.get(f"{key}.{name}", 1),
+                        f"{_volts(distance)} would put the output beyond the rail; "
+                        "expected zero or more",
+                    )
+        else:
+            if out.low_v < rails.negative_v:
+                r.problem(
+                    f"{key}.min",
+                    r.lines.get(f"{key}.min", 1),
+                    f"{_volts(out.low_v)} is below the negative rail {_volts(rails.negative_v)}",
+                )
+            if out.high_v > rails.positive_v:
+                r.problem(
+                    f"{key}.max",
+                    r.lines.get(f"{key}.max", 1),
+                    f"{_volts(out.high_v)} is above the positive rail {_volts(rails.positive_v)}",
+                )
+        if r.ok(key):
+            low, high = out.resolve(rails.negative_v, rails.positive_v)
+            if low >= high:
+                r.problem(
+                    key,
+                    r.lines.get(key, 1),
+                    f"with rails {_volts(rails.negative_v)} and {_volts(rails.positive_v)} "
+                    f"this swing ({_volts(low)} to {_volts(high)}) is empty",
+                )
+
+    # -- rails, signal, reference -------------------------------------------------------------
+
+    def rails(self, m: _Map) -> Rails | None:
+        positive = m.need("positive", self.voltage, _expected(parse_voltage), math.nan)
+        negative = m.opt("negative", self.voltage, 0.0)
+        if not self.r.ok("rails"):
+            return None
+        try:
+            return Rails(positive_v=positive, negative_v=negative)
+        except ModelError as exc:
+            self.r.model_error(
+                exc, "rails", {"positive": "rails.positive", "negative": "rails.negative"}
+            )
+            return None
+
+    def source(self, node: Node, key: str) -> SourceImpedance:
+        r = self.r
+        m = r.mapping(node, key, SOURCE_KEYS, line=r.lines.get(key))
+        low = m.opt("min", self.impedance, 0.0)
+        high = m.opt("max", self.impedance, 0.0)
+        imbalance = m.opt("imbalance", self.impedance, 0.0)
+        if not r.ok(key):
+            raise _Recorded
+        if low > high:
+            r.fail(m.child("min"), m.line_of("min"), f"min {_ohms(low)} is above max {_ohms(high)}")
+        if imbalance > high - low:
+            r.fail(
+                m.child("imbalance"),
+                m.line_of("imbalance"),
+                f"{_ohms(imbalance)} is more than max - min = {_ohms(high - low)}; "
+                "two legs inside [min, max] cannot differ by more",
+            )
+        return SourceImpedance(min_ohm=low, max_ohm=high, imbalance_ohm=imbalance)
+
+    def signal(self, m: _Map) -> Signal | None:
+        r = self.r
+        pair = "min and max in volts, such as {min: -1 V, max: 1 V}"
+        volts = r.pair(self.voltage, _expected(parse_voltage), _volts)
+        nan2 = (math.nan, math.nan)
+        diff = m.need("differential", volts, pair, nan2)
+        cm = m.need("common_mode", volts, pair, nan2)
+        fmax = m.need("max_frequency", self.frequency, _expected(parse_frequency), math.nan)
+        source = m.opt("source_impedance", self.source, SourceImpedance())
+        ac = m.opt("mains_derived", r.boolean, False)
+        if not r.ok("signal"):
+            return None
+        try:
+            return Signal(
+                differential_min_v=diff[0],
+                differential_max_v=diff[1],
+                common_mode_min_v=cm[0],
+                common_mode_max_v=cm[1],
+                max_frequency_hz=fmax,
+                source=source,
+                ac=ac,
+            )
+        except ModelError as exc:
+            r.model_error(
+                exc,
+                "signal",
+                {
+                    "differential min": "signal.differential.min",
+                    "differential max": "signal.differential.max",
+                    "common_mode min": "signal.common_mode.min",
+                    "common_mode max": "signal.common_mode.max",
+                    "max_frequency": "signal.max_frequency",
+                },
+            )
+            return None
+
+    def reference(self, m: _Map) -> Reference | None:
+        r = self.r
+        voltage = m.need(
+            "voltage",
+            r.pair(self.voltage, _expected(parse_voltage), _volts, scalar=True),
+            "a voltage such as 2.5 V, or {min: 2.4 V, max: 2.6 V}",
+            (math.nan, math.nan),
+        )
+        impedance = m.opt(
+            "impedance", r.pair(self.impedance, ZERO_OR_RESISTANCE, _ohms, scalar=True), (0.0, 0.0)
+        )
+        if not r.ok("reference"):
+            return None
+        try:
+            return Reference(
+                voltage_min_v=voltage[0],
+                voltage_max_v=voltage[1],
+                impedance_min_ohm=impedance[0],
+                impedance_max_ohm=impedance[1],
+            )
+        except ModelError as exc:
+            r.model_error(
+                exc,
+                "reference",
+                {
+                    "voltage min": "reference.voltage.min",
+                    "voltage max": "reference.voltage.max",
+                    "impedance min": "reference.impedance.min",
+                    "impedance max": "reference.impedance.max",
+                },
+            )
+            return None
+
+    def check_reference(self, ref: Reference, rails: Rails) -> None:
+        """The REF voltage must lie within the rails."""
+        r = self.r
+        for name, value in (("min", ref.voltage_min_v), ("max", ref.voltage_max_v)):
+            if rails.negative_v <= value <= rails.positive_v:
+                continue
+            key = (
+                f"reference.voltage.{name}"
+                if f"reference.voltage.{name}" in r.lines
+                else "reference.voltage"
+            )
+            r.problem(
+                key,
+                r.lines.get(key, 1),
+                f"{_volts(value)} is outside the rails "
+                f"({_volts(rails.negative_v)} to {_volts(rails.positive_v)})",
+            )
+            if key == "reference.voltage":
+                break
+
+    # -- requirements -------------------------------------------------------------------------
+
+    def noise(self, node: Node, key: str) -> tuple[float, float, float | None]:
+        """``{max: 100 uV, band: {low: 0.1 Hz, high: 10 kHz}}`` → (V rms, low Hz, high Hz|None)."""
+        r = self.r
+        m = r.mapping(node, key, NOISE_KEYS, line=r.lines.get(key))
+        limit = m.need("max", self.voltage, "an RMS voltage above zero such as 100 uV", math.nan)
+        low, high = DEFAULT_NOISE_BAND_LOW_HZ, None
+        band = r.section(m, "band", BAND_KEYS)
+        if band is not None:
+            low = band.opt("low", self.frequency, DEFAULT_NOISE_BAND_LOW_HZ)
+            high = band.opt("high", self.frequency, None)
+        if not r.ok(key):
+            raise _Recorded
+        if limit <= 0.0:
+            r.fail(
+                m.child("max"),
+                m.line_of("max"),
+                f"expected an RMS voltage above zero, got {_volts(limit)}",
+            )
+        return limit, low, high
+
+    def requirements(self, m: _Map, signal: Signal | None) -> Requirements | None:
+        r = self.r
+        gain = m.need(
+            "gain",
+            r.number("a gain above zero such as 20 (a plain ratio)"),
+            "a gain above zero such as 20 (a plain ratio)",
+            math.nan,
+        )
+        accuracy = m.need("gain_accuracy", self.fraction, _expected(parse_fraction), math.nan)
+        floor = m.need("cmrr_floor", self.db, _expected(parse_db), math.nan)
+        if r.ok("requirements.cmrr_floor") and floor <= 0.0:
+            r.problem(
+                "requirements.cmrr_floor",
+                m.line_of("cmrr_floor"),
+                f"expected a CMRR floor above 0 dB, got {floor:g} dB",
+            )
+        basis = m.opt("cmrr_basis", r.choice(CmrrBasis), CmrrBasis.WORST_CASE)
+        yield_target = 0.999
+        if basis is CmrrBasis.YIELD:
+            yield_target = m.need(
+                "yield",
+                self.fraction,
+                "a fraction such as 99.9 % (required with cmrr_basis: yield)",
+                math.nan,
+            )
+        elif m.has("yield") and r.ok("requirements.cmrr_basis"):
+            r.problem(
+                "requirements.yield",
+                m.line_of("yield"),
+                "a yield target is only used with cmrr_basis: yield; "
+                "set cmrr_basis: yield or remove this key",
+            )
+        temps = m.need(
+            "temperature",
+            r.pair(self.temperature, _expected(parse_temperature), _celsius),
+            "min and max such as {min: -40 °C, max: 125 °C}",
+            (math.nan, math.nan),
+        )
+        life = m.opt("operating_life", r.quantity(parse_duration), 0.0)
+        z_in = m.opt("min_input_impedance", self.impedance, 0.0)
+        noise = m.opt("output_noise", self.noise, None)
+        if not r.ok("requirements"):
+            return None
+        noise_max: float | None = None
+        band_low, band_high = DEFAULT_NOISE_BAND_LOW_HZ, None
+        if noise is not None:
+            noise_max, band_low, band_high = noise
+            if band_high is None and signal is not None:
+                band_high = signal.max_frequency_hz
+            if band_high is None:
+                return None  # the signal section is broken; its problem is already recorded
+            if band_low >= band_high:
+                key = "requirements.output_noise.band.low"
+                given = "requirements.output_noise.band.high" in r.lines
+                source = "" if given else " (signal.max_frequency)"
+                r.problem(
+                    key if key in r.lines else "requirements.output_noise",
+                    r.lines.get(key, r.lines.get("requirements.output_noise", 1)),
+                    f"band low {_hertz(band_low)} is not below "
+                    f"band high {_hertz(band_high)}{source}",
+                )
+                return None
+        try:
+            return Requirements(
+                gain=gain,
+                gain_accuracy=accuracy,
+                cmrr_floor_db=floor,
+                temp_min_c=temps[0],
+                temp_max_c=temps[1],
+                cmrr_basis=basis,
+                yield_target=yield_target,
+                life_s=life,
+                min_input_impedance_ohm=z_in,
+                max_output_noise_v_rms=noise_max,
+                noise_band_low_hz=band_low,
+                noise_band_high_hz=band_high,
+            )
+        except ModelError as exc:
+            r.model_error(
+                exc,
+                "requirements",
+                {
+                    "gain": "requirements.gain",
+                    "gain_accuracy": "requirements.gain_accuracy",
+                    "cmrr_floor": "requirements.cmrr_floor",
+                    "temperature min": "requirements.temperature.min",
+                    "temperature max": "requirements.temperature.max",
+                    "yield": "requirements.yield",
+                    "life": "requirements.operating_life",
+                    "min_input_impedance": "requirements.min_input_impedance",
+                    "max_output_noise": "requirements.output_noise.max",
+                    "noise band low": "requirements.output_noise.band.low",
+                    "noise band high": "requirements.output_noise.band.high",
+                },
+            )
+            return None
+
+    # -- preferences --------------------------------------------------------------------------
+
+    def topologies(self, node: Node, key: str) -> tuple[Topology, ...]:
+        r = self.r
+        valid = [t.value for t in Topology]
+        items = r.sequence(node, key, f"topologies ({_join(valid)})")
+        if not items:
+            r.fail(key, _line(node), f"expected at least one of {_join(valid)}")
+        read = r.choice(Topology)
+        chosen: list[Topology] = []
+        for index, item in enumerate(items):
+            topology = r.attempt(item, f"{key}[{index}]", read, None)
+            if topology is None:
+                continue
+            if topology in chosen:
+                r.problem(f"{key}[{index}]", _line(item), f"{topology.value!r} is listed twice")
+                continue
+            chosen.append(topology)
+        if not r.ok(key):
+            raise _Recorded
+        return tuple(chosen)
+
+    def catalogs(self, node: Node, key: str) -> tuple[str, ...]:
+        """Catalog files, relative to the spec file's folder; each must exist."""
+        r = self.r
+        items = r.sequence(node, key, "catalog file paths")
+        paths: list[str] = []
+        for index, item in enumerate(items):
+            item_key = f"{key}[{index}]"
+            text = r.attempt(item, item_key, r.text, None)
+            if text is None:
+                continue
+            candidate = Path(os.path.expanduser(text))
+            resolved = candidate if candidate.is_absolute() else r.folder / candidate
+            if not resolved.is_file():
+                r.problem(
+                    item_key,
+                    _line(item),
+                    f"catalog file not found: {resolved} "
+                    "(paths are relative to the spec file's folder)",
+                )
+                continue
+            if str(resolved) in paths:
+                r.problem(item_key, _line(item), f"{text!r} is listed twice")
+                continue
+            paths.append(str(resolved))
+        if not r.ok(key):
+            raise _Recorded
+        return tuple(paths)
+
+    def preferences(self, m: _Map | None) -> Preferences | None:
+        r = self.r
+        if m is None:
+            return Preferences()
+        defaults = Preferences()
+        topologies = m.opt("topologies", self.topologies, defaults.topologies)
+        catalogs = m.opt("catalogs", self.catalogs, defaults.catalogs)
+        builtin = m.opt("builtin_catalogs", r.boolean, defaults.use_builtin_catalogs)
+        stock = m.opt("stock", r.choice(StockPolicy), defaults.stock)
+        cost = r.number("a relative cost of zero or more such as 0.5")
+        penalty = defaults.stock_penalty
+        if stock is StockPolicy.PREFER:
+            penalty = m.need(
+                "stock_penalty",
+                cost,
+                "a relative cost of zero or more such as 0.5 (required with stock: prefer)",
+                math.nan,
+            )
+        elif m.has("stock_penalty") and r.ok("preferences.stock"):
+            r.problem(
+                "preferences.stock_penalty",
+                m.line_of("stock_penalty"),
+                "only used with stock: prefer; set stock: prefer or remove this key",
+            )
+        alternatives = m.opt(
+            "alternatives", r.integer("a whole number from 1 to 1000"), defaults.alternatives
+        )
+        objective = m.opt("objective", r.choice(Objective), defaults.objective)
+        cost_cap = defaults.cost_cap
+        if (
+            m.has("cost_cap")
+            and r.ok("preferences.objective")
+            and objective is not Objective.CMRR_MARGIN
+        ):
+            r.problem(
+                "preferences.cost_cap",
+                m.line_of("cost_cap"),
+                f"only used with objective: {Objective.CMRR_MARGIN.value}; "
+                "change the objective or remove this key",
+            )
+        else:
+            cost_cap = m.opt(
+                "cost_cap", r.number("a relative cost above zero such as 5"), defaults.cost_cap
+            )
+        placement_cost = m.opt("placement_cost", cost, defaults.placement_cost)
+        line_cost = m.opt("line_cost", cost, defaults.line_cost)
+        same_lot = m.opt("same_lot_tracking", r.boolean, defaults.same_lot_tracking)
+        window = m.opt(
+            "resistance_range",
+            r.pair(r.quantity(parse_resistance), _expected(parse_resistance), _ohms),
+            (defaults.resistance_min_ohm, defaults.resistance_max_ohm),
+        )
+        samples, seed, distribution, sigma_k = (
+            defaults.samples,
+            defaults.seed,
+            defaults.distribution,
+            defaults.sigma_k,
+        )
+        mc = r.section(m, "monte_carlo", MONTE_CARLO_KEYS)
+        if mc is not None:
+            samples = mc.opt(
+                "samples", r.integer("a whole number from 100 to 100,000,000"), samples
+            )
+            seed = mc.opt("seed", r.integer("a whole number of zero or more"), seed)
+            distribution = mc.opt("distribution", r.choice(Distribution), distribution)
+            if (
+                mc.has("sigma_k")
+                and r.ok("preferences.monte_carlo.distribution")
+                and distribution is not Distribution.NORMAL
+            ):
+                r.problem(
+                    "preferences.monte_carlo.sigma_k",
+                    mc.line_of("sigma_k"),
+                    "only used with distribution: normal "
+                    "(the tolerance spans sigma_k standard deviations); remove this key",
+                )
+            else:
+                sigma_k = mc.opt("sigma_k", r.number("a number above zero such as 3"), sigma_k)
+        if not r.ok("preferences"):
+            return None
+        try:
+            return Preferences(
+                topologies=topologies,
+                catalogs=catalogs,
+                use_builtin_catalogs=builtin,
+                stock=stock,
+                stock_penalty=penalty,
+                alternatives=alternatives,
+                objective=objective,
+                cost_cap=cost_cap,
+                placement_cost=placement_cost,
+                line_cost=line_cost,
+                distribution=distribution,
+                sigma_k=sigma_k,
+                samples=samples,
+                seed=seed,
+                same_lot_tracking=same_lot,
+                resistance_min_ohm=window[0],
+                resistance_max_ohm=window[1],
+            )
+        except ModelError as exc:
+            fields = {name: f"preferences.{name}" for name in PREFERENCE_KEYS}
+            fields.update({name: f"preferences.monte_carlo.{name}" for name in MONTE_CARLO_KEYS})
+            fields["resistance_range min"] = "preferences.resistance_range.min"
+            fields["resistance_range max"] = "preferences.resistance_range.max"
+            r.model_error(exc, "preferences", fields)
+            return None
+
+    # -- the whole file -----------------------------------------------------------------------
+
+    def version(self, node: Node, key: str) -> int:
+        expected = f"the format version, {FORMAT_VERSION}"
+        version = self.r.integer(expected)(node, key)
+        if version != FORMAT_VERSION:
+            raise SpecError(
+                f"unsupported format version {version}; this Quartet reads format {FORMAT_VERSION}",
+                path=self.r.path,
+                key=key,
+                line=_line(node),
+            )
+        return version
+
+    def spec(self, root: Node) -> Spec | None:
+        r = self.r
+        if not isinstance(root, MappingNode):
+            r.fail(
+                "",
+                _line(root),
+                f"expected a mapping of sections at the top level ({_join(TOP_KEYS)}), "
+                f"got {_kind(root)}",
+            )
+        names = {str(k.value) for k, _ in root.value if isinstance(k, ScalarNode)}
+        if not names & set(TOP_KEYS):
+            found = _join(sorted(names)) or "none"
+            r.fail(
+                "",
+                _line(root),
+                f"not a Quartet spec file: expected quartet_spec: {FORMAT_VERSION} and the "
+                f"sections {_join(TOP_KEYS[2:])} (top-level keys found: {found})",
+            )
+        top = r.mapping(root, "", TOP_KEYS, line=_line(root))
+        top.need("quartet_spec", self.version, f"the format version, {FORMAT_VERSION}", 0)
+        title = top.opt("title", r.text, None)
+        sections = {
+            "amplifier": AMPLIFIER_KEYS,
+            "rails": RAILS_KEYS,
+            "signal": SIGNAL_KEYS,
+            "reference": REFERENCE_KEYS,
+            "requirements": REQUIREMENT_KEYS,
+        }
+        maps: dict[str, _Map | None] = {}
+        for name, keys in sections.items():
+            if not top.has(name):
+                r.problem(
+                    name,
+                    top.line,
+                    f"required section is missing; expected a mapping with keys {_join(keys)}",
+                )
+                maps[name] = None
+            else:
+                maps[name] = r.section(top, name, keys)
+        amplifier_map, rails_map, signal_map = maps["amplifier"], maps["rails"], maps["signal"]
+        reference_map, requirements_map = maps["reference"], maps["requirements"]
+        amplifier = None if amplifier_map is None else self.amplifier(amplifier_map)
+        rails = None if rails_map is None else self.rails(rails_map)
+        signal = None if signal_map is None else self.signal(signal_map)
+        reference = None if reference_map is None else self.reference(reference_map)
+        requirements = (
+            None if requirements_map is None else self.requirements(requirements_map, signal)
+        )
+        preferences = self.preferences(r.section(top, "preferences", PREFERENCE_KEYS))
+        if rails is not None and amplifier is not None:
+            self.check_spans(amplifier, rails)
+        if rails is not None and reference is not None:
+            self.check_reference(reference, rails)
+        if r.problems:
+            return None
+        assert amplifier is not None and rails is not None and signal is not None
+        assert reference is not None and requirements is not None and preferences is not None
+        return Spec(
+            amplifier=amplifier,
+            rails=rails,
+            signal=signal,
+            reference=reference,
+            requirements=requirements,
+            preferences=preferences,
+            source_path=r.path,
+            title=title,
+        )
+
+
+def _combined(path: str, problems: list[SpecError]) -> SpecError:
+    """One error for all problems: a single one as it is, several as one located line each."""
+    ordered = sorted(problems, key=lambda p: p.line or 0)
+    if len(ordered) == 1:
+        return ordered[0]
+    lines = [str(p) for p in ordered[:MAX_LISTED_PROBLEMS]]
+    if len(ordered) > MAX_LISTED_PROBLEMS:
+        lines.append(f"... and {len(ordered) - MAX_LISTED_PROBLEMS} more")
+    error = SpecError(f"{len(ordered)} problems\n" + "\n".join(lines), path=path)
+    error.key, error.line = ordered[0].key, ordered[0].line
+    return error
+
+
+def _yaml_error(path: str, exc: yaml.YAMLError) -> SpecError:
+    mark = getattr(exc, "problem_mark", None) or getattr(exc, "context_mark", None)
+    line = None if mark is None else int(mark.line) + 1
+    problem = getattr(exc, "problem", None)
+    context = getattr(exc, "context", None)
+    if problem is None:
+        text = str(exc)
+    else:
+        text = str(problem) + (f" ({context})" if context else "")
+    return SpecError(f"not valid YAML: {text}", path=path, line=line)
+
+
+def parse_spec_text(text: str, path: str) -> Spec:
+    """Read a spec from YAML ``text``; ``path`` names the file in messages and is the base for
+    relative catalog paths. Raises :class:`SpecError` listing every problem found."""
+    try:
+        root = yaml.compose(text, Loader=yaml.SafeLoader)
+    except yaml.YAMLError as exc:
+        raise _yaml_error(path, exc) from None
+    if root is None:
+        raise SpecError(
+            f"the file is empty; expected a mapping starting with quartet_spec: {FORMAT_VERSION}",
+            path=path,
+            line=1,
+        )
+    reader = _Reader(path)
+    schema = _Schema(reader)
+    try:
+        spec = schema.spec(root)
+    except _Recorded:
+        spec = None
+    if reader.problems:
+        raise _combined(path, reader.problems)
+    assert spec is not None
+    return spec
+
+
+def load_spec(path: str | os.PathLike[str]) -> Spec:
+    """Read and check the spec file at ``path``. Raises :class:`SpecError` (located by file, line
+    and key path) for a missing or unreadable file, bad YAML, or any problem in the content."""
+    name = os.fspath(path)
+    try:
+        data = Path(name).read_bytes()
+    except FileNotFoundError:
+        raise SpecError("file not found", path=name) from None
+    except IsADirectoryError:
+        raise SpecError("is a folder, not a spec file", path=name) from None
+    except OSError as exc:
+        raise SpecError(f"cannot read the file: {exc.strerror or exc}", path=name) from None
+    try:
+        text = data.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        line = data[: exc.start].count(b"\n") + 1
+        raise SpecError("not UTF-8 text", path=name, line=line) from None
+    return parse_spec_text(text, name)
