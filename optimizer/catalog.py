@@ -1,0 +1,1638 @@
+"""Parts catalogs: the built-in generic catalog, user catalogs (CSV and YAML) and their union.
+
+A :class:`Catalog` holds discrete resistors as one columnar :class:`pandas.DataFrame` (one row
+per orderable part, SI units, see :data:`DISCRETE_COLUMNS`) and matched networks as a tuple of
+:class:`~optimizer.parts.NetworkPart`. Discrete rows are validated column by column with
+vectorised numpy/pandas operations and turned into :class:`~optimizer.parts.DiscretePart`
+objects only on demand, so a catalog of a million rows loads in seconds.
+
+File formats (names of our own; see README, "Parts catalogs"):
+
+* CSV, discrete parts only. Header line with the columns ``part_id, resistance, tolerance,
+  tempco, size, power, max_voltage, cost, stock`` (required) and ``technology, drift``
+  (optional), in any order. Cells take engineering notation (``4k99``, ``0.1%``, ``25ppm``,
+  ``63mW``, ``75V``); plain numbers are SI (ohms, fractions, per kelvin, watts, volts).
+  ``stock`` is a whole number or yes/no. Blank lines, and ``#`` comment lines before the
+  header, are skipped.
+* YAML: a mapping with a ``discrete:`` list (mappings with the CSV column names as keys) and/or
+  a ``networks:`` list (see :data:`NETWORK_REQUIRED` and :data:`NETWORK_OPTIONAL`).
+
+Every problem raises :class:`~optimizer.errors.CatalogError` naming the file, the line (as an
+editor numbers it: CSV data row n is line n + 1 below a header on line 1) and the column or key,
+with what was found and what was expected.
+"""
+
+from __future__ import annotations
+
+import csv
+import difflib
+import functools
+import math
+import re
+from collections.abc import Callable, Iterable, Mapping, Sequence
+from dataclasses import dataclass, field
+from importlib import resources
+from pathlib import Path
+from typing import Any, Final
+
+import numpy as np
+import numpy.typing as npt
+import pandas as pd
+import yaml
+
+from .errors import CatalogError, DesignError, ModelError, UnitError
+from .eseries import ESeries, decade_values, series_for_name, values_in_range
+from .parts import DiscretePart, NetworkPart, Technology
+from .units import (
+    parse_fraction,
+    parse_power,
+    parse_resistance,
+    parse_tempco,
+    parse_voltage,
+)
+
+__all__ = [
+    "BUILTIN_DISCRETE_SOURCE",
+    "BUILTIN_NETWORK_SOURCE",
+    "CSV_OPTIONAL",
+    "CSV_REQUIRED",
+    "DISCRETE_COLUMNS",
+    "NETWORK_OPTIONAL",
+    "NETWORK_REQUIRED",
+    "STOCK_UNCOUNTED",
+    "Catalog",
+    "builtin_catalog",
+    "empty_discrete_frame",
+    "generate_discrete",
+    "generate_networks",
+    "load_catalog",
+    "load_catalogs",
+    "rkm_code",
+    "series_of_values",
+]
+
+#: Columns of :attr:`Catalog.discrete`, in this order (SI units; tolerance and drift are
+#: fractions, tempco per kelvin; ``series`` is the E-series name or ""; ``source`` the file).
+DISCRETE_COLUMNS: Final = (
+    "part_id",
+    "resistance_ohm",
+    "tolerance",
+    "tempco_per_k",
+    "size",
+    "power_w",
+    "max_voltage_v",
+    "unit_cost",
+    "stock_qty",
+    "technology",
+    "drift_1000h",
+    "series",
+    "source",
+)
+_CATEGORY_COLUMNS: Final = ("size", "technology", "series", "source")
+
+#: Columns a discrete CSV catalog (and each entry of a YAML ``discrete:`` list) must have.
+CSV_REQUIRED: Final = (
+    "part_id",
+    "resistance",
+    "tolerance",
+    "tempco",
+    "size",
+    "power",
+    "max_voltage",
+    "cost",
+    "stock",
+)
+#: Columns a discrete catalog may have.
+CSV_OPTIONAL: Final = ("technology", "drift")
+#: Keys each entry of a YAML ``networks:`` list must have.
+NETWORK_REQUIRED: Final = (
+    "part_id",
+    "values",
+    "tolerance",
+    "ratio_tolerance",
+    "tempco",
+    "tracking",
+    "power",
+    "max_voltage",
+    "cost",
+    "stock",
+)
+#: Keys a YAML network entry may have.
+NETWORK_OPTIONAL: Final = ("drift", "ratio_drift", "package")
+
+#: ``stock_qty`` of a part whose stock cell says "yes": stocked, count not given (treated as
+#: enough for any build).
+STOCK_UNCOUNTED: Final = 2**31 - 1
+_STOCK_YES: Final = frozenset({"yes", "y", "true"})
+_STOCK_NO: Final = frozenset({"no", "n", "false"})
+
+BUILTIN_DISCRETE_SOURCE: Final = "built-in:discrete_recipe.yaml"
+BUILTIN_NETWORK_SOURCE: Final = "built-in:networks.yaml"
+_YAML_SUFFIXES: Final = (".yaml", ".yml")
+_NULL_TAG: Final = "tag:yaml.org,2002:null"
+
+FloatArray = npt.NDArray[np.float64]
+IntArray = npt.NDArray[np.int64]
+BoolArray = npt.NDArray[np.bool_]
+
+
+# ---------------------------------------------------------------------------------------------
+# The catalog
+# ---------------------------------------------------------------------------------------------
+
+
+def empty_discrete_frame() -> pd.DataFrame:
+    """A discrete table with no rows and the columns and dtypes of :data:`DISCRETE_COLUMNS`."""
+    return _frame(
+        part_id=np.array([], dtype=object),
+        resistance_ohm=np.array([], dtype=float),
+        tolerance=np.array([], dtype=float),
+        tempco_per_k=np.array([], dtype=float),
+        size=np.array([], dtype=object),
+        power_w=np.array([], dtype=float),
+        max_voltage_v=np.array([], dtype=float),
+        unit_cost=np.array([], dtype=float),
+        stock_qty=np.array([], dtype=np.int64),
+        technology=np.array([], dtype=object),
+        drift_1000h=np.array([], dtype=float),
+        series=np.array([], dtype=object),
+        source=np.array([], dtype=object),
+    )
+
+
+def _frame(**columns: Any) -> pd.DataFrame:
+    """Build the discrete table: columns in :data:`DISCRETE_COLUMNS` order, low-cardinality text
+    columns as categoricals (a million rows then cost a few bytes each, not a string object)."""
+    frame = pd.DataFrame({name: columns[name] for name in DISCRETE_COLUMNS})
+    return _normalise(frame)
+
+
+def _normalise(frame: pd.DataFrame) -> pd.DataFrame:
+    for name in _CATEGORY_COLUMNS:
+        if not isinstance(frame[name].dtype, pd.CategoricalDtype):
+            frame[name] = frame[name].astype(str).astype("category")
+    frame["part_id"] = frame["part_id"].astype(str)
+    frame["stock_qty"] = frame["stock_qty"].astype(np.int64)
+    for name in (
+        "resistance_ohm",
+        "tolerance",
+        "tempco_per_k",
+        "power_w",
+        "max_voltage_v",
+        "unit_cost",
+        "drift_1000h",
+    ):
+        frame[name] = frame[name].astype(np.float64)
+    return frame.reset_index(drop=True)
+
+
+@dataclass(frozen=True, eq=False)
+class Catalog:
+    """Discrete parts (a columnar table, see :data:`DISCRETE_COLUMNS`) and matched networks.
+
+    ``sources`` names the files combined, in order; ``network_sources`` gives the file of each
+    network (parallel to ``networks``). Treat ``discrete`` as read-only: methods return new
+    catalogs."""
+
+    discrete: pd.DataFrame
+    networks: tuple[NetworkPart, ...] = ()
+    sources: tuple[str, ...] = ()
+    network_sources: tuple[str, ...] = field(default=())
+
+    def __post_init__(self) -> None:
+        if tuple(self.discrete.columns) != DISCRETE_COLUMNS:
+            raise ModelError(
+                "catalog",
+                "discrete",
+                f"expected the columns {', '.join(DISCRETE_COLUMNS)}, "
+                f"got {', '.join(map(str, self.discrete.columns))}",
+            )
+        if not self.network_sources and self.networks:
+            object.__setattr__(self, "network_sources", ("",) * len(self.networks))
+        if len(self.network_sources) != len(self.networks):
+            raise ModelError("catalog", "network_sources", "expected one source per network")
+
+    # -- sizes ------------------------------------------------------------------------------
+
+    def __len__(self) -> int:
+        """Discrete parts plus networks."""
+        return self.discrete_count + self.network_count
+
+    @property
+    def discrete_count(self) -> int:
+        return len(self.discrete)
+
+    @property
+    def network_count(self) -> int:
+        return len(self.networks)
+
+    @property
+    def stock_count(self) -> int:
+        """Discrete parts and networks with house stock."""
+        return int((self.discrete["stock_qty"].to_numpy() > 0).sum()) + sum(
+            1 for n in self.networks if n.in_stock
+        )
+
+    # -- parts ------------------------------------------------------------------------------
+
+    def discrete_part(self, index: int) -> DiscretePart:
+        """The discrete part in row ``index`` (0-based position) as a :class:`DiscretePart`."""
+        row = self.discrete.iloc[index]
+        technology = str(row["technology"])
+        return DiscretePart(
+            part_id=str(row["part_id"]),
+            resistance_ohm=float(row["resistance_ohm"]),
+            tolerance=float(row["tolerance"]),
+            tempco_per_k=float(row["tempco_per_k"]),
+            size=str(row["size"]),
+            power_w=float(row["power_w"]),
+            max_voltage_v=float(row["max_voltage_v"]),
+            unit_cost=float(row["unit_cost"]),
+            stock_qty=int(row["stock_qty"]),
+            technology=Technology(technology) if technology else None,
+            drift_1000h=float(row["drift_1000h"]),
+        )
+
+    def discrete_parts(self, indices: Iterable[int]) -> list[DiscretePart]:
+        """:meth:`discrete_part` for each row position in ``indices``."""
+        return [self.discrete_part(i) for i in indices]
+
+    @functools.cached_property
+    def _id_index(self) -> pd.Index:
+        index: pd.Index = pd.Index(self.discrete["part_id"])
+        return index
+
+    @functools.cached_property
+    def _network_index(self) -> dict[str, int]:
+        return {n.part_id: i for i, n in enumerate(self.networks)}
+
+    def find(self, part_id: str) -> DiscretePart | NetworkPart:
+        """The part with id ``part_id``; an unknown id raises :class:`DesignError` listing a few
+        close ids."""
+        if part_id in self._network_index:
+            return self.networks[self._network_index[part_id]]
+        if part_id in self._id_index:
+            position = self._id_index.get_loc(part_id)
+            if not isinstance(position, int):  # duplicates cannot happen after loading
+                raise DesignError(f"part id {part_id!r} occurs more than once in the catalog")
+            return self.discrete_part(position)
+        close = self.close_ids(part_id)
+        hint = f"; close ids: {', '.join(close)}" if close else ""
+        raise DesignError(f"unknown part id {part_id!r} (not in {self._describe_sources()}){hint}")
+
+    def close_ids(self, part_id: str, count: int = 5) -> list[str]:
+        """Up to ``count`` ids similar to ``part_id`` (for did-you-mean messages).
+
+        Looks only at ids that share the longest possible prefix with ``part_id`` (at most a
+        few thousand), so it stays quick on a catalog of a million rows."""
+        ids = pd.concat(
+            [
+                self.discrete["part_id"].astype(object),
+                pd.Series([n.part_id for n in self.networks], dtype=object),
+            ],
+            ignore_index=True,
+        )
+        candidates = ids
+        for length in range(len(part_id), 0, -1):
+            subset = ids[ids.str.startswith(part_id[:length])]
+            if len(subset) >= count:
+                candidates = subset
+                break
+        pool = [str(c) for c in candidates.iloc[:5000]]
+        return difflib.get_close_matches(part_id, pool, n=count, cutoff=0.5)
+
+    def _describe_sources(self) -> str:
+        return ", ".join(self.sources) if self.sources else "an empty catalog"
+
+    # -- combining and filtering ------------------------------------------------------------
+
+    def all_ids(self) -> pd.Index:
+        """Every part id, discrete first, then networks."""
+        ids: pd.Index = pd.Index(
+            np.concatenate(
+                [
+                    self.discrete["part_id"].to_numpy(dtype=object),
+                    np.array([n.part_id for n in self.networks], dtype=object),
+                ]
+            )
+        )
+        return ids
+
+    def _source_of(self, part_id: str) -> str:
+        if part_id in self._network_index:
+            return self.network_sources[self._network_index[part_id]]
+        position = self._id_index.get_loc(part_id)
+        row = position if isinstance(position, int) else 0
+        return str(self.discrete["source"].iloc[row])
+
+    def merge(self, other: Catalog) -> Catalog:
+        """Both catalogs in one; a part id in both raises :class:`CatalogError` naming both
+        files."""
+        common = self.all_ids().intersection(other.all_ids())
+        if len(common) > 0:
+            ids = other.all_ids()
+            first = str(ids[ids.isin(common)][0])
+            raise CatalogError(
+                f"duplicate part id {first!r}: it is in {self._source_of(first)} and in "
+                f"{other._source_of(first)}",
+                path=other._source_of(first),
+                column="part_id",
+            )
+        return _concat(self, other)
+
+    def stock_only(self) -> Catalog:
+        """Only the parts with house stock (``stock_qty > 0``)."""
+        keep = self.discrete["stock_qty"].to_numpy() > 0
+        pairs = zip(self.networks, self.network_sources, strict=True)
+        networks = [(n, s) for n, s in pairs if n.in_stock]
+        return Catalog(
+            discrete=_normalise(self.discrete.loc[keep].copy()),
+            networks=tuple(n for n, _ in networks),
+            sources=self.sources,
+            network_sources=tuple(s for _, s in networks),
+        )
+
+
+# ---------------------------------------------------------------------------------------------
+# E-series membership and RKM codes
+# ---------------------------------------------------------------------------------------------
+
+#: Series a user part's value is tested against, in order (common practice: the grade's own
+#: series first, see :func:`_grade_series`).
+_CATALOG_SERIES: Final = (ESeries.E24, ESeries.E96, ESeries.E192)
+
+
+def _members(series: ESeries, values: FloatArray, rel: float = 1e-9) -> BoolArray:
+    """Vectorised IEC 60063 membership: ``value = s * 10^k`` with ``s`` one of the series'
+    significands (2 figures up to E24, 3 from E48), within relative ``rel``."""
+    figures = 2 if series <= ESeries.E24 else 3
+    scale = 10.0 ** (figures - 1)
+    significands = np.array([round(v * scale) for v in decade_values(series)], dtype=np.int64)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        exponent = np.floor(np.log10(values))
+        mantissa = values / 10.0**exponent * scale  # in [10^(f-1), 10^f)
+        rounded = np.rint(mantissa)
+        close = np.abs(mantissa - rounded) <= rel * mantissa
+    rounded_int = np.where(np.isfinite(rounded), rounded, 0).astype(np.int64)
+    # 9.9999999 rounds up to the next decade's first value, which is always a member.
+    rounded_int = np.where(rounded_int == 10**figures, 10 ** (figures - 1), rounded_int)
+    return close & np.isin(rounded_int, significands) & (values > 0)
+
+
+def _grade_series(tolerance: FloatArray) -> npt.NDArray[np.object_]:
+    """The series a tolerance grade is usually sold in (common practice): E24 for 2 % and
+    looser, E96 for 1 % (and between 1 % and 2 %), E192 below 1 %."""
+    out = np.full(tolerance.shape, "E192", dtype=object)
+    out[tolerance >= 0.01 - 1e-12] = "E96"
+    out[tolerance >= 0.02 - 1e-12] = "E24"
+    return out
+
+
+def series_of_values(values: FloatArray, tolerance: FloatArray) -> npt.NDArray[np.object_]:
+    """For each part: the E-series name it belongs to, or "".
+
+    The grade's usual series (:func:`_grade_series`) when the value is one of its members,
+    else the first of E24, E96, E192 (IEC 60063) that holds the value, else ""."""
+    preferred = _grade_series(tolerance)
+    membership = {s.name: _members(s, values) for s in _CATALOG_SERIES}
+    out = np.full(values.shape, "", dtype=object)
+    for name in reversed([s.name for s in _CATALOG_SERIES]):
+        out[membership[name]] = name
+    for name, member in membership.items():
+        out[(preferred == name) & member] = name
+    return out
+
+
+_RKM_LETTERS: Final = ("R", "K", "M", "G")
+
+
+def rkm_code(value_ohm: float, figures: int = 3, *, short: bool = False) -> str:
+    """The RKM code of IEC 60062 for a resistance: the multiplier letter (R, K, M, G for
+    10^0, 10^3, 10^6, 10^9) stands in place of the decimal point.
+
+    ``figures`` significant digits are written (``rkm_code(4990) == "4K99"``,
+    ``rkm_code(1e3, 2) == "1K0"``); ``short=True`` drops trailing zeros after the letter
+    (``rkm_code(1e3, short=True) == "1K"``)."""
+    if not (value_ohm > 0.0 and math.isfinite(value_ohm)):
+        raise ModelError(
+            "rkm code", "value", f"expected a finite resistance above zero, got {value_ohm!r}"
+        )
+    exponent = math.floor(math.log10(value_ohm))
+    significand = round(value_ohm / 10.0 ** (exponent - figures + 1))
+    if significand >= 10**figures:
+        significand //= 10
+        exponent += 1
+    digits = str(significand)
+    group = min(max(exponent // 3, 0), len(_RKM_LETTERS) - 1)
+    letter = _RKM_LETTERS[group]
+    before = exponent - 3 * group + 1
+    if before <= 0:
+        head, tail = "0", "0" * (-before) + digits
+    elif before >= len(digits):
+        head, tail = digits + "0" * (before - len(digits)), ""
+    else:
+        head, tail = digits[:before], digits[before:]
+    if short:
+        tail = tail.rstrip("0")
+    return f"{head}{letter}{tail}"
+
+
+# ---------------------------------------------------------------------------------------------
+# The built-in catalog: recipes
+# ---------------------------------------------------------------------------------------------
+
+
+class _Recipe:
+    """Reads one recipe mapping; every problem is a :class:`CatalogError` naming the key path."""
+
+    def __init__(self, data: object, source: str) -> None:
+        self.source = source
+        self.data = self.mapping(data, "")
+
+    def fail(self, key: str, message: str) -> CatalogError:
+        return CatalogError(message, path=self.source, column=key)
+
+    def mapping(self, value: object, key: str) -> Mapping[str, Any]:
+        if not isinstance(value, Mapping):
+            raise self.fail(key, f"expected a mapping, got {type(value).__name__}")
+        return value
+
+    def items(self, value: object, key: str) -> list[Any]:
+        if not isinstance(value, list) or not value:
+            raise self.fail(key, "expected a non-empty list")
+        return value
+
+    def get(self, mapping: Mapping[str, Any], key: str, path: str) -> Any:
+        if key not in mapping:
+            raise self.fail(path, f"missing key {key!r}")
+        return mapping[key]
+
+    def parse(self, parser: Callable[[object], float], value: object, key: str) -> float:
+        try:
+            return parser(value)
+        except UnitError as exc:
+            raise self.fail(key, str(exc)) from None
+
+    def number(self, value: object, key: str, *, positive: bool = False) -> float:
+        if (
+            isinstance(value, bool)
+            or not isinstance(value, (int, float))
+            or not math.isfinite(value)
+        ):
+            raise self.fail(key, f"expected a number, got {value!r}")
+        if value < 0 or (positive and value == 0):
+            raise self.fail(
+                key,
+                f"expected a number {'above zero' if positive else 'of zero or more'}, "
+                f"got {value!r}",
+            )
+        return float(value)
+
+    def value_range(self, value: object, key: str) -> tuple[float, float]:
+        pair = self.items(value, key)
+        if len(pair) != 2:
+            raise self.fail(key, f"expected [low, high], got {value!r}")
+        low = self.parse(parse_resistance, pair[0], f"{key}[0]")
+        high = self.parse(parse_resistance, pair[1], f"{key}[1]")
+        if high < low:
+            raise self.fail(key, f"expected low <= high, got {value!r}")
+        return low, high
+
+
+def generate_discrete(
+    recipe: Mapping[str, Any], source: str = BUILTIN_DISCRETE_SOURCE
+) -> pd.DataFrame:
+    """Expand a discrete recipe (the mapping of ``catalogs/discrete_recipe.yaml``) into the
+    discrete table: for each grade, every IEC 60063 value of its series in its range * every
+    tempco class * every size. Costs follow the recipe's illustrative model::
+
+        unit_cost = grade cost * size cost factor + tempco premium
+    """
+    r = _Recipe(recipe, source)
+    data = r.data
+    low, high = r.value_range(r.get(data, "range", "range"), "range")
+
+    rules: list[tuple[float, ESeries]] = []
+    for i, rule in enumerate(
+        r.items(r.get(data, "series_by_tolerance", ""), "series_by_tolerance")
+    ):
+        key = f"series_by_tolerance[{i}]"
+        rule = r.mapping(rule, key)
+        start = r.parse(parse_fraction, r.get(rule, "from", key), f"{key}.from")
+        try:
+            rule_series = series_for_name(str(r.get(rule, "series", key)))
+        except UnitError as exc:
+            raise r.fail(f"{key}.series", str(exc)) from None
+        rules.append((start, rule_series))
+
+    sizes: dict[str, tuple[float, float, float]] = {}
+    for name, spec in r.mapping(r.get(data, "sizes", ""), "sizes").items():
+        key = f"sizes.{name}"
+        if not isinstance(name, str):
+            raise r.fail(key, f'expected a size code as text (quote it: "{name}")')
+        spec = r.mapping(spec, key)
+        sizes[name] = (
+            r.parse(parse_power, r.get(spec, "power", key), f"{key}.power"),
+            r.parse(parse_voltage, r.get(spec, "max_voltage", key), f"{key}.max_voltage"),
+            r.number(r.get(spec, "cost_factor", key), f"{key}.cost_factor", positive=True),
+        )
+
+    technologies: dict[str, tuple[str, float]] = {}
+    for name, spec in r.mapping(r.get(data, "technologies", ""), "technologies").items():
+        key = f"technologies.{name}"
+        try:
+            technology = Technology.from_text(str(name))
+        except ModelError as exc:
+            raise r.fail(key, exc.message) from None
+        spec = r.mapping(spec, key)
+        technologies[technology.value] = (
+            str(r.get(spec, "code", key)),
+            r.parse(parse_fraction, r.get(spec, "drift", key), f"{key}.drift"),
+        )
+
+    premium: dict[float, float] = {}
+    for name, cost in r.mapping(r.get(data, "tempco_premium", ""), "tempco_premium").items():
+        key = f"tempco_premium.{name}"
+        premium[r.parse(parse_tempco, name, key)] = r.number(cost, key)
+
+    blocks: list[dict[str, Any]] = []
+    seen: dict[str, str] = {}
+    for i, grade in enumerate(r.items(r.get(data, "grades", ""), "grades")):
+        key = f"grades[{i}]"
+        grade = r.mapping(grade, key)
+        tolerance = r.parse(parse_fraction, r.get(grade, "tolerance", key), f"{key}.tolerance")
+        tech_name = str(r.get(grade, "technology", key))
+        if tech_name not in technologies:
+            raise r.fail(
+                f"{key}.technology",
+                f"expected one of the technologies {', '.join(technologies)}, got {tech_name!r}",
+            )
+        tech_code, drift = technologies[tech_name]
+        cost = r.number(r.get(grade, "cost", key), f"{key}.cost")
+        tempcos = [
+            r.parse(parse_tempco, t, f"{key}.tempcos[{j}]")
+            for j, t in enumerate(r.items(r.get(grade, "tempcos", key), f"{key}.tempcos"))
+        ]
+        for j, tempco in enumerate(tempcos):
+            if tempco not in premium:
+                raise r.fail(
+                    f"{key}.tempcos[{j}]", f"no tempco_premium entry for {tempco * 1e6:g} ppm/K"
+                )
+        g_low, g_high = (
+            r.value_range(grade["range"], f"{key}.range") if "range" in grade else (low, high)
+        )
+        size_names = [str(s) for s in r.items(grade.get("sizes", list(sizes)), f"{key}.sizes")]
+        for j, size in enumerate(size_names):
+            if size not in sizes:
+                raise r.fail(
+                    f"{key}.sizes[{j}]",
+                    f"expected one of the sizes {', '.join(sizes)}, got {size!r}",
+                )
+        series = next((s for start, s in rules if tolerance >= start - 1e-12), None)
+        if series is None:
+            raise r.fail(f"{key}.tolerance", "no series_by_tolerance rule covers this tolerance")
+        values = np.array(
+            list(values_in_range(series, max(low, g_low), min(high, g_high))), dtype=float
+        )
+        figures = 2 if series <= ESeries.E24 else 3
+        codes = [rkm_code(v, figures) for v in values]
+        grade_code = f"{tech_code}{round(tolerance * 1e4):d}"
+        for size in size_names:
+            power, voltage, factor = sizes[size]
+            for tempco in tempcos:
+                prefix = f"Q-{size}-{grade_code}-{round(tempco * 1e6):d}-"
+                if prefix in seen:
+                    raise r.fail(
+                        key,
+                        f"grade repeats the ids of {seen[prefix]} "
+                        "(same technology, tolerance, tempco and size)",
+                    )
+                seen[prefix] = key
+                n = len(values)
+                blocks.append(
+                    {
+                        "part_id": np.array([prefix + c for c in codes], dtype=object),
+                        "resistance_ohm": values,
+                        "tolerance": np.full(n, tolerance),
+                        "tempco_per_k": np.full(n, tempco),
+                        "size": np.full(n, size, dtype=object),
+                        "power_w": np.full(n, power),
+                        "max_voltage_v": np.full(n, voltage),
+                        "unit_cost": np.full(n, round(cost * factor + premium[tempco], 4)),
+                        "stock_qty": np.zeros(n, dtype=np.int64),
+                        "technology": np.full(n, tech_name, dtype=object),
+                        "drift_1000h": np.full(n, drift),
+                        "series": np.full(n, series.name, dtype=object),
+                        "source": np.full(n, source, dtype=object),
+                    }
+                )
+    if not blocks:
+        return empty_discrete_frame()
+    return _frame(**{name: np.concatenate([b[name] for b in blocks]) for name in DISCRETE_COLUMNS})
+
+
+def _ratio_values(base: float, ratio: float) -> float:
+    """``base * ratio``, dividing by the whole number 1/ratio for attenuations so that
+    10 kΩ * 0.1 gives exactly 1 kΩ."""
+    if ratio < 1.0:
+        inverse = 1.0 / ratio
+        if abs(inverse - round(inverse)) < 1e-9:
+            return base / round(inverse)
+    return base * ratio
+
+
+def _ratio_label(ratio: float) -> str:
+    if ratio < 1.0:
+        return f"A{1.0 / ratio:.6g}"
+    return f"G{ratio:.6g}"
+
+
+def generate_networks(
+    recipe: Mapping[str, Any], source: str = BUILTIN_NETWORK_SOURCE
+) -> tuple[NetworkPart, ...]:
+    """Expand a network recipe (the mapping of ``catalogs/networks.yaml``) into network parts.
+
+    Element order follows R1..R4: a quad of shape ``ratio`` is ``[R, G·R, R, G·R]``, a dual of
+    shape ``ratio`` is ``[R, G·R]``; shape ``equal`` repeats ``R``. Combinations with an element
+    outside ``element_range`` are skipped. ``unit_cost = grade cost * kind cost factor * shape
+    cost factor`` (illustrative)."""
+    r = _Recipe(recipe, source)
+    data = r.data
+    low, high = r.value_range(r.get(data, "element_range", "element_range"), "element_range")
+    kinds: dict[str, tuple[int, float, float, float]] = {}
+    for name, spec in r.mapping(r.get(data, "kinds", ""), "kinds").items():
+        key = f"kinds.{name}"
+        spec = r.mapping(spec, key)
+        elements = r.get(spec, "elements", key)
+        if elements not in (2, 4):
+            raise r.fail(f"{key}.elements", f"expected 2 or 4, got {elements!r}")
+        kinds[str(name)] = (
+            int(elements),
+            r.parse(parse_power, r.get(spec, "power", key), f"{key}.power"),
+            r.parse(parse_voltage, r.get(spec, "max_voltage", key), f"{key}.max_voltage"),
+            r.number(r.get(spec, "cost_factor", key), f"{key}.cost_factor", positive=True),
+        )
+    shape_factor = {
+        str(name): r.number(value, f"shape_cost_factor.{name}", positive=True)
+        for name, value in r.mapping(
+            r.get(data, "shape_cost_factor", ""), "shape_cost_factor"
+        ).items()
+    }
+    grades = []
+    for i, grade in enumerate(r.items(r.get(data, "grades", ""), "grades")):
+        key = f"grades[{i}]"
+        grade = r.mapping(grade, key)
+        grades.append(
+            {
+                "ratio_tolerance": r.parse(
+                    parse_fraction, r.get(grade, "ratio_tolerance", key), f"{key}.ratio_tolerance"
+                ),
+                "tracking": r.parse(parse_tempco, r.get(grade, "tracking", key), f"{key}.tracking"),
+                "tolerance": r.parse(
+                    parse_fraction, r.get(grade, "tolerance", key), f"{key}.tolerance"
+                ),
+                "tempco": r.parse(parse_tempco, r.get(grade, "tempco", key), f"{key}.tempco"),
+                "drift": r.parse(parse_fraction, r.get(grade, "drift", key), f"{key}.drift"),
+                "ratio_drift": r.parse(
+                    parse_fraction, r.get(grade, "ratio_drift", key), f"{key}.ratio_drift"
+                ),
+                "cost": r.number(r.get(grade, "cost", key), f"{key}.cost"),
+            }
+        )
+    parts: list[NetworkPart] = []
+    seen: set[str] = set()
+    for i, entry in enumerate(r.items(r.get(data, "sets", ""), "sets")):
+        key = f"sets[{i}]"
+        entry = r.mapping(entry, key)
+        kind = str(r.get(entry, "kind", key))
+        if kind not in kinds:
+            raise r.fail(f"{key}.kind", f"expected one of {', '.join(kinds)}, got {kind!r}")
+        shape = str(r.get(entry, "shape", key))
+        if shape not in ("equal", "ratio") or shape not in shape_factor:
+            raise r.fail(
+                f"{key}.shape", f"expected equal or ratio (with a shape_cost_factor), got {shape!r}"
+            )
+        elements, power, voltage, kind_factor = kinds[kind]
+        bases = [
+            r.parse(parse_resistance, v, f"{key}.values[{j}]")
+            for j, v in enumerate(r.items(r.get(entry, "values", key), f"{key}.values"))
+        ]
+        ratios = (
+            [1.0]
+            if shape == "equal"
+            else [
+                r.number(g, f"{key}.ratios[{j}]", positive=True)
+                for j, g in enumerate(r.items(r.get(entry, "ratios", key), f"{key}.ratios"))
+            ]
+        )
+        for ratio in ratios:
+            for base in bases:
+                pair = (base, _ratio_values(base, ratio))
+                if not all(low * (1 - 1e-9) <= v <= high * (1 + 1e-9) for v in pair):
+                    continue
+                values = pair * (elements // 2) if shape == "ratio" else (base,) * elements
+                label = "EQ" if shape == "equal" else _ratio_label(ratio)
+                for grade in grades:
+                    part_id = (
+                        f"QN{elements}-{label}-{rkm_code(base, 3, short=True)}-"
+                        f"{round(grade['ratio_tolerance'] * 1e6):d}"
+                    )
+                    if part_id in seen:
+                        raise r.fail(key, f"the set repeats the network id {part_id}")
+                    seen.add(part_id)
+                    parts.append(
+                        NetworkPart(
+                            part_id=part_id,
+                            values_ohm=tuple(values),
+                            abs_tolerance=grade["tolerance"],
+                            ratio_tolerance=grade["ratio_tolerance"],
+                            abs_tempco_per_k=grade["tempco"],
+                            tracking_tempco_per_k=grade["tracking"],
+                            power_per_element_w=power,
+                            max_voltage_v=voltage,
+                            unit_cost=round(grade["cost"] * kind_factor * shape_factor[shape], 4),
+                            drift_1000h=grade["drift"],
+                            ratio_drift_1000h=grade["ratio_drift"],
+                        )
+                    )
+    return tuple(parts)
+
+
+def _read_builtin(name: str) -> object:
+    text = resources.files("optimizer.catalogs").joinpath(name).read_text(encoding="utf-8")
+    return yaml.safe_load(text)
+
+
+@functools.cache
+def builtin_catalog() -> Catalog:
+    """The built-in generic catalog: discrete parts generated from ``discrete_recipe.yaml`` and
+    matched networks from ``networks.yaml`` (package data of ``optimizer.catalogs``).
+    Built once per process."""
+    discrete = generate_discrete(_read_builtin("discrete_recipe.yaml"))  # type: ignore[arg-type]
+    networks = generate_networks(_read_builtin("networks.yaml"))  # type: ignore[arg-type]
+    catalog = Catalog(
+        discrete=discrete,
+        networks=networks,
+        sources=(BUILTIN_DISCRETE_SOURCE, BUILTIN_NETWORK_SOURCE),
+        network_sources=(BUILTIN_NETWORK_SOURCE,) * len(networks),
+    )
+    duplicates = catalog.discrete["part_id"].duplicated()
+    if duplicates.any():  # pragma: no cover - the recipe checks id prefixes already
+        first = catalog.discrete["part_id"][duplicates].iloc[0]
+        raise CatalogError(
+            f"duplicate part id {first!r}", path=BUILTIN_DISCRETE_SOURCE, column="part_id"
+        )
+    return catalog
+
+
+# ---------------------------------------------------------------------------------------------
+# User catalogs: a raw table of cells, validated column by column
+# ---------------------------------------------------------------------------------------------
+
+
+@dataclass
+class _Table:
+    """Raw cells of one file: each column a Series of numbers (CSV columns pandas read as
+    numbers) or of text/None; ``row_lines`` the file line of each row; ``cell_lines`` the line
+    of each cell where it differs (YAML keys)."""
+
+    path: str
+    columns: dict[str, pd.Series]
+    row_lines: IntArray
+    cell_lines: dict[str, IntArray] = field(default_factory=dict)
+    empty_word: str = "no value"
+
+    def line(self, column: str, row: int) -> int:
+        lines = self.cell_lines.get(column)
+        return int(lines[row]) if lines is not None else int(self.row_lines[row])
+
+
+@dataclass(frozen=True)
+class _Problem:
+    row: int
+    message: str
+
+
+class _ProblemList:
+    """Collects the first problem of each column; raises the one earliest in the file."""
+
+    def __init__(self, table: _Table) -> None:
+        self.table = table
+        self.found: list[tuple[int, int, str, str]] = []
+
+    def add(self, column: str, problem: _Problem | None, order: int) -> None:
+        if problem is not None:
+            line = self.table.line(column, problem.row)
+            self.found.append((line, order, column, problem.message))
+
+    def raise_first(self) -> None:
+        if self.found:
+            line, _, column, message = min(self.found)
+            raise CatalogError(message, path=self.table.path, row=line, column=column)
+
+
+def _is_numeric(cells: pd.Series) -> bool:
+    return pd.api.types.is_numeric_dtype(cells.dtype) and not pd.api.types.is_bool_dtype(
+        cells.dtype
+    )
+
+
+def _text_cells(cells: pd.Series) -> tuple[npt.NDArray[np.object_], BoolArray]:
+    """Cells as stripped text (object array) and the mask of empty cells."""
+    if _is_numeric(cells):
+        numbers = cells.to_numpy(dtype=float, na_value=np.nan)
+        empty = np.isnan(numbers)
+        text = np.array([f"{v:.17g}" for v in numbers], dtype=object)
+        return text, empty
+    series = cells.astype(object)
+    missing = series.isna().to_numpy()
+    text = series.where(~missing, "").astype(str).str.strip().to_numpy(dtype=object)
+    return text, missing | (text == "")
+
+
+def _cell_token(cells: pd.Series, row: int) -> str:
+    """The text of one cell for a message (a float read by pandas prints without noise)."""
+    value = cells.iloc[row]
+    if isinstance(value, (float, np.floating)):
+        return f"{float(value):g}"
+    return str(value).strip()
+
+
+@dataclass(frozen=True)
+class _Quantity:
+    """How to read one numeric column: the units parser, what a valid value is (vectorised)
+    and the message for a value the parser accepts but the part model refuses."""
+
+    parse: Callable[[object], float]
+    expected: str
+    valid: Callable[[FloatArray], BoolArray]
+    refused: str  # "found {token!r}: expected ..." completes it
+
+
+def _parse_cost(token: object) -> float:
+    """A relative cost: a plain number of zero or more (illustrative units, not money)."""
+    expected = "a relative cost of zero or more such as 1.5"
+    if isinstance(token, (int, float)) and not isinstance(token, bool):
+        value = float(token)
+    else:
+        try:
+            value = float(str(token).strip())
+        except ValueError:
+            raise UnitError(token, expected, "not a number") from None
+    if not math.isfinite(value):
+        raise UnitError(token, expected, "not a finite number")
+    if value < 0.0:
+        raise UnitError(token, expected, "below zero")
+    return value
+
+
+def _finite(values: FloatArray) -> BoolArray:
+    return np.isfinite(values)
+
+
+_QUANTITIES: Final[Mapping[str, _Quantity]] = {
+    "resistance": _Quantity(
+        parse_resistance,
+        "a resistance above zero such as 4.99k, 4k99, 100R, 0R1 or 2.2 MΩ",
+        lambda v: _finite(v) & (v > 0.0),
+        "a resistance above zero",
+    ),
+    "tolerance": _Quantity(
+        parse_fraction,
+        "a tolerance such as 1%, 0.1% or 0.001",
+        lambda v: _finite(v) & (v >= 0.0) & (v < 0.5),
+        "a tolerance below 50 %",
+    ),
+    "ratio_tolerance": _Quantity(
+        parse_fraction,
+        "a ratio tolerance such as 0.05% or 0.0005",
+        lambda v: _finite(v) & (v >= 0.0) & (v < 0.5),
+        "a ratio tolerance below 50 %",
+    ),
+    "tempco": _Quantity(
+        parse_tempco,
+        "a tempco such as 25 ppm/K, 25ppm/°C or 25e-6",
+        lambda v: _finite(v) & (v >= 0.0) & (v <= 0.01),
+        "a tempco of 0 to 10,000 ppm/K",
+    ),
+    "tracking": _Quantity(
+        parse_tempco,
+        "a tracking tempco such as 2 ppm/K or 2e-6",
+        lambda v: _finite(v) & (v >= 0.0) & (v <= 0.01),
+        "a tracking tempco of 0 to 10,000 ppm/K",
+    ),
+    "power": _Quantity(
+        parse_power,
+        "a power above zero such as 0.1 W or 63 mW",
+        lambda v: _finite(v) & (v > 0.0),
+        "a power above zero",
+    ),
+    "max_voltage": _Quantity(
+        parse_voltage,
+        "a limiting voltage above zero such as 75 V",
+        lambda v: _finite(v) & (v > 0.0),
+        "a limiting voltage above zero such as 75 V",
+    ),
+    "cost": _Quantity(
+        _parse_cost,
+        "a relative cost of zero or more such as 1.5",
+        lambda v: _finite(v) & (v >= 0.0),
+        "a relative cost of zero or more",
+    ),
+    "drift": _Quantity(
+        parse_fraction,
+        "a drift bound over 1000 h such as 0.1% or 0.001",
+        lambda v: _finite(v) & (v >= 0.0) & (v < 0.5),
+        "a drift bound below 50 %",
+    ),
+    "ratio_drift": _Quantity(
+        parse_fraction,
+        "a ratio drift bound over 1000 h such as 0.02% or 0.0002",
+        lambda v: _finite(v) & (v >= 0.0) & (v < 0.5),
+        "a ratio drift bound below 50 %",
+    ),
+}
+
+
+def _read_quantity(
+    table: _Table, column: str, quantity: _Quantity, default: float | None
+) -> tuple[FloatArray, _Problem | None]:
+    """Read one numeric column: plain numbers vectorised, engineering notation through the
+    units parser (once per distinct cell text), then the range check vectorised.
+
+    ``default`` None makes the column required (an empty cell is a problem)."""
+    cells = table.columns[column]
+    n = len(cells)
+    if _is_numeric(cells):
+        values = cells.to_numpy(dtype=float, na_value=np.nan).copy()
+        empty = np.isnan(values)
+    else:
+        text, empty = _text_cells(cells)
+        values = np.array(
+            pd.to_numeric(
+                pd.Series(text, dtype=object).where(~empty, None), errors="coerce"
+            ).to_numpy(dtype=float, na_value=np.nan)
+        )
+        pending = np.isnan(values) & ~empty
+        if pending.any():
+            parsed: dict[str, float] = {}
+            failed: dict[str, str] = {}
+            for token in pd.unique(text[pending]):
+                try:
+                    parsed[token] = quantity.parse(token)
+                except UnitError as exc:
+                    failed[token] = str(exc)
+            if failed:
+                row = int(np.flatnonzero(pending & np.isin(text, list(failed)))[0])
+                return values, _Problem(row, failed[text[row]])
+            values[pending] = [parsed[t] for t in text[pending]]
+    problem: _Problem | None = None
+    if empty.any():
+        if default is None:
+            row = int(np.flatnonzero(empty)[0])
+            return values, _Problem(row, f"{table.empty_word}: expected {quantity.expected}")
+        values[empty] = default
+    bad = ~quantity.valid(values) & ~empty if n else np.zeros(0, dtype=bool)
+    if bad.any():
+        row = int(np.flatnonzero(bad)[0])
+        token = _cell_token(cells, row)
+        try:
+            quantity.parse(token)
+        except UnitError as exc:
+            problem = _Problem(row, str(exc))
+        else:
+            problem = _Problem(row, f"found {token!r}: expected {quantity.refused}")
+    return values, problem
+
+
+def _read_ids(
+    table: _Table, column: str = "part_id"
+) -> tuple[npt.NDArray[np.object_], _Problem | None]:
+    """Part ids: non-empty text, unique within the file."""
+    text, empty = _text_cells(table.columns[column])
+    if empty.any():
+        row = int(np.flatnonzero(empty)[0])
+        return text, _Problem(row, f"{table.empty_word}: expected a part id")
+    duplicated = pd.Series(text).duplicated().to_numpy()
+    if duplicated.any():
+        row = int(np.flatnonzero(duplicated)[0])
+        first = int(np.flatnonzero(text == text[row])[0])
+        return text, _Problem(
+            row, f"duplicate part id {text[row]!r} (first at line {table.line(column, first)})"
+        )
+    return text, None
+
+
+_KNOWN_SIZES_NO_ZERO: Final = {code.lstrip("0"): code for code in ("0201", "0402", "0603", "0805")}
+
+
+def _read_sizes(
+    table: _Table, column: str = "size", default: str | None = None
+) -> tuple[npt.NDArray[np.object_], _Problem | None]:
+    """Size codes: text without inner spaces. ``603`` (a leading zero lost in a spreadsheet) is
+    refused with a hint rather than read as another size."""
+    text, empty = _text_cells(table.columns[column])
+    if empty.any():
+        if default is None:
+            row = int(np.flatnonzero(empty)[0])
+            return text, _Problem(row, f"{table.empty_word}: expected a size code such as 0603")
+        text[empty] = default
+    for token in pd.unique(text):
+        if token in _KNOWN_SIZES_NO_ZERO or re.search(r"\s", token):
+            row = int(np.flatnonzero(text == token)[0])
+            hint = (
+                f"did you mean {_KNOWN_SIZES_NO_ZERO[token]!r}? "
+                "(a spreadsheet may have dropped the leading zero)"
+                if token in _KNOWN_SIZES_NO_ZERO
+                else "a size code has no spaces"
+            )
+            return text, _Problem(
+                row, f"found {token!r}: expected a size code such as 0603; {hint}"
+            )
+    return text, None
+
+
+def _read_technology(
+    table: _Table, column: str = "technology"
+) -> tuple[npt.NDArray[np.object_], _Problem | None]:
+    """Optional technology names (``thin film``, ``thin_film``, ``Thin-Film``); empty → ""."""
+    text, empty = _text_cells(table.columns[column])
+    text[empty] = ""
+    valid = ", ".join(m.value for m in Technology)
+    mapping: dict[str, str] = {"": ""}
+    for token in pd.unique(text):
+        if token in mapping:
+            continue
+        try:
+            mapping[token] = Technology.from_text(token).value
+        except ModelError:
+            row = int(np.flatnonzero(text == token)[0])
+            return text, _Problem(row, f"found {token!r}: expected one of {valid}")
+    if len(mapping) > 1:
+        text = np.array([mapping[t] for t in text], dtype=object)
+    return text, None
+
+
+def _read_stock(table: _Table, column: str = "stock") -> tuple[IntArray, _Problem | None]:
+    """Stock: a whole number of zero or more, or yes/no (yes = :data:`STOCK_UNCOUNTED`)."""
+    expected = "a whole number of zero or more, or yes/no"
+    cells = table.columns[column]
+    n = len(cells)
+    if _is_numeric(cells):
+        values = cells.to_numpy(dtype=float, na_value=np.nan)
+        empty = np.isnan(values)
+    else:
+        text, empty = _text_cells(cells)
+        lowered = pd.Series(text, dtype=object).str.lower().to_numpy(dtype=object)
+        yes, no = np.isin(lowered, list(_STOCK_YES)), np.isin(lowered, list(_STOCK_NO))
+        numeric = ~(empty | yes | no)
+        values = np.full(n, np.nan)
+        values[numeric] = pd.to_numeric(
+            pd.Series(text[numeric], dtype=object), errors="coerce"
+        ).to_numpy(dtype=float, na_value=np.nan)
+        unreadable = numeric & np.isnan(values)
+        if unreadable.any():
+            row = int(np.flatnonzero(unreadable)[0])
+            return np.zeros(n, dtype=np.int64), _Problem(
+                row, f"found {text[row]!r}: expected {expected}"
+            )
+        values[yes] = STOCK_UNCOUNTED
+        values[no] = 0
+    if empty.any():
+        row = int(np.flatnonzero(empty)[0])
+        return np.zeros(n, dtype=np.int64), _Problem(
+            row, f"{table.empty_word}: expected {expected}"
+        )
+    bad = ~(
+        np.isfinite(values)
+        & (values >= 0)
+        & (values == np.floor(values))
+        & (values <= STOCK_UNCOUNTED)
+    )
+    if bad.any():
+        row = int(np.flatnonzero(bad)[0])
+        return np.zeros(n, dtype=np.int64), _Problem(
+            row, f"found {_cell_token(cells, row)!r}: expected {expected}"
+        )
+    return values.astype(np.int64), None
+
+
+def _discrete_from_table(table: _Table) -> pd.DataFrame:
+    """Validate every cell of a discrete table and build the discrete frame."""
+    problems = _ProblemList(table)
+    order = {name: i for i, name in enumerate((*CSV_REQUIRED, *CSV_OPTIONAL))}
+    ids, problem = _read_ids(table)
+    problems.add("part_id", problem, order["part_id"])
+    numbers: dict[str, FloatArray] = {}
+    for column in ("resistance", "tolerance", "tempco", "power", "max_voltage", "cost"):
+        numbers[column], problem = _read_quantity(table, column, _QUANTITIES[column], None)
+        problems.add(column, problem, order[column])
+    n = len(table.row_lines)
+    if "drift" in table.columns:
+        numbers["drift"], problem = _read_quantity(table, "drift", _QUANTITIES["drift"], 0.0)
+        problems.add("drift", problem, order["drift"])
+    else:
+        numbers["drift"] = np.zeros(n)
+    sizes, problem = _read_sizes(table)
+    problems.add("size", problem, order["size"])
+    stock, problem = _read_stock(table)
+    problems.add("stock", problem, order["stock"])
+    if "technology" in table.columns:
+        technology, problem = _read_technology(table)
+        problems.add("technology", problem, order["technology"])
+    else:
+        technology = np.full(n, "", dtype=object)
+    problems.raise_first()
+    return _frame(
+        part_id=ids,
+        resistance_ohm=numbers["resistance"],
+        tolerance=numbers["tolerance"],
+        tempco_per_k=numbers["tempco"],
+        size=sizes,
+        power_w=numbers["power"],
+        max_voltage_v=numbers["max_voltage"],
+        unit_cost=numbers["cost"],
+        stock_qty=stock,
+        technology=technology,
+        drift_1000h=numbers["drift"],
+        series=series_of_values(numbers["resistance"], numbers["tolerance"]),
+        source=np.full(n, table.path, dtype=object),
+    )
+
+
+def _did_you_mean(name: str, known: Sequence[str], what: str) -> str:
+    close = difflib.get_close_matches(name, known, n=1, cutoff=0.6)
+    if close:
+        return f"unknown {what}; did you mean {close[0]!r}?"
+    return f"unknown {what}: expected one of {', '.join(known)}"
+
+
+# ---------------------------------------------------------------------------------------------
+# CSV
+# ---------------------------------------------------------------------------------------------
+
+_NETWORK_ONLY_COLUMNS: Final = frozenset({"values", "ratio_tolerance", "tracking", "ratio_drift"})
+_PARSER_LINE_RE: Final = re.compile(r"Expected (\d+) fields in line (\d+), saw (\d+)")
+
+
+def _find_header(path: str) -> tuple[int, list[str]]:
+    """The 0-based index of the header line (first line that is neither blank nor a ``#``
+    comment) and its cells."""
+    try:
+        with open(path, encoding="utf-8-sig", newline="") as handle:
+            for index, line in enumerate(handle):
+                stripped = line.strip()
+                if not stripped or stripped.startswith("#"):
+                    continue
+                return index, next(csv.reader([line]))
+    except UnicodeDecodeError as exc:
+        raise CatalogError(
+            f"cannot read the file as UTF-8 text ({exc.reason} at byte {exc.start})", path=path
+        ) from None
+    raise CatalogError(
+        f"the file is empty: expected a header line with the columns {', '.join(CSV_REQUIRED)}",
+        path=path,
+    )
+
+
+def _check_columns(
+    path: str,
+    names: Sequence[str],
+    required: Sequence[str],
+    optional: Sequence[str],
+    line_of: Callable[[str], int],
+    what: str,
+) -> None:
+    known = (*required, *optional)
+    seen: set[str] = set()
+    for name in names:
+        if name in seen:
+            raise CatalogError(
+                f"the {what} appears twice", path=path, row=line_of(name), column=name
+            )
+        seen.add(name)
+        if name not in known:
+            if what == "column" and name in _NETWORK_ONLY_COLUMNS:
+                message = (
+                    "unknown column: a CSV catalog lists discrete parts only; "
+                    "list networks in a YAML catalog under networks:"
+                )
+            else:
+                message = _did_you_mean(name, known, what)
+            raise CatalogError(message, path=path, row=line_of(name), column=name)
+    for name in required:
+        if name not in seen:
+            have = ", ".join(names) if names else "none"
+            raise CatalogError(
+                f"missing required {what} (found: {have})",
+                path=path,
+                row=line_of(name),
+                column=name,
+            )
+
+
+def _load_csv(path: str) -> tuple[pd.DataFrame, IntArray]:
+    header_index, header = _find_header(path)
+    names = [h.strip().lower() for h in header]
+    header_line = header_index + 1
+    _check_columns(path, names, CSV_REQUIRED, CSV_OPTIONAL, lambda _: header_line, "column")
+    text_columns = {"part_id": str, "size": str, "technology": str, "stock": str}
+    try:
+        raw = pd.read_csv(
+            path,
+            header=None,
+            names=names,
+            skiprows=header_index + 1,
+            dtype={k: v for k, v in text_columns.items() if k in names},
+            keep_default_na=False,
+            na_values=[""],
+            skip_blank_lines=False,
+            encoding="utf-8-sig",
+            low_memory=False,
+            engine="c",
+        )
+    except pd.errors.ParserError as exc:
+        match = _PARSER_LINE_RE.search(str(exc))
+        if match:
+            raise CatalogError(
+                f"found {match.group(3)} cells: expected {match.group(1)} "
+                f"as in the header line {header_line}",
+                path=path,
+                row=int(match.group(2)),
+            ) from None
+        raise CatalogError(f"cannot read as CSV: {exc}", path=path) from None
+    except UnicodeDecodeError as exc:
+        raise CatalogError(
+            f"cannot read the file as UTF-8 text ({exc.reason} at byte {exc.start})", path=path
+        ) from None
+    except pd.errors.EmptyDataError:
+        raw = pd.DataFrame({name: pd.Series([], dtype=object) for name in names})
+    lines = np.arange(len(raw), dtype=np.int64) + header_line + 1
+    blank = raw.isna().all(axis=1).to_numpy()
+    if blank.any():
+        raw = raw.loc[~blank].reset_index(drop=True)
+        lines = lines[~blank]
+    if len(raw) == 0:
+        raise CatalogError(
+            f"no parts: expected data rows below the header line {header_line}", path=path
+        )
+    table = _Table(path, {name: raw[name] for name in names}, lines)
+    frame = _discrete_from_table(table)
+    return frame, lines
+
+
+# ---------------------------------------------------------------------------------------------
+# YAML
+# ---------------------------------------------------------------------------------------------
+
+
+def _scalar_text(node: yaml.Node) -> str | None:
+    """The raw text of a scalar node as written (``0603`` stays ``0603``); None for null."""
+    if node.tag == _NULL_TAG:
+        return None
+    return str(node.value)
+
+
+def _yaml_rows(
+    path: str, node: yaml.Node, section: str, required: Sequence[str], optional: Sequence[str]
+) -> tuple[list[int], dict[str, list[object]], dict[str, list[int]]]:
+    """Read a list of mappings into columns of raw values with the line of each cell."""
+    if not isinstance(node, yaml.SequenceNode):
+        raise CatalogError(
+            f"expected a list of parts under {section}:",
+            path=path,
+            row=node.start_mark.line + 1,
+            column=section,
+        )
+    known = (*required, *optional)
+    rows: list[int] = []
+    cells: dict[str, list[object]] = {k: [] for k in known}
+    lines: dict[str, list[int]] = {k: [] for k in known}
+    for item in node.value:
+        line = item.start_mark.line + 1
+        if not isinstance(item, yaml.MappingNode):
+            raise CatalogError(
+                f"expected a mapping of {', '.join(required)} for each entry of {section}:",
+                path=path,
+                row=line,
+                column=section,
+            )
+        found: dict[str, tuple[object, int]] = {}
+        for key_node, value_node in item.value:
+            key = str(key_node.value)
+            key_line = key_node.start_mark.line + 1
+            if key in found:
+                raise CatalogError(
+                    "the key appears twice in this entry", path=path, row=key_line, column=key
+                )
+            if key not in known:
+                raise CatalogError(
+                    _did_you_mean(key, known, "key"), path=path, row=key_line, column=key
+                )
+            if key == "values":
+                if not isinstance(value_node, yaml.SequenceNode):
+                    raise CatalogError(
+                        "expected a list of element values such as [1k, 10k, 1k, 10k]",
+                        path=path,
+                        row=key_line,
+                        column=key,
+                    )
+                values: list[tuple[str | None, int]] = []
+                for element in value_node.value:
+                    if not isinstance(element, yaml.ScalarNode):
+                        raise CatalogError(
+                            "expected a single resistance for each element",
+                            path=path,
+                            row=element.start_mark.line + 1,
+                            column=key,
+                        )
+                    values.append((_scalar_text(element), element.start_mark.line + 1))
+                found[key] = (values, key_line)
+            elif isinstance(value_node, yaml.ScalarNode):
+                found[key] = (_scalar_text(value_node), key_line)
+            else:
+                raise CatalogError(
+                    "expected a single value, not a list or mapping",
+                    path=path,
+                    row=key_line,
+                    column=key,
+                )
+        for key in known:
+            value, key_line = found.get(key, (None, line))
+            cells[key].append(value)
+            lines[key].append(key_line)
+        rows.append(line)
+    if not rows:
+        raise CatalogError(
+            f"the {section}: list is empty", path=path, row=node.start_mark.line + 1, column=section
+        )
+    return rows, cells, lines
+
+
+def _yaml_table(
+    path: str, node: yaml.Node, section: str, required: Sequence[str], optional: Sequence[str]
+) -> _Table:
+    rows, cells, lines = _yaml_rows(path, node, section, required, optional)
+    return _Table(
+        path,
+        {k: pd.Series(v, dtype=object) for k, v in cells.items()},
+        np.array(rows, dtype=np.int64),
+        {k: np.array(v, dtype=np.int64) for k, v in lines.items()},
+    )
+
+
+def _networks_from_table(table: _Table) -> tuple[NetworkPart, ...]:
+    """Validate every network entry (column by column, as for discrete parts) and build them."""
+    problems = _ProblemList(table)
+    order = {name: i for i, name in enumerate((*NETWORK_REQUIRED, *NETWORK_OPTIONAL))}
+    ids, problem = _read_ids(table)
+    problems.add("part_id", problem, order["part_id"])
+    numbers: dict[str, FloatArray] = {}
+    for column in (
+        "tolerance",
+        "ratio_tolerance",
+        "tempco",
+        "tracking",
+        "power",
+        "max_voltage",
+        "cost",
+    ):
+        numbers[column], problem = _read_quantity(table, column, _QUANTITIES[column], None)
+        problems.add(column, problem, order[column])
+    for column in ("drift", "ratio_drift"):
+        numbers[column], problem = _read_quantity(table, column, _QUANTITIES[column], 0.0)
+        problems.add(column, problem, order[column])
+    stock, problem = _read_stock(table)
+    problems.add("stock", problem, order["stock"])
+    packages, problem = _read_sizes(table, "package", default="network")
+    problems.add("package", problem, order["package"])
+    values: list[tuple[float, ...]] = []
+    for row, cell in enumerate(table.columns["values"]):
+        problem = None
+        if not cell:
+            problem = _Problem(
+                row, "no value: expected a list of 2 or 4 element values such as [1k, 10k, 1k, 10k]"
+            )
+        elif len(cell) not in (2, 4):
+            problem = _Problem(
+                row, f"found {len(cell)} element values: expected 2 (a dual) or 4 (a quad)"
+            )
+        else:
+            elements: list[float] = []
+            for text, line in cell:
+                try:
+                    if text is None:
+                        raise UnitError("", _QUANTITIES["resistance"].expected, "no value")
+                    elements.append(parse_resistance(text))
+                except UnitError as exc:
+                    raise CatalogError(
+                        str(exc), path=table.path, row=line, column="values"
+                    ) from None
+            values.append(tuple(elements))
+        if problem is not None:
+            problems.add("values", problem, order["values"])
+            break
+    problems.raise_first()
+    parts: list[NetworkPart] = []
+    for row in range(len(ids)):
+        try:
+            parts.append(
+                NetworkPart(
+                    part_id=str(ids[row]),
+                    values_ohm=values[row],
+                    abs_tolerance=float(numbers["tolerance"][row]),
+                    ratio_tolerance=float(numbers["ratio_tolerance"][row]),
+                    abs_tempco_per_k=float(numbers["tempco"][row]),
+                    tracking_tempco_per_k=float(numbers["tracking"][row]),
+                    power_per_element_w=float(numbers["power"][row]),
+                    max_voltage_v=float(numbers["max_voltage"][row]),
+                    unit_cost=float(numbers["cost"][row]),
+                    stock_qty=int(stock[row]),
+                    size=str(packages[row]),
+                    drift_1000h=float(numbers["drift"][row]),
+                    ratio_drift_1000h=float(numbers["ratio_drift"][row]),
+                )
+            )
+        except ModelError as exc:  # pragma: no cover - the column checks mirror the model's
+            raise CatalogError(
+                f"{exc.field}: {exc.message}", path=table.path, row=int(table.row_lines[row])
+            ) from None
+    return tuple(parts)
+
+
+_YAML_SECTIONS: Final = ("discrete", "networks")
+
+
+def _load_yaml(path: str) -> tuple[pd.DataFrame, IntArray, tuple[NetworkPart, ...], IntArray]:
+    try:
+        text = Path(path).read_text(encoding="utf-8-sig")
+    except UnicodeDecodeError as exc:
+        raise CatalogError(
+            f"cannot read the file as UTF-8 text ({exc.reason} at byte {exc.start})", path=path
+        ) from None
+    try:
+        root = yaml.compose(text, Loader=yaml.SafeLoader)
+    except yaml.MarkedYAMLError as exc:
+        mark = exc.problem_mark or exc.context_mark
+        line = mark.line + 1 if mark is not None else None
+        raise CatalogError(
+            f"not valid YAML: {exc.problem or exc.context}", path=path, row=line
+        ) from None
+    expected = "a mapping with a discrete: list and/or a networks: list"
+    if root is None:
+        raise CatalogError(f"the file is empty: expected {expected}", path=path)
+    if not isinstance(root, yaml.MappingNode):
+        raise CatalogError(f"expected {expected}", path=path, row=root.start_mark.line + 1)
+    sections: dict[str, yaml.Node] = {}
+    for key_node, value_node in root.value:
+        key = str(key_node.value)
+        if key not in _YAML_SECTIONS:
+            raise CatalogError(
+                _did_you_mean(key, _YAML_SECTIONS, "key"),
+                path=path,
+                row=key_node.start_mark.line + 1,
+                column=key,
+            )
+        if key in sections:
+            raise CatalogError(
+                "the key appears twice", path=path, row=key_node.start_mark.line + 1, column=key
+            )
+        sections[key] = value_node
+    if not sections:
+        raise CatalogError(f"the file is empty: expected {expected}", path=path)
+    discrete, discrete_lines = empty_discrete_frame(), np.zeros(0, dtype=np.int64)
+    if "discrete" in sections:
+        table = _yaml_table(path, sections["discrete"], "discrete", CSV_REQUIRED, CSV_OPTIONAL)
+        discrete, discrete_lines = _discrete_from_table(table), table.row_lines
+    networks: tuple[NetworkPart, ...] = ()
+    network_lines = np.zeros(0, dtype=np.int64)
+    if "networks" in sections:
+        table = _yaml_table(
+            path, sections["networks"], "networks", NETWORK_REQUIRED, NETWORK_OPTIONAL
+        )
+        networks, network_lines = _networks_from_table(table), table.row_lines
+    return discrete, discrete_lines, networks, network_lines
+
+
+# ---------------------------------------------------------------------------------------------
+# Loading and combining
+# ---------------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True, eq=False)
+class _Located:
+    """A loaded catalog with the file line of each discrete row and each network."""
+
+    catalog: Catalog
+    discrete_lines: IntArray
+    network_lines: IntArray
+
+    def ids(self) -> npt.NDArray[np.object_]:
+        return np.asarray(self.catalog.all_ids(), dtype=object)
+
+    def lines(self) -> IntArray:
+        return np.concatenate([self.discrete_lines, self.network_lines])
+
+    def where(self, part_id: str) -> tuple[str, int | None]:
+        ids = self.ids()
+        position = int(np.flatnonzero(ids == part_id)[0])
+        lines = self.lines()
+        source = (
+            str(self.catalog.discrete["source"].iloc[position])
+            if position < self.catalog.discrete_count
+            else self.catalog.network_sources[position - self.catalog.discrete_count]
+        )
+        return source, (int(lines[position]) if position < len(lines) else None)
+
+
+def _load_located(path: str) -> _Located:
+    file = Path(path)
+    if not file.exists():
+        raise CatalogError("cannot open the file: no such file", path=path)
+    if file.is_dir():
+        raise CatalogError("cannot open the file: it is a folder", path=path)
+    suffix = file.suffix.lower()
+    if suffix == ".csv":
+        discrete, lines = _load_csv(path)
+        return _Located(Catalog(discrete, (), (path,)), lines, np.zeros(0, dtype=np.int64))
+    if suffix in _YAML_SUFFIXES:
+        discrete, discrete_lines, networks, network_lines = _load_yaml(path)
+        ids = pd.Series(
+            np.concatenate(
+                [
+                    discrete["part_id"].to_numpy(dtype=object),
+                    np.array([n.part_id for n in networks], dtype=object),
+                ]
+            )
+        )
+        clash = ids.duplicated().to_numpy()
+        if clash.any():  # a network id equal to a discrete id in the same file
+            row = int(np.flatnonzero(clash)[0])
+            first = int(np.flatnonzero(ids.to_numpy() == ids[row])[0])
+            all_lines = np.concatenate([discrete_lines, network_lines])
+            raise CatalogError(
+                f"duplicate part id {ids[row]!r} (first at line {int(all_lines[first])})",
+                path=path,
+                row=int(all_lines[row]),
+                column="part_id",
+            )
+        catalog = Catalog(discrete, networks, (path,), (path,) * len(networks))
+        return _Located(catalog, discrete_lines, network_lines)
+    raise CatalogError(
+        f"unknown catalog type {suffix or '(no extension)'!r}: expected a .csv, .yaml or .yml file",
+        path=path,
+    )
+
+
+def load_catalog(path: str) -> Catalog:
+    """Load one user catalog file (``.csv``, ``.yaml`` or ``.yml``), every row validated."""
+    return _load_located(path).catalog
+
+
+def load_catalogs(paths: Sequence[str], include_builtin: bool = True) -> Catalog:
+    """The built-in catalog (unless ``include_builtin`` is False) and every file of ``paths``,
+    combined in order. A part id that appears in two places raises :class:`CatalogError`
+    naming both (file and line)."""
+    located: list[_Located] = []
+    if include_builtin:
+        builtin = builtin_catalog()
+        none = np.full(builtin.discrete_count, -1, dtype=np.int64)
+        located.append(_Located(builtin, none, np.full(builtin.network_count, -1, dtype=np.int64)))
+    for path in paths:
+        current = _load_located(str(path))
+        new_ids = pd.Index(current.ids())
+        for earlier in located:
+            common = new_ids.intersection(pd.Index(earlier.ids()))
+            if len(common) == 0:
+                continue
+            first = str(new_ids[new_ids.isin(common)][0])
+            _, line = current.where(first)
+            old_source, old_line = earlier.where(first)
+            at = f"{old_source}:{old_line}" if old_line is not None and old_line > 0 else old_source
+            raise CatalogError(
+                f"duplicate part id {first!r}: already defined in {at}",
+                path=str(path),
+                row=line,
+                column="part_id",
+            )
+        located.append(current)
+    if not located:
+        return Catalog(empty_discrete_frame())
+    combined = located[0].catalog
+    for item in located[1:]:
+        combined = _concat(combined, item.catalog)
+    return combined
+
+
+def _concat(first: Catalog, second: Catalog) -> Catalog:
+    """Two catalogs already known to share no id."""
+    frames = [f for f in (first.discrete, second.discrete) if len(f) > 0]
+    discrete = (
+        _normalise(pd.concat(frames, ignore_index=True)) if frames else empty_discrete_frame()
+    )
+    return Catalog(
+        discrete=discrete,
+        networks=first.networks + second.networks,
+        sources=first.sources + tuple(s for s in second.sources if s not in first.sources),
+        network_sources=first.network_sources + second.network_sources,
+    )
