@@ -377,6 +377,7 @@ def design_netlist(
     differential_v: float | None = None,
     ref_v: float | None = None,
     cmrr_sign: float = 1,
+    cautions: Iterable[str] = (),
 ) -> str:
     """A netlist of ``design`` in the spec's circuit, runnable as it is with ``ngspice -b``.
 
@@ -385,7 +386,9 @@ def design_netlist(
     ``cmrr_sign``) or ideal. The operating point is V1 = Vcm - Vd/2, V2 = Vcm + Vd/2, VREF =
     ``ref_v``, by default Vcm at the middle of the common-mode range, Vd the largest
     differential input, VREF the middle of the REF range. The comments list the parts, the
-    conditions and the output the closed form predicts (``transfer.coefficients``).
+    conditions and the output the closed form predicts (``transfer.coefficients``), then each
+    of ``cautions`` (the caller passes ``analysis.checks.safety_cautions(spec)``) as a
+    ``* Caution:`` line.
     """
     try:
         model = AmplifierModel(amplifier_model)
@@ -432,11 +435,7 @@ def design_netlist(
         f"Operating point: Vcm = {vcm:g} V, Vd = V2 - V1 = {vd:g} V, VREF = {vr:g} V",
         f"Closed form (Quartet transfer.coefficients): Vout = {predicted:.12g} V",
     ]
-    if signal.ac:
-        comments.append(
-            "Caution: mains-derived common-mode input. This file is a simulation only; insulation, "
-            "clearances and protection follow local codes and licensed practice."
-        )
+    comments += [f"Caution: {text}" for text in cautions]
     return difference_amp_netlist(
         r1,
         r2,

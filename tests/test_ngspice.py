@@ -224,7 +224,7 @@ def test_ideal_amplifier_is_an_exact_nullor(ngspice: str) -> None:
         assert got == pytest.approx(want, rel=1e-12, abs=1e-12), tag
 
 
-def _demo_spec(*, ac: bool = False) -> Spec:
+def _demo_spec() -> Spec:
     """Demo data of our own (not a check value): a ±15 V amplifier, gain 10."""
     amp = Amplifier(
         name="demo op-amp",
@@ -249,7 +249,6 @@ def _demo_spec(*, ac: bool = False) -> Spec:
             common_mode_max_v=6.0,
             max_frequency_hz=1e3,
             source=SourceImpedance(min_ohm=0.0, max_ohm=250.0, imbalance_ohm=10.0),
-            ac=ac,
         ),
         reference=Reference(
             voltage_min_v=1.0, voltage_max_v=2.0, impedance_min_ohm=0.0, impedance_max_ohm=20.0
@@ -328,10 +327,13 @@ def test_design_netlist_runs_as_is(
     assert text.isascii()
 
 
-def test_design_netlist_caution_for_mains_inputs() -> None:
-    text = design_netlist(_demo_design(), _demo_spec(ac=True))
-    assert "Caution: mains-derived" in text and "local codes and licensed practice" in text
-    assert "Caution" not in design_netlist(_demo_design(), _demo_spec(ac=False))
+def test_design_netlist_writes_cautions_as_comments() -> None:
+    cautions = ["Hazardous voltage: first line.", "Follow the local codes\nand standards."]
+    text = design_netlist(_demo_design(), _demo_spec(), cautions=cautions)
+    lines = text.splitlines()
+    assert "* Caution: Hazardous voltage: first line." in lines
+    assert "* Caution: Follow the local codes and standards." in lines  # one comment line each
+    assert "Caution" not in design_netlist(_demo_design(), _demo_spec())
 
 
 def _element_value(text: str, name: str) -> str | None:
