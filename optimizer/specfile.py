@@ -1194,6 +1194,8 @@ def _yaml_error(path: str, exc: yaml.YAMLError) -> SpecError:
     context = getattr(exc, "context", None)
     if problem is None:
         text = str(exc)
+    elif context and str(problem).startswith("but "):
+        text = f"{context}, {problem}"  # "expected a single document ..., but found another"
     else:
         text = str(problem) + (f" ({context})" if context else "")
     return SpecError(f"not valid YAML: {text}", path=path, line=line)
