@@ -39,6 +39,7 @@ import numpy as np
 import numpy.typing as npt
 import pandas as pd
 import yaml
+from pandas.api.types import union_categoricals
 
 from .errors import CatalogError, DesignError, ModelError, UnitError
 from .eseries import ESeries, decade_values, series_for_name, values_in_range
@@ -170,7 +171,7 @@ def _frame(**columns: Any) -> pd.DataFrame:
 def _normalise(frame: pd.DataFrame) -> pd.DataFrame:
     for name in _CATEGORY_COLUMNS:
         if not isinstance(frame[name].dtype, pd.CategoricalDtype):
-            frame[name] = frame[name].astype(str).astype("category")
+            frame[name] = frame[name].astype(object).astype("category")
     frame["part_id"] = frame["part_id"].astype(str)
     frame["stock_qty"] = frame["stock_qty"].astype(np.int64)
     for name in (
@@ -358,49 +359,80 @@ class Catalog:
 # ---------------------------------------------------------------------------------------------
 
 #: Series a user part's value is tested against, in order (common practice: the grade's own
-#: series first, see :func:`_grade_series`).
+#: series first, see :func:`_grade_series_code`).
 _CATALOG_SERIES: Final = (ESeries.E24, ESeries.E96, ESeries.E192)
+
+
+def _decade_mantissa(values: FloatArray) -> tuple[FloatArray, BoolArray]:
+    """``values / 10^floor(log10(values))`` in [1, 10), and the mask of values that have one
+    (finite and above zero)."""
+    valid = np.isfinite(values) & (values > 0.0)
+    safe = np.where(valid, values, 1.0)
+    return safe / 10.0 ** np.floor(np.log10(safe)), valid
+
+
+def _members_of(series: ESeries, mantissa: FloatArray, valid: BoolArray, rel: float) -> BoolArray:
+    """IEC 60063 membership from decade mantissas: ``mantissa * 10^(f-1)`` is, within relative
+    ``rel``, one of the series' significands (``f`` = 2 figures up to E24, 3 from E48)."""
+    figures = 2 if series <= ESeries.E24 else 3
+    scale = 10.0 ** (figures - 1)
+    table = np.zeros(10**figures + 1, dtype=bool)
+    table[[round(v * scale) for v in decade_values(series)]] = True
+    table[10**figures] = True  # 9.9999999 rounds up to the next decade's first value
+    scaled = mantissa * scale
+    rounded = np.rint(scaled)
+    close = np.abs(scaled - rounded) <= rel * scaled
+    return valid & close & table[np.clip(rounded, 0, 10**figures).astype(np.int64)]
 
 
 def _members(series: ESeries, values: FloatArray, rel: float = 1e-9) -> BoolArray:
     """Vectorised IEC 60063 membership: ``value = s * 10^k`` with ``s`` one of the series'
-    significands (2 figures up to E24, 3 from E48), within relative ``rel``."""
-    figures = 2 if series <= ESeries.E24 else 3
-    scale = 10.0 ** (figures - 1)
-    significands = np.array([round(v * scale) for v in decade_values(series)], dtype=np.int64)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        exponent = np.floor(np.log10(values))
-        mantissa = values / 10.0**exponent * scale  # in [10^(f-1), 10^f)
-        rounded = np.rint(mantissa)
-        close = np.abs(mantissa - rounded) <= rel * mantissa
-    rounded_int = np.where(np.isfinite(rounded), rounded, 0).astype(np.int64)
-    # 9.9999999 rounds up to the next decade's first value, which is always a member.
-    rounded_int = np.where(rounded_int == 10**figures, 10 ** (figures - 1), rounded_int)
-    return close & np.isin(rounded_int, significands) & (values > 0)
+    significands, within relative ``rel``."""
+    mantissa, valid = _decade_mantissa(values)
+    return _members_of(series, mantissa, valid, rel)
 
 
-def _grade_series(tolerance: FloatArray) -> npt.NDArray[np.object_]:
-    """The series a tolerance grade is usually sold in (common practice): E24 for 2 % and
-    looser, E96 for 1 % (and between 1 % and 2 %), E192 below 1 %."""
-    out = np.full(tolerance.shape, "E192", dtype=object)
-    out[tolerance >= 0.01 - 1e-12] = "E96"
-    out[tolerance >= 0.02 - 1e-12] = "E24"
-    return out
+def _grade_series_code(tolerance: FloatArray) -> npt.NDArray[np.int8]:
+    """The series a tolerance grade is usually sold in (common practice), as a code: 1 = E24
+    for 2 % and looser, 2 = E96 for 1 % up to 2 %, 3 = E192 below 1 %."""
+    return np.where(tolerance >= 0.02 - 1e-12, 1, np.where(tolerance >= 0.01 - 1e-12, 2, 3)).astype(
+        np.int8
+    )
 
 
 def series_of_values(values: FloatArray, tolerance: FloatArray) -> npt.NDArray[np.object_]:
     """For each part: the E-series name it belongs to, or "".
 
-    The grade's usual series (:func:`_grade_series`) when the value is one of its members,
-    else the first of E24, E96, E192 (IEC 60063) that holds the value, else ""."""
-    preferred = _grade_series(tolerance)
-    membership = {s.name: _members(s, values) for s in _CATALOG_SERIES}
-    out = np.full(values.shape, "", dtype=object)
-    for name in reversed([s.name for s in _CATALOG_SERIES]):
-        out[membership[name]] = name
-    for name, member in membership.items():
-        out[(preferred == name) & member] = name
-    return out
+    The grade's usual series (:func:`_grade_series_code`) when the value is one of its
+    members, else the first of E24, E96, E192 (IEC 60063) that holds the value, else ""."""
+    names = np.array(["", *(s.name for s in _CATALOG_SERIES)], dtype=object)
+    return np.asarray(names[_series_codes(values, tolerance)], dtype=object)
+
+
+def _series_codes(values: FloatArray, tolerance: FloatArray) -> npt.NDArray[np.int8]:
+    """:func:`series_of_values` as codes: 0 for "", then 1, 2, 3 for E24, E96, E192."""
+    mantissa, valid = _decade_mantissa(values)
+    membership = [_members_of(s, mantissa, valid, 1e-9) for s in _CATALOG_SERIES]
+    codes = np.zeros(values.shape, dtype=np.int8)
+    for code in range(len(_CATALOG_SERIES), 0, -1):
+        codes[membership[code - 1]] = code
+    preferred = _grade_series_code(tolerance)
+    for code in range(1, len(_CATALOG_SERIES) + 1):
+        codes[(preferred == code) & membership[code - 1]] = code
+    return codes
+
+
+def _series_categorical(values: FloatArray, tolerance: FloatArray) -> pd.Categorical:
+    names = ["", *(s.name for s in _CATALOG_SERIES)]
+    return _from_codes(_series_codes(values, tolerance), names)
+
+
+def _from_codes(codes: npt.NDArray[np.integer[Any]], categories: Sequence[str]) -> pd.Categorical:
+    """``pd.Categorical.from_codes`` with text categories."""
+    categorical: pd.Categorical = pd.Categorical.from_codes(
+        codes, categories=pd.Index(list(categories), dtype=object)
+    )
+    return categorical
 
 
 _RKM_LETTERS: Final = ("R", "K", "M", "G")
@@ -811,6 +843,7 @@ class _Table:
 class _Problem:
     row: int
     message: str
+    line: int | None = None  # when the cell's own line is not the column's (list elements)
 
 
 class _ProblemList:
@@ -822,7 +855,9 @@ class _ProblemList:
 
     def add(self, column: str, problem: _Problem | None, order: int) -> None:
         if problem is not None:
-            line = self.table.line(column, problem.row)
+            line = (
+                problem.line if problem.line is not None else self.table.line(column, problem.row)
+            )
             self.found.append((line, order, column, problem.message))
 
     def raise_first(self) -> None:
@@ -837,17 +872,45 @@ def _is_numeric(cells: pd.Series) -> bool:
     )
 
 
-def _text_cells(cells: pd.Series) -> tuple[npt.NDArray[np.object_], BoolArray]:
-    """Cells as stripped text (object array) and the mask of empty cells."""
-    if _is_numeric(cells):
-        numbers = cells.to_numpy(dtype=float, na_value=np.nan)
-        empty = np.isnan(numbers)
-        text = np.array([f"{v:.17g}" for v in numbers], dtype=object)
-        return text, empty
-    series = cells.astype(object)
-    missing = series.isna().to_numpy()
-    text = series.where(~missing, "").astype(str).str.strip().to_numpy(dtype=object)
-    return text, missing | (text == "")
+@dataclass(frozen=True)
+class _Cells:
+    """A text column factorised: row ``i`` holds ``uniques[codes[i]]`` (stripped text; an
+    empty or missing cell is ""). Checks and parsing run once per distinct text, so a column
+    of a million cells with a few hundred distinct values costs a few hundred parser calls."""
+
+    codes: IntArray
+    uniques: npt.NDArray[np.object_]
+    stripped: bool = False  # some cell had surrounding spaces (uniques may then repeat)
+
+    @property
+    def empty_unique(self) -> BoolArray:
+        return np.asarray(self.uniques == "", dtype=bool)
+
+    def rows(self) -> npt.NDArray[np.object_]:
+        """The stripped text of every row."""
+        return np.asarray(self.uniques[self.codes], dtype=object)
+
+    def first_row(self, unique_mask: BoolArray) -> int | None:
+        """The first row whose text is flagged in ``unique_mask`` (None: no such row)."""
+        hits = np.flatnonzero(unique_mask[self.codes])
+        return int(hits[0]) if len(hits) else None
+
+
+def _categorical(codes: IntArray, labels: npt.NDArray[np.object_]) -> pd.Categorical:
+    """Rows ``labels[codes]`` as a categorical (labels may repeat; unused ones are dropped)."""
+    label_codes, categories = pd.factorize(labels)
+    categorical = _from_codes(label_codes[codes], [str(c) for c in categories])
+    return categorical.remove_unused_categories()
+
+
+def _factorise(cells: pd.Series) -> _Cells:
+    """Factorise a column of text (or of anything, read as text) into :class:`_Cells`."""
+    codes, uniques = pd.factorize(cells, use_na_sentinel=True)
+    raw = np.asarray(uniques, dtype=object)
+    text = np.array([str(u).strip() for u in raw] + [""], dtype=object)
+    codes = np.where(codes < 0, len(uniques), codes).astype(np.int64)
+    stripped = bool(np.any(text[:-1] != raw)) if len(raw) else False
+    return _Cells(codes, text, stripped)
 
 
 def _cell_token(cells: pd.Series, row: int) -> str:
@@ -967,25 +1030,27 @@ def _read_quantity(
         values = cells.to_numpy(dtype=float, na_value=np.nan).copy()
         empty = np.isnan(values)
     else:
-        text, empty = _text_cells(cells)
-        values = np.array(
+        factor = _factorise(cells)
+        empty_u = factor.empty_unique
+        values_u = np.array(
             pd.to_numeric(
-                pd.Series(text, dtype=object).where(~empty, None), errors="coerce"
+                pd.Series(factor.uniques, dtype=object).where(~empty_u, None), errors="coerce"
             ).to_numpy(dtype=float, na_value=np.nan)
         )
-        pending = np.isnan(values) & ~empty
-        if pending.any():
-            parsed: dict[str, float] = {}
-            failed: dict[str, str] = {}
-            for token in pd.unique(text[pending]):
-                try:
-                    parsed[token] = quantity.parse(token)
-                except UnitError as exc:
-                    failed[token] = str(exc)
-            if failed:
-                row = int(np.flatnonzero(pending & np.isin(text, list(failed)))[0])
-                return values, _Problem(row, failed[text[row]])
-            values[pending] = [parsed[t] for t in text[pending]]
+        failed: dict[int, str] = {}
+        for k in np.flatnonzero(np.isnan(values_u) & ~empty_u):
+            try:
+                values_u[k] = quantity.parse(factor.uniques[k])
+            except UnitError as exc:
+                failed[int(k)] = str(exc)
+        if failed:
+            mask = np.zeros(len(values_u), dtype=bool)
+            mask[list(failed)] = True
+            row = factor.first_row(mask)
+            assert row is not None
+            return values_u[factor.codes], _Problem(row, failed[int(factor.codes[row])])
+        values = values_u[factor.codes]
+        empty = empty_u[factor.codes]
     problem: _Problem | None = None
     if empty.any():
         if default is None:
@@ -1009,11 +1074,16 @@ def _read_ids(
     table: _Table, column: str = "part_id"
 ) -> tuple[npt.NDArray[np.object_], _Problem | None]:
     """Part ids: non-empty text, unique within the file."""
-    text, empty = _text_cells(table.columns[column])
-    if empty.any():
-        row = int(np.flatnonzero(empty)[0])
+    factor = _factorise(table.columns[column])
+    text = factor.rows()
+    row = factor.first_row(factor.empty_unique)
+    if row is not None:
         return text, _Problem(row, f"{table.empty_word}: expected a part id")
-    duplicated = pd.Series(text).duplicated().to_numpy()
+    codes = factor.codes
+    if factor.stripped:  # two cells may be equal only after stripping: factorise again
+        recoded, _ = pd.factorize(factor.uniques)
+        codes = recoded[codes]
+    duplicated = pd.Series(codes).duplicated().to_numpy()
     if duplicated.any():
         row = int(np.flatnonzero(duplicated)[0])
         first = int(np.flatnonzero(text == text[row])[0])
@@ -1028,49 +1098,59 @@ _KNOWN_SIZES_NO_ZERO: Final = {code.lstrip("0"): code for code in ("0201", "0402
 
 def _read_sizes(
     table: _Table, column: str = "size", default: str | None = None
-) -> tuple[npt.NDArray[np.object_], _Problem | None]:
+) -> tuple[npt.NDArray[np.object_] | pd.Categorical, _Problem | None]:
     """Size codes: text without inner spaces. ``603`` (a leading zero lost in a spreadsheet) is
     refused with a hint rather than read as another size."""
-    text, empty = _text_cells(table.columns[column])
-    if empty.any():
-        if default is None:
-            row = int(np.flatnonzero(empty)[0])
-            return text, _Problem(row, f"{table.empty_word}: expected a size code such as 0603")
-        text[empty] = default
-    for token in pd.unique(text):
+    factor = _factorise(table.columns[column])
+    uniques = factor.uniques.copy()
+    empty_u = factor.empty_unique
+    if default is not None:
+        uniques[empty_u] = default
+    else:
+        row = factor.first_row(empty_u)
+        if row is not None:
+            return factor.rows(), _Problem(
+                row, f"{table.empty_word}: expected a size code such as 0603"
+            )
+    for k, token in enumerate(uniques):
         if token in _KNOWN_SIZES_NO_ZERO or re.search(r"\s", token):
-            row = int(np.flatnonzero(text == token)[0])
+            mask = np.zeros(len(uniques), dtype=bool)
+            mask[k] = True
+            row = factor.first_row(mask)
+            if row is None:
+                continue
             hint = (
                 f"did you mean {_KNOWN_SIZES_NO_ZERO[token]!r}? "
                 "(a spreadsheet may have dropped the leading zero)"
                 if token in _KNOWN_SIZES_NO_ZERO
                 else "a size code has no spaces"
             )
-            return text, _Problem(
+            return factor.rows(), _Problem(
                 row, f"found {token!r}: expected a size code such as 0603; {hint}"
             )
-    return text, None
+    return _categorical(factor.codes, uniques), None
 
 
 def _read_technology(
     table: _Table, column: str = "technology"
-) -> tuple[npt.NDArray[np.object_], _Problem | None]:
-    """Optional technology names (``thin film``, ``thin_film``, ``Thin-Film``); empty → ""."""
-    text, empty = _text_cells(table.columns[column])
-    text[empty] = ""
+) -> tuple[npt.NDArray[np.object_] | pd.Categorical, _Problem | None]:
+    """Optional technology names (``thin film``, ``thin_film``, ``Thin-Film``); empty -> ""."""
+    factor = _factorise(table.columns[column])
     valid = ", ".join(m.value for m in Technology)
-    mapping: dict[str, str] = {"": ""}
-    for token in pd.unique(text):
-        if token in mapping:
+    names = np.empty(len(factor.uniques), dtype=object)
+    for k, token in enumerate(factor.uniques):
+        if token == "":
+            names[k] = ""
             continue
         try:
-            mapping[token] = Technology.from_text(token).value
+            names[k] = Technology.from_text(token).value
         except ModelError:
-            row = int(np.flatnonzero(text == token)[0])
-            return text, _Problem(row, f"found {token!r}: expected one of {valid}")
-    if len(mapping) > 1:
-        text = np.array([mapping[t] for t in text], dtype=object)
-    return text, None
+            mask = np.zeros(len(names), dtype=bool)
+            mask[k] = True
+            row = factor.first_row(mask)
+            assert row is not None
+            return factor.rows(), _Problem(row, f"found {token!r}: expected one of {valid}")
+    return _categorical(factor.codes, names), None
 
 
 def _read_stock(table: _Table, column: str = "stock") -> tuple[IntArray, _Problem | None]:
@@ -1078,26 +1158,31 @@ def _read_stock(table: _Table, column: str = "stock") -> tuple[IntArray, _Proble
     expected = "a whole number of zero or more, or yes/no"
     cells = table.columns[column]
     n = len(cells)
-    if _is_numeric(cells):
+    if pd.api.types.is_bool_dtype(cells.dtype):  # pandas read a column of true/false
+        values = np.where(cells.to_numpy(dtype=bool), float(STOCK_UNCOUNTED), 0.0)
+        empty = np.zeros(n, dtype=bool)
+    elif _is_numeric(cells):
         values = cells.to_numpy(dtype=float, na_value=np.nan)
         empty = np.isnan(values)
     else:
-        text, empty = _text_cells(cells)
-        lowered = pd.Series(text, dtype=object).str.lower().to_numpy(dtype=object)
-        yes, no = np.isin(lowered, list(_STOCK_YES)), np.isin(lowered, list(_STOCK_NO))
-        numeric = ~(empty | yes | no)
-        values = np.full(n, np.nan)
-        values[numeric] = pd.to_numeric(
-            pd.Series(text[numeric], dtype=object), errors="coerce"
-        ).to_numpy(dtype=float, na_value=np.nan)
-        unreadable = numeric & np.isnan(values)
-        if unreadable.any():
-            row = int(np.flatnonzero(unreadable)[0])
+        factor = _factorise(cells)
+        lowered = np.array([u.lower() for u in factor.uniques], dtype=object)
+        empty_u = factor.empty_unique
+        values_u = np.array(
+            pd.to_numeric(
+                pd.Series(lowered, dtype=object).where(~empty_u, None), errors="coerce"
+            ).to_numpy(dtype=float, na_value=np.nan)
+        )
+        values_u[np.isin(lowered, list(_STOCK_YES))] = STOCK_UNCOUNTED
+        values_u[np.isin(lowered, list(_STOCK_NO))] = 0
+        row = factor.first_row(np.isnan(values_u) & ~empty_u)
+        if row is not None:
+            token = factor.uniques[factor.codes[row]]
             return np.zeros(n, dtype=np.int64), _Problem(
-                row, f"found {text[row]!r}: expected {expected}"
+                row, f"found {token!r}: expected {expected}"
             )
-        values[yes] = STOCK_UNCOUNTED
-        values[no] = 0
+        values = values_u[factor.codes]
+        empty = empty_u[factor.codes]
     if empty.any():
         row = int(np.flatnonzero(empty)[0])
         return np.zeros(n, dtype=np.int64), _Problem(
@@ -1141,7 +1226,7 @@ def _discrete_from_table(table: _Table) -> pd.DataFrame:
         technology, problem = _read_technology(table)
         problems.add("technology", problem, order["technology"])
     else:
-        technology = np.full(n, "", dtype=object)
+        technology = _from_codes(np.zeros(n, dtype=np.int8), [""])
     problems.raise_first()
     return _frame(
         part_id=ids,
@@ -1155,8 +1240,8 @@ def _discrete_from_table(table: _Table) -> pd.DataFrame:
         stock_qty=stock,
         technology=technology,
         drift_1000h=numbers["drift"],
-        series=series_of_values(numbers["resistance"], numbers["tolerance"]),
-        source=np.full(n, table.path, dtype=object),
+        series=_series_categorical(numbers["resistance"], numbers["tolerance"]),
+        source=_from_codes(np.zeros(n, dtype=np.int8), [table.path]),
     )
 
 
@@ -1236,7 +1321,7 @@ def _load_csv(path: str) -> tuple[pd.DataFrame, IntArray]:
     names = [h.strip().lower() for h in header]
     header_line = header_index + 1
     _check_columns(path, names, CSV_REQUIRED, CSV_OPTIONAL, lambda _: header_line, "column")
-    text_columns = {"part_id": str, "size": str, "technology": str, "stock": str}
+    text_columns = {"part_id": str, "size": str}
     try:
         raw = pd.read_csv(
             path,
@@ -1268,7 +1353,11 @@ def _load_csv(path: str) -> tuple[pd.DataFrame, IntArray]:
     except pd.errors.EmptyDataError:
         raw = pd.DataFrame({name: pd.Series([], dtype=object) for name in names})
     lines = np.arange(len(raw), dtype=np.int64) + header_line + 1
-    blank = raw.isna().all(axis=1).to_numpy()
+    # blank lines (and lines of bare commas): every cell missing; only rows without a part id
+    # can be blank, so test the other columns only on those
+    blank = np.array(raw["part_id"].isna().to_numpy(), dtype=bool)
+    if blank.any():
+        blank[blank] = raw.loc[blank].isna().all(axis=1).to_numpy()
     if blank.any():
         raw = raw.loc[~blank].reset_index(drop=True)
         lines = lines[~blank]
@@ -1421,13 +1510,10 @@ def _networks_from_table(table: _Table) -> tuple[NetworkPart, ...]:
             elements: list[float] = []
             for text, line in cell:
                 try:
-                    if text is None:
-                        raise UnitError("", _QUANTITIES["resistance"].expected, "no value")
-                    elements.append(parse_resistance(text))
+                    elements.append(parse_resistance("" if text is None else text))
                 except UnitError as exc:
-                    raise CatalogError(
-                        str(exc), path=table.path, row=line, column="values"
-                    ) from None
+                    problem = _Problem(row, str(exc), line)
+                    break
             values.append(tuple(elements))
         if problem is not None:
             problems.add("values", problem, order["values"])
@@ -1600,12 +1686,11 @@ def load_catalogs(paths: Sequence[str], include_builtin: bool = True) -> Catalog
         located.append(_Located(builtin, none, np.full(builtin.network_count, -1, dtype=np.int64)))
     for path in paths:
         current = _load_located(str(path))
-        new_ids = pd.Index(current.ids())
+        new_ids = current.ids()
         for earlier in located:
-            common = new_ids.intersection(pd.Index(earlier.ids()))
-            if len(common) == 0:
+            first = _first_common(new_ids, earlier.ids())
+            if first is None:
                 continue
-            first = str(new_ids[new_ids.isin(common)][0])
             _, line = current.where(first)
             old_source, old_line = earlier.where(first)
             at = f"{old_source}:{old_line}" if old_line is not None and old_line > 0 else old_source
@@ -1624,15 +1709,47 @@ def load_catalogs(paths: Sequence[str], include_builtin: bool = True) -> Catalog
     return combined
 
 
+def _first_common(ids: npt.NDArray[np.object_], others: npt.NDArray[np.object_]) -> str | None:
+    """The first id of ``ids`` (in order) that is also in ``others``; None if there is none.
+    The hash table is built on the smaller side."""
+    if len(ids) == 0 or len(others) == 0:
+        return None
+    if len(others) <= len(ids):
+        found = pd.Index(others).get_indexer(pd.Index(ids)) >= 0
+    else:
+        found = np.isin(np.arange(len(ids)), pd.Index(ids).get_indexer(pd.Index(others)))
+    hits = np.flatnonzero(found)
+    return str(ids[hits[0]]) if len(hits) else None
+
+
 def _concat(first: Catalog, second: Catalog) -> Catalog:
     """Two catalogs already known to share no id."""
-    frames = [f for f in (first.discrete, second.discrete) if len(f) > 0]
-    discrete = (
-        _normalise(pd.concat(frames, ignore_index=True)) if frames else empty_discrete_frame()
-    )
     return Catalog(
-        discrete=discrete,
+        discrete=_concat_frames(first.discrete, second.discrete),
         networks=first.networks + second.networks,
         sources=first.sources + tuple(s for s in second.sources if s not in first.sources),
         network_sources=first.network_sources + second.network_sources,
     )
+
+
+def _concat_frames(first: pd.DataFrame, second: pd.DataFrame) -> pd.DataFrame:
+    """Rows of both discrete tables; categorical columns are united without going through
+    text, so adding a million-row file to the built-in catalog stays cheap."""
+    if len(first) == 0:
+        return second
+    if len(second) == 0:
+        return first
+    columns: dict[str, Any] = {}
+    for name in DISCRETE_COLUMNS:
+        if name in _CATEGORY_COLUMNS:
+            columns[name] = union_categoricals(
+                [pd.Categorical(first[name]), pd.Categorical(second[name])]
+            )
+        else:
+            columns[name] = np.concatenate(
+                [
+                    first[name].to_numpy(dtype=object if name == "part_id" else None),
+                    second[name].to_numpy(dtype=object if name == "part_id" else None),
+                ]
+            )
+    return _frame(**columns)
