@@ -513,8 +513,10 @@ PREFERENCE_KEYS = (
 )
 MONTE_CARLO_KEYS = ("samples", "seed", "distribution", "sigma_k")
 
-#: Default lower edge of the output-noise band when the spec gives none (Hz).
-DEFAULT_NOISE_BAND_LOW_HZ = 0.1
+#: Default lower edge of the output-noise band when the spec gives none (Hz): the model's.
+DEFAULT_NOISE_BAND_LOW_HZ: float = Requirements.noise_band_low_hz
+#: Label of an amplifier whose spec gives none.
+DEFAULT_AMPLIFIER_LABEL = "op-amp"
 
 
 class _Schema:
@@ -577,7 +579,7 @@ class _Schema:
 
     def amplifier(self, m: _Map) -> Amplifier | None:
         r = self.r
-        label = m.opt("label", r.text, "op-amp")
+        label = m.opt("label", r.text, DEFAULT_AMPLIFIER_LABEL)
         cmrr = m.need("cmrr", self.level, "a level in decibels such as 100 dB, or ideal", math.nan)
         aol = m.need(
             "open_loop_gain", self.level, "a level in decibels such as 120 dB, or ideal", math.nan
@@ -853,7 +855,7 @@ class _Schema:
                 f"expected a CMRR floor above 0 dB, got {floor:g} dB",
             )
         basis = m.opt("cmrr_basis", r.choice(CmrrBasis), CmrrBasis.WORST_CASE)
-        yield_target = 0.999
+        yield_target = Requirements.yield_target  # unused unless cmrr_basis is yield
         if basis is CmrrBasis.YIELD:
             yield_target = m.need(
                 "yield",
