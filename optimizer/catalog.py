@@ -170,8 +170,7 @@ def _frame(**columns: Any) -> pd.DataFrame:
 
 def _normalise(frame: pd.DataFrame) -> pd.DataFrame:
     for name in _CATEGORY_COLUMNS:
-        if not isinstance(frame[name].dtype, pd.CategoricalDtype):
-            frame[name] = frame[name].astype(object).astype("category")
+        frame[name] = _text_categorical(frame[name])
     frame["part_id"] = frame["part_id"].astype(str)
     frame["stock_qty"] = frame["stock_qty"].astype(np.int64)
     for name in (
@@ -420,6 +419,18 @@ def _series_codes(values: FloatArray, tolerance: FloatArray) -> npt.NDArray[np.i
     for code in range(1, len(_CATALOG_SERIES) + 1):
         codes[(preferred == code) & membership[code - 1]] = code
     return codes
+
+
+def _text_categorical(values: pd.Series) -> pd.Categorical:
+    """A text column as a categorical with plain (object) text categories, so that tables
+    from different sources unite without a dtype clash."""
+    if isinstance(values.dtype, pd.CategoricalDtype):
+        categorical: pd.Categorical = values.array
+        if categorical.categories.dtype == object:
+            return categorical
+        return _from_codes(categorical.codes, [str(c) for c in categorical.categories])
+    codes, uniques = pd.factorize(values.to_numpy(dtype=object))
+    return _from_codes(codes, [str(u) for u in uniques])
 
 
 def _series_categorical(values: FloatArray, tolerance: FloatArray) -> pd.Categorical:
@@ -1743,7 +1754,7 @@ def _concat_frames(first: pd.DataFrame, second: pd.DataFrame) -> pd.DataFrame:
     for name in DISCRETE_COLUMNS:
         if name in _CATEGORY_COLUMNS:
             columns[name] = union_categoricals(
-                [pd.Categorical(first[name]), pd.Categorical(second[name])]
+                [_text_categorical(first[name]), _text_categorical(second[name])]
             )
         else:
             columns[name] = np.concatenate(

@@ -133,9 +133,10 @@ def render_catalog_summary(catalog: Catalog) -> RenderableType:
                     name, _count(len(members)), _count(sum(1 for n in members if n.in_stock))
                 )
         parts.append(kinds)
-    sources = Table(title="Sources", title_justify="left", show_header=False)
-    sources.add_column("source")
-    for source in catalog.sources:
-        sources.add_row(source)
-    parts.append(sources)
+    if catalog.sources:
+        sources = Table(title="Sources", title_justify="left", show_header=False)
+        sources.add_column("source")
+        for source in catalog.sources:
+            sources.add_row(source)
+        parts.append(sources)
     return Group(*parts)
