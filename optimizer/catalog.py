@@ -197,7 +197,7 @@ class Catalog:
     discrete: pd.DataFrame
     networks: tuple[NetworkPart, ...] = ()
     sources: tuple[str, ...] = ()
-    network_sources: tuple[str, ...] = field(default=())
+    network_sources: tuple[str, ...] = ()
 
     def __post_init__(self) -> None:
         if tuple(self.discrete.columns) != DISCRETE_COLUMNS:
@@ -328,10 +328,10 @@ class Catalog:
     def merge(self, other: Catalog) -> Catalog:
         """Both catalogs in one; a part id in both raises :class:`CatalogError` naming both
         files."""
-        common = self.all_ids().intersection(other.all_ids())
-        if len(common) > 0:
-            ids = other.all_ids()
-            first = str(ids[ids.isin(common)][0])
+        first = _first_common(
+            np.asarray(other.all_ids(), dtype=object), np.asarray(self.all_ids(), dtype=object)
+        )
+        if first is not None:
             raise CatalogError(
                 f"duplicate part id {first!r}: it is in {self._source_of(first)} and in "
                 f"{other._source_of(first)}",
@@ -542,6 +542,26 @@ class _Recipe:
         return low, high
 
 
+def _discrete_cost(grade_cost: float, size_factor: float, tempco_premium: float) -> float:
+    """Relative unit cost of a generated discrete part, an ILLUSTRATIVE model of our own (not
+    market data; relative units, not money)::
+
+        unit_cost = grade_cost * size_factor + tempco_premium
+
+    rounded to 4 decimals."""
+    return round(grade_cost * size_factor + tempco_premium, 4)
+
+
+def _network_cost(grade_cost: float, kind_factor: float, shape_factor: float) -> float:
+    """Relative unit cost of a generated network, an ILLUSTRATIVE model of our own (relative
+    units, the same as the discrete parts')::
+
+        unit_cost = grade_cost * kind_factor * shape_factor
+
+    rounded to 4 decimals."""
+    return round(grade_cost * kind_factor * shape_factor, 4)
+
+
 def generate_discrete(
     recipe: Mapping[str, Any], source: str = BUILTIN_DISCRETE_SOURCE
 ) -> pd.DataFrame:
@@ -661,7 +681,7 @@ def generate_discrete(
                         "size": np.full(n, size, dtype=object),
                         "power_w": np.full(n, power),
                         "max_voltage_v": np.full(n, voltage),
-                        "unit_cost": np.full(n, round(cost * factor + premium[tempco], 4)),
+                        "unit_cost": np.full(n, _discrete_cost(cost, factor, premium[tempco])),
                         "stock_qty": np.zeros(n, dtype=np.int64),
                         "technology": np.full(n, tech_name, dtype=object),
                         "drift_1000h": np.full(n, drift),
@@ -793,7 +813,9 @@ def generate_networks(
                             tracking_tempco_per_k=grade["tracking"],
                             power_per_element_w=power,
                             max_voltage_v=voltage,
-                            unit_cost=round(grade["cost"] * kind_factor * shape_factor[shape], 4),
+                            unit_cost=_network_cost(
+                                grade["cost"], kind_factor, shape_factor[shape]
+                            ),
                             drift_1000h=grade["drift"],
                             ratio_drift_1000h=grade["ratio_drift"],
                         )
@@ -843,7 +865,6 @@ class _Table:
     columns: dict[str, pd.Series]
     row_lines: IntArray
     cell_lines: dict[str, IntArray] = field(default_factory=dict)
-    empty_word: str = "no value"
 
     def line(self, column: str, row: int) -> int:
         lines = self.cell_lines.get(column)
@@ -916,7 +937,8 @@ def _categorical(codes: IntArray, labels: npt.NDArray[np.object_]) -> pd.Categor
 
 def _factorise(cells: pd.Series) -> _Cells:
     """Factorise a column of text (or of anything, read as text) into :class:`_Cells`."""
-    codes, uniques = pd.factorize(cells, use_na_sentinel=True)
+    # plain object arrays factorise about twice as fast as pandas' string dtype
+    codes, uniques = pd.factorize(cells.to_numpy(dtype=object), use_na_sentinel=True)
     raw = np.asarray(uniques, dtype=object)
     text = np.array([str(u).strip() for u in raw] + [""], dtype=object)
     codes = np.where(codes < 0, len(uniques), codes).astype(np.int64)
@@ -1066,7 +1088,7 @@ def _read_quantity(
     if empty.any():
         if default is None:
             row = int(np.flatnonzero(empty)[0])
-            return values, _Problem(row, f"{table.empty_word}: expected {quantity.expected}")
+            return values, _Problem(row, f"no value: expected {quantity.expected}")
         values[empty] = default
     bad = ~quantity.valid(values) & ~empty if n else np.zeros(0, dtype=bool)
     if bad.any():
@@ -1089,7 +1111,7 @@ def _read_ids(
     text = factor.rows()
     row = factor.first_row(factor.empty_unique)
     if row is not None:
-        return text, _Problem(row, f"{table.empty_word}: expected a part id")
+        return text, _Problem(row, "no value: expected a part id")
     codes = factor.codes
     if factor.stripped:  # two cells may be equal only after stripping: factorise again
         recoded, _ = pd.factorize(factor.uniques)
@@ -1120,9 +1142,7 @@ def _read_sizes(
     else:
         row = factor.first_row(empty_u)
         if row is not None:
-            return factor.rows(), _Problem(
-                row, f"{table.empty_word}: expected a size code such as 0603"
-            )
+            return factor.rows(), _Problem(row, "no value: expected a size code such as 0603")
     for k, token in enumerate(uniques):
         if token in _KNOWN_SIZES_NO_ZERO or re.search(r"\s", token):
             mask = np.zeros(len(uniques), dtype=bool)
@@ -1196,9 +1216,7 @@ def _read_stock(table: _Table, column: str = "stock") -> tuple[IntArray, _Proble
         empty = empty_u[factor.codes]
     if empty.any():
         row = int(np.flatnonzero(empty)[0])
-        return np.zeros(n, dtype=np.int64), _Problem(
-            row, f"{table.empty_word}: expected {expected}"
-        )
+        return np.zeros(n, dtype=np.int64), _Problem(row, f"no value: expected {expected}")
     bad = ~(
         np.isfinite(values)
         & (values >= 0)
