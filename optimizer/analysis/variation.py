@@ -1,0 +1,695 @@
+# ruff: noqa: RUF002  (Greek letters and symbols are the formulas' own notation)
+"""How the parts of a design vary: the variables of the exact error model, their corners and
+their Monte-Carlo samples.
+
+Model (README, "How parts vary")
+--------------------------------
+A **discrete part** at temperature ``T`` (°C) and end of life has the resistance::
+
+    r = R0·(1 + e)·(1 + α·ΔT)·(1 + d),      ΔT = T − 25 °C
+
+with ``e ∈ [−t, t]`` (initial tolerance at 25 °C), ``α ∈ [−TC, TC]`` (tempco bound, per K)
+and ``d ∈ [−D, D]`` (life drift). ``D = drift_1000h·√(life_h/1000)``: the square-root-of-time
+growth of resistor drift (common practice, from memory). Each discrete part is independent.
+With same-lot tracking (``Preferences.same_lot_tracking``, off by default) discrete parts that
+have the same ``part_id`` share one ``α`` (same reel/lot) but keep their own ``e`` and ``d``.
+
+A **network package** shares, between all of its elements, ``e_abs ∈ [−abs_tol, abs_tol]``,
+``α_abs ∈ [−abs_tc, abs_tc]`` and ``d_abs ∈ [−D_abs, D_abs]``; element ``i`` deviates from the
+package by ``e_i ∈ [−ratio_tol/2, ratio_tol/2]``, ``τ_i ∈ [−track/2, track/2]`` and
+``δ_i ∈ [−D_ratio/2, D_ratio/2]``::
+
+    r_i = R0_i·(1 + e_abs)(1 + e_i)·(1 + (α_abs + τ_i)·ΔT)·(1 + d_abs)(1 + δ_i)
+
+so every element ratio stays within the ratio tolerance (to first order) and tracks within the
+tracking tempco. ``D_abs`` and ``D_ratio`` follow the same square-root-of-time law from the
+part's ``drift_1000h`` and ``ratio_drift_1000h``.
+
+In code every design reduces to a :class:`Variation`: per position (R1..R4) the bounds of its
+*own* variables ``(e, α, d)`` and, for positions that share variables (one network package or
+one same-lot reel), a :class:`SharedGroup` with the bounds of the shared ``(e, α, d)``. The one
+formula :func:`resistances` turns values of all variables into resistances; the worst case
+feeds it the corners (:func:`vertex_values`) and the Monte Carlo the random draws
+(:func:`sample_values`).
+
+**Environment** (non-part) variables, :class:`Environment`: the temperature at the ends of the
+operating range; the source impedances ``Rs1`` (in series with R1) and ``Rs3`` (in series with
+R3), each in ``[min, max]`` with ``|Rs1 − Rs3| ≤ imbalance`` (a polygon: :func:`source_vertices`
+lists its vertices); the REF drive impedance ``Rref ∈ [min, max]``; the amplifier's CMRR at its
+minimum with either sign; the open-loop gain at its minimum or infinite (a datasheet gives a
+minimum).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
+from ..design import Design
+from ..errors import ModelError
+from ..parts import NetworkPart
+from ..spec import Distribution, SourceImpedance, Spec
+
+__all__ = [
+    "IDEAL_ENVIRONMENT",
+    "REFERENCE_TEMPERATURE_C",
+    "AmplifierCorners",
+    "Environment",
+    "PassiveCorners",
+    "SharedGroup",
+    "VariableValues",
+    "Variation",
+    "amplifier_corners",
+    "discrete_factor_bounds",
+    "drift_bound",
+    "environment_from_spec",
+    "passive_corners",
+    "resistances",
+    "sample_values",
+    "sign_matrix",
+    "source_vertices",
+    "static_and_tempco",
+    "temperature_offset_k",
+    "variation_from_design",
+    "vertex_values",
+]
+
+Array = NDArray[np.float64]
+
+#: Temperature at which tolerances are specified (°C); ΔT is measured from here.
+REFERENCE_TEMPERATURE_C = 25.0
+
+_HOURS_PER_SECOND = 1.0 / 3600.0
+_DRIFT_REFERENCE_H = 1000.0
+
+
+# --------------------------------------------------------------------------------------------
+# Small pure formulas
+# --------------------------------------------------------------------------------------------
+
+
+def drift_bound(drift_1000h: float, life_s: float) -> float:
+    """End-of-life drift bound ``D = drift_1000h·√(life_h / 1000 h)`` (fraction).
+
+    ``drift_1000h`` is the drift bound after a 1000 h load-life test (fraction), ``life_s`` the
+    operating life in seconds. Drift of film resistors grows roughly with the square root of
+    time (common practice, from memory); it is the model Quartet uses to extrapolate the
+    1000 h figure to the required life.
+    """
+    if (
+        drift_1000h < 0.0
+        or life_s < 0.0
+        or not (math.isfinite(drift_1000h) and math.isfinite(life_s))
+    ):
+        raise ModelError(
+            "drift",
+            "value",
+            f"expected finite values of zero or more, got {drift_1000h!r}, {life_s!r}",
+        )
+    return drift_1000h * math.sqrt(life_s * _HOURS_PER_SECOND / _DRIFT_REFERENCE_H)
+
+
+def temperature_offset_k(temperature_c: ArrayLike) -> Array:
+    """ΔT = T − 25 °C in kelvin: the tempco acts on the offset from the temperature at which
+    the tolerance is specified."""
+    return np.asarray(temperature_c, dtype=float) - REFERENCE_TEMPERATURE_C
+
+
+def source_vertices(min_ohm: float, max_ohm: float, imbalance_ohm: float) -> Array:
+    """Vertices ``(Rs1, Rs3)`` in ohms of the source-impedance polygon
+    ``{min ≤ Rs1 ≤ max, min ≤ Rs3 ≤ max, |Rs1 − Rs3| ≤ imbalance}``.
+
+    The square ``[min, max]²`` cut by the band ``|Rs1 − Rs3| ≤ imbalance`` is a hexagon when
+    ``0 < imbalance < max − min``, the whole square when the imbalance is at least the span,
+    and the diagonal segment when the imbalance is zero (plane geometry). Duplicates are
+    removed, order is kept. Returns an array of shape ``(k, 2)``, ``1 ≤ k ≤ 6``.
+    """
+    lo, hi, imb = float(min_ohm), float(max_ohm), float(imbalance_ohm)
+    if (
+        not (math.isfinite(lo) and math.isfinite(hi) and math.isfinite(imb))
+        or lo < 0.0
+        or hi < lo
+        or imb < 0.0
+    ):
+        raise ModelError(
+            "source impedance",
+            "range",
+            f"expected 0 ≤ min ≤ max and imbalance ≥ 0, got {lo!r}, {hi!r}, {imb!r}",
+        )
+    span = hi - lo
+    if imb >= span:
+        points = [(lo, lo), (lo, hi), (hi, hi), (hi, lo)]
+    else:
+        points = [
+            (lo, lo),
+            (lo, lo + imb),
+            (hi - imb, hi),
+            (hi, hi),
+            (hi, hi - imb),
+            (lo + imb, lo),
+        ]
+    unique: list[tuple[float, float]] = []
+    for point in points:
+        if point not in unique:
+            unique.append(point)
+    return np.array(unique, dtype=float)
+
+
+def discrete_factor_bounds(
+    tolerance: ArrayLike, tempco_per_k: ArrayLike, drift: ArrayLike, max_abs_delta_t_k: float
+) -> tuple[Array, Array]:
+    """Bounds ``(low, high)`` of ``r/R0`` for independent discrete parts over a temperature
+    range whose largest ``|ΔT|`` is ``max_abs_delta_t_k``:
+    ``low = (1 − t)(1 − TC·|ΔT|)(1 − D)``, ``high = (1 + t)(1 + TC·|ΔT|)(1 + D)`` (the ends of
+    ``r = R0·(1+e)(1+α·ΔT)(1+d)``; the range of ``α·ΔT`` only widens with ``|ΔT|``)."""
+    t = np.asarray(tolerance, dtype=float)
+    tc = np.asarray(tempco_per_k, dtype=float) * abs(float(max_abs_delta_t_k))
+    d = np.asarray(drift, dtype=float)
+    return (1.0 - t) * (1.0 - tc) * (1.0 - d), (1.0 + t) * (1.0 + tc) * (1.0 + d)
+
+
+def sign_matrix(count: int) -> Array:
+    """All ``2**count`` vectors of ±1 as the rows of a ``(2**count, count)`` array (the
+    vertices of the cube ``[−1, 1]**count``)."""
+    if count < 0:
+        raise ModelError("corners", "count", f"expected zero or more dimensions, got {count}")
+    index = np.arange(2**count)[:, None]
+    bits = (index >> np.arange(count)[None, :]) & 1
+    return 2.0 * bits.astype(float) - 1.0
+
+
+# --------------------------------------------------------------------------------------------
+# The variables of a design
+# --------------------------------------------------------------------------------------------
+
+
+def _check_bound(owner: str, field: str, value: float) -> None:
+    if (
+        isinstance(value, bool)
+        or not isinstance(value, (int, float))
+        or not math.isfinite(value)
+        or value < 0.0
+    ):
+        raise ModelError(owner, field, f"expected a finite bound of zero or more, got {value!r}")
+
+
+@dataclass(frozen=True)
+class SharedGroup:
+    """Variables shared by the positions of one network package or one same-lot reel.
+
+    ``tolerance`` bounds the shared initial error (fraction), ``tempco_per_k`` the shared
+    tempco (per K), ``drift`` the shared end-of-life drift (fraction)."""
+
+    label: str
+    positions: tuple[int, ...]
+    tolerance: float
+    tempco_per_k: float
+    drift: float
+
+    def __post_init__(self) -> None:
+        owner = f"shared group {self.label}"
+        if not self.positions or any(p not in (0, 1, 2, 3) for p in self.positions):
+            raise ModelError(
+                owner, "positions", f"expected position indices 0..3, got {self.positions!r}"
+            )
+        if len(set(self.positions)) != len(self.positions):
+            raise ModelError(owner, "positions", f"a position appears twice in {self.positions!r}")
+        for field in ("tolerance", "tempco_per_k", "drift"):
+            _check_bound(owner, field, getattr(self, field))
+        if self.tolerance >= 0.5 or self.drift >= 0.5:
+            raise ModelError(owner, "tolerance", "expected tolerance and drift bounds below 0.5")
+
+
+Quad = tuple[float, float, float, float]
+
+
+@dataclass(frozen=True)
+class Variation:
+    """How the four resistors R1..R4 of a design vary.
+
+    ``nominal_ohm``: nominal values; ``tolerance``, ``tempco_per_k``, ``drift``: bounds of each
+    position's *own* variables (for a network element: half the ratio tolerance, half the
+    tracking tempco, half the ratio drift); ``groups``: the shared variables (at most one group
+    per position).
+    """
+
+    nominal_ohm: Quad
+    tolerance: Quad = (0.0, 0.0, 0.0, 0.0)
+    tempco_per_k: Quad = (0.0, 0.0, 0.0, 0.0)
+    drift: Quad = (0.0, 0.0, 0.0, 0.0)
+    groups: tuple[SharedGroup, ...] = ()
+
+    def __post_init__(self) -> None:
+        for field in ("nominal_ohm", "tolerance", "tempco_per_k", "drift"):
+            values = getattr(self, field)
+            if not isinstance(values, tuple) or len(values) != 4:
+                raise ModelError("variation", field, "expected four values (R1, R2, R3, R4)")
+            for index, value in enumerate(values):
+                _check_bound("variation", f"{field}[R{index + 1}]", value)
+        if any(v <= 0.0 for v in self.nominal_ohm):
+            raise ModelError("variation", "nominal_ohm", "expected resistances above zero")
+        if any(v >= 0.5 for v in self.tolerance + self.drift):
+            raise ModelError(
+                "variation", "tolerance", "expected tolerance and drift bounds below 0.5"
+            )
+        seen: set[int] = set()
+        for group in self.groups:
+            if seen.intersection(group.positions):
+                raise ModelError(
+                    "variation", "groups", f"position in more than one group ({group.label})"
+                )
+            seen.update(group.positions)
+
+    @property
+    def nominal(self) -> Array:
+        """Nominal resistances as a ``(4,)`` array in ohms."""
+        return np.array(self.nominal_ohm, dtype=float)
+
+    @property
+    def membership(self) -> Array:
+        """``(G, 4)`` array: 1 where position ``i`` belongs to group ``g``, else 0."""
+        matrix = np.zeros((len(self.groups), 4))
+        for g, group in enumerate(self.groups):
+            matrix[g, list(group.positions)] = 1.0
+        return matrix
+
+    @property
+    def group_of(self) -> tuple[int, int, int, int]:
+        """For each position the index of its group, −1 when it shares nothing."""
+        owner = [-1, -1, -1, -1]
+        for g, group in enumerate(self.groups):
+            for position in group.positions:
+                owner[position] = g
+        return owner[0], owner[1], owner[2], owner[3]
+
+    def with_nominal(self, nominal_ohm: Quad) -> Variation:
+        """The same variation around other nominal values."""
+        return Variation(nominal_ohm, self.tolerance, self.tempco_per_k, self.drift, self.groups)
+
+    def only(
+        self, *, tolerance: bool = False, tempco: bool = False, drift: bool = False
+    ) -> Variation:
+        """The variation with only the chosen kinds of variable left active (others zero)."""
+
+        def keep(values: Quad, flag: bool) -> Quad:
+            return values if flag else (0.0, 0.0, 0.0, 0.0)
+
+        groups = tuple(
+            SharedGroup(
+                g.label,
+                g.positions,
+                g.tolerance if tolerance else 0.0,
+                g.tempco_per_k if tempco else 0.0,
+                g.drift if drift else 0.0,
+            )
+            for g in self.groups
+        )
+        return Variation(
+            self.nominal_ohm,
+            keep(self.tolerance, tolerance),
+            keep(self.tempco_per_k, tempco),
+            keep(self.drift, drift),
+            groups,
+        )
+
+
+def variation_from_design(
+    design: Design, life_s: float = 0.0, same_lot_tracking: bool = False
+) -> Variation:
+    """The :class:`Variation` of a design at the end of ``life_s`` seconds (module docstring
+    for the model). Network packages become shared groups; with ``same_lot_tracking`` so do
+    discrete parts used more than once under the same ``part_id`` (shared tempco only)."""
+    nominal: list[float] = []
+    tolerance: list[float] = []
+    tempco: list[float] = []
+    drift: list[float] = []
+    packages: dict[tuple[str, int], list[int]] = {}
+    package_parts: dict[tuple[str, int], NetworkPart] = {}
+    lots: dict[str, list[int]] = {}
+    for index, placement in enumerate(design.placements):
+        part = placement.part
+        nominal.append(placement.resistance_ohm)
+        if isinstance(part, NetworkPart):
+            key = placement.package_key
+            assert key is not None
+            packages.setdefault(key, []).append(index)
+            package_parts[key] = part
+            tolerance.append(part.ratio_tolerance / 2.0)
+            tempco.append(part.tracking_tempco_per_k / 2.0)
+            drift.append(drift_bound(part.ratio_drift_1000h, life_s) / 2.0)
+        else:
+            lots.setdefault(part.part_id, []).append(index)
+            tolerance.append(part.tolerance)
+            tempco.append(part.tempco_per_k)
+            drift.append(drift_bound(part.drift_1000h, life_s))
+    groups: list[SharedGroup] = []
+    for key, positions in packages.items():
+        part = package_parts[key]
+        groups.append(
+            SharedGroup(
+                f"{key[0]} package {key[1] + 1}",
+                tuple(positions),
+                part.abs_tolerance,
+                part.abs_tempco_per_k,
+                drift_bound(part.drift_1000h, life_s),
+            )
+        )
+    if same_lot_tracking:
+        for part_id, positions in lots.items():
+            shared_tc = tempco[positions[0]]
+            if len(positions) < 2 or shared_tc == 0.0:
+                continue
+            for position in positions:
+                tempco[position] = 0.0
+            groups.append(SharedGroup(f"lot {part_id}", tuple(positions), 0.0, shared_tc, 0.0))
+
+    def quad(values: list[float]) -> Quad:
+        return values[0], values[1], values[2], values[3]
+
+    return Variation(quad(nominal), quad(tolerance), quad(tempco), quad(drift), tuple(groups))
+
+
+@dataclass(frozen=True)
+class VariableValues:
+    """Values of every part variable for ``n`` builds (or corners).
+
+    ``own_*``: ``(n, 4)`` arrays, one column per position; ``shared_*``: ``(n, G)`` arrays, one
+    column per :class:`SharedGroup`. Errors and drifts are fractions, tempcos per kelvin."""
+
+    own_error: Array
+    own_tempco: Array
+    own_drift: Array
+    shared_error: Array
+    shared_tempco: Array
+    shared_drift: Array
+
+    @property
+    def count(self) -> int:
+        return int(self.own_error.shape[0])
+
+
+def static_and_tempco(variation: Variation, values: VariableValues) -> tuple[Array, Array]:
+    """Split ``r = base·(1 + α_total·ΔT)`` into its temperature-independent part and its tempco.
+
+    ``base_i = R0_i·(1 + e_i)(1 + e_g)·(1 + d_i)(1 + d_g)`` (ohms) and
+    ``α_total,i = α_i + α_g`` (per K), where ``g`` is the group of position ``i`` (shared terms
+    are zero for positions without a group). Returns two ``(n, 4)`` arrays."""
+    nominal = variation.nominal
+    base = (1.0 + values.own_error) * (1.0 + values.own_drift)
+    alpha = values.own_tempco.copy()
+    if variation.groups:
+        member = variation.membership
+        base *= (1.0 + values.shared_error @ member) * (1.0 + values.shared_drift @ member)
+        alpha += values.shared_tempco @ member
+    base *= nominal
+    return base, alpha
+
+
+def resistances(variation: Variation, values: VariableValues, delta_t_k: ArrayLike) -> Array:
+    """Resistances ``(n, 4)`` in ohms of ``n`` builds at ``ΔT = T − 25 °C``:
+    ``r_i = R0_i·(1+e_i)(1+e_g)·(1 + (α_i + α_g)·ΔT)·(1+d_i)(1+d_g)`` (module docstring).
+    ``delta_t_k`` is a scalar or an ``(n,)`` array in kelvin."""
+    base, alpha = static_and_tempco(variation, values)
+    dt = np.asarray(delta_t_k, dtype=float)
+    if dt.ndim == 1:
+        dt = dt[:, None]
+    r: Array = base * (1.0 + alpha * dt)
+    return r
+
+
+def _empty_values(count: int, groups: int) -> VariableValues:
+    def own() -> Array:
+        return np.zeros((4, count)).T  # columns contiguous
+
+    def shared() -> Array:
+        return np.zeros((count, groups))
+
+    return VariableValues(own(), own(), own(), shared(), shared(), shared())
+
+
+def vertex_values(variation: Variation, delta_t_k: float) -> VariableValues:
+    """The corners of the part variables at one temperature offset ``ΔT`` (kelvin).
+
+    Each position's own variables ``(e, α·ΔT, d)`` move its resistance the same way, so they
+    take their extremes together under one sign per position; a group's shared ``e`` and ``d``
+    only act through their product (one common scale of the group), so they take one sign
+    together too; the group's shared ``α`` takes its own sign. Dimensions whose bounds are
+    zero are left out. Returns the values of all ``2**k`` sign combinations."""
+    dims: list[tuple[str, int]] = []
+    tc_sign = 1.0 if delta_t_k >= 0.0 else -1.0
+    warm = delta_t_k != 0.0
+    for i in range(4):
+        if (
+            variation.tolerance[i] > 0.0
+            or variation.drift[i] > 0.0
+            or (warm and variation.tempco_per_k[i] > 0.0)
+        ):
+            dims.append(("own", i))
+    for g, group in enumerate(variation.groups):
+        if group.tolerance > 0.0 or group.drift > 0.0:
+            dims.append(("scale", g))
+        if warm and group.tempco_per_k > 0.0:
+            dims.append(("tempco", g))
+    signs = sign_matrix(len(dims))
+    values = _empty_values(signs.shape[0], len(variation.groups))
+    for column, (kind, index) in enumerate(dims):
+        s = signs[:, column]
+        if kind == "own":
+            values.own_error[:, index] = s * variation.tolerance[index]
+            values.own_drift[:, index] = s * variation.drift[index]
+            values.own_tempco[:, index] = s * (tc_sign * variation.tempco_per_k[index])
+        elif kind == "scale":
+            values.shared_error[:, index] = s * variation.groups[index].tolerance
+            values.shared_drift[:, index] = s * variation.groups[index].drift
+        else:
+            values.shared_tempco[:, index] = s * variation.groups[index].tempco_per_k
+    return values
+
+
+def _spread(distribution: Distribution, sigma_k: float) -> tuple[bool, float]:
+    if sigma_k <= 0.0 or not math.isfinite(sigma_k):
+        raise ModelError("monte carlo", "sigma_k", f"expected a number above zero, got {sigma_k!r}")
+    return distribution is Distribution.NORMAL, 1.0 / sigma_k
+
+
+def sample_values(
+    variation: Variation,
+    rng: np.random.Generator,
+    count: int,
+    distribution: Distribution = Distribution.NORMAL,
+    sigma_k: float = 3.0,
+) -> VariableValues:
+    """``count`` random builds: every variable with a non-zero bound ``b`` is drawn
+    independently, uniform on ``[−b, b]`` or normal with standard deviation ``σ = b/k``
+    (``k = sigma_k``; the bound is the ``k·σ`` point; the normal is *not* truncated).
+
+    Draws are made in bulk, one row per build in a fixed variable order (own e, α, d of R1..R4,
+    then e, α, d of each group), so a seed gives the same builds whatever the chunking."""
+    normal, inv_k = _spread(distribution, sigma_k)
+    bounds: list[float] = []
+    slots: list[tuple[str, int]] = []
+    for i in range(4):
+        for kind, bound in (
+            ("own_error", variation.tolerance[i]),
+            ("own_tempco", variation.tempco_per_k[i]),
+            ("own_drift", variation.drift[i]),
+        ):
+            if bound > 0.0:
+                bounds.append(bound)
+                slots.append((kind, i))
+    for g, group in enumerate(variation.groups):
+        for kind, bound in (
+            ("shared_error", group.tolerance),
+            ("shared_tempco", group.tempco_per_k),
+            ("shared_drift", group.drift),
+        ):
+            if bound > 0.0:
+                bounds.append(bound)
+                slots.append((kind, g))
+    values = _empty_values(count, len(variation.groups))
+    if not slots:
+        return values
+    scale = np.array(bounds)
+    if normal:
+        draws = rng.standard_normal((count, len(slots)))
+        draws *= scale * inv_k
+    else:
+        draws = rng.random((count, len(slots)))
+        draws *= 2.0 * scale
+        draws -= scale
+    for column, (kind, index) in enumerate(slots):
+        getattr(values, kind)[:, index] = draws[:, column]
+    return values
+
+
+# --------------------------------------------------------------------------------------------
+# The environment
+# --------------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class Environment:
+    """The non-part variables at their extremes.
+
+    ``temperatures_c``: ends of the operating range (°C); ``source_ohm``: vertices
+    ``(Rs1, Rs3)`` of the source-impedance polygon (ohms); ``ref_ohm``: ends of the REF
+    impedance range (ohms); ``amp_cmrr``: the amplifier's minimum CMRR (ratio, ``inf`` ideal);
+    ``open_loop_gain``: its minimum open-loop gain (ratio, ``inf`` ideal)."""
+
+    temperatures_c: tuple[float, ...] = (REFERENCE_TEMPERATURE_C,)
+    source_ohm: tuple[tuple[float, float], ...] = ((0.0, 0.0),)
+    ref_ohm: tuple[float, ...] = (0.0,)
+    amp_cmrr: float = math.inf
+    open_loop_gain: float = math.inf
+
+    def __post_init__(self) -> None:
+        if not self.temperatures_c or not all(
+            math.isfinite(t) and t > -273.15 for t in self.temperatures_c
+        ):
+            raise ModelError(
+                "environment",
+                "temperatures",
+                f"expected finite temperatures, got {self.temperatures_c!r}",
+            )
+        if not self.source_ohm or any(
+            len(v) != 2 or not all(math.isfinite(x) and x >= 0.0 for x in v)
+            for v in self.source_ohm
+        ):
+            raise ModelError(
+                "environment", "source", f"expected (Rs1, Rs3) pairs ≥ 0, got {self.source_ohm!r}"
+            )
+        if not self.ref_ohm or not all(math.isfinite(x) and x >= 0.0 for x in self.ref_ohm):
+            raise ModelError(
+                "environment", "reference", f"expected impedances ≥ 0, got {self.ref_ohm!r}"
+            )
+        for field in ("amp_cmrr", "open_loop_gain"):
+            value = getattr(self, field)
+            if math.isnan(value) or value <= 0.0:
+                raise ModelError(
+                    "environment", field, f"expected a ratio above zero, got {value!r}"
+                )
+
+    @property
+    def has_impedance(self) -> bool:
+        """True when any source or REF impedance is non-zero (the error is then no longer
+        invariant under a common scale of the resistors)."""
+        return any(x > 0.0 for v in self.source_ohm for x in v) or any(
+            x > 0.0 for x in self.ref_ohm
+        )
+
+    @property
+    def delta_t_k(self) -> tuple[float, ...]:
+        return tuple(t - REFERENCE_TEMPERATURE_C for t in self.temperatures_c)
+
+    def amplifier_only(self) -> Environment:
+        """This environment with the amplifier made ideal."""
+        return Environment(self.temperatures_c, self.source_ohm, self.ref_ohm)
+
+
+#: 25 °C only, no source or REF impedance, ideal amplifier.
+IDEAL_ENVIRONMENT = Environment()
+
+
+def _unique(values: tuple[float, ...]) -> tuple[float, ...]:
+    out: list[float] = []
+    for v in values:
+        if v not in out:
+            out.append(v)
+    return tuple(out)
+
+
+def environment_from_spec(spec: Spec) -> Environment:
+    """The :class:`Environment` of a spec: temperature range ends, source-impedance polygon
+    vertices, REF impedance range ends, the amplifier's minimum CMRR and open-loop gain."""
+    req = spec.requirements
+    source: SourceImpedance = spec.signal.source
+    vertices = source_vertices(source.min_ohm, source.max_ohm, source.imbalance_ohm)
+    return Environment(
+        temperatures_c=_unique((req.temp_min_c, req.temp_max_c)),
+        source_ohm=tuple((float(a), float(b)) for a, b in vertices),
+        ref_ohm=_unique((spec.reference.impedance_min_ohm, spec.reference.impedance_max_ohm)),
+        amp_cmrr=spec.amplifier.cmrr_ratio,
+        open_loop_gain=spec.amplifier.open_loop_gain,
+    )
+
+
+# --------------------------------------------------------------------------------------------
+# Corner arrays
+# --------------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class PassiveCorners:
+    """Every corner of the resistors and the passive environment, flattened: ``r`` is
+    ``(N, 4)`` ohms, ``rs1``, ``rs3``, ``rref`` and ``temperature_c`` are ``(N,)``."""
+
+    r: Array
+    rs1: Array
+    rs3: Array
+    rref: Array
+    temperature_c: Array
+
+    @property
+    def count(self) -> int:
+        return int(self.r.shape[0])
+
+
+@dataclass(frozen=True)
+class AmplifierCorners:
+    """The amplifier corners: minimum CMRR with sign ±1, open-loop gain at its minimum and
+    at infinity (all ``(k,)`` arrays, ``k ≤ 4``)."""
+
+    cmrr: Array
+    sign: Array
+    open_loop_gain: Array
+
+    @property
+    def count(self) -> int:
+        return int(self.cmrr.shape[0])
+
+
+def passive_corners(variation: Variation, environment: Environment) -> PassiveCorners:
+    """The product of the part vertices at each temperature (:func:`vertex_values`) with the
+    source-impedance vertices and the REF impedance ends."""
+    source = np.array(environment.source_ohm, dtype=float)
+    ref = np.array(environment.ref_ohm, dtype=float)
+    blocks: list[tuple[Array, float]] = []
+    for temperature in environment.temperatures_c:
+        dt = temperature - REFERENCE_TEMPERATURE_C
+        blocks.append((resistances(variation, vertex_values(variation, dt), dt), temperature))
+    env_count = source.shape[0] * ref.shape[0]
+    rs1_env = np.repeat(source[:, 0], ref.shape[0])
+    rs3_env = np.repeat(source[:, 1], ref.shape[0])
+    rref_env = np.tile(ref, source.shape[0])
+    r_parts, rs1, rs3, rref, temps = [], [], [], [], []
+    for r, temperature in blocks:
+        n = r.shape[0]
+        r_parts.append(np.repeat(r, env_count, axis=0))
+        rs1.append(np.tile(rs1_env, n))
+        rs3.append(np.tile(rs3_env, n))
+        rref.append(np.tile(rref_env, n))
+        temps.append(np.full(n * env_count, temperature))
+    return PassiveCorners(
+        np.concatenate(r_parts),
+        np.concatenate(rs1),
+        np.concatenate(rs3),
+        np.concatenate(rref),
+        np.concatenate(temps),
+    )
+
+
+def amplifier_corners(environment: Environment) -> AmplifierCorners:
+    """Amplifier corners: the CMRR sign is unknown (both), the open-loop gain is a minimum
+    (``A_min`` and ``inf``); ideal quantities give a single corner."""
+    signs = [1.0, -1.0] if math.isfinite(environment.amp_cmrr) else [1.0]
+    gains = (
+        [environment.open_loop_gain, math.inf]
+        if math.isfinite(environment.open_loop_gain)
+        else [math.inf]
+    )
+    sign = np.repeat(np.array(signs), len(gains))
+    gain = np.tile(np.array(gains), len(signs))
+    return AmplifierCorners(np.full(sign.shape, environment.amp_cmrr), sign, gain)
