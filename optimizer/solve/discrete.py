@@ -1,0 +1,218 @@
+"""Discrete parts for the CP-SAT model, factored into values and grade classes.
+
+A catalog of tens of thousands (or a million) discrete parts is mostly a product: every grade
+(tolerance, tempco, drift, rating, cost, stock) comes in every value of its series. The model
+therefore picks, per position, one *value* and one *class* (the part's attributes other than
+its value and id), linked by the class's availability at that value. This keeps the model
+small (values + classes per position, not values × classes) without losing anything: every
+(class, value) pair the model can choose is a real part, and every real part is such a pair.
+
+Classes that can never be better than another class at a position (more expensive, no
+tighter, no better rated, not stocked where the other is, and available at no more values) are
+dropped; so are parts outside the resistance window, not rated for the position's stress, or
+not in stock when only stock may be used.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+from numpy.typing import NDArray
+
+from ..catalog import Catalog
+from ..spec import CmrrBasis, Distribution, Spec, StockPolicy
+from .environment import LinearEnvironment, life_drift
+from .options import BOLTZMANN, log_deviation, variance
+
+__all__ = ["DiscreteBlock", "build_discrete"]
+
+#: Ratings this far above the estimated stress count as equally good when comparing classes.
+SAFE_RATING = 1.5
+#: A rating must cover this fraction of the estimated stress (a relaxation: the exact check
+#: verifies the real stress of the chosen design).
+RATING_RELAXATION = 0.97
+
+
+@dataclass(frozen=True)
+class DiscreteBlock:
+    """Values and classes of the discrete parts the pick may use.
+
+    ``values``: (K,) distinct resistances in ohms, ascending; per class (C,): ``cost`` (with
+    placement cost and stock penalty), ``own`` (log deviation, worst-case side), ``var``
+    (variance), ``tolerance``; ``avail[i][c]``: value indices where class c may sit at position
+    i (empty: not usable there); ``part_row[(c, k)]``: the catalog row of that part;
+    ``part_id[(c, k)]``: its id."""
+
+    values: NDArray[np.float64]
+    cost: NDArray[np.float64]
+    own: NDArray[np.float64]
+    var: NDArray[np.float64]
+    tolerance: NDArray[np.float64]
+    avail: tuple[tuple[NDArray[np.int64], ...], ...]
+    part_row: dict[tuple[int, int], int]
+    part_id: dict[tuple[int, int], str]
+
+    @property
+    def class_count(self) -> int:
+        return int(self.cost.shape[0])
+
+    def usable(self, position: int) -> list[int]:
+        """Classes usable at ``position``."""
+        return [c for c, ks in enumerate(self.avail[position]) if ks.size]
+
+    def value_indices(self, position: int) -> NDArray[np.int64]:
+        """Value indices usable at ``position`` (by at least one class)."""
+        parts = [ks for ks in self.avail[position] if ks.size]
+        return np.unique(np.concatenate(parts)) if parts else np.zeros(0, dtype=np.int64)
+
+
+def _empty() -> DiscreteBlock:
+    none = tuple(tuple() for _ in range(4))
+    return DiscreteBlock(np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0), none, {}, {})
+
+
+def build_discrete(catalog: Catalog, spec: Spec, env: LinearEnvironment) -> DiscreteBlock:
+    """Factor the catalog's discrete parts into values and classes for ``spec``."""
+    prefs = spec.preferences
+    frame = catalog.discrete
+    if frame.empty:
+        return _empty()
+    r = frame["resistance_ohm"].to_numpy(float)
+    stock = frame["stock_qty"].to_numpy() > 0
+    keep = (r >= prefs.resistance_min_ohm * (1 - 1e-9)) & (r <= prefs.resistance_max_ohm * (1 + 1e-9))
+    if prefs.stock is StockPolicy.ONLY:
+        keep &= stock
+    rows = np.flatnonzero(keep)
+    if rows.size == 0:
+        return _empty()
+    penalty = prefs.stock_penalty if prefs.stock is StockPolicy.PREFER else 0.0
+    attrs = pd.DataFrame(
+        {
+            "cost": frame["unit_cost"].to_numpy(float)[rows] + prefs.placement_cost + np.where(stock[rows], 0.0, penalty),
+            "t": frame["tolerance"].to_numpy(float)[rows],
+            "tc": frame["tempco_per_k"].to_numpy(float)[rows],
+            "d": life_drift(frame["drift_1000h"].to_numpy(float)[rows], env.life_h),
+            "p": frame["power_w"].to_numpy(float)[rows] * env.derating,
+            "v": frame["max_voltage_v"].to_numpy(float)[rows],
+            "stock": stock[rows],
+        }
+    )
+    class_of = attrs.groupby(list(attrs.columns), sort=False).ngroup().to_numpy()
+    classes = attrs.drop_duplicates().reset_index(drop=True)
+    values, value_of = np.unique(r[rows], return_inverse=True)
+    ids = frame["part_id"].to_numpy()[rows].astype(str)
+    # One part per (class, value): the first id in sort order.
+    order = np.lexsort((ids, value_of, class_of))
+    pair = class_of[order].astype(np.int64) * values.size + value_of[order]
+    first = np.r_[True, pair[1:] != pair[:-1]]
+    chosen = order[first]
+    part_row = {(int(class_of[i]), int(value_of[i])): int(rows[i]) for i in chosen}
+    part_id = {(int(class_of[i]), int(value_of[i])): str(ids[i]) for i in chosen}
+    n_classes = len(classes)
+    at_value = [[] for _ in range(n_classes)]  # type: list[list[int]]
+    for c, k in part_row:
+        at_value[c].append(k)
+    class_values = [np.array(sorted(ks), dtype=np.int64) for ks in at_value]
+
+    t = classes["t"].to_numpy(float)
+    tc = classes["tc"].to_numpy(float) * env.delta_t_k
+    d = classes["d"].to_numpy(float)
+    power = classes["p"].to_numpy(float)
+    volts = classes["v"].to_numpy(float)
+    cost = classes["cost"].to_numpy(float)
+    stocked = classes["stock"].to_numpy(bool)
+    if spec.requirements.cmrr_basis is CmrrBasis.WORST_CASE:
+        spread = np.column_stack([np.log1p(t) + np.log1p(tc) + np.log1p(d), -(np.log1p(-t) + np.log1p(-tc) + np.log1p(-d))])
+    else:
+        spread = np.column_stack([t, tc, d])
+    avail: list[tuple[NDArray[np.int64], ...]] = []
+    for position in range(4):
+        stress = float(env.stress_v[position])
+        usable: list[NDArray[np.int64]] = []
+        for c in range(n_classes):
+            ks = class_values[c]
+            ok = (volts[c] >= RATING_RELAXATION * stress) & (power[c] * values[ks] >= RATING_RELAXATION * stress**2)
+            usable.append(ks[ok])
+        avail.append(tuple(_drop_dominated(usable, cost, spread, power, volts, stocked, values, stress)))
+    dist, k = prefs.distribution, prefs.sigma_k
+    return DiscreteBlock(
+        values=values,
+        cost=cost,
+        own=log_deviation(t, tc, d),
+        var=variance(dist, k, t, tc, d),
+        tolerance=t,
+        avail=tuple(avail),
+        part_row=part_row,
+        part_id=part_id,
+    )
+
+
+def _drop_dominated(
+    usable: list[NDArray[np.int64]],
+    cost: NDArray[np.float64],
+    spread: NDArray[np.float64],
+    power: NDArray[np.float64],
+    volts: NDArray[np.float64],
+    stocked: NDArray[np.bool_],
+    values: NDArray[np.float64],
+    stress: float,
+) -> list[NDArray[np.int64]]:
+    """Empty the availability of every class another class dominates at this position: no more
+    expensive, no wider spread, stocked if it is, available wherever it is, and rated no worse
+    (ratings above SAFE_RATING × the stress count as equal). Equal classes keep the first."""
+    live = [c for c, ks in enumerate(usable) if ks.size]
+    if len(live) < 2:
+        return usable
+    result = list(usable)
+    masks = {}
+    for c in live:
+        mask = np.zeros(values.size, dtype=bool)
+        mask[usable[c]] = True
+        masks[c] = mask
+    need_p = {c: stress**2 / values[usable[c]].min() for c in live}
+    for c in live:
+        for other in live:
+            if other == c or not result[other].size:
+                continue
+            if cost[other] > cost[c] + 1e-12 or np.any(spread[other] > spread[c] + 1e-15):
+                continue
+            if stocked[c] and not stocked[other]:
+                continue
+            if np.any(masks[c] & ~masks[other]):
+                continue
+            if min(power[other], SAFE_RATING * need_p[c]) < min(power[c], SAFE_RATING * need_p[c]) - 1e-15:
+                continue
+            if min(volts[other], SAFE_RATING * stress) < min(volts[c], SAFE_RATING * stress) - 1e-12:
+                continue
+            equal = cost[other] == cost[c] and np.all(spread[other] == spread[c])
+            if equal and other > c:
+                continue
+            result[c] = np.zeros(0, dtype=np.int64)
+            break
+    return result
+
+
+def value_constants(
+    block: DiscreteBlock, spec: Spec, env: LinearEnvironment
+) -> tuple[NDArray[np.float64], NDArray[np.float64], NDArray[np.float64]]:
+    """Per position i, value k and vertex v: φ = ln(R_k + rs_i,v) (K, V, 4), the fraction
+    f = R_k/(R_k + rs_i,v) (K, V, 4), and the output noise power density (V²/Hz) of value k at
+    position i (K, 4) (the formulas of ``options._noise_terms``)."""
+    vertices = env.vertices
+    series = np.stack([vertices[:, 0], np.zeros(len(vertices)), vertices[:, 1], vertices[:, 2]], axis=1)  # (V, 4)
+    r = block.values[:, None, None]
+    effective = r + series[None, :, :]
+    g = spec.requirements.gain
+    four_kt = 4.0 * BOLTZMANN * env.hottest_k
+    i_n = spec.amplifier.current_noise_a_rthz
+    v = block.values
+    noise = np.stack(
+        [four_kt * v * g**2, four_kt * v + (i_n * v) ** 2, four_kt * v * g**2 + (i_n * v * g) ** 2, four_kt * v],
+        axis=1,
+    )
+    return np.log(effective), r / effective, noise
+
+
+_ = Distribution  # re-exported type used in annotations of callers

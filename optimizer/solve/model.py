@@ -1,0 +1,517 @@
+"""The CP-SAT model of the pick: an exact cover of R1..R4 by options under linear requirements.
+
+Linearisation (first order, in logs of effective resistances; see ``options``):
+
+* CMRR. CMRR⁻¹ of the resistors equals 2·tanh(|ln x|/2) with ln x = g(y₁) − g(y₂),
+  y₁ = ln(R2/R1'), y₂ = ln(R4'/R3'), g(y) = −ln(1 + e^−y) (exact algebra of the transfer in
+  ``optimizer.analysis.transfer``). Since g' = 1/(1+e^y) lies between 1/(1+G_hi) and 1 for every
+  design whose gain stays below G_hi, a design meeting a floor C with an amplifier of CMRR C_a
+  has |δ| = |y₂ − y₁| ≤ B = 2·atanh(X/2)·(1 + G_hi) with X = 1/C − 1/C_a. Worst case over the
+  parts: |δ_nom,v| + Wδ,v ≤ B at every environment vertex v; yield basis: (B − |δ_nom,v|)² ≥
+  z²·Sδ,v with z the one-sided normal quantile of the yield (a necessary condition).
+* Gain. ln Adm ≈ γ = Σ cg·φ, and finite open-loop gain A lowers it by ln(1 + (1+G)/A):
+  ln(1 − acc) ≤ γ_v − ln G ± Wg,v (− the A term) ≤ ln(1 + acc).
+* Input impedance: R1 + R3 (differential, ideal amplifier), R1 + R2 and R3 + R4 (each bounds the
+  common-mode impedance from above) at least the minimum.
+* Noise: Σ per-position output noise power density ≤ limit²/bandwidth − the amplifier's floor.
+* Ratings: options are pre-filtered per position by voltage and derated power.
+
+Every bound is taken on its optimistic side and widened by a small relative slack, so the
+linear model is a relaxation of the exact check: it never rejects a design the exact check
+accepts. The search (``optimizer.solve.search``) verifies each candidate exactly and cuts the
+ones the relaxation let through.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from numpy.typing import NDArray
+from ortools.sat.python import cp_model
+
+from ..design import Topology
+from ..spec import CmrrBasis, Distribution, Objective, Spec
+from .environment import LinearEnvironment
+from .discrete import DiscreteBlock, value_constants
+from .options import ALL_SHAPES, C_DELTA, DIVIDER_SHAPES, EQUAL_SHAPES, OptionTable, gain_coefficients, noise_bandwidth, noise_floor, z_score
+
+__all__ = ["Limits", "ModelVariant", "build_model", "limits_for"]
+
+LOG_SCALE = 1e7  # integer units per natural-log unit (0.1 ppm resolution)
+COST_SCALE = 1e4  # integer units per relative cost unit
+OHM_SCALE = 1.0  # integer units per ohm
+NOISE_SCALE = 1e24  # integer units per V²/Hz
+SLACK = 0.005  # relative widening of every bound (keeps the model a relaxation)
+
+
+@dataclass(frozen=True)
+class Limits:
+    """Right-hand sides of the linear requirements (natural-log units unless stated)."""
+
+    cmrr_budget: float  # B for |δ|; negative: unreachable whatever the resistors
+    gain_upper: float  # ln(1 + acc)
+    gain_lower: float  # ln(1 − acc)
+    open_loop_term: float  # ln(1 + (1+G)/A) ≥ 0
+    z: float  # yield quantile (0 for worst-case basis)
+    noise_budget: float | None  # V²/Hz left for the resistors, None if no requirement
+    min_impedance_ohm: float
+
+
+def _cmrr_budget(spec: Spec) -> float:
+    req = spec.requirements
+    floor = 10.0 ** (-req.cmrr_floor_db / 20.0)
+    amp = 1.0 / spec.amplifier.cmrr_ratio
+    x = floor - amp
+    if x <= 0.0:
+        return -1.0
+    g_hi = req.gain * (1.0 + req.gain_accuracy) * math.exp(min((1.0 + req.gain) * x, 50.0))
+    return 2.0 * math.atanh(min(x / 2.0, 0.999999)) * (1.0 + g_hi) * (1.0 + SLACK) + 1e-9
+
+
+def limits_for(spec: Spec, env: LinearEnvironment) -> Limits:
+    """The :class:`Limits` of ``spec`` (each on its optimistic side)."""
+    req = spec.requirements
+    g = req.gain
+    a_ol = spec.amplifier.open_loop_gain
+    open_loop = 0.0 if math.isinf(a_ol) else math.log1p((1.0 + g * (1.0 - req.gain_accuracy)) / a_ol) * (1.0 - SLACK)
+    z = 0.0
+    if req.cmrr_basis is CmrrBasis.YIELD:
+        z = z_score(req.yield_target)
+        if spec.preferences.distribution is Distribution.UNIFORM:
+            z = min(z, (2.0 * req.yield_target - 1.0) * math.sqrt(3.0))
+        z *= 1.0 - 4 * SLACK
+    noise_budget = None
+    if req.max_output_noise_v_rms is not None:
+        band = noise_bandwidth(spec)
+        if band > 0.0:
+            noise_budget = (req.max_output_noise_v_rms**2 / band) * (1.0 + 4 * SLACK) - noise_floor(spec, env)
+    return Limits(
+        cmrr_budget=_cmrr_budget(spec),
+        gain_upper=math.log1p(req.gain_accuracy) * (1.0 + SLACK) + 1e-9,
+        gain_lower=math.log1p(-req.gain_accuracy) * (1.0 + SLACK) - 1e-9,
+        open_loop_term=open_loop,
+        z=z,
+        noise_budget=noise_budget,
+        min_impedance_ohm=req.min_input_impedance_ohm,
+    )
+
+
+@dataclass(frozen=True)
+class ModelVariant:
+    """Which requirements the model enforces and what it optimises (for diagnosis and for the
+    best-of-each-kind searches)."""
+
+    cmrr: bool = True
+    gain: bool = True
+    impedance: bool = True
+    noise: bool = True
+    objective: Objective = Objective.COST
+    cost_cap: float | None = None
+    topologies: frozenset[Topology] | None = None  # None: the spec's
+    maximise: str | None = None  # "cmrr", "gain", "impedance", "noise": optimise that instead
+
+
+@dataclass
+class BuiltModel:
+    """A CP-SAT model with handles to its literals: ``x`` network options, ``value[i][k]`` and
+    ``grade[i][c]`` the discrete value and class chosen at position i (dicts by index)."""
+
+    model: cp_model.CpModel
+    x: list[cp_model.IntVar]
+    value: list[dict[int, cp_model.IntVar]]
+    grade: list[dict[int, cp_model.IntVar]]
+    cuts: int = 0
+    margin_var: cp_model.IntVar | None = None
+
+    def literals(self) -> list[cp_model.IntVar]:
+        """Every decision literal (for reading a solution)."""
+        out = list(self.x)
+        for position in range(4):
+            out.extend(self.value[position].values())
+            out.extend(self.grade[position].values())
+        return out
+
+    def exclude(self, chosen: list[cp_model.IntVar]) -> None:
+        """No-good cut: forbid this exact set of decisions from appearing together again."""
+        self.model.add_bool_or([lit.Not() for lit in chosen])
+        self.cuts += 1
+
+
+def _ints(values: NDArray[np.float64], scale: float) -> list[int]:
+    return [int(v) for v in np.rint(values * scale)]
+
+
+class _Sum:
+    """Accumulates terms (literal, float coefficient) of one linear form before scaling."""
+
+    def __init__(self) -> None:
+        self.literals: list[cp_model.IntVar] = []
+        self.coefficients: list[float] = []
+
+    def add(self, literals: list[cp_model.IntVar], coefficients: NDArray[np.float64] | list[float]) -> None:
+        self.literals.extend(literals)
+        self.coefficients.extend(float(c) for c in coefficients)
+
+    def expr(self, scale: float, rounding: str = "nearest") -> cp_model.LinearExpr:
+        values = np.asarray(self.coefficients, dtype=float) * scale
+        if rounding == "floor":
+            ints = [int(v) for v in np.floor(values)]
+        elif rounding == "ceil":
+            ints = [int(v) for v in np.ceil(values)]
+        else:
+            ints = [int(v) for v in np.rint(values)]
+        return cp_model.LinearExpr.weighted_sum(self.literals, ints)
+
+
+def build_model(
+    options: OptionTable,
+    block: DiscreteBlock,
+    spec: Spec,
+    env: LinearEnvironment,
+    limits: Limits,
+    variant: ModelVariant,
+) -> BuiltModel:
+    """The CP-SAT model for network ``options`` and discrete ``block`` under ``limits``."""
+    model = cp_model.CpModel()
+    n = len(options)
+    allowed = set(variant.topologies if variant.topologies is not None else spec.preferences.topologies)
+    discrete_allowed = bool(allowed & {Topology.DISCRETE, Topology.PAIR_PLUS_DISCRETE})
+    usable, classes = _prune(options, block, spec, env, limits, _usable_options(options, allowed), discrete_allowed)
+    x = [model.new_bool_var(f"o{i}") for i in range(n)]
+    for i in np.flatnonzero(~usable):
+        model.add(x[i] == 0)
+    kinds = options.kind
+
+    value: list[dict[int, cp_model.IntVar]] = []
+    grade: list[dict[int, cp_model.IntVar]] = []
+    placed: list[cp_model.LinearExpr] = []  # 1 when position i holds a discrete part
+    for position in range(4):
+        cs = classes[position]
+        ks = np.unique(np.concatenate([block.avail[position][c] for c in cs])) if cs else np.zeros(0, dtype=np.int64)
+        value.append({int(k): model.new_bool_var(f"v{position}_{k}") for k in ks})
+        grade.append({c: model.new_bool_var(f"g{position}_{c}") for c in cs})
+        values_sum = sum(value[position].values())
+        model.add(sum(grade[position].values()) == values_sum)
+        for c, lit in grade[position].items():
+            model.add(lit <= sum(value[position][int(k)] for k in block.avail[position][c]))
+        placed.append(values_sum)
+
+    # Topology selection and exact cover.
+    t = {top: model.new_bool_var(top.value) for top in Topology if top in allowed}
+    model.add_exactly_one(t.values())
+    for position in range(4):
+        covering = [x[i] for i in np.flatnonzero(options.covers[:, position])]
+        model.add(sum(covering) + placed[position] == 1)
+    quads = [x[i] for i in np.flatnonzero(kinds == 4)]
+    model.add(sum(quads) == t.get(Topology.QUAD, 0))
+    mixed = {s: model.new_bool_var(f"mixed{s}") for s in range(len(ALL_SHAPES))}
+    if Topology.PAIR_PLUS_DISCRETE in t:
+        model.add(sum(mixed.values()) == t[Topology.PAIR_PLUS_DISCRETE])
+    else:
+        for var in mixed.values():
+            model.add(var == 0)
+    for s, shape in enumerate(ALL_SHAPES):
+        pairs = [x[i] for i in np.flatnonzero((kinds == 2) & (options.shape == s))]
+        fixed = t.get(Topology.EQUAL_PAIRS, 0) if shape in EQUAL_SHAPES else 0
+        fixed = t.get(Topology.DIVIDER_PAIRS, 0) if shape in DIVIDER_SHAPES else fixed
+        model.add(sum(pairs) == fixed + mixed[s])
+    model.add(sum(placed) == 4 * t.get(Topology.DISCRETE, 0) + 2 * t.get(Topology.PAIR_PLUS_DISCRETE, 0))
+
+    phi, fraction, value_noise = value_constants(block, spec, env)
+    req = spec.requirements
+    cg = gain_coefficients(req.gain)
+
+    def linear(coef: NDArray[np.float64], v: int) -> _Sum:
+        """Σ coefᵢ·φᵢ,v over the chosen values and network options (δ for C_DELTA, else γ)."""
+        is_delta = coef is C_DELTA
+        acc = _Sum()
+        acc.add(x, options.delta[:, v] if is_delta else options.gain[:, v])
+        for position in range(4):
+            ks = list(value[position])
+            if ks:
+                acc.add([value[position][k] for k in ks], coef[position] * phi[ks, v, position])
+        return acc
+
+    def spread(coef: NDArray[np.float64], v: int, of_variance: bool) -> _Sum:
+        """Worst-case deviation (or variance) of Σ coefᵢ·φᵢ,v from the chosen grades."""
+        is_delta = coef is C_DELTA
+        acc = _Sum()
+        if of_variance:
+            acc.add(x, options.s_delta[:, v] if is_delta else options.s_gain[:, v])
+        else:
+            acc.add(x, options.w_delta[:, v] if is_delta else options.w_gain[:, v])
+        for position in range(4):
+            cs = list(grade[position])
+            if not cs:
+                continue
+            ks = list(value[position])
+            smallest = float(fraction[ks, v, position].min())  # optimistic: least sensitive value
+            weight = abs(coef[position]) * smallest
+            per_class = block.var[cs] * weight**2 if of_variance else block.own[cs] * weight
+            acc.add([grade[position][c] for c in cs], per_class)
+        return acc
+
+    budget = int(math.floor(limits.cmrr_budget * LOG_SCALE)) if limits.cmrr_budget > 0 else -1
+    worst_margin = model.new_int_var(-(10**13), 10**13, "worst_margin")
+    sides = extreme_vertices(env.vertices, req.gain)
+    log_g = int(round(math.log(req.gain) * LOG_SCALE))
+    upper = int(math.floor(limits.gain_upper * LOG_SCALE))
+    lower = int(math.ceil(limits.gain_lower * LOG_SCALE))
+    open_loop = int(round(limits.open_loop_term * LOG_SCALE))
+    if req.cmrr_basis is CmrrBasis.WORST_CASE or variant.maximise == "cmrr":
+        for sign, vertices in ((1, sides.delta_high), (-1, sides.delta_low)):
+            for v in vertices:
+                delta = linear(C_DELTA, v).expr(LOG_SCALE)
+                w_delta = spread(C_DELTA, v, False).expr(LOG_SCALE, "floor")
+                model.add(worst_margin <= budget - (sign * delta + w_delta))
+        if variant.cmrr:
+            model.add(worst_margin >= 0)
+    if req.cmrr_basis is CmrrBasis.WORST_CASE and variant.gain:
+        for v in sides.gain_high:
+            model.add(linear(cg, v).expr(LOG_SCALE) - log_g + spread(cg, v, False).expr(LOG_SCALE, "floor") <= upper)
+        for v in sides.gain_low:
+            model.add(linear(cg, v).expr(LOG_SCALE) - log_g - spread(cg, v, False).expr(LOG_SCALE, "floor") - open_loop >= lower)
+    if req.cmrr_basis is CmrrBasis.YIELD:
+        z2 = limits.z**2
+        if variant.cmrr:
+            for v in sorted(set(sides.delta_high + sides.delta_low)):
+                delta = linear(C_DELTA, v).expr(LOG_SCALE)
+                s_delta = spread(C_DELTA, v, True).expr(LOG_SCALE**2 * z2, "floor")
+                _quadratic_margin(model, budget - _abs(model, delta, f"ad{v}"), s_delta, f"c{v}")
+        if variant.gain:
+            for v in sides.gain_high:
+                gain = linear(cg, v).expr(LOG_SCALE) - log_g
+                _quadratic_margin(model, upper - gain, spread(cg, v, True).expr(LOG_SCALE**2 * z2, "floor"), f"gu{v}")
+            for v in sides.gain_low:
+                gain = linear(cg, v).expr(LOG_SCALE) - log_g
+                _quadratic_margin(model, gain - open_loop - lower, spread(cg, v, True).expr(LOG_SCALE**2 * z2, "floor"), f"gl{v}")
+
+    if variant.impedance and limits.min_impedance_ohm > 0.0:
+        z_min = limits.min_impedance_ohm
+        t_max = float(block.tolerance.max()) if block.tolerance.size else 0.0
+        for a, b, factor in ((0, 2, 1.0), (0, 1, 1.0 - 2.0 * req.gain_accuracy - 0.01), (2, 3, 1.0)):
+            acc = _Sum()
+            acc.add(x, options.ohms[:, a] + options.ohms[:, b])
+            for position in (a, b):
+                ks = list(value[position])
+                acc.add([value[position][k] for k in ks], block.values[ks] * (1.0 + t_max))
+            model.add(acc.expr(OHM_SCALE, "ceil") >= int(math.floor(z_min * factor * (1.0 - SLACK) * OHM_SCALE)))
+    if variant.noise and limits.noise_budget is not None:
+        acc = _Sum()
+        acc.add(x, options.noise * (1.0 - SLACK))
+        for position in range(4):
+            ks = list(value[position])
+            acc.add([value[position][k] for k in ks], value_noise[ks, position] * (1.0 - SLACK))
+        noise = acc.expr(NOISE_SCALE, "floor")
+        model.add(noise <= (int(math.floor(limits.noise_budget * NOISE_SCALE)) if limits.noise_budget > 0 else -1))
+
+    cost = _cost_expression(model, x, value, grade, options, block, spec)
+    prefs = spec.preferences
+    objective = variant.objective
+    if variant.maximise == "cmrr" or objective is Objective.CMRR_MARGIN:
+        cap = variant.cost_cap if variant.cost_cap is not None else prefs.cost_cap
+        if cap is not None and variant.maximise is None:
+            model.add(cost <= int(math.floor(cap * COST_SCALE)))
+        model.maximize(worst_margin * 1000 - cost if variant.maximise is None else worst_margin)
+    elif objective is Objective.PLACEMENTS:
+        placements = sum(x) + sum(placed)
+        model.minimize(placements * 10**9 + cost)
+    else:
+        model.minimize(cost)
+    return BuiltModel(model=model, x=x, value=value, grade=grade, margin_var=worst_margin)
+
+
+def _usable_options(options: OptionTable, allowed: set[Topology]) -> NDArray[np.bool_]:
+    """Network options that some allowed topology can use."""
+    shapes: set[int] = set()
+    if Topology.EQUAL_PAIRS in allowed:
+        shapes.update(ALL_SHAPES.index(s) for s in EQUAL_SHAPES)
+    if Topology.DIVIDER_PAIRS in allowed:
+        shapes.update(ALL_SHAPES.index(s) for s in DIVIDER_SHAPES)
+    if Topology.PAIR_PLUS_DISCRETE in allowed:
+        shapes.update(range(len(ALL_SHAPES)))
+    pair_ok = (options.kind == 2) & np.isin(options.shape, sorted(shapes))
+    quad_ok = (options.kind == 4) & (Topology.QUAD in allowed)
+    return pair_ok | quad_ok
+
+
+def _prune(
+    options: OptionTable,
+    block: DiscreteBlock,
+    spec: Spec,
+    env: LinearEnvironment,
+    limits: Limits,
+    usable: NDArray[np.bool_],
+    discrete_allowed: bool,
+) -> tuple[NDArray[np.bool_], list[list[int]]]:
+    """Drop network options and discrete classes that cannot meet the CMRR or gain budget even
+    if every other position got its least-varying choice (a necessary condition, so nothing
+    feasible is lost). Lower bound per position j: the least spread of any class usable at j, or
+    of any usable option covering j divided by the positions it covers. Quads, which fix every
+    value, are also dropped when their nominal mismatch or gain alone breaks the budget."""
+    req = spec.requirements
+    yield_basis = req.cmrr_basis is CmrrBasis.YIELD
+    classes = [block.usable(i) if discrete_allowed else [] for i in range(4)]
+    keep = usable.copy()
+    if yield_basis and limits.z <= 0:
+        return keep, classes
+    spread = block.var if yield_basis else block.own
+    _, fraction, _ = value_constants(block, spec, env)
+    cg = gain_coefficients(req.gain)
+    gain_room = (limits.gain_upper - limits.gain_lower - limits.open_loop_term) / 2.0
+    if yield_basis:
+        checks = [(C_DELTA, options.s_delta, (limits.cmrr_budget / limits.z) ** 2), (cg, options.s_gain, (gain_room / limits.z) ** 2)]
+    else:
+        checks = [(C_DELTA, options.w_delta, limits.cmrr_budget), (cg, options.w_gain, gain_room)]
+    covers = options.covers.sum(axis=1)
+    for coef, option_spread, budget in checks:
+        for v in range(env.vertices.shape[0]):
+            changed = True
+            while changed:
+                changed = False
+                weights = []
+                for position in range(4):
+                    cs = classes[position]
+                    ks = np.unique(np.concatenate([block.avail[position][c] for c in cs])) if cs else None
+                    f = float(fraction[ks, v, position].min()) if ks is not None else 1.0
+                    w = abs(coef[position]) * f
+                    weights.append(w**2 if yield_basis else w)
+                lows = []
+                for j in range(4):
+                    candidates = [weights[j] * spread[c] for c in classes[j]]
+                    covering = keep & options.covers[:, j]
+                    if covering.any():
+                        candidates.append(float((option_spread[covering, v] / covers[covering]).min()))
+                    lows.append(min(candidates, default=np.inf))
+                total = sum(lows)
+                for i in range(4):
+                    rest = total - lows[i]
+                    kept = [c for c in classes[i] if weights[i] * spread[c] + rest <= budget]
+                    if len(kept) != len(classes[i]):
+                        classes[i] = kept
+                        changed = True
+                if keep.any():
+                    rest_of = total - options.covers.astype(float) @ np.where(np.isfinite(lows), lows, 0.0)
+                    bad = keep & (option_spread[:, v] + rest_of > budget)
+                    if bad.any():
+                        keep &= ~bad
+                        changed = True
+    if not yield_basis:
+        quads = keep & (options.kind == 4)
+        log_g = math.log(req.gain)
+        for v in range(env.vertices.shape[0]):
+            mismatch = np.abs(options.delta[:, v]) + options.w_delta[:, v] > limits.cmrr_budget
+            high = options.gain[:, v] - log_g + options.w_gain[:, v] > limits.gain_upper
+            low = options.gain[:, v] - log_g - options.w_gain[:, v] - limits.open_loop_term < limits.gain_lower
+            keep &= ~(quads & (mismatch | high | low))
+    return keep, classes
+
+
+@dataclass(frozen=True)
+class ExtremeVertices:
+    """Indices of the environment vertices at which each side of each requirement is tightest
+    for the balanced circuit at the target gain (enforcing a subset of vertices keeps the model
+    a relaxation; these are the ones that bind)."""
+
+    delta_high: tuple[int, ...]
+    delta_low: tuple[int, ...]
+    gain_high: tuple[int, ...]
+    gain_low: tuple[int, ...]
+
+    def all(self) -> tuple[int, ...]:
+        return tuple(sorted(set(self.delta_high + self.delta_low + self.gain_high + self.gain_low)))
+
+
+def extreme_vertices(vertices: NDArray[np.float64], gain: float) -> ExtremeVertices:
+    """Vertices (Rs1, Rs3, Rref) that maximise and minimise δ ∝ Rs1 − Rs3 + Rref/G and
+    γ ∝ −(1−h)·Rs1 − h·Rs3 + h·Rref/G (first-order sensitivities with R3 = R1, R4 = G·R1)."""
+    h = 1.0 / (2.0 * (1.0 + gain))
+    delta_score = vertices[:, 0] - vertices[:, 1] + vertices[:, 2] / gain
+    gain_score = -(1.0 - h) * vertices[:, 0] - h * vertices[:, 1] + h * vertices[:, 2] / gain
+
+    def arg(score: NDArray[np.float64], best: float) -> tuple[int, ...]:
+        return tuple(int(i) for i in np.flatnonzero(np.abs(score - best) <= 1e-9 * (1.0 + abs(best))))
+
+    return ExtremeVertices(
+        delta_high=arg(delta_score, float(delta_score.max())),
+        delta_low=arg(delta_score, float(delta_score.min())),
+        gain_high=arg(gain_score, float(gain_score.max())),
+        gain_low=arg(gain_score, float(gain_score.min())),
+    )
+
+
+def _abs(model: cp_model.CpModel, expr: cp_model.LinearExpr, name: str) -> cp_model.IntVar:
+    var = model.new_int_var(0, 10**12, name)
+    model.add(var >= expr)
+    model.add(var >= -expr)
+    return var
+
+
+def _quadratic_margin(model: cp_model.CpModel, margin: cp_model.LinearExprT, variance: cp_model.LinearExpr, name: str) -> None:
+    """margin ≥ 0 and margin² ≥ variance (all in integer units)."""
+    m = model.new_int_var(0, 10**9, f"m_{name}")
+    model.add(m == margin)
+    square = model.new_int_var(0, 10**18, f"m2_{name}")
+    model.add_multiplication_equality(square, [m, m])
+    model.add(square >= variance)
+
+
+def _cost_expression(
+    model: cp_model.CpModel,
+    x: list[cp_model.IntVar],
+    value: list[dict[int, cp_model.IntVar]],
+    grade: list[dict[int, cp_model.IntVar]],
+    options: OptionTable,
+    block: DiscreteBlock,
+    spec: Spec,
+) -> cp_model.LinearExpr:
+    """Σ option and class costs, plus the line cost per distinct part number: network lines by
+    part id, discrete lines counted as positions minus those that repeat an earlier position's
+    (value, class) pair."""
+    prefs = spec.preferences
+    acc = _Sum()
+    acc.add(x, options.cost)
+    for position in range(4):
+        cs = list(grade[position])
+        acc.add([grade[position][c] for c in cs], block.cost[cs])
+    expr = acc.expr(COST_SCALE)
+    if prefs.line_cost <= 0.0:
+        return expr
+    line_cost = int(round(prefs.line_cost * COST_SCALE))
+    lines: dict[int, list[int]] = {}
+    for i, line in enumerate(options.line):
+        lines.setdefault(int(line), []).append(i)
+    network_lines = []
+    for line, members in lines.items():
+        y = model.new_bool_var(f"line{line}")
+        for i in members:
+            model.add_implication(x[i], y)
+        network_lines.append(y)
+    index_of = []
+    class_of = []
+    used = []
+    for position in range(4):
+        index_of.append(cp_model.LinearExpr.weighted_sum(list(value[position].values()), list(value[position].keys())))
+        class_of.append(cp_model.LinearExpr.weighted_sum(list(grade[position].values()), list(grade[position].keys())))
+        used.append(sum(value[position].values()))
+    repeats = []
+    for i in range(1, 4):
+        same_any = []
+        for j in range(i):
+            shared_values = set(value[i]) & set(value[j])
+            shared_classes = set(grade[i]) & set(grade[j])
+            if not shared_values or not shared_classes:
+                continue
+            same = model.new_bool_var(f"same{j}{i}")
+            model.add(index_of[i] == index_of[j]).only_enforce_if(same)
+            model.add(class_of[i] == class_of[j]).only_enforce_if(same)
+            model.add(used[i] >= 1).only_enforce_if(same)
+            same_any.append(same)
+        if same_any:
+            repeat = model.new_bool_var(f"repeat{i}")
+            model.add(repeat <= sum(same_any))
+            repeats.append(repeat)
+    discrete_lines = sum(used) - sum(repeats)
+    return expr + line_cost * (sum(network_lines) + discrete_lines)

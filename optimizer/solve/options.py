@@ -1,0 +1,336 @@
+"""Assignment options: the ways a catalog can fill positions R1..R4, with the constants the
+linear model needs for each.
+
+An *option* covers one or more positions: a discrete part at one position, a dual network on
+two positions (in one orientation), or a quad network on all four (in one element order). A
+design is an exact cover of R1..R4 by options. Every requirement of the linear model is a sum of
+per-option constants, because each constant depends only on the values and grades at the
+positions that option covers (``optimizer.solve.model`` explains the linearisation).
+
+Per option and per environment vertex v (a combination of source and REF impedances):
+
+* φᵢ = ln(Rᵢ + rsᵢ,v), the log of the effective resistance at position i (rs: Rs1 at R1, Rs3 at
+  R3, Rref at R4, none at R2);
+* δ = Σ cδᵢ·φᵢ with cδ = (+1, −1, −1, +1): the ratio mismatch ln(R4'/R3') − ln(R2/R1');
+* γ = Σ cgᵢ·φᵢ with cg = (−1+h, 1−h, −h, +h), h = 1/(2(1+G)): the log differential gain;
+* Wδ, Wg: worst-case deviation of δ and γ from the parts' tolerance, tempco and drift;
+* Sδ, Sg: variance of δ and γ for the yield basis.
+"""
+
+from __future__ import annotations
+
+import itertools
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+from numpy.typing import NDArray
+
+from ..catalog import Catalog
+from ..design import Design, Placement, Topology
+from ..parts import NetworkPart
+from ..spec import CmrrBasis, Distribution, Spec, StockPolicy
+from .environment import LinearEnvironment, life_drift
+
+__all__ = ["OptionTable", "build_options", "C_DELTA", "gain_coefficients"]
+
+C_DELTA = np.array([1.0, -1.0, -1.0, 1.0])
+
+#: Pair shapes (0-based position pairs) allowed for each pair topology.
+EQUAL_SHAPES = ((0, 2), (1, 3))
+DIVIDER_SHAPES = ((0, 1), (2, 3))
+ALL_SHAPES = tuple(itertools.combinations(range(4), 2))
+
+
+def gain_coefficients(gain: float) -> NDArray[np.float64]:
+    """cg = (−1+h, 1−h, −h, +h) with h = 1/(2(1+G)): first-order sensitivity of ln Adm to the
+    log of each effective resistance (derived from Adm = [b + (1+b)·ρ/(1+ρ)]/2 with b = R2/R1',
+    ρ = R4'/R3' at balance ρ = b = G)."""
+    h = 1.0 / (2.0 * (1.0 + gain))
+    return np.array([-1.0 + h, 1.0 - h, -h, h])
+
+
+def log_deviation(*fractions: NDArray[np.float64] | float) -> NDArray[np.float64]:
+    """Σ ln(1 + xₖ): the smaller (upward) side of the log deviation of a product of
+    independent ±xₖ factors; −ln(1 − x) ≥ ln(1 + x), so this side never overstates a deviation."""
+    total: NDArray[np.float64] = np.zeros(np.broadcast(*[np.asarray(f) for f in fractions]).shape)
+    for fraction in fractions:
+        total = total + np.log1p(np.asarray(fraction, dtype=float))
+    return total
+
+
+def variance(distribution: Distribution, sigma_k: float, *bounds: NDArray[np.float64] | float) -> NDArray[np.float64]:
+    """Σ var of independent variables bounded by ±xₖ: (xₖ/k)² for normal with bound = k·σ,
+    xₖ²/3 for uniform on [−xₖ, xₖ]."""
+    total: NDArray[np.float64] = np.zeros(np.broadcast(*[np.asarray(b) for b in bounds]).shape)
+    for bound in bounds:
+        b = np.asarray(bound, dtype=float)
+        total = total + ((b / sigma_k) ** 2 if distribution is Distribution.NORMAL else b**2 / 3.0)
+    return total
+
+
+@dataclass(frozen=True)
+class OptionTable:
+    """Options with their constants; arrays of length n (options) or shape (n, V) (vertices).
+
+    ``kind``: 0 discrete, 2 pair, 4 quad; ``covers``: (n, 4) booleans; ``shape``: index into
+    :data:`ALL_SHAPES` for pairs, else −1; ``line``: an id per part number (for line cost);
+    ``cost``: part cost plus placement cost plus stock penalty (relative units)."""
+
+    kind: NDArray[np.int64]
+    covers: NDArray[np.bool_]
+    shape: NDArray[np.int64]
+    line: NDArray[np.int64]
+    cost: NDArray[np.float64]
+    delta: NDArray[np.float64]
+    gain: NDArray[np.float64]
+    w_delta: NDArray[np.float64]
+    w_gain: NDArray[np.float64]
+    s_delta: NDArray[np.float64]
+    s_gain: NDArray[np.float64]
+    noise: NDArray[np.float64]
+    ohms: NDArray[np.float64]
+    makers: tuple[tuple[tuple[int, str, int, int | None], ...], ...]
+    line_names: tuple[str, ...]
+
+    def __len__(self) -> int:
+        return int(self.kind.shape[0])
+
+
+@dataclass
+class _Rows:
+    """Accumulator of per-option rows before they are stacked into an :class:`OptionTable`."""
+
+    kind: list[int]
+    covers: list[tuple[bool, bool, bool, bool]]
+    shape: list[int]
+    line: list[int]
+    cost: list[float]
+    resist: list[NDArray[np.float64]]  # (4,) values, nan where not covered
+    own: list[NDArray[np.float64]]  # (4,) own log deviation
+    own_var: list[NDArray[np.float64]]  # (4,) own variance
+    shared: list[float]
+    shared_var: list[float]
+    upper: list[NDArray[np.float64]]  # (4,) R·(1 + own tolerance) for impedance bounds
+    makers: list[tuple[tuple[int, str, int, int | None], ...]]
+
+
+def _effective_cost(cost: NDArray[np.float64], stocked: NDArray[np.bool_], spec: Spec) -> NDArray[np.float64]:
+    prefs = spec.preferences
+    penalty = prefs.stock_penalty if prefs.stock is StockPolicy.PREFER else 0.0
+    return cost + prefs.placement_cost + np.where(stocked, 0.0, penalty)
+
+
+def _network_rows(catalog: Catalog, spec: Spec, env: LinearEnvironment, rows: _Rows, lines: dict[str, int]) -> None:
+    """Pair and quad options from the catalog's networks, for the allowed topologies."""
+    prefs = spec.preferences
+    topologies = set(prefs.topologies)
+    pair_shapes: set[tuple[int, int]] = set()
+    if Topology.EQUAL_PAIRS in topologies:
+        pair_shapes.update(EQUAL_SHAPES)
+    if Topology.DIVIDER_PAIRS in topologies:
+        pair_shapes.update(DIVIDER_SHAPES)
+    if Topology.PAIR_PLUS_DISCRETE in topologies:
+        pair_shapes.update(ALL_SHAPES)
+    want_quads = Topology.QUAD in topologies
+    dist, k = prefs.distribution, prefs.sigma_k
+    for index, network in enumerate(catalog.networks):
+        if prefs.stock is StockPolicy.ONLY and not network.in_stock:
+            continue
+        values = np.array(network.values_ohm)
+        if values.min() < prefs.resistance_min_ohm * (1 - 1e-9) or values.max() > prefs.resistance_max_ohm * (1 + 1e-9):
+            continue
+        if network.elements == 2 and pair_shapes:
+            shapes = sorted(pair_shapes)
+            orders: list[tuple[int, ...]] = [(0, 1), (1, 0)]
+        elif network.elements == 4 and want_quads:
+            shapes = [(0, 1, 2, 3)]  # type: ignore[list-item]
+            orders = list(itertools.permutations(range(4)))
+        else:
+            continue
+        cost = float(_effective_cost(np.array([network.unit_cost]), np.array([network.in_stock]), spec)[0])
+        own_dev = float(log_deviation(network.ratio_tolerance / 2.0, network.tracking_tempco_per_k / 2.0 * env.delta_t_k, life_drift(network.ratio_drift_1000h, env.life_h) / 2.0))
+        own_var = float(variance(dist, k, network.ratio_tolerance / 2.0, network.tracking_tempco_per_k / 2.0 * env.delta_t_k, life_drift(network.ratio_drift_1000h, env.life_h) / 2.0))
+        shared = float(log_deviation(network.abs_tolerance, network.abs_tempco_per_k * env.delta_t_k, life_drift(network.drift_1000h, env.life_h)))
+        shared_var = float(variance(dist, k, network.abs_tolerance, network.abs_tempco_per_k * env.delta_t_k, life_drift(network.drift_1000h, env.life_h)))
+        line = lines.setdefault(network.part_id, len(lines))
+        for shape in shapes:
+            seen: set[tuple[float, ...]] = set()
+            for order in orders:
+                elements = [order[j] for j in range(len(shape))]
+                # Elements of one package vary alike (same bounds), so two element orders that put
+                # the same values at the same positions are the same design electrically: keep one.
+                layout = tuple(float(v) for v in values[elements])
+                if layout in seen:
+                    continue
+                seen.add(layout)
+                if not _rated(network, values[elements], np.array(shape), env):
+                    continue
+                resist = np.full(4, np.nan)
+                resist[list(shape)] = values[elements]
+                covers = tuple(bool(i in shape) for i in range(4))
+                rows.kind.append(len(shape))
+                rows.covers.append(covers)  # type: ignore[arg-type]
+                rows.shape.append(ALL_SHAPES.index(shape) if len(shape) == 2 else -1)  # type: ignore[arg-type]
+                rows.line.append(line)
+                rows.cost.append(cost)
+                rows.resist.append(resist)
+                rows.own.append(np.where(np.isnan(resist), 0.0, own_dev))
+                rows.own_var.append(np.where(np.isnan(resist), 0.0, own_var))
+                rows.shared.append(shared)
+                rows.shared_var.append(shared_var)
+                rows.upper.append(np.where(np.isnan(resist), 0.0, resist * (1.0 + network.abs_tolerance + network.ratio_tolerance / 2.0)))
+                rows.makers.append(tuple((pos, network.part_id, index, el) for pos, el in zip(shape, elements)))
+
+
+def _rated(network: NetworkPart, values: NDArray[np.float64], positions: NDArray[np.int64], env: LinearEnvironment) -> bool:
+    stress = env.stress_v[positions]
+    if np.any(network.max_voltage_v < 0.97 * stress):
+        return False
+    return bool(np.all(network.power_per_element_w * env.derating >= 0.97 * stress**2 / values))
+
+
+def build_options(catalog: Catalog, spec: Spec, env: LinearEnvironment) -> OptionTable:
+    """Every network option (pair or quad) the pick may use for ``spec`` from ``catalog``, with
+    its constants; discrete parts are handled by ``optimizer.solve.discrete``."""
+    rows = _Rows([], [], [], [], [], [], [], [], [], [], [], [])
+    lines: dict[str, int] = {}
+    blocks: list[dict[str, NDArray[np.float64] | NDArray[np.int64] | NDArray[np.bool_]]] = []
+    _network_rows(catalog, spec, env, rows, lines)
+    if rows.kind:
+        m = len(rows.kind)
+        blocks.append(
+            {
+                "kind": np.array(rows.kind, dtype=np.int64),
+                "covers": np.array(rows.covers, dtype=bool).reshape(m, 4),
+                "shape": np.array(rows.shape, dtype=np.int64),
+                "line": np.array(rows.line, dtype=np.int64),
+                "cost": np.array(rows.cost, dtype=float),
+                "resist": np.array(rows.resist).reshape(m, 4),
+                "own": np.array(rows.own).reshape(m, 4),
+                "own_var": np.array(rows.own_var).reshape(m, 4),
+                "shared": np.array(rows.shared, dtype=float),
+                "shared_var": np.array(rows.shared_var, dtype=float),
+                "upper": np.array(rows.upper).reshape(m, 4),
+            }
+        )
+    makers = tuple(rows.makers)
+    if not blocks:
+        empty = {
+            "kind": np.zeros(0, dtype=np.int64),
+            "covers": np.zeros((0, 4), dtype=bool),
+            "shape": np.zeros(0, dtype=np.int64),
+            "line": np.zeros(0, dtype=np.int64),
+            "cost": np.zeros(0),
+            "resist": np.zeros((0, 4)),
+            "own": np.zeros((0, 4)),
+            "own_var": np.zeros((0, 4)),
+            "shared": np.zeros(0),
+            "shared_var": np.zeros(0),
+            "upper": np.zeros((0, 4)),
+        }
+        blocks.append(empty)  # type: ignore[arg-type]
+    merged = {key: np.concatenate([b[key] for b in blocks]) for key in blocks[0]}
+    return _stack(merged, makers, spec, env, tuple(lines))
+
+
+def _stack(
+    rows: dict[str, NDArray[np.float64] | NDArray[np.int64] | NDArray[np.bool_]],
+    makers: tuple[tuple[tuple[int, str, int, int | None], ...], ...],
+    spec: Spec,
+    env: LinearEnvironment,
+    line_names: tuple[str, ...],
+) -> OptionTable:
+    n = len(rows["kind"])
+    vertices = env.vertices  # (V, 3)
+    resist = np.asarray(rows["resist"], dtype=float)
+    covered = ~np.isnan(resist)
+    # Series impedance at each position per vertex: R1 ← Rs1, R2 ← 0, R3 ← Rs3, R4 ← Rref.
+    series = np.stack([vertices[:, 0], np.zeros(len(vertices)), vertices[:, 1], vertices[:, 2]], axis=1)  # (V, 4)
+    values = np.where(covered, resist, 1.0)[:, None, :]  # (n, 1, 4)
+    effective = values + series[None, :, :]
+    phi = np.where(covered[:, None, :], np.log(effective), 0.0)  # (n, V, 4)
+    fraction = np.where(covered[:, None, :], values / effective, 0.0)
+    cg = gain_coefficients(spec.requirements.gain)
+    own = np.asarray(rows["own"], dtype=float)[:, None, :]
+    own_var = np.asarray(rows["own_var"], dtype=float)[:, None, :]
+    shared = np.asarray(rows["shared"], dtype=float)[:, None]
+    shared_var = np.asarray(rows["shared_var"], dtype=float)[:, None]
+
+    def project(c: NDArray[np.float64]) -> tuple[NDArray[np.float64], ...]:
+        lin = (phi * c).sum(axis=2)
+        weights = fraction * c
+        worst = (np.abs(weights) * own).sum(axis=2) + np.abs(weights.sum(axis=2)) * shared
+        var = (weights**2 * own_var).sum(axis=2) + weights.sum(axis=2) ** 2 * shared_var
+        return lin, worst, var
+
+    delta, w_delta, s_delta = project(C_DELTA)
+    gain, w_gain, s_gain = project(cg)
+    noise = _noise_terms(resist, covered, spec, env)
+    return OptionTable(
+        kind=np.asarray(rows["kind"], dtype=np.int64),
+        covers=np.asarray(rows["covers"], dtype=bool),
+        shape=np.asarray(rows["shape"], dtype=np.int64),
+        line=np.asarray(rows["line"], dtype=np.int64),
+        cost=np.asarray(rows["cost"], dtype=float),
+        delta=delta,
+        gain=gain,
+        w_delta=w_delta,
+        w_gain=w_gain,
+        s_delta=s_delta,
+        s_gain=s_gain,
+        noise=noise,
+        ohms=np.asarray(rows["upper"], dtype=float),
+        makers=makers,
+        line_names=line_names,
+    )
+
+
+BOLTZMANN = 1.380649e-23  # J/K, exact in the 2019 SI
+
+
+def _noise_terms(resist: NDArray[np.float64], covered: NDArray[np.bool_], spec: Spec, env: LinearEnvironment) -> NDArray[np.float64]:
+    """Output noise power density (V²/Hz) each option adds at the target gain G, position by
+    position: R1 → 4kT·R1·G², R2 → 4kT·R2 + in²·R2², R3 → 4kT·R3·G² + in²·R3²·G², R4 → 4kT·R4
+    (the balanced circuit: R1 seen through gain G, R2 directly, R3 and R4 through the divider
+    times the noise gain 1+G; R3∥R4 = R3·G/(1+G) for the current noise). A lower estimate: the
+    exact check adds the source impedances and the amplifier's voltage noise."""
+    g = spec.requirements.gain
+    four_kt = 4.0 * BOLTZMANN * env.hottest_k
+    i_n = spec.amplifier.current_noise_a_rthz
+    r = np.where(covered, resist, 0.0)
+    per = np.stack(
+        [
+            four_kt * r[:, 0] * g**2,
+            four_kt * r[:, 1] + (i_n * r[:, 1]) ** 2,
+            four_kt * r[:, 2] * g**2 + (i_n * r[:, 2] * g) ** 2,
+            four_kt * r[:, 3],
+        ],
+        axis=1,
+    )
+    return per.sum(axis=1)
+
+
+def noise_floor(spec: Spec, env: LinearEnvironment) -> float:
+    """Output noise power density (V²/Hz) no choice of resistors can remove: the amplifier's
+    voltage noise times the noise gain, en²·(1+G)², plus the source impedances' Johnson noise
+    through gain G, 4kT·(Rs1,min + Rs3,min)·G²."""
+    g = spec.requirements.gain
+    four_kt = 4.0 * BOLTZMANN * env.hottest_k
+    src = spec.signal.source
+    return (spec.amplifier.voltage_noise_v_rthz * (1.0 + g)) ** 2 + four_kt * 2.0 * src.min_ohm * g**2
+
+
+def noise_bandwidth(spec: Spec) -> float:
+    """Band (Hz) over which the output noise requirement integrates: high − low."""
+    req = spec.requirements
+    high = req.noise_band_high_hz if req.noise_band_high_hz is not None else spec.signal.max_frequency_hz
+    return max(high - req.noise_band_low_hz, 0.0)
+
+
+def z_score(yield_target: float) -> float:
+    """One-sided standard-normal quantile Φ⁻¹(Y) (statistics.NormalDist; exact to double)."""
+    from statistics import NormalDist
+
+    return NormalDist().inv_cdf(yield_target)
+

@@ -1,0 +1,307 @@
+"""The pick: solve the CP-SAT relaxation, verify every candidate exactly, cut the failures,
+and collect the N cheapest verified designs.
+
+Because the linear model is a relaxation of the exact check (``optimizer.solve.model``) and a
+solve only ever excludes designs already seen, the k-th verified design of a run of proven-optimal
+solves is the k-th cheapest design that passes the exact check: the ranking is proven, not
+heuristic. When the time limit stops a solve early the status says so, with the gap.
+
+Solver parameters are fixed (``solver_parameters``): a fixed seed and a single search worker
+by default, so the same inputs give the same designs in the same order on every run.
+"""
+
+from __future__ import annotations
+
+import time
+from collections.abc import Callable
+from dataclasses import dataclass, field, replace
+from enum import Enum
+
+from ortools.sat.python import cp_model
+
+from ..catalog import Catalog
+from ..cost import CostBreakdown, design_cost
+from ..design import Design, Placement, Topology
+from ..spec import Objective, Spec
+from .environment import LinearEnvironment, linear_environment
+from .discrete import DiscreteBlock, build_discrete
+from .model import BuiltModel, Limits, ModelVariant, build_model, limits_for
+from .options import OptionTable, build_options
+
+__all__ = ["Candidate", "PickResult", "SearchStatus", "pick", "solver_parameters"]
+
+DEFAULT_TIME_LIMIT_S = 30.0
+MAX_CUTS = 400
+NETWORK_TOPOLOGIES = frozenset({Topology.QUAD, Topology.EQUAL_PAIRS, Topology.DIVIDER_PAIRS, Topology.PAIR_PLUS_DISCRETE})
+
+
+class SearchStatus(str, Enum):
+    """How a search ended."""
+
+    OPTIMAL = "proven_optimal"
+    TIME_LIMIT = "time_limit"
+    INFEASIBLE = "infeasible"
+
+
+class Verdict:
+    """What the exact verification must provide (``optimizer.verify.Verdict`` satisfies it)."""
+
+    passed: bool
+
+
+Verifier = Callable[[Design, Spec], Verdict]
+
+
+@dataclass(frozen=True)
+class Candidate:
+    """A verified design with its cost and the verification result."""
+
+    design: Design
+    cost: CostBreakdown
+    verdict: Verdict
+
+
+@dataclass(frozen=True)
+class PickResult:
+    """The outcome of :func:`pick`.
+
+    ``ranked``: verified designs, cheapest first (by the spec's objective); ``extras``: the best
+    discrete and best network design when the ranked list lacks one of the kinds; ``status`` and
+    ``gap`` (relative, for a time-limited search); timing in seconds; ``cuts``: candidates the
+    exact check rejected."""
+
+    ranked: tuple[Candidate, ...]
+    extras: tuple[Candidate, ...]
+    status: SearchStatus
+    gap: float | None
+    solve_seconds: float
+    verify_seconds: float
+    build_seconds: float
+    cuts: int
+    solves: int
+    option_count: int
+    rejected: tuple[tuple[Design, Verdict], ...] = field(default=())
+
+
+def solver_parameters(time_limit_s: float, workers: int = 1, seed: int = 0) -> cp_model.CpSolver:
+    """A CP-SAT solver with fixed parameters: time limit, worker count, seed."""
+    solver = cp_model.CpSolver()
+    solver.parameters.max_time_in_seconds = max(time_limit_s, 0.001)
+    solver.parameters.num_workers = workers
+    solver.parameters.random_seed = seed
+    solver.parameters.log_search_progress = False
+    return solver
+
+
+@dataclass
+class _Clock:
+    deadline: float
+    solve: float = 0.0
+    verify: float = 0.0
+    build: float = 0.0
+
+    def remaining(self) -> float:
+        return self.deadline - time.perf_counter()
+
+
+@dataclass(frozen=True)
+class Problem:
+    """Everything the model is built from (kept together for re-builds)."""
+
+    spec: Spec
+    catalog: Catalog
+    env: LinearEnvironment
+    options: OptionTable
+    block: DiscreteBlock
+    limits: Limits
+
+    def build(self, variant: ModelVariant) -> BuiltModel:
+        return build_model(self.options, self.block, self.spec, self.env, self.limits, variant)
+
+    @property
+    def size(self) -> int:
+        return len(self.options) + sum(len(self.block.value_indices(i)) + len(self.block.usable(i)) for i in range(4))
+
+    def read(self, solver: cp_model.CpSolver, built: BuiltModel) -> tuple[list[cp_model.IntVar], Design]:
+        """The chosen decision literals and the design they make."""
+        chosen = [lit for lit in built.literals() if solver.boolean_value(lit)]
+        slots: dict[int, Placement] = {}
+        package_count: dict[str, int] = {}
+        for i, lit in enumerate(built.x):
+            if not solver.boolean_value(lit):
+                continue
+            recipe = self.options.makers[i]
+            network = self.catalog.networks[recipe[0][2]]
+            package = package_count.get(network.part_id, 0)
+            package_count[network.part_id] = package + 1
+            for position, _, _, element in recipe:
+                slots[position] = Placement(f"R{position + 1}", network, element, package)
+        for position in range(4):
+            ks = [k for k, lit in built.value[position].items() if solver.boolean_value(lit)]
+            cs = [c for c, lit in built.grade[position].items() if solver.boolean_value(lit)]
+            if ks and cs:
+                row = self.block.part_row[(cs[0], ks[0])]
+                slots[position] = Placement(f"R{position + 1}", self.catalog.discrete_part(row))
+        design = Design((slots[0], slots[1], slots[2], slots[3]))
+        return chosen, design
+
+
+class _Stream:
+    """Verified designs of one topology, best first, one solve at a time: each solve is cut by
+    the designs already seen, so each new optimum is the next best."""
+
+    def __init__(self, problem: Problem, topologies: frozenset[Topology], objective: Objective) -> None:
+        self.problem = problem
+        self.topologies = topologies
+        self.objective = objective
+        self._built: BuiltModel | None = None
+        self.exhausted = False
+        self.optimal = True
+        self.timed_out = False
+        self.gap: float | None = None
+        self.solves = 0
+        self.rejected: list[tuple[Design, Verdict]] = []
+
+    def _model(self, clock: _Clock) -> BuiltModel:
+        if self._built is None:
+            started = time.perf_counter()
+            self._built = self.problem.build(ModelVariant(objective=self.objective, topologies=self.topologies))
+            clock.build += time.perf_counter() - started
+        return self._built
+
+    def next(self, verifier: Verifier, clock: _Clock, workers: int) -> tuple[float, Candidate] | None:
+        """The next verified design with its ranking key (lower is better), or None."""
+        spec = self.problem.spec
+        while not self.exhausted:
+            built = self._model(clock)
+            remaining = clock.remaining()
+            if remaining <= 0.0:
+                self.timed_out, self.optimal, self.exhausted = True, False, True
+                return None
+            solver = solver_parameters(remaining, workers)
+            started = time.perf_counter()
+            status = solver.solve(built.model)
+            clock.solve += time.perf_counter() - started
+            self.solves += 1
+            if status in (cp_model.INFEASIBLE, cp_model.MODEL_INVALID):
+                self.exhausted = True
+                return None
+            if status == cp_model.UNKNOWN:
+                self.timed_out, self.optimal, self.exhausted = True, False, True
+                return None
+            if status == cp_model.FEASIBLE:
+                # Time is up: report the best found with its gap and stop this stream.
+                self.optimal, self.timed_out, self.exhausted = False, True, True
+                objective, bound = solver.objective_value, solver.best_objective_bound
+                self.gap = abs(objective - bound) / max(abs(objective), 1e-12)
+            chosen, design = self.problem.read(solver, built)
+            built.exclude(chosen)
+            started = time.perf_counter()
+            verdict = verifier(design, spec)
+            clock.verify += time.perf_counter() - started
+            if not verdict.passed:
+                self.rejected.append((design, verdict))
+                if len(self.rejected) >= MAX_CUTS:
+                    self.optimal, self.exhausted = False, True
+                continue
+            cost = design_cost(design, spec.preferences)
+            if self.objective is Objective.COST:
+                key = cost.total
+            elif self.objective is Objective.CMRR_MARGIN:
+                key = -solver.objective_value
+            else:
+                key = solver.objective_value
+            return key, Candidate(design, cost, verdict)
+        return None
+
+
+def prepare(spec: Spec, catalog: Catalog) -> Problem:
+    """The environment, options, discrete block and limits of the linear model."""
+    env = linear_environment(spec)
+    return Problem(spec, catalog, env, build_options(catalog, spec, env), build_discrete(catalog, spec, env), limits_for(spec, env))
+
+
+def pick(
+    spec: Spec,
+    catalog: Catalog,
+    verifier: Verifier,
+    *,
+    top: int | None = None,
+    time_limit_s: float | None = None,
+    workers: int = 1,
+) -> PickResult:
+    """The ``top`` best designs (by the spec's objective) from ``catalog`` that pass ``verifier``.
+
+    One stream of designs per allowed topology, merged best first (ties go to the topology
+    listed first in :class:`Topology`). Infeasibility is not an exception here: an empty
+    ``ranked`` with status INFEASIBLE lets the caller run the diagnosis."""
+    wanted = top if top is not None else spec.preferences.alternatives
+    started = time.perf_counter()
+    clock = _Clock(deadline=started + (time_limit_s if time_limit_s is not None else DEFAULT_TIME_LIMIT_S))
+    problem = prepare(spec, catalog)
+    clock.build += time.perf_counter() - started
+    objective = spec.preferences.objective
+    streams = [_Stream(problem, frozenset({t}), objective) for t in Topology if t in spec.preferences.topologies]
+    if problem.size == 0 or problem.limits.cmrr_budget <= 0.0:
+        streams = []
+    heads: list[tuple[float, Candidate] | None] = [s.next(verifier, clock, workers) for s in streams]
+    found: list[Candidate] = []
+    while len(found) < wanted:
+        live = [(head[0], i) for i, head in enumerate(heads) if head is not None]
+        if not live:
+            break
+        _, best = min(live)
+        head = heads[best]
+        assert head is not None
+        found.append(head[1])
+        heads[best] = streams[best].next(verifier, clock, workers)
+    extras = _best_of_each_kind(found, streams, heads)
+    timed_out = any(s.timed_out for s in streams)
+    rejected = [r for s in streams for r in s.rejected]
+    if found:
+        proven = not timed_out and all(s.optimal for s in streams)
+        status = SearchStatus.OPTIMAL if proven else SearchStatus.TIME_LIMIT
+    else:
+        status = SearchStatus.TIME_LIMIT if timed_out or len(rejected) >= MAX_CUTS else SearchStatus.INFEASIBLE
+    gaps = [s.gap for s in streams if s.gap is not None]
+    return PickResult(
+        ranked=tuple(found),
+        extras=extras,
+        status=status,
+        gap=max(gaps) if gaps else None,
+        solve_seconds=clock.solve,
+        verify_seconds=clock.verify,
+        build_seconds=clock.build,
+        cuts=len(rejected),
+        solves=sum(s.solves for s in streams),
+        option_count=problem.size,
+        rejected=tuple(rejected),
+    )
+
+
+def _best_of_each_kind(
+    found: list[Candidate], streams: list[_Stream], heads: list[tuple[float, Candidate] | None]
+) -> tuple[Candidate, ...]:
+    """When the ranking shows only discrete or only network designs although both kinds are
+    allowed, add the best design of the missing kind (the next head of its streams)."""
+    if not found:
+        return ()
+    shown_discrete = any(c.design.topology is Topology.DISCRETE for c in found)
+    shown_network = any(c.design.topology is not Topology.DISCRETE for c in found)
+    extras: list[Candidate] = []
+    for want_discrete, shown in ((True, shown_discrete), (False, shown_network)):
+        if shown:
+            continue
+        pool = [
+            head
+            for stream, head in zip(streams, heads)
+            if head is not None and (Topology.DISCRETE in stream.topologies) == want_discrete
+        ]
+        if pool:
+            extras.append(min(pool, key=lambda h: h[0])[1])
+    return tuple(extras)
+
+
+def with_objective(spec: Spec, objective: Objective) -> Spec:
+    """``spec`` with another objective (for the CLI's overrides)."""
+    return replace(spec, preferences=replace(spec.preferences, objective=objective))
