@@ -51,6 +51,8 @@ from optimizer.analysis.worstcase import (
     bridge_terms,
     common_mode_error_from_terms,
     differential_gain_from_terms,
+    needs_scale_search,
+    opposing_group,
     worst_case,
     worst_case_from_bounds,
     worst_case_from_variation,
@@ -483,6 +485,51 @@ def test_interior_extreme_of_a_shared_scale_is_found() -> None:
     assert reported > corners * (1 + 1e-4)
 
 
+def test_gain_extreme_inside_for_an_opposing_group() -> None:
+    """Derived (dense grid over the shared tempco): with no source or REF impedance, a group
+    holding R1 and R4 (same-lot parts sharing one tempco) moves c = R2/(R1+R2) down and
+    a = R4/(R3+R4) up together; the gain rises with both, so it can peak inside the tempco
+    range. The tempco is exaggerated (0.5 %/K over 100 K) to make the effect plain."""
+    values = np.array([1000.0, 190.0, 1290.0, 970.0])
+    tol = np.array([0.005, 0.009, 0.009, 0.004])
+    lot = SharedGroup("lot", (0, 3), 0.0, 0.005, 0.0)
+    variation = Variation(tuple(values), tuple(tol), groups=(lot,))
+    env = Environment(temperatures_c=(125.0,))
+    assert opposing_group((0, 3)) and opposing_group((1, 2)) and not opposing_group((0, 2))
+    assert needs_scale_search(variation, env)
+    wc = worst_case_from_variation(variation, env, 0.2)
+    scale = np.linspace(0.5, 1.5, 200_001)
+    lows, highs = [], []
+    for way in (1.0, -1.0):
+        r = np.tile(values * (1 + way * np.array([-1.0, 1.0, -1.0, 1.0]) * tol), (scale.size, 1))
+        r[:, [0, 3]] *= scale[:, None]
+        gain = differential_gain(coefficients(r[:, 0], r[:, 1], r[:, 2], r[:, 3]))
+        lows.append(gain.min())
+        highs.append(gain.max())
+    assert wc.gain_max == pytest.approx(max(highs), rel=1e-9)
+    assert wc.gain_min == pytest.approx(min(lows), rel=1e-9)
+    corners = _enumerate(variation, env)
+    assert wc.gain_max > corners.gain_max * (1 + 1e-3) or wc.gain_min < corners.gain_min * (
+        1 - 1e-3
+    )
+
+
+def test_corners_alone_where_they_are_exact() -> None:
+    """Model property (module docstring): without source or REF impedance a whole quad, or a
+    pure-scale group that does not oppose a and c, needs no search; impedance does."""
+    quad4 = Variation(
+        (1e3,) * 4,
+        (1e-4,) * 4,
+        (1e-6,) * 4,
+        groups=(SharedGroup("q", (0, 1, 2, 3), 0.01, 2e-5, 0.0),),
+    )
+    lot13 = Variation((1e3,) * 4, (1e-3,) * 4, groups=(SharedGroup("lot", (0, 2), 0.0, 5e-5, 0.0),))
+    ideal = Environment(temperatures_c=(-40.0, 85.0))
+    assert not needs_scale_search(quad4, ideal)
+    assert not needs_scale_search(lot13, ideal)
+    assert needs_scale_search(quad4, Environment(ref_ohm=(0.0, 10.0)))
+
+
 # ---------------------------------------------------------------------------------------------
 # hypothesis: no interior point beats the reported worst case
 # ---------------------------------------------------------------------------------------------
@@ -495,15 +542,23 @@ class Case:
     seed: int
 
 
+def unit(rng: np.random.Generator, n: int) -> np.ndarray:
+    """Points of [−1, 1]: a quarter at −1, a quarter at +1, half uniform inside (the ends make
+    the search for a point beyond the reported worst case much stronger)."""
+    pick = rng.random(n)
+    inside = 2 * rng.random(n) - 1
+    return np.where(pick < 0.25, -1.0, np.where(pick < 0.5, 1.0, inside))
+
+
 def _independent_resistances(
     design: Design, spec: Spec, rng: np.random.Generator, n: int, temp: np.ndarray
 ) -> np.ndarray:
     """The documented model, written out again from the part fields: discrete
     r = R0(1+e)(1+αΔT)(1+d); network r_i = R0_i(1+e_abs)(1+e_i)(1+(α_abs+τ_i)ΔT)(1+d_abs)(1+δ_i);
-    D = drift_1000h·√(life_h/1000); same-lot parts share α. Every variable uniform inside."""
+    D = drift_1000h·√(life_h/1000); same-lot parts share α. Every variable drawn by unit()."""
 
     def u(bound: float) -> np.ndarray:
-        return (2 * rng.random(n) - 1) * bound
+        return unit(rng, n) * bound
 
     life = math.sqrt(spec.requirements.life_s / 3600.0 / 1000.0)
     dt = temp - 25.0
@@ -648,21 +703,24 @@ def cases(draw: st.DrawFn) -> Case:
 @settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(cases())
 def test_no_interior_point_beats_the_worst_case(case: Case) -> None:
-    """Definition of the worst case: at random interior points of every bounded variable
-    (part variables from an independent implementation of the model, temperature anywhere
-    in range, source impedances inside the polygon, REF impedance in range, amplifier CMRR
-    anywhere at or above its minimum with either sign, A at or above its minimum) the CMRR is
-    no lower and the gain error no wider than reported (1e-9 relative slack)."""
+    """Definition of the worst case: at random points of every bounded variable, half of them
+    at an end of their range (part variables from an independent implementation of the model,
+    temperature anywhere in range, source impedances inside the polygon, REF impedance in
+    range, amplifier CMRR anywhere at or above its minimum with either sign, A at or above its
+    minimum) the CMRR is no lower and the gain error no wider than reported
+    (1e-9 relative slack)."""
     wc = worst_case(case.design, case.spec)
     rng = np.random.default_rng(case.seed)
     n = 400
     req, spec = case.spec.requirements, case.spec
-    temp = req.temp_min_c + (req.temp_max_c - req.temp_min_c) * rng.random(n)
+    mid_t, half_t = (req.temp_max_c + req.temp_min_c) / 2, (req.temp_max_c - req.temp_min_c) / 2
+    temp = mid_t + half_t * unit(rng, n)
     r = _independent_resistances(case.design, spec, rng, n, temp)
     src = spec.signal.source
-    rs1 = src.min_ohm + (src.max_ohm - src.min_ohm) * rng.random(n)
-    rs3 = np.clip(rs1 + (2 * rng.random(n) - 1) * src.imbalance_ohm, src.min_ohm, src.max_ohm)
-    rref = spec.reference.impedance_max_ohm * rng.random(n)
+    mid_s, half_s = (src.max_ohm + src.min_ohm) / 2, (src.max_ohm - src.min_ohm) / 2
+    rs1 = mid_s + half_s * unit(rng, n)
+    rs3 = np.clip(rs1 + src.imbalance_ohm * unit(rng, n), src.min_ohm, src.max_ohm)
+    rref = spec.reference.impedance_max_ohm * (1 + unit(rng, n)) / 2
     amp = spec.amplifier
     cmrr = (
         amp.cmrr_ratio / np.maximum(rng.random(n), 1e-300)

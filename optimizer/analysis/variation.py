@@ -582,7 +582,7 @@ class Environment:
 
     @property
     def delta_t_k(self) -> tuple[float, ...]:
-        return tuple(t - REFERENCE_TEMPERATURE_C for t in self.temperatures_c)
+        return tuple(float(temperature_offset_k(t)) for t in self.temperatures_c)
 
     def amplifier_only(self) -> Environment:
         """This environment with the amplifier made ideal."""
@@ -658,7 +658,7 @@ def passive_corners(variation: Variation, environment: Environment) -> PassiveCo
     ref = np.array(environment.ref_ohm, dtype=float)
     blocks: list[tuple[Array, float]] = []
     for temperature in environment.temperatures_c:
-        dt = temperature - REFERENCE_TEMPERATURE_C
+        dt = float(temperature_offset_k(temperature))
         blocks.append((resistances(variation, vertex_values(variation, dt), dt), temperature))
     env_count = source.shape[0] * ref.shape[0]
     rs1_env = np.repeat(source[:, 0], ref.shape[0])

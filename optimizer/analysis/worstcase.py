@@ -32,18 +32,26 @@ R1, R3, Rs1, Rs3, and is a ratio of affine functions of ``ε``. Hence:
 * the environment extremes are at the polygon vertices, the ends of the REF range, ``±`` the
   minimum amplifier CMRR and ``A ∈ {A_min, ∞}``.
 
-Shared variables (network packages, same-lot reels) enter every element of their group. With
-no source and no REF impedance ``x`` and ``Adm`` do not change when all resistances scale
-together, the tempco boxes of the elements only widen with the shared tempco at its most
-negative, and the extremes stay at the corners. With source or REF impedance present the
-common scale ``Σ = (1+e_abs)(1+d_abs)(1+α_abs·ΔT)`` of a group is no longer neutral and the
-extreme can lie *inside* its range (a second-order effect). For every objective (largest and
-smallest ``x``, largest and smallest ``Adm``) the own variables still sit at the corner that
-pushes each resistance the right way, and for a given ``Σ`` the most harmful split puts
-``α_abs`` as low as the range allows (it widens the element tracking box); what remains is the
-maximum of a smooth function of one ``Σ`` per group (at most two groups) over an interval,
-found by golden-section search (nested for two groups) and merged with the corners. Every
-value reported is that of a feasible point, so the result never overstates the worst case.
+Shared variables (network packages, same-lot reels) enter every element of their group.
+Write ``Σ = (1+e_abs)(1+d_abs)(1+α_abs·ΔT)`` for the common scale of a group. With no source
+and no REF impedance ``x`` and ``Adm`` depend only on ratios of the effective resistances:
+a group of all four elements, or of one whole side (R1 and R2, or R3 and R4), acts only
+through ratios inside the group, whose range is widest with ``α_abs`` at an end, so the
+corners are exact; a group that is a pure common scale of its members makes ``x`` a ratio of
+affine functions of ``Σ`` (monotone) and, since ``Adm`` rises with both ``a`` and ``c``, leaves
+``Adm`` monotone unless it moves them in opposite directions (R1 with R4, or R2 with R3:
+:func:`opposing_group`). In every other case (a source or REF impedance, an opposing group,
+or a partial group whose elements carry a tracking tempco, which makes the scale act slightly
+differently on each element) the extreme can lie *inside* the range of ``Σ``
+(:func:`needs_scale_search`). The excess over the corners is second order in the span of
+``Σ``: about 2.5·10⁻⁴ of the common-mode error for a ±2 % package with a large source
+imbalance, in the probes behind the tests. For every objective (largest and smallest ``x``,
+largest and smallest ``Adm``) the own variables still sit at the corner that pushes each
+resistance the right way, and for a given ``Σ`` the most harmful split puts ``α_abs`` as low
+as the range allows (that widens the element tracking box); what remains is the maximum of a smooth
+function of one ``Σ`` per group (at most two groups) over an interval, found by golden-section
+search (nested for two groups) and merged with the corners. Every value reported is that of a
+feasible point, so the result never overstates the worst case.
 
 Public entry points: :func:`worst_case` (a design and a spec), :func:`worst_case_from_variation`
 (a :class:`~optimizer.analysis.variation.Variation` and an environment) and
@@ -87,13 +95,14 @@ __all__ = [
     "BudgetItem",
     "WorstCase",
     "above_rounding",
-    "balance",
     "bridge_terms",
     "budget_shares",
     "common_mode_error",
     "common_mode_error_from_balance",
     "common_mode_error_from_terms",
     "differential_gain_from_terms",
+    "needs_scale_search",
+    "opposing_group",
     "rejection_db",
     "worst_case",
     "worst_case_from_bounds",
@@ -143,15 +152,6 @@ def rejection_db(error: ArrayLike) -> Array:
     with np.errstate(divide="ignore"):
         level: Array = -20.0 * np.log10(np.asarray(error, dtype=float))
     return level
-
-
-def balance(r1_eff: ArrayLike, r2: ArrayLike, r3_eff: ArrayLike, r4_eff: ArrayLike) -> Array:
-    """Bridge balance ``x = c/a = (R3'+R4')/R4' · R2/(R1'+R2)`` (dimensionless, 1 when
-    R2/R1' = R4'/R3'); ``c = 1 − β`` with the feedback factor β and ``a`` the divider ratio of
-    :mod:`~optimizer.analysis.transfer`. Resistances in ohms, primes include the source and
-    REF impedances."""
-    c = 1.0 - feedback_factor(r1_eff, r2)
-    return c / divider_ratio(r3_eff, r4_eff)
 
 
 def bridge_terms(
@@ -452,10 +452,44 @@ def _maximise_scales(variation: Variation, problems: _Problems, x_rows: int) -> 
     raise ModelError("worst case", "groups", f"expected at most two shared groups, got {groups}")
 
 
+def opposing_group(positions: tuple[int, ...]) -> bool:
+    """True when scaling the resistors at ``positions`` (0-based R1..R4) together moves
+    ``c = R2/(R1+R2)`` and ``a = R4/(R3+R4)`` in opposite directions (the group holds R1 and
+    R4 but neither R2 nor R3, or R2 and R3 but neither R1 nor R4). The gain rises with both
+    ``a`` and ``c``, so only for such a group can it peak inside the range of the group's
+    common scale when there is no source or REF impedance; ``x = c/a`` is then a ratio of
+    affine functions of the scale and stays monotone for every group."""
+    held = set(positions)
+    c_way = (1 in held) - (0 in held) if len(held & {0, 1}) == 1 else 0
+    a_way = (3 in held) - (2 in held) if len(held & {2, 3}) == 1 else 0
+    return c_way * a_way < 0
+
+
+def needs_scale_search(variation: Variation, environment: Environment) -> bool:
+    """Whether the corners alone may miss an extreme (module docstring). They are exact when
+    nothing is shared, or when there is no source or REF impedance and every group either
+    holds all four resistors or one whole side (R1 and R2, or R3 and R4: only ratios inside the
+    group matter), or is a pure common scale of its members (no element tracking tempco) that
+    does not oppose ``a`` and ``c`` (:func:`opposing_group`)."""
+    if not variation.groups:
+        return False
+    if environment.has_impedance:
+        return True
+    for group in variation.groups:
+        held = set(group.positions)
+        if held in ({0, 1, 2, 3}, {0, 1}, {2, 3}):
+            continue
+        pure_scale = all(variation.tempco_per_k[i] == 0.0 for i in held)
+        if pure_scale and not opposing_group(group.positions):
+            continue
+        return True
+    return False
+
+
 def _refine(variation: Variation, environment: Environment) -> _Extremes | None:
     """Extremes over the interior of the shared groups' common scale (module docstring);
-    ``None`` when the corners are already exact (no groups, or no source/REF impedance)."""
-    if not variation.groups or not environment.has_impedance:
+    ``None`` when the corners are already exact (:func:`needs_scale_search`)."""
+    if not needs_scale_search(variation, environment):
         return None
     source = np.array(environment.source_ohm, dtype=float)
     ref = np.array(environment.ref_ohm, dtype=float)
