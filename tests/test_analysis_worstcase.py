@@ -383,6 +383,14 @@ def test_bounds_api_matches_design_api_for_discrete_parts() -> None:
     assert float(batch.gain_max[0]) == pytest.approx(wc.gain_max, rel=1e-13)
 
 
+def test_bounds_reaching_zero_resistance_are_a_model_error() -> None:
+    """A tempco of 0.8 %/K over 150 K takes a corner below zero ohms: a clear error, never a
+    silent number."""
+    variation = Variation((1e3,) * 4, (0.001,) * 4, (0.008,) * 4)
+    with pytest.raises(ModelError, match="zero or negative"):
+        worst_case_from_variation(variation, Environment(temperatures_c=(-125.0, 25.0)), 1.0)
+
+
 def test_drift_grows_with_the_square_root_of_time() -> None:
     """Common practice, from memory: drift ∝ √time; 0.1 %/1000 h → 0.1·√10 % at 10,000 h."""
     assert drift_bound(0.001, 10_000 * SECONDS_PER_HOUR) == pytest.approx(

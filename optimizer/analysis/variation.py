@@ -653,13 +653,22 @@ class AmplifierCorners:
 
 def passive_corners(variation: Variation, environment: Environment) -> PassiveCorners:
     """The product of the part vertices at each temperature (:func:`vertex_values`) with the
-    source-impedance vertices and the REF impedance ends."""
+    source-impedance vertices and the REF impedance ends. Raises :class:`ModelError` when a
+    corner resistance is zero or negative (bounds too wide for the temperature range)."""
     source = np.array(environment.source_ohm, dtype=float)
     ref = np.array(environment.ref_ohm, dtype=float)
     blocks: list[tuple[Array, float]] = []
     for temperature in environment.temperatures_c:
         dt = float(temperature_offset_k(temperature))
-        blocks.append((resistances(variation, vertex_values(variation, dt), dt), temperature))
+        r = resistances(variation, vertex_values(variation, dt), dt)
+        if np.any(r <= 0.0):
+            raise ModelError(
+                "variation",
+                "range",
+                f"at {temperature:g} °C tolerance, tempco and drift together reach -100 %: "
+                "a resistance would be zero or negative",
+            )
+        blocks.append((r, temperature))
     env_count = source.shape[0] * ref.shape[0]
     rs1_env = np.repeat(source[:, 0], ref.shape[0])
     rs3_env = np.repeat(source[:, 1], ref.shape[0])
