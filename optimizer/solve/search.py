@@ -24,6 +24,7 @@ from ..cost import CostBreakdown, design_cost
 from ..design import Design, Placement, Topology
 from ..spec import Objective, Spec
 from .environment import LinearEnvironment, linear_environment
+from .amplifier import amplifier_limits
 from .discrete import DiscreteBlock, build_discrete
 from .model import BuiltModel, Limits, ModelVariant, build_model, limits_for
 from .options import OptionTable, build_options
@@ -242,8 +243,8 @@ def pick(
     clock.build += time.perf_counter() - started
     objective = spec.preferences.objective
     streams = [_Stream(problem, frozenset({t}), objective) for t in Topology if t in spec.preferences.topologies]
-    if problem.size == 0 or problem.limits.cmrr_budget <= 0.0:
-        streams = []
+    if problem.size == 0 or problem.limits.cmrr_budget <= 0.0 or amplifier_limits(spec):
+        streams = []  # nothing can pass: leave the reasons to the diagnosis
     heads: list[tuple[float, Candidate] | None] = [s.next(verifier, clock, workers) for s in streams]
     found: list[Candidate] = []
     while len(found) < wanted:

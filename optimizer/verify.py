@@ -1,0 +1,114 @@
+"""The exact check of one design against a spec: the single definition of "meets the spec".
+
+It combines the exact worst case (``analysis.worstcase``), the Monte-Carlo yield
+(``analysis.montecarlo``) and every other check (``analysis.checks``):
+
+* CMRR floor: on the worst-case basis the worst-case CMRR must reach the floor; on the yield
+  basis the Monte-Carlo yield (CMRR floor and gain accuracy together) must reach the target.
+* Gain accuracy: on the worst-case basis the worst-case gain error must stay inside
+  ±accuracy; on the yield basis it is part of the yield.
+* Every check of ``analysis.checks`` must pass (input impedance, noise, amplifier input range,
+  output swing, bandwidths, resistor power and voltage).
+
+The pick verifies every candidate with :func:`verify`; ``quartet check`` reports it. Pure: no
+printing, no files.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+from .analysis.checks import CheckResult, run_checks, safety_cautions
+from .analysis.montecarlo import MonteCarloResult, monte_carlo
+from .analysis.worstcase import WorstCase, worst_case
+from .design import Design
+from .spec import CmrrBasis, Spec
+
+__all__ = ["Margin", "Verification", "verify"]
+
+
+@dataclass(frozen=True)
+class Margin:
+    """One requirement's outcome: ``margin`` in ``unit`` (positive passes)."""
+
+    name: str
+    passed: bool
+    value: float
+    limit: float
+    margin: float
+    unit: str
+
+
+@dataclass(frozen=True)
+class Verification:
+    """The exact check of a design: every requirement with its margin, the worst case, the
+    Monte-Carlo result (when computed), the other checks and the safety cautions."""
+
+    worst_case: WorstCase
+    monte_carlo: MonteCarloResult | None
+    checks: tuple[CheckResult, ...]
+    requirements: tuple[Margin, ...]
+    cautions: tuple[str, ...]
+
+    @property
+    def passed(self) -> bool:
+        return all(m.passed for m in self.requirements)
+
+    @property
+    def failures(self) -> tuple[str, ...]:
+        return tuple(m.name for m in self.requirements if not m.passed)
+
+    @property
+    def tightest(self) -> Margin:
+        """The requirement with the least margin relative to its limit."""
+        return min(self.requirements, key=_relative_margin)
+
+
+def _relative_margin(margin: Margin) -> float:
+    if not math.isfinite(margin.margin):
+        return math.inf if margin.margin > 0 or math.isnan(margin.margin) else -math.inf
+    scale = abs(margin.limit) if math.isfinite(margin.limit) and margin.limit != 0.0 else 1.0
+    return margin.margin / scale
+
+
+def cmrr_margin(worst: WorstCase, spec: Spec) -> Margin:
+    """Worst-case CMRR (dB) against the floor; margin in dB."""
+    floor = spec.requirements.cmrr_floor_db
+    return Margin("cmrr_worst_case", worst.cmrr_db >= floor, worst.cmrr_db, floor, worst.cmrr_db - floor, "dB")
+
+
+def gain_margin(worst: WorstCase, spec: Spec) -> Margin:
+    """Worst-case |gain error| against the accuracy; margin as a fraction of the gain."""
+    accuracy = spec.requirements.gain_accuracy
+    error = max(abs(worst.gain_error_min), abs(worst.gain_error_max))
+    return Margin("gain_accuracy", error <= accuracy, error, accuracy, accuracy - error, "")
+
+
+def yield_margin(result: MonteCarloResult, spec: Spec) -> Margin:
+    """Monte-Carlo yield (CMRR floor and gain accuracy together) against the target."""
+    target = spec.requirements.yield_target
+    return Margin("yield", result.yield_fraction >= target, result.yield_fraction, target, result.yield_fraction - target, "")
+
+
+def verify(design: Design, spec: Spec, *, statistics: bool | None = None, samples: int | None = None) -> Verification:
+    """The exact check of ``design`` against ``spec``.
+
+    ``statistics``: run the Monte Carlo (default: only when the CMRR basis is a yield, where it
+    decides the outcome; on the worst-case basis it is informative only)."""
+    worst = worst_case(design, spec)
+    yield_basis = spec.requirements.cmrr_basis is CmrrBasis.YIELD
+    run_mc = yield_basis if statistics is None else statistics
+    result = monte_carlo(design, spec, samples=samples) if run_mc or yield_basis else None
+    checks = run_checks(design, spec)
+    margins: list[Margin] = []
+    if yield_basis:
+        assert result is not None
+        margins.append(yield_margin(result, spec))
+    else:
+        margins.append(cmrr_margin(worst, spec))
+        margins.append(gain_margin(worst, spec))
+    margins.extend(
+        Margin(c.name, c.passed, c.value, c.limit, c.margin, c.unit) for c in checks if not math.isnan(c.limit)
+    )
+    return Verification(worst, result, checks, tuple(margins), safety_cautions(spec))
