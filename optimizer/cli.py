@@ -46,6 +46,7 @@ def build_parser() -> argparse.ArgumentParser:
     commands.required = True
     _add_catalog_commands(commands)
     _add_spec_commands(commands)
+    _add_check_command(commands)
     return parser
 
 
@@ -102,6 +103,107 @@ def _spec_validate(args: argparse.Namespace, console: Console) -> int:
     console.print(render_spec_summary(spec))
     console.print(f"[green]valid[/green]: {args.path}")
     return EXIT_OK
+
+
+# ---------------------------------------------------------------------------------------------
+# check: verify a design the user brings
+# ---------------------------------------------------------------------------------------------
+
+
+def _whole_number(minimum: int) -> Callable[[str], int]:
+    def parse(text: str) -> int:
+        try:
+            value = int(text.replace("_", "").replace(",", ""))
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"expected a whole number, got {text!r}") from None
+        if value < minimum:
+            raise argparse.ArgumentTypeError(f"expected {minimum} or more, got {text!r}")
+        return value
+
+    return parse
+
+
+def _add_check_command(commands: argparse._SubParsersAction[_Parser]) -> None:
+    check = commands.add_parser(
+        "check",
+        help="verify a design of your own against a spec",
+        description="Verify four resistors you choose against a spec: worst case, error "
+        "budget, Monte-Carlo yield and every other check. Exit 0 when every requirement "
+        "holds, 1 when one does not, 2 on bad input.",
+    )
+    check.add_argument("spec", metavar="SPEC", help="spec file (YAML)")
+    for position in ("r1", "r2", "r3", "r4"):
+        check.add_argument(
+            f"--{position}",
+            metavar="PART",
+            help=f"{position.upper()} as VALUE[/TOL][/TEMPCO], e.g. 10k/0.1%%/25ppm/K",
+        )
+    for option, metavar, text in (
+        ("--tolerance", "TOL", "tolerance of every value without its own"),
+        ("--tempco", "TC", "tempco of every value without its own"),
+        ("--drift", "D", "life drift per 1000 h of the values (default none)"),
+        ("--power", "P", "power rating of the values at 70 °C (assumed 0.1 W)"),
+        ("--max-voltage", "V", "limiting voltage of the values (assumed 75 V)"),
+    ):
+        check.add_argument(option, metavar=metavar, help=text)
+    check.add_argument(
+        "--parts", nargs=4, metavar="ID", help="catalog ids for R1 R2 R3 R4 (ID:E for a network "
+        "element, - for a position given otherwise)",
+    )  # fmt: skip
+    check.add_argument(
+        "--network", action="append", default=[], metavar="ID:E1,E2,E3,E4",
+        help="one network package: the element at R1..R4 (1-based, - for none); repeatable",
+    )  # fmt: skip
+    check.add_argument(
+        "--catalog", action="append", default=[], metavar="PATH",
+        help="extra catalog file for the ids (repeatable); the spec's catalogs are always read",
+    )  # fmt: skip
+    check.add_argument("--samples", type=_whole_number(1), metavar="N", help="Monte-Carlo builds")
+    check.add_argument("--seed", type=_whole_number(0), metavar="S", help="Monte-Carlo seed")
+    check.add_argument("--json", action="store_true", help="write the result as JSON")
+    check.set_defaults(handler=_check)
+
+
+def _check(args: argparse.Namespace, console: Console) -> int:
+    import dataclasses
+    import os
+
+    from .catalog import load_catalogs
+    from .report.check import check_json_text, check_to_json, render_check
+    from .specfile import load_spec
+    from .userdesign import build_user_design
+    from .verify import verify
+
+    spec = load_spec(args.spec)
+    if args.seed is not None:
+        spec = dataclasses.replace(
+            spec, preferences=dataclasses.replace(spec.preferences, seed=args.seed)
+        )
+    catalog = None
+    if args.parts is not None or args.network:
+        paths: dict[str, str] = {}
+        for path in (*spec.preferences.catalogs, *args.catalog):
+            paths.setdefault(os.path.realpath(path), path)
+        catalog = load_catalogs(list(paths.values()), spec.preferences.use_builtin_catalogs)
+    user = build_user_design(
+        values=(args.r1, args.r2, args.r3, args.r4),
+        parts=args.parts,
+        networks=args.network,
+        catalog=catalog,
+        tolerance=args.tolerance,
+        tempco=args.tempco,
+        drift=args.drift,
+        power=args.power,
+        max_voltage=args.max_voltage,
+    )
+    result = verify(user.design, spec, statistics=True, samples=args.samples)
+    extra = {"origins": user.origins, "assumptions": user.assumptions}
+    if args.json:
+        text = check_json_text(check_to_json(user.design, spec, result, **extra))
+        console.print(text, markup=False, highlight=False, emoji=False, soft_wrap=True)
+    else:
+        console.print(render_check(user.design, spec, result, **extra))
+    return EXIT_OK if result.passed else EXIT_NOT_MET
 
 
 # ---------------------------------------------------------------------------------------------
