@@ -231,6 +231,25 @@ def test_industrial_example_passes_and_json_matches_verify() -> None:
     assert all(r["met"] for r in requirements)
 
 
+def test_yield_basis_spec_judges_the_cmrr_by_the_monte_carlo() -> None:
+    path = str(EXAMPLES / "adc_driver.yaml")
+    spec = load_spec(path)
+    assert spec.requirements.cmrr_basis.value == "yield"
+    values = ("10k", "10k", "10k", "10k")
+    design = design_from_values(*values, tolerance="0.1%", tempco="10ppm/K")
+    expected = verify(design, spec, statistics=True, samples=2000)
+    assert expected.monte_carlo is not None
+    argv = ["check", path, "--tolerance", "0.1%", "--tempco", "10ppm/K", *FAST]
+    for position, value in zip(("--r1", "--r2", "--r3", "--r4"), values, strict=True):
+        argv += [position, value]
+    code, doc = _json(argv)
+    assert code == (0 if expected.passed else 1)
+    first = doc["requirements"][0]  # type: ignore[index]
+    assert first["name"] == "yield"
+    assert first["value"] == doc["statistics"]["yield"] == expected.monte_carlo.yield_fraction  # type: ignore[index]
+    assert first["limit"] == spec.requirements.yield_target
+
+
 def test_json_is_deterministic_and_survives_a_narrow_console() -> None:
     argv = ["check", INDUSTRIAL, "--r1", "100k", "--r2", "10k", "--r3", "100k", "--r4", "10k",
             "--tolerance", "0.01%", "--tempco", "2ppm/K", "--json", *FAST]  # fmt: skip
