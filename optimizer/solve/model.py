@@ -234,24 +234,44 @@ def build_model(
                 acc.add([value[position][k] for k in ks], coef[position] * phi[ks, v, position])
         return acc
 
-    def spread(coef: NDArray[np.float64], v: int, of_variance: bool) -> _Sum:
-        """Worst-case deviation (or variance) of Σ coefᵢ·φᵢ,v from the chosen grades."""
+    def spread(coef: NDArray[np.float64], v: int, of_variance: bool, scale: float) -> cp_model.LinearExpr:
+        """Worst-case deviation (or variance) of Σ coefᵢ·φᵢ,v from the chosen grades, in integer
+        units of ``scale``. A discrete position contributes |coefᵢ|·f·own (or coefᵢ²·f²·var),
+        the product of a class term X and a value term Y = f (f²) = R/(R + rs); it is bounded
+        below by the McCormick envelope max(X·Yl + Xl·Y − Xl·Yl, X·Yu + Xu·Y − Xu·Yu), linear
+        in the literals, so the bound stays a relaxation."""
         is_delta = coef is C_DELTA
         acc = _Sum()
         if of_variance:
             acc.add(x, options.s_delta[:, v] if is_delta else options.s_gain[:, v])
         else:
             acc.add(x, options.w_delta[:, v] if is_delta else options.w_gain[:, v])
+        terms: list[cp_model.LinearExpr] = [acc.expr(scale, "floor")]
         for position in range(4):
             cs = list(grade[position])
-            if not cs:
+            if not cs or coef[position] == 0.0:
                 continue
             ks = list(value[position])
-            smallest = float(fraction[ks, v, position].min())  # optimistic: least sensitive value
-            weight = abs(coef[position]) * smallest
-            per_class = block.var[cs] * weight**2 if of_variance else block.own[cs] * weight
-            acc.add([grade[position][c] for c in cs], per_class)
-        return acc
+            f = fraction[ks, v, position] ** (2 if of_variance else 1)
+            class_term = (block.var[cs] * coef[position] ** 2) if of_variance else (block.own[cs] * abs(coef[position]))
+            x_lo, x_hi = float(class_term.min()), float(class_term.max())
+            y_lo, y_hi = float(f.min()), float(f.max())
+            grades = [grade[position][c] for c in cs]
+            values = [value[position][k] for k in ks]
+            if y_hi - y_lo <= 1e-12 * y_hi:
+                terms.append(cp_model.LinearExpr.weighted_sum(grades, [int(v_) for v_ in np.floor(class_term * y_lo * scale)]))
+                continue
+            bound = model.new_int_var(0, 10**15, f"w{position}_{v}_{int(of_variance)}_{id(coef) % 997}")
+            for y_ref, x_ref in ((y_lo, x_lo), (y_hi, x_hi)):
+                # X·y_ref + x_ref·Y − x_ref·y_ref, the constant carried by the placement literal.
+                envelope = (
+                    cp_model.LinearExpr.weighted_sum(grades, [int(c_) for c_ in np.floor(class_term * y_ref * scale)])
+                    + cp_model.LinearExpr.weighted_sum(values, [int(c_) for c_ in np.floor(x_ref * f * scale)])
+                    - cp_model.LinearExpr.weighted_sum(values, [int(np.ceil(x_ref * y_ref * scale))] * len(values))
+                )
+                model.add(bound >= envelope)
+            terms.append(bound)
+        return sum(terms)  # type: ignore[return-value]
 
     budget = int(math.floor(limits.cmrr_budget * LOG_SCALE)) if limits.cmrr_budget > 0 else -1
     worst_margin = model.new_int_var(-(10**13), 10**13, "worst_margin")
@@ -264,29 +284,29 @@ def build_model(
         for sign, vertices in ((1, sides.delta_high), (-1, sides.delta_low)):
             for v in vertices:
                 delta = linear(C_DELTA, v).expr(LOG_SCALE)
-                w_delta = spread(C_DELTA, v, False).expr(LOG_SCALE, "floor")
+                w_delta = spread(C_DELTA, v, False, LOG_SCALE)
                 model.add(worst_margin <= budget - (sign * delta + w_delta))
         if variant.cmrr:
             model.add(worst_margin >= 0)
     if req.cmrr_basis is CmrrBasis.WORST_CASE and variant.gain:
         for v in sides.gain_high:
-            model.add(linear(cg, v).expr(LOG_SCALE) - log_g + spread(cg, v, False).expr(LOG_SCALE, "floor") <= upper)
+            model.add(linear(cg, v).expr(LOG_SCALE) - log_g + spread(cg, v, False, LOG_SCALE) <= upper)
         for v in sides.gain_low:
-            model.add(linear(cg, v).expr(LOG_SCALE) - log_g - spread(cg, v, False).expr(LOG_SCALE, "floor") - open_loop >= lower)
+            model.add(linear(cg, v).expr(LOG_SCALE) - log_g - spread(cg, v, False, LOG_SCALE) - open_loop >= lower)
     if req.cmrr_basis is CmrrBasis.YIELD:
         z2 = limits.z**2
         if variant.cmrr:
             for v in sorted(set(sides.delta_high + sides.delta_low)):
                 delta = linear(C_DELTA, v).expr(LOG_SCALE)
-                s_delta = spread(C_DELTA, v, True).expr(LOG_SCALE**2 * z2, "floor")
+                s_delta = spread(C_DELTA, v, True, QUAD_SCALE**2 * z2)
                 _quadratic_margin(model, budget - _abs(model, delta, f"ad{v}"), s_delta, f"c{v}")
         if variant.gain:
             for v in sides.gain_high:
                 gain = linear(cg, v).expr(LOG_SCALE) - log_g
-                _quadratic_margin(model, upper - gain, spread(cg, v, True).expr(LOG_SCALE**2 * z2, "floor"), f"gu{v}")
+                _quadratic_margin(model, upper - gain, spread(cg, v, True, QUAD_SCALE**2 * z2), f"gu{v}")
             for v in sides.gain_low:
                 gain = linear(cg, v).expr(LOG_SCALE) - log_g
-                _quadratic_margin(model, gain - open_loop - lower, spread(cg, v, True).expr(LOG_SCALE**2 * z2, "floor"), f"gl{v}")
+                _quadratic_margin(model, gain - open_loop - lower, spread(cg, v, True, QUAD_SCALE**2 * z2), f"gl{v}")
 
     if variant.impedance and limits.min_impedance_ohm > 0.0:
         z_min = limits.min_impedance_ohm
@@ -449,11 +469,20 @@ def _abs(model: cp_model.CpModel, expr: cp_model.LinearExpr, name: str) -> cp_mo
     return var
 
 
+#: Coarser integer units per log unit for the yield basis' quadratic constraint: small domains
+#: let CP-SAT propagate the product well; the margin is rounded up, so it stays a relaxation.
+QUAD_SCALE = 1e4
+
+
 def _quadratic_margin(model: cp_model.CpModel, margin: cp_model.LinearExprT, variance: cp_model.LinearExpr, name: str) -> None:
-    """margin ≥ 0 and margin² ≥ variance (all in integer units)."""
-    m = model.new_int_var(0, 10**9, f"m_{name}")
-    model.add(m == margin)
-    square = model.new_int_var(0, 10**18, f"m2_{name}")
+    """margin ≥ 0 and margin² ≥ variance, with ``margin`` in LOG_SCALE units and ``variance``
+    in QUAD_SCALE² units (the margin is carried over rounded up: optimistic)."""
+    ratio = int(round(LOG_SCALE / QUAD_SCALE))
+    m = model.new_int_var(0, 10**7, f"m_{name}")
+    model.add(margin >= 0)
+    model.add(ratio * m >= margin)
+    model.add(ratio * m <= margin + ratio - 1)
+    square = model.new_int_var(0, 10**14, f"m2_{name}")
     model.add_multiplication_equality(square, [m, m])
     model.add(square >= variance)
 
