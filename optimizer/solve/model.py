@@ -25,6 +25,7 @@ ones the relaxation let through.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
@@ -43,7 +44,7 @@ LOG_SCALE = 1e7  # integer units per natural-log unit (0.1 ppm resolution)
 COST_SCALE = 1e4  # integer units per relative cost unit
 OHM_SCALE = 1.0  # integer units per ohm
 NOISE_SCALE = 1e24  # integer units per V²/Hz
-SLACK = 0.005  # relative widening of every bound (keeps the model a relaxation)
+SLACK = 2e-4  # relative widening of every bound (margin for rounding; the bounds themselves are optimistic)
 
 
 @dataclass(frozen=True)
@@ -110,7 +111,8 @@ class ModelVariant:
     objective: Objective = Objective.COST
     cost_cap: float | None = None
     topologies: frozenset[Topology] | None = None  # None: the spec's
-    maximise: str | None = None  # "cmrr", "gain", "impedance", "noise": optimise that instead
+    maximise: str | None = None  # "cmrr": optimise the worst-case CMRR margin instead of cost
+    pair_shape: int | None = None  # pair_plus_discrete only: the one pair shape (index into ALL_SHAPES)
 
 
 @dataclass
@@ -178,7 +180,10 @@ def build_model(
     n = len(options)
     allowed = set(variant.topologies if variant.topologies is not None else spec.preferences.topologies)
     discrete_allowed = bool(allowed & {Topology.DISCRETE, Topology.PAIR_PLUS_DISCRETE})
-    usable, classes = _prune(options, block, spec, env, limits, _usable_options(options, allowed), discrete_allowed)
+    usable_options = _usable_options(options, allowed)
+    if variant.pair_shape is not None:
+        usable_options &= (options.kind == 2) & (options.shape == variant.pair_shape)
+    usable, classes = _prune(options, block, spec, env, limits, usable_options, discrete_allowed)
     x = [model.new_bool_var(f"o{i}") for i in range(n)]
     for i in np.flatnonzero(~usable):
         model.add(x[i] == 0)
@@ -234,25 +239,26 @@ def build_model(
                 acc.add([value[position][k] for k in ks], coef[position] * phi[ks, v, position])
         return acc
 
-    def spread(coef: NDArray[np.float64], v: int, of_variance: bool, scale: float) -> cp_model.LinearExpr:
+    def spread(coef: NDArray[np.float64], v: int | tuple[int, ...], of_variance: bool, scale: float) -> cp_model.LinearExpr:
         """Worst-case deviation (or variance) of Σ coefᵢ·φᵢ,v from the chosen grades, in integer
         units of ``scale``. A discrete position contributes |coefᵢ|·f·own (or coefᵢ²·f²·var),
         the product of a class term X and a value term Y = f (f²) = R/(R + rs); it is bounded
         below by the McCormick envelope max(X·Yl + Xl·Y − Xl·Yl, X·Yu + Xu·Y − Xu·Yu), linear
         in the literals, so the bound stays a relaxation."""
         is_delta = coef is C_DELTA
+        vs = list(v) if isinstance(v, tuple) else [v]
         acc = _Sum()
         if of_variance:
-            acc.add(x, options.s_delta[:, v] if is_delta else options.s_gain[:, v])
+            acc.add(x, (options.s_delta if is_delta else options.s_gain)[:, vs].min(axis=1))
         else:
-            acc.add(x, options.w_delta[:, v] if is_delta else options.w_gain[:, v])
+            acc.add(x, (options.w_delta if is_delta else options.w_gain)[:, vs].min(axis=1))
         terms: list[cp_model.LinearExpr] = [acc.expr(scale, "floor")]
         for position in range(4):
             cs = list(grade[position])
             if not cs or coef[position] == 0.0:
                 continue
             ks = list(value[position])
-            f = fraction[ks, v, position] ** (2 if of_variance else 1)
+            f = fraction[np.ix_(ks, vs, [position])].min(axis=(1, 2)) ** (2 if of_variance else 1)
             class_term = (block.var[cs] * coef[position] ** 2) if of_variance else (block.own[cs] * abs(coef[position]))
             x_lo, x_hi = float(class_term.min()), float(class_term.max())
             y_lo, y_hi = float(f.min()), float(f.max())
@@ -261,7 +267,7 @@ def build_model(
             if y_hi - y_lo <= 1e-12 * y_hi:
                 terms.append(cp_model.LinearExpr.weighted_sum(grades, [int(v_) for v_ in np.floor(class_term * y_lo * scale)]))
                 continue
-            bound = model.new_int_var(0, 10**15, f"w{position}_{v}_{int(of_variance)}_{id(coef) % 997}")
+            bound = model.new_int_var(0, 10**15, f"w{position}_{'_'.join(map(str, vs))}_{int(of_variance)}")
             for y_ref, x_ref in ((y_lo, x_lo), (y_hi, x_hi)):
                 # X·y_ref + x_ref·Y − x_ref·y_ref, the constant carried by the placement literal.
                 envelope = (
@@ -308,6 +314,17 @@ def build_model(
                 gain = linear(cg, v).expr(LOG_SCALE) - log_g
                 _quadratic_margin(model, gain - open_loop - lower, spread(cg, v, True, QUAD_SCALE**2 * z2), f"gl{v}")
 
+    halves = _halves(allowed, variant)
+    if halves is not None and variant.cmrr and variant.gain:
+        yield_basis = req.cmrr_basis is CmrrBasis.YIELD
+        scale = QUAD_SCALE**2 if yield_basis else LOG_SCALE
+        _couple_halves(
+            model, halves, x, value, options, phi, spec, limits, sides,
+            lambda vs: spread(C_DELTA, vs, yield_basis, scale),
+            lambda vs: spread(cg, vs, yield_basis, scale),
+            usable,
+        )
+
     if variant.impedance and limits.min_impedance_ohm > 0.0:
         z_min = limits.min_impedance_ohm
         t_max = float(block.tolerance.max()) if block.tolerance.size else 0.0
@@ -318,6 +335,19 @@ def build_model(
                 ks = list(value[position])
                 acc.add([value[position][k] for k in ks], block.values[ks] * (1.0 + t_max))
             model.add(acc.expr(OHM_SCALE, "ceil") >= int(math.floor(z_min * factor * (1.0 - SLACK) * OHM_SCALE)))
+        # Common-mode impedance Zcm = R1·(R3 + R4')/(R1 + R3) (analysis.checks). With
+        # R1 + R3 ≥ 2·√(R1·R3) (AM-GM) and R3 + R4' = R3·(1 + R4'/R3) ≤ R3·(1 + G_hi):
+        # Zcm ≤ √(R1·R3)·(1 + G_hi)/2, so ln R1 + ln R3 ≥ 2·ln Zmin − 2·ln((1 + G_hi)/2).
+        g_hi = req.gain * (1.0 + req.gain_accuracy) * math.exp(max(limits.cmrr_budget, 0.0) + 0.05)
+        acc = _Sum()
+        with np.errstate(divide="ignore"):
+            acc.add(x, np.log(np.where(options.ohms[:, 0] > 0, options.ohms[:, 0], 1.0)) * options.covers[:, 0])
+            acc.add(x, np.log(np.where(options.ohms[:, 2] > 0, options.ohms[:, 2], 1.0)) * options.covers[:, 2])
+        for position in (0, 2):
+            ks = list(value[position])
+            acc.add([value[position][k] for k in ks], np.log(block.values[ks] * (1.0 + t_max)))
+        floor = 2.0 * math.log(z_min * (1.0 - SLACK)) - 2.0 * math.log((1.0 + g_hi) / 2.0)
+        model.add(acc.expr(LOG_SCALE, "ceil") >= int(math.floor(floor * LOG_SCALE)))
     if variant.noise and limits.noise_budget is not None:
         acc = _Sum()
         acc.add(x, options.noise * (1.0 - SLACK))
@@ -341,6 +371,244 @@ def build_model(
     else:
         model.minimize(cost)
     return BuiltModel(model=model, x=x, value=value, grade=grade, margin_var=worst_margin)
+
+
+#: Largest value-pair grid the half coupling enumerates per half.
+MAX_HALF_GRID = 4_000_000
+
+
+def _halves(allowed: set[Topology], variant: ModelVariant) -> tuple[object, tuple[int, int]] | None:
+    """How the positions split into two halves whose mismatch contributions must cancel: for
+    four discrete parts, the discrete pairs (R1, R2) and (R3, R4); for one network pair of a
+    given shape plus two discrete parts, the network options and the discrete pair on the other
+    two positions. None for the all-network topologies (their options fix every value)."""
+    if allowed == {Topology.DISCRETE}:
+        return (0, 1), (2, 3)
+    if allowed == {Topology.PAIR_PLUS_DISCRETE} and variant.pair_shape is not None:
+        shape = ALL_SHAPES[variant.pair_shape]
+        rest = tuple(i for i in range(4) if i not in shape)
+        return variant.pair_shape, (rest[0], rest[1])
+    return None
+
+
+def _couple_halves(
+    model: cp_model.CpModel,
+    halves: tuple[object, tuple[int, int]],
+    x: list[cp_model.IntVar],
+    value: list[dict[int, cp_model.IntVar]],
+    options: OptionTable,
+    phi: NDArray[np.float64],
+    spec: Spec,
+    limits: Limits,
+    sides: ExtremeVertices,
+    spread_delta: Callable[[tuple[int, ...]], cp_model.LinearExpr],
+    spread_gain: Callable[[tuple[int, ...]], cp_model.LinearExpr],
+    usable: NDArray[np.bool_],
+) -> None:
+    """Tighten the model with what each half can reach given the best partner in the other half.
+
+    For a choice a of one half, m_a = min over partners b of the mismatch the pair needs,
+    need(a, b) = max(δ_v(a, b) over the high vertices, −δ_v(a, b) over the low ones), and
+    r_a = max over b of the gain room min(U − γ(a, b), γ(a, b) − A − L). Then, exactly for the
+    chosen a (a necessary condition, so the model stays a relaxation):
+    worst case: spread ≤ B − Σ m_a·[a]  and  gain spread ≤ Σ r_a·[a];
+    yield:      variance ≤ Σ ((B − m_a)/z)²·[a]  and  gain variance ≤ Σ (r_a/z)²·[a];
+    and likewise for the other half. Unlike the sum constraint |Σ δ| + spread ≤ B, whose LP
+    relaxation can average mismatches of opposite sign to zero, these bound the spread by the
+    chosen choice's own best case, which keeps the LP bound close to the integer optimum.
+    Value pairs that reach no partner within the budget are removed."""
+    req = spec.requirements
+    cg = gain_coefficients(req.gain)
+    high, low = list(sides.delta_high), list(sides.delta_low)
+    gain_high, gain_low = list(sides.gain_high), list(sides.gain_low)
+    upper = math.log(req.gain) + limits.gain_upper
+    lower = math.log(req.gain) + limits.gain_lower + limits.open_loop_term
+    budget = limits.cmrr_budget
+    first, second = halves
+
+    ref = high[0] if high else 0
+    n_vertices = phi.shape[1]
+
+    def discrete_side(
+        positions: tuple[int, int], keep: Callable[[NDArray[np.float64], NDArray[np.float64]], NDArray[np.bool_]]
+    ) -> tuple[list[tuple[int, int]], NDArray[np.float64], NDArray[np.float64]]:
+        """Value pairs (ki, kj) that ``keep`` accepts, given their δ and γ contributions at
+        every vertex (arrays (n, V)); returns the pairs and those contributions."""
+        i, j = positions
+        ki = np.array(sorted(value[i]), dtype=np.int64)
+        kj = np.array(sorted(value[j]), dtype=np.int64)
+        empty = np.zeros((0, n_vertices))
+        if ki.size == 0 or kj.size == 0:
+            return [], empty, empty
+        phi_j, phi_i = phi[kj, :, j], phi[ki, :, i]
+        keys: list[tuple[int, int]] = []
+        deltas: list[NDArray[np.float64]] = []
+        gains: list[NDArray[np.float64]] = []
+        for row, k in enumerate(ki):
+            dl = C_DELTA[i] * phi_i[row][None, :] + C_DELTA[j] * phi_j
+            gm = cg[i] * phi_i[row][None, :] + cg[j] * phi_j
+            mask = keep(dl, gm)
+            if mask.any():
+                keys.extend((int(k), int(other)) for other in kj[mask])
+                deltas.append(dl[mask])
+                gains.append(gm[mask])
+        if not keys:
+            return [], empty, empty
+        return keys, np.concatenate(deltas), np.concatenate(gains)
+
+    def spread_of(contributions: NDArray[np.float64]) -> NDArray[np.float64]:
+        return contributions.max(axis=1) - contributions.min(axis=1)
+
+    def b_keep(a_delta: NDArray[np.float64]) -> Callable[[NDArray[np.float64], NDArray[np.float64]], NDArray[np.bool_]]:
+        """Second half: at each high vertex δ_a + δ_b ≤ B for some a; at each low vertex
+        δ_a + δ_b ≥ −B for some a (the model's own constraints with zero spread)."""
+        top = {v: float(a_delta[:, v].min()) for v in high}
+        bottom = {v: float(a_delta[:, v].max()) for v in low}
+
+        def keep(dl: NDArray[np.float64], gm: NDArray[np.float64]) -> NDArray[np.bool_]:
+            mask = np.ones(dl.shape[0], dtype=bool)
+            for v in high:
+                mask &= dl[:, v] <= budget - top[v] + 1e-12
+            for v in low:
+                mask &= dl[:, v] >= -budget - bottom[v] - 1e-12
+            return mask
+
+        return keep
+
+    h = 1.0 / (2.0 * (1.0 + req.gain))
+    a_lits: list[cp_model.IntVar] | None = None
+    i2, j2 = second
+    # Largest vertex-to-vertex swing of the second half's δ contribution (refined below).
+    swing_b = float(spread_of(phi[:, :, i2]).max() + spread_of(phi[:, :, j2]).max()) if phi.size else 0.0
+    b_keys: list[tuple[int, int]] = []
+    b_delta = b_gain = np.zeros((0, n_vertices))
+    for _ in range(3):
+        if isinstance(first, tuple):
+            # (R1, R2): the gain at a vertex is γ = −q_a + h·δ with |δ| ≤ B + the design's swing,
+            # so −q_a at the gain vertices must lie within the gain window widened by h·(B + swing).
+            def a_keep(dl: NDArray[np.float64], gm: NDArray[np.float64], swing_b: float = swing_b) -> NDArray[np.bool_]:
+                widen = h * (budget + spread_of(dl) + swing_b) + 1e-12
+                mask = np.ones(dl.shape[0], dtype=bool)
+                for v in gain_high:
+                    mask &= -dl[:, v] <= upper + widen
+                for v in gain_low:
+                    mask &= -dl[:, v] >= lower - widen
+                return mask
+
+            a_keys, a_delta, a_gain = discrete_side(first, a_keep)
+        else:
+            members = np.flatnonzero(usable & (options.kind == 2) & (options.shape == first))
+            a_keys = [(int(i), -1) for i in members]
+            a_delta, a_gain = options.delta[members], options.gain[members]
+            a_lits = [x[i] for i in members]
+        if not a_keys:
+            model.add_bool_or([])
+            return
+        b_keys, b_delta, b_gain = discrete_side(second, b_keep(a_delta))
+        if not b_keys:
+            model.add_bool_or([])
+            return
+        new_swing = float(spread_of(b_delta).max())
+        if not isinstance(first, tuple) or new_swing >= 0.9 * swing_b:
+            break
+        swing_b = new_swing
+    swing_a = spread_of(a_delta)
+    swing_b = float(spread_of(b_delta).max())
+
+    m_a = np.full(len(a_keys), np.inf)
+    r_a = np.full(len(a_keys), -np.inf)
+    m_b = np.full(len(b_keys), np.inf)
+    r_b = np.full(len(b_keys), -np.inf)
+    # Sorted-window join: a choice can only pair with choices of the other half whose δ
+    # contribution at the reference vertex lies within the budget (plus vertex slack).
+    order = np.argsort(b_delta[:, ref], kind="stable")
+    sorted_q = b_delta[order, ref]
+    for index in range(len(a_keys)):
+        # need ≥ δ_ref (ref is a high vertex) and need ≥ −δ_ref − swing: δ_ref ∈ [−B − swing, B].
+        centre = -a_delta[index, ref]
+        lo = np.searchsorted(sorted_q, centre - budget - swing_a[index] - swing_b - 1e-12, side="left")
+        hi = np.searchsorted(sorted_q, centre + budget + 1e-12, side="right")
+        if hi <= lo:
+            continue
+        idx = order[lo:hi]
+        need = np.full(idx.size, -np.inf)
+        for v in high:
+            need = np.maximum(need, a_delta[index, v] + b_delta[idx, v])
+        for v in low:
+            need = np.maximum(need, -(a_delta[index, v] + b_delta[idx, v]))
+        room = np.full(idx.size, np.inf)
+        for v in gain_high:
+            room = np.minimum(room, upper - (a_gain[index, v] + b_gain[idx, v]))
+        for v in gain_low:
+            room = np.minimum(room, (a_gain[index, v] + b_gain[idx, v]) - lower)
+        ok = (need <= budget) & (room >= 0.0)
+        if not ok.any():
+            continue
+        need_ok = np.where(ok, need, np.inf)
+        room_ok = np.where(ok, room, -np.inf)
+        m_a[index] = need_ok.min()
+        r_a[index] = room_ok.max()
+        m_b[idx] = np.minimum(m_b[idx], need_ok)
+        r_b[idx] = np.maximum(r_b[idx], room_ok)
+
+    def side_literals(keys: list[tuple[int, int]], positions: tuple[int, int], alive: NDArray[np.bool_]) -> list[cp_model.IntVar | None]:
+        """One literal per live value pair, linked to the value literals of its two positions;
+        value literals with no live pair are fixed to false."""
+        i, j = positions
+        lits: list[cp_model.IntVar | None] = []
+        by_value: dict[tuple[int, int], list[cp_model.IntVar]] = {}
+        for (ki, kj), live in zip(keys, alive):
+            if not live:
+                lits.append(None)
+                continue
+            lit = model.new_bool_var(f"h{i}{j}_{ki}_{kj}")
+            lits.append(lit)
+            by_value.setdefault((i, ki), []).append(lit)
+            by_value.setdefault((j, kj), []).append(lit)
+        for position in positions:
+            for k, var in value[position].items():
+                model.add(var == sum(by_value.get((position, k), [])))
+        return lits
+
+    alive_a = np.isfinite(m_a)
+    alive_b = np.isfinite(m_b)
+    if a_lits is None:
+        a_side = side_literals(a_keys, first, alive_a)  # type: ignore[arg-type]
+    else:
+        a_side = [lit if live else None for lit, live in zip(a_lits, alive_a)]
+        for lit, live in zip(a_lits, alive_a):
+            if not live:
+                model.add(lit == 0)
+    b_side = side_literals(b_keys, second, alive_b)
+    yield_basis = req.cmrr_basis is CmrrBasis.YIELD
+    z = limits.z if yield_basis else 1.0
+    vertices = tuple(sorted(set(high + low)))
+    gain_vertices = tuple(sorted(set(gain_high + gain_low)))
+    for lits, m, r in ((a_side, m_a, r_a), (b_side, m_b, r_b)):
+        live = [(lit, mi, ri) for lit, mi, ri in zip(lits, m, r) if lit is not None]
+        if not live:
+            model.add_bool_or([])  # no choice of this half reaches a partner: infeasible
+            return
+        literals = [lit for lit, _, _ in live]
+        if yield_basis:
+            delta_cap = [((budget - mi) / z) ** 2 * QUAD_SCALE**2 for _, mi, _ in live]
+            gain_cap = [(ri / z) ** 2 * QUAD_SCALE**2 for _, _, ri in live]
+        else:
+            delta_cap = [(budget - mi) * LOG_SCALE for _, mi, _ in live]
+            gain_cap = [ri * LOG_SCALE for _, _, ri in live]
+        model.add(spread_delta(vertices) <= cp_model.LinearExpr.weighted_sum(literals, [int(math.ceil(c)) for c in delta_cap]))
+        model.add(spread_gain(gain_vertices) <= cp_model.LinearExpr.weighted_sum(literals, [int(math.ceil(c)) for c in gain_cap]))
+
+
+def _merge_windows(windows: list[tuple[float, float]]) -> list[tuple[float, float]]:
+    """Union of closed intervals as sorted, disjoint intervals."""
+    merged: list[tuple[float, float]] = []
+    for lo, hi in sorted(windows):
+        if merged and lo <= merged[-1][1]:
+            merged[-1] = (merged[-1][0], max(merged[-1][1], hi))
+        else:
+            merged.append((lo, hi))
+    return merged
 
 
 def _usable_options(options: OptionTable, allowed: set[Topology]) -> NDArray[np.bool_]:

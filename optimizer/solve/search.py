@@ -27,7 +27,7 @@ from .environment import LinearEnvironment, linear_environment
 from .amplifier import amplifier_limits
 from .discrete import DiscreteBlock, build_discrete
 from .model import BuiltModel, Limits, ModelVariant, build_model, limits_for
-from .options import OptionTable, build_options
+from .options import ALL_SHAPES, OptionTable, build_options
 
 __all__ = ["Candidate", "PickResult", "SearchStatus", "pick", "solver_parameters"]
 
@@ -151,10 +151,11 @@ class _Stream:
     """Verified designs of one topology, best first, one solve at a time: each solve is cut by
     the designs already seen, so each new optimum is the next best."""
 
-    def __init__(self, problem: Problem, topologies: frozenset[Topology], objective: Objective) -> None:
+    def __init__(self, problem: Problem, topologies: frozenset[Topology], objective: Objective, pair_shape: int | None = None) -> None:
         self.problem = problem
         self.topologies = topologies
         self.objective = objective
+        self.pair_shape = pair_shape
         self._built: BuiltModel | None = None
         self.exhausted = False
         self.optimal = True
@@ -166,7 +167,7 @@ class _Stream:
     def _model(self, clock: _Clock) -> BuiltModel:
         if self._built is None:
             started = time.perf_counter()
-            self._built = self.problem.build(ModelVariant(objective=self.objective, topologies=self.topologies))
+            self._built = self.problem.build(ModelVariant(objective=self.objective, topologies=self.topologies, pair_shape=self.pair_shape))
             clock.build += time.perf_counter() - started
         return self._built
 
@@ -242,7 +243,7 @@ def pick(
     problem = prepare(spec, catalog)
     clock.build += time.perf_counter() - started
     objective = spec.preferences.objective
-    streams = [_Stream(problem, frozenset({t}), objective) for t in Topology if t in spec.preferences.topologies]
+    streams = _streams(problem, spec)
     if problem.size == 0 or problem.limits.cmrr_budget <= 0.0 or amplifier_limits(spec):
         streams = []  # nothing can pass: leave the reasons to the diagnosis
     heads: list[tuple[float, Candidate] | None] = [s.next(verifier, clock, workers) for s in streams]
@@ -278,6 +279,21 @@ def pick(
         option_count=problem.size,
         rejected=tuple(rejected),
     )
+
+
+def _streams(problem: Problem, spec: Spec) -> list[_Stream]:
+    """One stream per allowed topology; one dual network plus two discrete parts gets one stream
+    per position pair the network may occupy (each such model is much smaller)."""
+    objective = spec.preferences.objective
+    streams: list[_Stream] = []
+    for topology in Topology:
+        if topology not in spec.preferences.topologies:
+            continue
+        if topology is Topology.PAIR_PLUS_DISCRETE:
+            streams.extend(_Stream(problem, frozenset({topology}), objective, shape) for shape in range(len(ALL_SHAPES)))
+        else:
+            streams.append(_Stream(problem, frozenset({topology}), objective))
+    return streams
 
 
 def _best_of_each_kind(
