@@ -50,6 +50,7 @@ class DiscreteBlock:
     own: NDArray[np.float64]
     var: NDArray[np.float64]
     tolerance: NDArray[np.float64]
+    swing: NDArray[np.float64]
     avail: tuple[tuple[NDArray[np.int64], ...], ...]
     part_row: dict[tuple[int, int], int]
     part_id: dict[tuple[int, int], str]
@@ -70,7 +71,7 @@ class DiscreteBlock:
 
 def _empty() -> DiscreteBlock:
     none = tuple(tuple() for _ in range(4))
-    return DiscreteBlock(np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0), none, {}, {})
+    return DiscreteBlock(np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0), none, {}, {})
 
 
 def build_discrete(catalog: Catalog, spec: Spec, env: LinearEnvironment) -> DiscreteBlock:
@@ -143,6 +144,7 @@ def build_discrete(catalog: Catalog, spec: Spec, env: LinearEnvironment) -> Disc
         own=log_deviation(t, tc, d),
         var=variance(dist, k, t, tc, d),
         tolerance=t,
+        swing=t + tc,
         avail=tuple(avail),
         part_row=part_row,
         part_id=part_id,

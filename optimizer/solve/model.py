@@ -242,9 +242,10 @@ def build_model(
     def spread(coef: NDArray[np.float64], v: int | tuple[int, ...], of_variance: bool, scale: float) -> cp_model.LinearExpr:
         """Worst-case deviation (or variance) of Σ coefᵢ·φᵢ,v from the chosen grades, in integer
         units of ``scale``. A discrete position contributes |coefᵢ|·f·own (or coefᵢ²·f²·var),
-        the product of a class term X and a value term Y = f (f²) = R/(R + rs); it is bounded
-        below by the McCormick envelope max(X·Yl + Xl·Y − Xl·Yl, X·Yu + Xu·Y − Xu·Yu), linear
-        in the literals, so the bound stays a relaxation."""
+        the product of a class term X and a value term Y = f (f²) = R/(R + rs). The values are
+        split into bands of Y (BAND_EDGES); for the chosen band, X·Y ≥ X·Y_band,min, enforced
+        by one constraint per band that is vacuous unless a value of that band is chosen
+        (a disjunctive bound: linear in the literals, never above the true product)."""
         is_delta = coef is C_DELTA
         vs = list(v) if isinstance(v, tuple) else [v]
         acc = _Sum()
@@ -268,14 +269,19 @@ def build_model(
                 terms.append(cp_model.LinearExpr.weighted_sum(grades, [int(v_) for v_ in np.floor(class_term * y_lo * scale)]))
                 continue
             bound = model.new_int_var(0, 10**15, f"w{position}_{'_'.join(map(str, vs))}_{int(of_variance)}")
-            for y_ref, x_ref in ((y_lo, x_lo), (y_hi, x_hi)):
-                # X·y_ref + x_ref·Y − x_ref·y_ref, the constant carried by the placement literal.
-                envelope = (
-                    cp_model.LinearExpr.weighted_sum(grades, [int(c_) for c_ in np.floor(class_term * y_ref * scale)])
-                    + cp_model.LinearExpr.weighted_sum(values, [int(c_) for c_ in np.floor(x_ref * f * scale)])
-                    - cp_model.LinearExpr.weighted_sum(values, [int(np.ceil(x_ref * y_ref * scale))] * len(values))
+            placed_here = sum(values)
+            band_of = np.digitize(f, BAND_EDGES)
+            for band in np.unique(band_of):
+                members = [lit for lit, b_ in zip(values, band_of) if b_ == band]
+                y_band = float(f[band_of == band].min())
+                # bound ≥ X·y_band when a value of this band is chosen (vacuous otherwise).
+                relax = int(math.ceil(x_hi * y_band * scale))
+                model.add(
+                    bound
+                    >= cp_model.LinearExpr.weighted_sum(grades, [int(c_) for c_ in np.floor(class_term * y_band * scale)])
+                    + relax * sum(members)
+                    - relax * placed_here
                 )
-                model.add(bound >= envelope)
             terms.append(bound)
         return sum(terms)  # type: ignore[return-value]
 
@@ -345,7 +351,9 @@ def build_model(
             acc.add(x, np.log(np.where(options.ohms[:, 2] > 0, options.ohms[:, 2], 1.0)) * options.covers[:, 2])
         for position in (0, 2):
             ks = list(value[position])
-            acc.add([value[position][k] for k in ks], np.log(block.values[ks] * (1.0 + t_max)))
+            acc.add([value[position][k] for k in ks], np.log(block.values[ks]))
+            cs = list(grade[position])
+            acc.add([grade[position][c] for c in cs], np.log1p(block.swing[cs]))
         floor = 2.0 * math.log(z_min * (1.0 - SLACK)) - 2.0 * math.log((1.0 + g_hi) / 2.0)
         model.add(acc.expr(LOG_SCALE, "ceil") >= int(math.floor(floor * LOG_SCALE)))
     if variant.noise and limits.noise_budget is not None:
@@ -372,6 +380,9 @@ def build_model(
         model.minimize(cost)
     return BuiltModel(model=model, x=x, value=value, grade=grade, margin_var=worst_margin)
 
+
+#: Edges of the bands of f = R/(R + rs) (or f²) used to bound the spread of discrete parts.
+BAND_EDGES = np.array([0.2, 0.5, 0.8, 0.9, 0.95, 0.98, 0.99, 0.995, 0.999, 0.9999])
 
 #: Largest value-pair grid the half coupling enumerates per half.
 MAX_HALF_GRID = 4_000_000
@@ -440,38 +451,43 @@ def _couple_halves(
         empty = np.zeros((0, n_vertices))
         if ki.size == 0 or kj.size == 0:
             return [], empty, empty
-        phi_j, phi_i = phi[kj, :, j], phi[ki, :, i]
-        keys: list[tuple[int, int]] = []
+        phi_i, phi_j = phi[ki, :, i], phi[kj, :, j]
+        rows = max(1, int(2_000_000 // (kj.size * n_vertices)))
+        firsts: list[NDArray[np.int64]] = []
+        seconds: list[NDArray[np.int64]] = []
         deltas: list[NDArray[np.float64]] = []
         gains: list[NDArray[np.float64]] = []
-        for row, k in enumerate(ki):
-            dl = C_DELTA[i] * phi_i[row][None, :] + C_DELTA[j] * phi_j
-            gm = cg[i] * phi_i[row][None, :] + cg[j] * phi_j
+        for start in range(0, ki.size, rows):
+            block_i = phi_i[start : start + rows]
+            dl = (C_DELTA[i] * block_i[:, None, :] + C_DELTA[j] * phi_j[None, :, :]).reshape(-1, n_vertices)
+            gm = (cg[i] * block_i[:, None, :] + cg[j] * phi_j[None, :, :]).reshape(-1, n_vertices)
             mask = keep(dl, gm)
-            if mask.any():
-                keys.extend((int(k), int(other)) for other in kj[mask])
-                deltas.append(dl[mask])
-                gains.append(gm[mask])
-        if not keys:
+            if not mask.any():
+                continue
+            flat = np.flatnonzero(mask)
+            firsts.append(ki[start + flat // kj.size])
+            seconds.append(kj[flat % kj.size])
+            deltas.append(dl[flat])
+            gains.append(gm[flat])
+        if not firsts:
             return [], empty, empty
-        return keys, np.concatenate(deltas), np.concatenate(gains)
+        first_k, second_k = np.concatenate(firsts), np.concatenate(seconds)
+        return list(zip(first_k.tolist(), second_k.tolist())), np.concatenate(deltas), np.concatenate(gains)
 
     def spread_of(contributions: NDArray[np.float64]) -> NDArray[np.float64]:
         return contributions.max(axis=1) - contributions.min(axis=1)
 
     def b_keep(a_delta: NDArray[np.float64]) -> Callable[[NDArray[np.float64], NDArray[np.float64]], NDArray[np.bool_]]:
-        """Second half: at each high vertex δ_a + δ_b ≤ B for some a; at each low vertex
-        δ_a + δ_b ≥ −B for some a (the model's own constraints with zero spread)."""
-        top = {v: float(a_delta[:, v].min()) for v in high}
-        bottom = {v: float(a_delta[:, v].max()) for v in low}
+        """Second half: some a must satisfy need(a, b) ≤ B, which requires δ_ref = q_a + q_b in
+        [−B − swing_a − swing_b, B] at the reference (high) vertex (see the join below)."""
+        centres = np.sort(a_delta[:, ref])
+        swing_a_max = float(spread_of(a_delta).max())
 
         def keep(dl: NDArray[np.float64], gm: NDArray[np.float64]) -> NDArray[np.bool_]:
-            mask = np.ones(dl.shape[0], dtype=bool)
-            for v in high:
-                mask &= dl[:, v] <= budget - top[v] + 1e-12
-            for v in low:
-                mask &= dl[:, v] >= -budget - bottom[v] - 1e-12
-            return mask
+            q = dl[:, ref]
+            lo = np.searchsorted(centres, -q - budget - swing_a_max - spread_of(dl) - 1e-12, side="left")
+            hi = np.searchsorted(centres, -q + budget + 1e-12, side="right")
+            return hi > lo
 
         return keep
 
