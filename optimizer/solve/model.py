@@ -124,6 +124,7 @@ class BuiltModel:
     x: list[cp_model.IntVar]
     value: list[dict[int, cp_model.IntVar]]
     grade: list[dict[int, cp_model.IntVar]]
+    options: OptionTable
     cuts: int = 0
     margin_var: cp_model.IntVar | None = None
 
@@ -184,9 +185,10 @@ def build_model(
     if variant.pair_shape is not None:
         usable_options &= (options.kind == 2) & (options.shape == variant.pair_shape)
     usable, classes = _prune(options, block, spec, env, limits, usable_options, discrete_allowed)
+    options = options.subset(usable)
+    usable = np.ones(len(options), dtype=bool)
+    n = len(options)
     x = [model.new_bool_var(f"o{i}") for i in range(n)]
-    for i in np.flatnonzero(~usable):
-        model.add(x[i] == 0)
     kinds = options.kind
 
     value: list[dict[int, cp_model.IntVar]] = []
@@ -378,7 +380,7 @@ def build_model(
         model.minimize(placements * 10**9 + cost)
     else:
         model.minimize(cost)
-    return BuiltModel(model=model, x=x, value=value, grade=grade, margin_var=worst_margin)
+    return BuiltModel(model=model, x=x, value=value, grade=grade, options=options, margin_var=worst_margin)
 
 
 #: Edges of the bands of f = R/(R + rs) (or f²) used to bound the spread of discrete parts.

@@ -96,6 +96,27 @@ class OptionTable:
     def __len__(self) -> int:
         return int(self.kind.shape[0])
 
+    def subset(self, mask: NDArray[np.bool_]) -> OptionTable:
+        """The options where ``mask`` is true (same line ids and names)."""
+        index = np.flatnonzero(mask)
+        return OptionTable(
+            kind=self.kind[index],
+            covers=self.covers[index],
+            shape=self.shape[index],
+            line=self.line[index],
+            cost=self.cost[index],
+            delta=self.delta[index],
+            gain=self.gain[index],
+            w_delta=self.w_delta[index],
+            w_gain=self.w_gain[index],
+            s_delta=self.s_delta[index],
+            s_gain=self.s_gain[index],
+            noise=self.noise[index],
+            ohms=self.ohms[index],
+            makers=tuple(self.makers[i] for i in index),
+            line_names=self.line_names,
+        )
+
 
 @dataclass
 class _Rows:

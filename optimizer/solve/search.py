@@ -133,7 +133,7 @@ class Problem:
         for i, lit in enumerate(built.x):
             if not solver.boolean_value(lit):
                 continue
-            recipe = self.options.makers[i]
+            recipe = built.options.makers[i]
             network = self.catalog.networks[recipe[0][2]]
             package = package_count.get(network.part_id, 0)
             package_count[network.part_id] = package + 1
