@@ -58,7 +58,7 @@ from ..analysis.worstcase import common_mode_error, rejection_db
 from ..catalog import Catalog
 from ..cost import CostBreakdown, design_cost
 from ..design import Design, Placement, Topology
-from ..errors import QuartetError
+from ..errors import ModelError, QuartetError
 from ..parts import DiscretePart, NetworkPart
 from ..spec import CmrrBasis, Spec, StockPolicy
 from ..verify import verify
@@ -134,6 +134,7 @@ Verifier = Callable[[Design, Spec], Verdict]
 
 
 def _in_window(ohms: float, spec: Spec) -> bool:
+    """``ohms`` inside the spec's resistance window (ends included, :data:`WINDOW_SLACK`)."""
     prefs = spec.preferences
     return (
         prefs.resistance_min_ohm * (1.0 - WINDOW_SLACK)
@@ -142,19 +143,24 @@ def _in_window(ohms: float, spec: Spec) -> bool:
     )
 
 
+def _allowed_rows(spec: Spec, catalog: Catalog) -> NDArray[np.int64]:
+    """Row positions of the discrete parts the spec allows (vectorised: a catalog of a million
+    rows is counted without building a part object)."""
+    prefs = spec.preferences
+    frame = catalog.discrete
+    values = frame["resistance_ohm"].to_numpy(dtype=float)
+    keep = (values >= prefs.resistance_min_ohm * (1.0 - WINDOW_SLACK)) & (
+        values <= prefs.resistance_max_ohm * (1.0 + WINDOW_SLACK)
+    )
+    if prefs.stock is StockPolicy.ONLY:
+        keep &= frame["stock_qty"].to_numpy() > 0
+    return np.flatnonzero(keep).astype(np.int64)
+
+
 def allowed_discrete(spec: Spec, catalog: Catalog) -> list[DiscretePart]:
     """Discrete parts the spec allows: inside the resistance window and, with stock policy
     ``only``, in stock. Catalog order."""
-    frame = catalog.discrete
-    values = frame["resistance_ohm"].to_numpy(dtype=float)
-    stocked = frame["stock_qty"].to_numpy() > 0
-    only = spec.preferences.stock is StockPolicy.ONLY
-    rows = [
-        i
-        for i in range(len(frame))
-        if _in_window(float(values[i]), spec) and (stocked[i] or not only)
-    ]
-    return catalog.discrete_parts(rows)
+    return catalog.discrete_parts(int(i) for i in _allowed_rows(spec, catalog))
 
 
 def allowed_networks(spec: Spec, catalog: Catalog) -> list[NetworkPart]:
@@ -206,7 +212,44 @@ class _Family:
 PAIR_SHAPES = tuple(itertools.combinations(range(4), 2))
 
 
-def _families(spec: Spec, catalog: Catalog) -> list[_Family]:
+def _layouts(network: NetworkPart, size: int) -> int:
+    """How many distinct value layouts ``network`` has on ``size`` positions."""
+    return len(
+        {
+            tuple(network.values_ohm[e] for e in o)
+            for o in itertools.permutations(range(network.elements), size)
+        }
+    )
+
+
+def _counts(spec: Spec, catalog: Catalog) -> dict[Topology, int]:
+    """Designs per allowed topology (only counting: nothing is built)."""
+    d = len(_allowed_rows(spec, catalog))
+    networks = allowed_networks(spec, catalog)
+    pairs = sum(_layouts(n, 2) for n in networks if n.elements == 2)
+    quads = sum(_layouts(n, 4) for n in networks if n.elements == 4)
+    every = {
+        Topology.DISCRETE: d**4,
+        Topology.QUAD: quads,
+        Topology.EQUAL_PAIRS: pairs**2,
+        Topology.DIVIDER_PAIRS: pairs**2,
+        Topology.PAIR_PLUS_DISCRETE: len(PAIR_SHAPES) * pairs * d**2,
+    }
+    return {t: every[t] for t in Topology if t in spec.preferences.topologies}
+
+
+def design_count(spec: Spec, catalog: Catalog) -> int:
+    """How many designs :func:`enumerate_designs` yields for ``spec`` and ``catalog``."""
+    return sum(_counts(spec, catalog).values())
+
+
+def _checked_families(spec: Spec, catalog: Catalog) -> list[_Family]:
+    """The families of designs, after refusing more than :data:`MAX_DESIGNS` of them."""
+    counts = _counts(spec, catalog)
+    total = sum(counts.values())
+    if total > MAX_DESIGNS:
+        detail = ", ".join(f"{t.value} {n:,}" for t, n in counts.items() if n)
+        raise TooManyDesigns(total, MAX_DESIGNS, detail)
     topologies = set(spec.preferences.topologies)
     discrete = allowed_discrete(spec, catalog)
     networks = allowed_networks(spec, catalog)
@@ -238,23 +281,8 @@ def _families(spec: Spec, catalog: Catalog) -> list[_Family]:
                 families.append(
                     _Family(topology, (pairs(shape), singles(rest[0]), singles(rest[1])))
                 )
-    return [f for f in families if f.count > 0]
-
-
-def design_count(spec: Spec, catalog: Catalog) -> int:
-    """How many designs :func:`enumerate_designs` yields for ``spec`` and ``catalog``."""
-    return sum(f.count for f in _families(spec, catalog))
-
-
-def _checked_families(spec: Spec, catalog: Catalog) -> list[_Family]:
-    families = _families(spec, catalog)
-    total = sum(f.count for f in families)
-    if total > MAX_DESIGNS:
-        per: dict[str, int] = {}
-        for f in families:
-            per[f.topology.value] = per.get(f.topology.value, 0) + f.count
-        detail = ", ".join(f"{name} {count:,}" for name, count in per.items())
-        raise TooManyDesigns(total, MAX_DESIGNS, detail)
+    families = [f for f in families if f.count > 0]
+    assert sum(f.count for f in families) == total
     return families
 
 
@@ -502,13 +530,17 @@ def reference_search(
     corner bound misses the CMRR floor or the gain accuracy (:func:`_screen`), and on any basis
     those that fail the input-impedance or noise check (:func:`fails_a_check`), before the
     full verification. ``prune=False`` verifies every design."""
-    if top < 1:
-        raise ValueError(f"top: expected 1 or more, got {top}")
+    if isinstance(top, bool) or not isinstance(top, int) or top < 1:
+        raise ModelError(
+            "reference search", "top", f"expected a whole number of 1 or more, got {top!r}"
+        )
     families = _checked_families(spec, catalog)
     if prune is None:
         prune = verifier is verify
     elif prune and verifier is not verify:
-        raise ValueError("prune: the screens are implied only by optimizer.verify.verify")
+        raise ModelError(
+            "reference search", "prune", "the screens are implied only by optimizer.verify.verify"
+        )
     bound = (
         prune
         and spec.requirements.cmrr_basis is CmrrBasis.WORST_CASE

@@ -55,7 +55,8 @@ class Limits:
     gain_upper: float  # ln(1 + acc)
     gain_lower: float  # ln(1 − acc)
     open_loop_term: float  # ln(1 + (1+G)/A) ≥ 0
-    z: float  # yield quantile (0 for worst-case basis)
+    z: float  # one-sided yield quantile (0 for worst-case basis)
+    z_two_sided: float  # Φ⁻¹((1+Y)/2) for normal parts (0 when not used)
     noise_budget: float | None  # V²/Hz left for the resistors, None if no requirement
     min_impedance_ohm: float
 
@@ -78,6 +79,9 @@ def limits_for(spec: Spec, env: LinearEnvironment) -> Limits:
     a_ol = spec.amplifier.open_loop_gain
     open_loop = 0.0 if math.isinf(a_ol) else math.log1p((1.0 + g * (1.0 - req.gain_accuracy)) / a_ol) * (1.0 - SLACK)
     z = 0.0
+    z_two = 0.0
+    if req.cmrr_basis is CmrrBasis.YIELD and spec.preferences.distribution is Distribution.NORMAL:
+        z_two = z_score((1.0 + req.yield_target) / 2.0) * (1.0 - 4 * SLACK)
     if req.cmrr_basis is CmrrBasis.YIELD:
         z = z_score(req.yield_target)
         if spec.preferences.distribution is Distribution.UNIFORM:
@@ -94,6 +98,7 @@ def limits_for(spec: Spec, env: LinearEnvironment) -> Limits:
         gain_lower=math.log1p(-req.gain_accuracy) * (1.0 + SLACK) - 1e-9,
         open_loop_term=open_loop,
         z=z,
+        z_two_sided=z_two,
         noise_budget=noise_budget,
         min_impedance_ohm=req.min_input_impedance_ohm,
     )
@@ -314,6 +319,14 @@ def build_model(
                 delta = linear(C_DELTA, v).expr(LOG_SCALE)
                 s_delta = spread(C_DELTA, v, True, QUAD_SCALE**2 * z2)
                 _quadratic_margin(model, budget - _abs(model, delta, f"ad{v}"), s_delta, f"c{v}")
+            if limits.z_two_sided > 0.0 and sides.delta_high and sides.delta_low:
+                # A build must pass at the high and at the low vertex: δ_s ≤ B − D_h and
+                # δ_s ≥ −B − D_l. For normal δ_s, P ≤ Φ(u) + Φ(w) − 1 ≤ 2·Φ((u + w)/2) − 1
+                # (Φ is concave on u, w ≥ 0), so B − (D_h − D_l)/2 ≥ z₂·σ with z₂ = Φ⁻¹((1+Y)/2).
+                vh, vl = sides.delta_high[0], sides.delta_low[0]
+                swing = linear(C_DELTA, vh).expr(LOG_SCALE) - linear(C_DELTA, vl).expr(LOG_SCALE)
+                variance = spread(C_DELTA, (vh, vl), True, QUAD_SCALE**2 * 4.0 * limits.z_two_sided**2)
+                _quadratic_margin(model, 2 * budget - swing, variance, "c_both")
         if variant.gain:
             for v in sides.gain_high:
                 gain = linear(cg, v).expr(LOG_SCALE) - log_g
@@ -384,7 +397,7 @@ def build_model(
 
 
 #: Edges of the bands of f = R/(R + rs) (or f²) used to bound the spread of discrete parts.
-BAND_EDGES = np.array([0.2, 0.5, 0.8, 0.9, 0.95, 0.98, 0.99, 0.995, 0.999, 0.9999])
+BAND_EDGES = 1.0 - np.array([0.8, 0.5, 0.3, 0.2, 0.1, 0.07, 0.05, 0.04, 0.03, 0.02, 0.015, 0.01, 0.005, 3e-3, 2e-3, 1e-3, 3e-4, 1e-4])
 
 #: Largest value-pair grid the half coupling enumerates per half.
 MAX_HALF_GRID = 4_000_000
@@ -757,7 +770,7 @@ def _abs(model: cp_model.CpModel, expr: cp_model.LinearExpr, name: str) -> cp_mo
 
 #: Coarser integer units per log unit for the yield basis' quadratic constraint: small domains
 #: let CP-SAT propagate the product well; the margin is rounded up, so it stays a relaxation.
-QUAD_SCALE = 1e4
+QUAD_SCALE = 1e5
 
 
 def _quadratic_margin(model: cp_model.CpModel, margin: cp_model.LinearExprT, variance: cp_model.LinearExpr, name: str) -> None:
