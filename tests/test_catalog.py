@@ -1044,20 +1044,22 @@ def test_wheel_install_carries_the_builtin_catalog(tmp_path: Path) -> None:
             env=env,
         ).stdout.strip()
     )
+    # Install the wheel first, so that pip cannot mistake the runner's own installed copy of
+    # the project (CI installs it non-editable) for this one.
+    subprocess.run(
+        [str(python), "-m", "pip", "install", "--no-deps", "--no-index", "--force-reinstall", "-q", str(wheels[0])],
+        check=True,
+        env=env,
+        timeout=300,
+    )
     # The dependencies (numpy, pandas, ...) may live in the test runner's own venv rather than
-    # in the system site-packages: make their folders visible (a .pth file lists folders only;
-    # it does not pull in the editable install of the source tree).
+    # in the system site-packages: make their folders visible. A .pth file's folders come after
+    # the venv's own site-packages on sys.path, so the wheel just installed is found first.
     folders = {
         str(Path(str(m.__file__)).resolve().parent.parent) for m in (np, pd, ortools, rich, yaml)
     }
     (site / "zz_test_dependencies.pth").write_text(
         "\n".join(sorted(folders)) + "\n", encoding="utf-8"
-    )
-    subprocess.run(
-        [str(python), "-m", "pip", "install", "--no-deps", "--no-index", "-q", str(wheels[0])],
-        check=True,
-        env=env,
-        timeout=300,
     )
 
     elsewhere = tmp_path / "elsewhere"
