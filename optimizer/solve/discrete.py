@@ -24,7 +24,7 @@ from numpy.typing import NDArray
 from ..catalog import Catalog
 from ..spec import CmrrBasis, Distribution, Spec, StockPolicy
 from .environment import LinearEnvironment, life_drift
-from .options import BOLTZMANN, log_deviation, variance
+from .options import BOLTZMANN, log_deviation, lowest_gain, variance
 
 __all__ = ["DiscreteBlock", "build_discrete"]
 
@@ -206,7 +206,7 @@ def value_constants(
     series = np.stack([vertices[:, 0], np.zeros(len(vertices)), vertices[:, 1], vertices[:, 2]], axis=1)  # (V, 4)
     r = block.values[:, None, None]
     effective = r + series[None, :, :]
-    g = spec.requirements.gain
+    g = lowest_gain(spec)
     four_kt = 4.0 * BOLTZMANN * env.hottest_k
     i_n = spec.amplifier.current_noise_a_rthz
     v = block.values

@@ -836,6 +836,7 @@ def _cost_expression(
             model.add(index_of[i] == index_of[j]).only_enforce_if(same)
             model.add(class_of[i] == class_of[j]).only_enforce_if(same)
             model.add(used[i] >= 1).only_enforce_if(same)
+            model.add(used[j] >= 1).only_enforce_if(same)
             same_any.append(same)
         if same_any:
             repeat = model.new_bool_var(f"repeat{i}")

@@ -310,13 +310,20 @@ def _stack(
 BOLTZMANN = 1.380649e-23  # J/K, exact in the 2019 SI
 
 
+def lowest_gain(spec: Spec) -> float:
+    """The lowest R2/R1 an accepted design can have, G·(1 − accuracy), less 2 % for the source
+    impedance and rounding: noise is priced at it so that the noise bound never overstates."""
+    req = spec.requirements
+    return req.gain * (1.0 - req.gain_accuracy) * 0.98
+
+
 def _noise_terms(resist: NDArray[np.float64], covered: NDArray[np.bool_], spec: Spec, env: LinearEnvironment) -> NDArray[np.float64]:
-    """Output noise power density (V²/Hz) each option adds at the target gain G, position by
+    """Output noise power density (V²/Hz) each option adds at the lowest gain G, position by
     position: R1 → 4kT·R1·G², R2 → 4kT·R2 + in²·R2², R3 → 4kT·R3·G² + in²·R3²·G², R4 → 4kT·R4
     (the balanced circuit: R1 seen through gain G, R2 directly, R3 and R4 through the divider
     times the noise gain 1+G; R3∥R4 = R3·G/(1+G) for the current noise). A lower estimate: the
     exact check adds the source impedances and the amplifier's voltage noise."""
-    g = spec.requirements.gain
+    g = lowest_gain(spec)
     four_kt = 4.0 * BOLTZMANN * env.hottest_k
     i_n = spec.amplifier.current_noise_a_rthz
     r = np.where(covered, resist, 0.0)
@@ -335,8 +342,8 @@ def _noise_terms(resist: NDArray[np.float64], covered: NDArray[np.bool_], spec: 
 def noise_floor(spec: Spec, env: LinearEnvironment) -> float:
     """Output noise power density (V²/Hz) no choice of resistors can remove: the amplifier's
     voltage noise times the noise gain, en²·(1+G)², plus the source impedances' Johnson noise
-    through gain G, 4kT·(Rs1,min + Rs3,min)·G²."""
-    g = spec.requirements.gain
+    through gain G, 4kT·(Rs1,min + Rs3,min)·G², with G the lowest gain (:func:`lowest_gain`)."""
+    g = lowest_gain(spec)
     four_kt = 4.0 * BOLTZMANN * env.hottest_k
     src = spec.signal.source
     return (spec.amplifier.voltage_noise_v_rthz * (1.0 + g)) ** 2 + four_kt * 2.0 * src.min_ohm * g**2

@@ -16,6 +16,7 @@ import time
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 from enum import Enum
+from typing import Protocol
 
 from ortools.sat.python import cp_model
 
@@ -44,10 +45,11 @@ class SearchStatus(str, Enum):
     INFEASIBLE = "infeasible"
 
 
-class Verdict:
-    """What the exact verification must provide (``optimizer.verify.Verdict`` satisfies it)."""
+class Verdict(Protocol):
+    """What the exact verification must provide (``optimizer.verify.Verification`` does)."""
 
-    passed: bool
+    @property
+    def passed(self) -> bool: ...
 
 
 Verifier = Callable[[Design, Spec], Verdict]
