@@ -51,7 +51,9 @@ def design_cost(design: Design, preferences: Preferences) -> CostBreakdown:
         lines.add(placement.part.part_id)
         if not placement.part.in_stock:
             not_stocked += 1
-    penalty = preferences.stock_penalty * not_stocked if preferences.stock is StockPolicy.PREFER else 0.0
+    penalty = (
+        preferences.stock_penalty * not_stocked if preferences.stock is StockPolicy.PREFER else 0.0
+    )
     return CostBreakdown(
         parts=parts,
         placements=preferences.placement_cost * placed,

@@ -20,10 +20,10 @@ POSITIONS = ("R1", "R2", "R3", "R4")
 class Topology(str, Enum):
     """How the four resistors are bought (names of our own; the spec uses the values)."""
 
-    DISCRETE = "four_discrete"          # four separate chip resistors
-    QUAD = "quad_network"               # one four-element network
-    EQUAL_PAIRS = "equal_pairs"         # two equal-value duals: (R1, R3) and (R2, R4)
-    DIVIDER_PAIRS = "divider_pairs"     # two divider duals: (R1, R2) and (R3, R4)
+    DISCRETE = "four_discrete"  # four separate chip resistors
+    QUAD = "quad_network"  # one four-element network
+    EQUAL_PAIRS = "equal_pairs"  # two equal-value duals: (R1, R3) and (R2, R4)
+    DIVIDER_PAIRS = "divider_pairs"  # two divider duals: (R1, R2) and (R3, R4)
     PAIR_PLUS_DISCRETE = "pair_plus_discrete"  # one dual network and two discrete parts
 
     @classmethod
@@ -47,7 +47,9 @@ class Placement:
 
     def __post_init__(self) -> None:
         if self.position not in POSITIONS:
-            raise ModelError("placement", "position", f"expected one of R1, R2, R3, R4, got {self.position!r}")
+            raise ModelError(
+                "placement", "position", f"expected one of R1, R2, R3, R4, got {self.position!r}"
+            )
         if isinstance(self.part, NetworkPart):
             if self.element is None or not 0 <= self.element < self.part.elements:
                 raise ModelError(
@@ -57,7 +59,9 @@ class Placement:
                     f"{None if self.element is None else self.element + 1}",
                 )
         elif self.element is not None:
-            raise ModelError(f"placement {self.position}", "element", "a discrete part has no element index")
+            raise ModelError(
+                f"placement {self.position}", "element", "a discrete part has no element index"
+            )
 
     @property
     def resistance_ohm(self) -> float:
@@ -80,7 +84,9 @@ class Design:
 
     def __post_init__(self) -> None:
         if tuple(p.position for p in self.placements) != POSITIONS:
-            raise ModelError("design", "placements", "expected placements for R1, R2, R3, R4 in order")
+            raise ModelError(
+                "design", "placements", "expected placements for R1, R2, R3, R4 in order"
+            )
         used: set[tuple[str, int, int]] = set()
         for placement in self.placements:
             key = placement.package_key

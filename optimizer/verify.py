@@ -75,7 +75,9 @@ def _relative_margin(margin: Margin) -> float:
 def cmrr_margin(worst: WorstCase, spec: Spec) -> Margin:
     """Worst-case CMRR (dB) against the floor; margin in dB."""
     floor = spec.requirements.cmrr_floor_db
-    return Margin("cmrr_worst_case", worst.cmrr_db >= floor, worst.cmrr_db, floor, worst.cmrr_db - floor, "dB")
+    return Margin(
+        "cmrr_worst_case", worst.cmrr_db >= floor, worst.cmrr_db, floor, worst.cmrr_db - floor, "dB"
+    )
 
 
 def gain_margin(worst: WorstCase, spec: Spec) -> Margin:
@@ -88,10 +90,19 @@ def gain_margin(worst: WorstCase, spec: Spec) -> Margin:
 def yield_margin(result: MonteCarloResult, spec: Spec) -> Margin:
     """Monte-Carlo yield (CMRR floor and gain accuracy together) against the target."""
     target = spec.requirements.yield_target
-    return Margin("yield", result.yield_fraction >= target, result.yield_fraction, target, result.yield_fraction - target, "")
+    return Margin(
+        "yield",
+        result.yield_fraction >= target,
+        result.yield_fraction,
+        target,
+        result.yield_fraction - target,
+        "",
+    )
 
 
-def verify(design: Design, spec: Spec, *, statistics: bool | None = None, samples: int | None = None) -> Verification:
+def verify(
+    design: Design, spec: Spec, *, statistics: bool | None = None, samples: int | None = None
+) -> Verification:
     """The exact check of ``design`` against ``spec``.
 
     ``statistics``: run the Monte Carlo (default: only when the CMRR basis is a yield, where it
@@ -109,6 +120,8 @@ def verify(design: Design, spec: Spec, *, statistics: bool | None = None, sample
         margins.append(cmrr_margin(worst, spec))
         margins.append(gain_margin(worst, spec))
     margins.extend(
-        Margin(c.name, c.passed, c.value, c.limit, c.margin, c.unit) for c in checks if not math.isnan(c.limit)
+        Margin(c.name, c.passed, c.value, c.limit, c.margin, c.unit)
+        for c in checks
+        if not math.isnan(c.limit)
     )
     return Verification(worst, result, checks, tuple(margins), safety_cautions(spec))

@@ -5,7 +5,13 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..analysis.checks import CheckResult, check_bandwidth, check_full_power_bandwidth, check_input_range, check_output_swing
+from ..analysis.checks import (
+    CheckResult,
+    check_bandwidth,
+    check_full_power_bandwidth,
+    check_input_range,
+    check_output_swing,
+)
 from ..design import Design, Placement
 from ..parts import DiscretePart
 from ..spec import Spec
@@ -25,7 +31,9 @@ def _ideal_design(r1: float, gain: float, rref: float = 0.0) -> Design:
     the bridge), all exact (no tolerance, tempco or drift)."""
 
     def part(name: str, ohms: float) -> Placement:
-        return Placement(name, DiscretePart(f"ideal-{name}", ohms, 0.0, 0.0, "ideal", 1e9, 1e9, 0.0))
+        return Placement(
+            name, DiscretePart(f"ideal-{name}", ohms, 0.0, 0.0, "ideal", 1e9, 1e9, 0.0)
+        )
 
     r4 = max(r1 * gain - rref, r1 * gain * 1e-3)
     return Design((part("R1", r1), part("R2", r1 * gain), part("R3", r1), part("R4", r4)))
@@ -37,13 +45,20 @@ def amplifier_limits(spec: Spec) -> tuple[CheckResult, ...]:
     search can meet them; the amplifier or the signal decides."""
     req = spec.requirements
     prefs = spec.preferences
-    gains = np.geomspace(req.gain * (1 - req.gain_accuracy), req.gain * (1 + req.gain_accuracy), TRIAL_GAINS)
+    gains = np.geomspace(
+        req.gain * (1 - req.gain_accuracy), req.gain * (1 + req.gain_accuracy), TRIAL_GAINS
+    )
     top = max(prefs.resistance_min_ohm, prefs.resistance_max_ohm / max(req.gain, 1.0))
     levels = np.geomspace(prefs.resistance_min_ohm, top, TRIAL_LEVELS)
     rref = 0.5 * (spec.reference.impedance_min_ohm + spec.reference.impedance_max_ohm)
     designs = [_ideal_design(float(r), float(g), rref) for r in levels for g in gains]
     failing: list[CheckResult] = []
-    for check in (check_bandwidth, check_full_power_bandwidth, check_input_range, check_output_swing):
+    for check in (
+        check_bandwidth,
+        check_full_power_bandwidth,
+        check_input_range,
+        check_output_swing,
+    ):
         results = [check(design, spec) for design in designs]
         if all(not r.passed for r in results):
             failing.append(max(results, key=lambda r: r.margin))

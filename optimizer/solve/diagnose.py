@@ -52,8 +52,18 @@ class _Relaxation:
 def _relaxations(spec: Spec) -> list[_Relaxation]:
     req = spec.requirements
     out = [
-        _Relaxation("cmrr_floor", "CMRR floor", replace(spec, requirements=replace(req, cmrr_floor_db=1.0)), f"{req.cmrr_floor_db:g} dB"),
-        _Relaxation("gain_accuracy", "gain accuracy", replace(spec, requirements=replace(req, gain_accuracy=0.5)), f"±{format_fraction(req.gain_accuracy)}"),
+        _Relaxation(
+            "cmrr_floor",
+            "CMRR floor",
+            replace(spec, requirements=replace(req, cmrr_floor_db=1.0)),
+            f"{req.cmrr_floor_db:g} dB",
+        ),
+        _Relaxation(
+            "gain_accuracy",
+            "gain accuracy",
+            replace(spec, requirements=replace(req, gain_accuracy=0.5)),
+            f"±{format_fraction(req.gain_accuracy)}",
+        ),
     ]
     if req.min_input_impedance_ohm > 0:
         out.append(
@@ -85,20 +95,39 @@ def _relaxations(spec: Spec) -> list[_Relaxation]:
     return out
 
 
-def diagnose(spec: Spec, catalog: Catalog, verifier: Verifier, *, time_limit_s: float = 20.0) -> Diagnosis:
+def diagnose(
+    spec: Spec, catalog: Catalog, verifier: Verifier, *, time_limit_s: float = 20.0
+) -> Diagnosis:
     """Name what binds and the best reachable value of each binding requirement."""
     limits = amplifier_limits(spec)
     if limits:
         names = tuple(c.name for c in limits)
         best = tuple(
-            BestReachable(c.name, _format(c.limit, c.unit), _format(c.value, c.unit), "the amplifier and signal decide this, not the resistors")
+            BestReachable(
+                c.name,
+                _format(c.limit, c.unit),
+                _format(c.value, c.unit),
+                "the amplifier and signal decide this, not the resistors",
+            )
             for c in limits
         )
-        text = "; ".join(f"{b.requirement}: {b.reachable} reachable, {b.asked} needed ({b.note})" for b in best)
+        text = "; ".join(
+            f"{b.requirement}: {b.reachable} reachable, {b.asked} needed ({b.note})" for b in best
+        )
         return Diagnosis(names, best, f"nothing can meet the spec: {text}")
     if 1.0 / spec.amplifier.cmrr_ratio >= 10.0 ** (-spec.requirements.cmrr_floor_db / 20.0):
-        best_amp = BestReachable("cmrr_floor", f"{spec.requirements.cmrr_floor_db:g} dB", f"{spec.amplifier.cmrr_db:g} dB", "the amplifier's own CMRR is below the floor")
-        return Diagnosis(("cmrr_floor",), (best_amp,), f"nothing can meet the spec: the amplifier's CMRR of {spec.amplifier.cmrr_db:g} dB is below the {spec.requirements.cmrr_floor_db:g} dB floor")
+        best_amp = BestReachable(
+            "cmrr_floor",
+            f"{spec.requirements.cmrr_floor_db:g} dB",
+            f"{spec.amplifier.cmrr_db:g} dB",
+            "the amplifier's own CMRR is below the floor",
+        )
+        return Diagnosis(
+            ("cmrr_floor",),
+            (best_amp,),
+            f"nothing can meet the spec: the amplifier's CMRR of {spec.amplifier.cmrr_db:g} dB "
+            f"is below the {spec.requirements.cmrr_floor_db:g} dB floor",
+        )
     binding: list[str] = []
     best: list[BestReachable] = []
     for relaxation in _relaxations(spec):
@@ -109,13 +138,20 @@ def diagnose(spec: Spec, catalog: Catalog, verifier: Verifier, *, time_limit_s: 
         best.append(_best_reachable(relaxation, spec, catalog, verifier, time_limit_s))
     if not binding:
         text = (
-            "nothing in the catalogs meets the spec, and relaxing any single requirement does not help: "
-            "several requirements bind together, or no part is rated for the stress (check the resistance range, "
-            "the stock policy and the parts' power and voltage ratings)"
+            "nothing in the catalogs meets the spec, and relaxing any single requirement does "
+            "not help: several requirements bind together, or no part is rated for the stress "
+            "(check the resistance range, the stock policy and the parts' power and voltage "
+            "ratings)"
         )
         return Diagnosis((), (), text)
-    parts = [f"{b.requirement}: {b.reachable} is reachable{(' ' + b.note) if b.note else ''}, {b.asked} was asked" for b in best]
-    return Diagnosis(tuple(binding), tuple(best), "nothing in the catalogs meets the spec; " + "; ".join(parts))
+    parts = [
+        f"{b.requirement}: {b.reachable} is reachable"
+        f"{(' ' + b.note) if b.note else ''}, {b.asked} was asked"
+        for b in best
+    ]
+    return Diagnosis(
+        tuple(binding), tuple(best), "nothing in the catalogs meets the spec; " + "; ".join(parts)
+    )
 
 
 def _format(value: float, unit: str) -> str:
@@ -124,10 +160,15 @@ def _format(value: float, unit: str) -> str:
     return format_quantity(value, unit, 4) if unit else f"{value:.4g}"
 
 
-def _best_reachable(relaxation: _Relaxation, spec: Spec, catalog: Catalog, verifier: Verifier, time_limit_s: float) -> BestReachable:
+def _best_reachable(
+    relaxation: _Relaxation, spec: Spec, catalog: Catalog, verifier: Verifier, time_limit_s: float
+) -> BestReachable:
     req = spec.requirements
     if relaxation.name == "cmrr_floor":
-        relaxed = replace(relaxation.relaxed, preferences=replace(spec.preferences, objective=Objective.CMRR_MARGIN, cost_cap=None))
+        relaxed = replace(
+            relaxation.relaxed,
+            preferences=replace(spec.preferences, objective=Objective.CMRR_MARGIN, cost_cap=None),
+        )
         result = pick(relaxed, catalog, verifier, top=1, time_limit_s=time_limit_s)
         if result.ranked:
             candidate = result.ranked[0]
@@ -136,15 +177,29 @@ def _best_reachable(relaxation: _Relaxation, spec: Spec, catalog: Catalog, verif
             if req.cmrr_basis is CmrrBasis.YIELD:
                 mc = getattr(verdict, "monte_carlo", None)
                 value = mc.cmrr_at_yield_db if mc is not None else float("nan")
-                what = f"statistical CMRR {value:.1f} dB at {format_fraction(req.yield_target)} yield"
+                what = (
+                    f"statistical CMRR {value:.1f} dB at {format_fraction(req.yield_target)} yield"
+                )
             else:
                 value = worst.cmrr_db if worst is not None else float("nan")
                 what = f"worst-case CMRR {value:.1f} dB"
-            return BestReachable("cmrr_floor", relaxation.asked, what, f"with {candidate.design.topology.value} {_ids(candidate.design)}")
-        return BestReachable("cmrr_floor", relaxation.asked, "unknown", "the search for the best CMRR ran out of time")
+            return BestReachable(
+                "cmrr_floor",
+                relaxation.asked,
+                what,
+                f"with {candidate.design.topology.value} {_ids(candidate.design)}",
+            )
+        return BestReachable(
+            "cmrr_floor",
+            relaxation.asked,
+            "unknown",
+            "the search for the best CMRR ran out of time",
+        )
     low, high, fmt = _bisection_range(relaxation.name, spec)
     best = _bisect(relaxation.name, spec, catalog, verifier, low, high, time_limit_s)
-    return BestReachable(relaxation.name, relaxation.asked, fmt(best) if best is not None else "nothing", "")
+    return BestReachable(
+        relaxation.name, relaxation.asked, fmt(best) if best is not None else "nothing", ""
+    )
 
 
 def _ids(design: Design) -> str:
@@ -163,7 +218,11 @@ def _bisection_range(name: str, spec: Spec) -> tuple[float, float, object]:
         return req.min_input_impedance_ohm, 0.0, lambda v: format_resistance(v, 4)
     if name == "output_noise":
         assert req.max_output_noise_v_rms is not None
-        return req.max_output_noise_v_rms, req.max_output_noise_v_rms * 1e3, lambda v: format_quantity(v, "V rms", 4)
+        return (
+            req.max_output_noise_v_rms,
+            req.max_output_noise_v_rms * 1e3,
+            lambda v: format_quantity(v, "V rms", 4),
+        )
     return req.life_s, 0.0, lambda v: f"{v / 3.15576e7:.3g} years"
 
 
@@ -178,7 +237,16 @@ def _with(name: str, spec: Spec, value: float) -> Spec:
     return replace(spec, requirements=replace(req, **{field: value}))
 
 
-def _bisect(name: str, spec: Spec, catalog: Catalog, verifier: Verifier, asked: float, relaxed: float, time_limit_s: float, steps: int = 8) -> float | None:
+def _bisect(
+    name: str,
+    spec: Spec,
+    catalog: Catalog,
+    verifier: Verifier,
+    asked: float,
+    relaxed: float,
+    time_limit_s: float,
+    steps: int = 8,
+) -> float | None:
     """The value closest to ``asked`` (between ``asked`` and ``relaxed``) for which a design
     exists, to within the bisection's resolution; ``relaxed`` itself is known feasible."""
     good, bad = relaxed, asked
@@ -187,7 +255,9 @@ def _bisect(name: str, spec: Spec, catalog: Catalog, verifier: Verifier, asked: 
             middle = math.sqrt(good * bad)
         else:
             middle = (good + bad) / 2.0
-        result = pick(_with(name, spec, middle), catalog, verifier, top=1, time_limit_s=time_limit_s)
+        result = pick(
+            _with(name, spec, middle), catalog, verifier, top=1, time_limit_s=time_limit_s
+        )
         if result.ranked:
             good = middle
         elif result.status is SearchStatus.INFEASIBLE:

@@ -22,9 +22,9 @@ import pandas as pd
 from numpy.typing import NDArray
 
 from ..catalog import Catalog
-from ..spec import CmrrBasis, Distribution, Spec, StockPolicy
-from .environment import LinearEnvironment, life_drift
-from .options import BOLTZMANN, log_deviation, lowest_gain, variance
+from ..spec import CmrrBasis, Spec, StockPolicy
+from .environment import LinearEnvironment, life_drift, series_impedance
+from .options import log_deviation, position_noise, variance
 
 __all__ = ["DiscreteBlock", "build_discrete"]
 
@@ -71,7 +71,9 @@ class DiscreteBlock:
 
 def _empty() -> DiscreteBlock:
     none = tuple(tuple() for _ in range(4))
-    return DiscreteBlock(np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0), none, {}, {})
+    return DiscreteBlock(
+        np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0), none, {}, {}
+    )
 
 
 def build_discrete(catalog: Catalog, spec: Spec, env: LinearEnvironment) -> DiscreteBlock:
@@ -82,7 +84,9 @@ def build_discrete(catalog: Catalog, spec: Spec, env: LinearEnvironment) -> Disc
         return _empty()
     r = frame["resistance_ohm"].to_numpy(float)
     stock = frame["stock_qty"].to_numpy() > 0
-    keep = (r >= prefs.resistance_min_ohm * (1 - 1e-9)) & (r <= prefs.resistance_max_ohm * (1 + 1e-9))
+    keep = (r >= prefs.resistance_min_ohm * (1 - 1e-9)) & (
+        r <= prefs.resistance_max_ohm * (1 + 1e-9)
+    )
     if prefs.stock is StockPolicy.ONLY:
         keep &= stock
     rows = np.flatnonzero(keep)
@@ -91,7 +95,9 @@ def build_discrete(catalog: Catalog, spec: Spec, env: LinearEnvironment) -> Disc
     penalty = prefs.stock_penalty if prefs.stock is StockPolicy.PREFER else 0.0
     attrs = pd.DataFrame(
         {
-            "cost": frame["unit_cost"].to_numpy(float)[rows] + prefs.placement_cost + np.where(stock[rows], 0.0, penalty),
+            "cost": frame["unit_cost"].to_numpy(float)[rows]
+            + prefs.placement_cost
+            + np.where(stock[rows], 0.0, penalty),
             "t": frame["tolerance"].to_numpy(float)[rows],
             "tc": frame["tempco_per_k"].to_numpy(float)[rows],
             "d": life_drift(frame["drift_1000h"].to_numpy(float)[rows], env.life_h),
@@ -125,7 +131,12 @@ def build_discrete(catalog: Catalog, spec: Spec, env: LinearEnvironment) -> Disc
     cost = classes["cost"].to_numpy(float)
     stocked = classes["stock"].to_numpy(bool)
     if spec.requirements.cmrr_basis is CmrrBasis.WORST_CASE:
-        spread = np.column_stack([np.log1p(t) + np.log1p(tc) + np.log1p(d), -(np.log1p(-t) + np.log1p(-tc) + np.log1p(-d))])
+        spread = np.column_stack(
+            [
+                np.log1p(t) + np.log1p(tc) + np.log1p(d),
+                -(np.log1p(-t) + np.log1p(-tc) + np.log1p(-d)),
+            ]
+        )
     else:
         spread = np.column_stack([t, tc, d])
     avail: list[tuple[NDArray[np.int64], ...]] = []
@@ -134,9 +145,13 @@ def build_discrete(catalog: Catalog, spec: Spec, env: LinearEnvironment) -> Disc
         usable: list[NDArray[np.int64]] = []
         for c in range(n_classes):
             ks = class_values[c]
-            ok = (volts[c] >= RATING_RELAXATION * stress) & (power[c] * values[ks] >= RATING_RELAXATION * stress**2)
+            ok = (volts[c] >= RATING_RELAXATION * stress) & (
+                power[c] * values[ks] >= RATING_RELAXATION * stress**2
+            )
             usable.append(ks[ok])
-        avail.append(tuple(_drop_dominated(usable, cost, spread, power, volts, stocked, values, stress)))
+        avail.append(
+            tuple(_drop_dominated(usable, cost, spread, power, volts, stocked, values, stress))
+        )
     dist, k = prefs.distribution, prefs.sigma_k
     return DiscreteBlock(
         values=values,
@@ -184,9 +199,15 @@ def _drop_dominated(
                 continue
             if np.any(masks[c] & ~masks[other]):
                 continue
-            if min(power[other], SAFE_RATING * need_p[c]) < min(power[c], SAFE_RATING * need_p[c]) - 1e-15:
+            if (
+                min(power[other], SAFE_RATING * need_p[c])
+                < min(power[c], SAFE_RATING * need_p[c]) - 1e-15
+            ):
                 continue
-            if min(volts[other], SAFE_RATING * stress) < min(volts[c], SAFE_RATING * stress) - 1e-12:
+            if (
+                min(volts[other], SAFE_RATING * stress)
+                < min(volts[c], SAFE_RATING * stress) - 1e-12
+            ):
                 continue
             equal = cost[other] == cost[c] and np.all(spread[other] == spread[c])
             if equal and other > c:
@@ -201,20 +222,9 @@ def value_constants(
 ) -> tuple[NDArray[np.float64], NDArray[np.float64], NDArray[np.float64]]:
     """Per position i, value k and vertex v: φ = ln(R_k + rs_i,v) (K, V, 4), the fraction
     f = R_k/(R_k + rs_i,v) (K, V, 4), and the output noise power density (V²/Hz) of value k at
-    position i (K, 4) (the formulas of ``options._noise_terms``)."""
-    vertices = env.vertices
-    series = np.stack([vertices[:, 0], np.zeros(len(vertices)), vertices[:, 1], vertices[:, 2]], axis=1)  # (V, 4)
+    position i (K, 4) (``options.position_noise``)."""
+    series = series_impedance(env)
     r = block.values[:, None, None]
     effective = r + series[None, :, :]
-    g = lowest_gain(spec)
-    four_kt = 4.0 * BOLTZMANN * env.hottest_k
-    i_n = spec.amplifier.current_noise_a_rthz
-    v = block.values
-    noise = np.stack(
-        [four_kt * v * g**2, four_kt * v + (i_n * v) ** 2, four_kt * v * g**2 + (i_n * v * g) ** 2, four_kt * v],
-        axis=1,
-    )
+    noise = position_noise(np.repeat(block.values[:, None], 4, axis=1), spec, env)
     return np.log(effective), r / effective, noise
-
-
-_ = Distribution  # re-exported type used in annotations of callers

@@ -6,56 +6,29 @@ All functions are pure and take the spec's frozen dataclasses.
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 
 import numpy as np
 from numpy.typing import NDArray
 
+from ..analysis.checks import derated_power
+from ..analysis.variation import drift_bound, source_vertices
 from ..spec import Spec
 
 __all__ = [
     "LinearEnvironment",
     "derating_factor",
+    "life_drift",
     "linear_environment",
     "position_voltages",
-    "source_vertices",
+    "series_impedance",
 ]
 
 
-def source_vertices(min_ohm: float, max_ohm: float, imbalance_ohm: float) -> NDArray[np.float64]:
-    """Vertices (Rs1, Rs3) of the set {min ≤ Rs1, Rs3 ≤ max, |Rs1 − Rs3| ≤ imbalance} in ohms.
-
-    The set is a square clipped along its diagonal (a hexagon when the imbalance is below
-    max − min); any linear function of (Rs1, Rs3) takes its extremes at these vertices."""
-    span = max_ohm - min_ohm
-    if span <= 0.0:
-        return np.array([[min_ohm, min_ohm]])
-    if imbalance_ohm >= span:
-        points = [(min_ohm, min_ohm), (min_ohm, max_ohm), (max_ohm, min_ohm), (max_ohm, max_ohm)]
-    elif imbalance_ohm <= 0.0:
-        points = [(min_ohm, min_ohm), (max_ohm, max_ohm)]
-    else:
-        i = imbalance_ohm
-        points = [
-            (min_ohm, min_ohm),
-            (min_ohm, min_ohm + i),
-            (min_ohm + i, min_ohm),
-            (max_ohm - i, max_ohm),
-            (max_ohm, max_ohm - i),
-            (max_ohm, max_ohm),
-        ]
-    return np.unique(np.array(points, dtype=float), axis=0)
-
-
 def derating_factor(temp_c: float) -> float:
-    """Fraction of the 70 °C power rating usable at ``temp_c``: 1 up to 70 °C, falling linearly
-    to 0 at 155 °C (the usual chip-resistor derating curve; common practice)."""
-    if temp_c <= 70.0:
-        return 1.0
-    if temp_c >= 155.0:
-        return 0.0
-    return (155.0 - temp_c) / 85.0
+    """Fraction of the 70 °C power rating usable at ``temp_c`` (the derating curve of
+    :func:`optimizer.analysis.checks.derated_power`)."""
+    return float(derated_power(1.0, temp_c))
 
 
 def _corner_values(low: float, high: float) -> tuple[float, ...]:
@@ -101,6 +74,15 @@ class LinearEnvironment:
     hottest_k: float
 
 
+def series_impedance(env: LinearEnvironment) -> NDArray[np.float64]:
+    """(V, 4) impedance in series with each position at each vertex, in ohms: R1 ← Rs1,
+    R2 ← nothing, R3 ← Rs3, R4 ← Rref."""
+    vertices = env.vertices
+    return np.stack(
+        [vertices[:, 0], np.zeros(len(vertices)), vertices[:, 1], vertices[:, 2]], axis=1
+    )
+
+
 def linear_environment(spec: Spec) -> LinearEnvironment:
     """Build the :class:`LinearEnvironment` of ``spec``."""
     req = spec.requirements
@@ -120,6 +102,7 @@ def linear_environment(spec: Spec) -> LinearEnvironment:
 
 
 def life_drift(drift_1000h: NDArray[np.float64] | float, life_h: float) -> NDArray[np.float64]:
-    """Drift bound over ``life_h`` hours from the 1000-hour figure, growing with the square root
-    of time: D(t) = D₁₀₀₀·√(t/1000 h) (common practice for film resistors, from memory)."""
-    return np.asarray(drift_1000h, dtype=float) * math.sqrt(max(life_h, 0.0) / 1000.0)
+    """Drift bound over ``life_h`` hours from the 1000-hour figure (the square-root law of
+    :func:`optimizer.analysis.variation.drift_bound`, applied to an array)."""
+    scale = drift_bound(1.0, max(life_h, 0.0) * 3600.0)
+    return np.asarray(drift_1000h, dtype=float) * scale

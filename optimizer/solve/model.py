@@ -34,9 +34,19 @@ from ortools.sat.python import cp_model
 
 from ..design import Topology
 from ..spec import CmrrBasis, Distribution, Objective, Spec
-from .environment import LinearEnvironment
 from .discrete import DiscreteBlock, value_constants
-from .options import ALL_SHAPES, C_DELTA, DIVIDER_SHAPES, EQUAL_SHAPES, OptionTable, gain_coefficients, noise_bandwidth, noise_floor, z_score
+from .environment import LinearEnvironment
+from .options import (
+    ALL_SHAPES,
+    C_DELTA,
+    DIVIDER_SHAPES,
+    EQUAL_SHAPES,
+    OptionTable,
+    gain_coefficients,
+    noise_bandwidth,
+    noise_floor,
+    z_score,
+)
 
 __all__ = ["Limits", "ModelVariant", "build_model", "limits_for"]
 
@@ -44,7 +54,8 @@ LOG_SCALE = 1e7  # integer units per natural-log unit (0.1 ppm resolution)
 COST_SCALE = 1e4  # integer units per relative cost unit
 OHM_SCALE = 1.0  # integer units per ohm
 NOISE_SCALE = 1e24  # integer units per V²/Hz
-SLACK = 2e-4  # relative widening of every bound (margin for rounding; the bounds themselves are optimistic)
+# Relative widening of every bound: a margin for rounding (the bounds are optimistic already).
+SLACK = 2e-4
 
 
 @dataclass(frozen=True)
@@ -77,7 +88,11 @@ def limits_for(spec: Spec, env: LinearEnvironment) -> Limits:
     req = spec.requirements
     g = req.gain
     a_ol = spec.amplifier.open_loop_gain
-    open_loop = 0.0 if math.isinf(a_ol) else math.log1p((1.0 + g * (1.0 - req.gain_accuracy)) / a_ol) * (1.0 - SLACK)
+    open_loop = (
+        0.0
+        if math.isinf(a_ol)
+        else math.log1p((1.0 + g * (1.0 - req.gain_accuracy)) / a_ol) * (1.0 - SLACK)
+    )
     z = 0.0
     z_two = 0.0
     if req.cmrr_basis is CmrrBasis.YIELD and spec.preferences.distribution is Distribution.NORMAL:
@@ -91,7 +106,9 @@ def limits_for(spec: Spec, env: LinearEnvironment) -> Limits:
     if req.max_output_noise_v_rms is not None:
         band = noise_bandwidth(spec)
         if band > 0.0:
-            noise_budget = (req.max_output_noise_v_rms**2 / band) * (1.0 + 4 * SLACK) - noise_floor(spec, env)
+            noise_budget = (req.max_output_noise_v_rms**2 / band) * (1.0 + 4 * SLACK) - noise_floor(
+                spec, env
+            )
     return Limits(
         cmrr_budget=_cmrr_budget(spec),
         gain_upper=math.log1p(req.gain_accuracy) * (1.0 + SLACK) + 1e-9,
@@ -117,7 +134,9 @@ class ModelVariant:
     cost_cap: float | None = None
     topologies: frozenset[Topology] | None = None  # None: the spec's
     maximise: str | None = None  # "cmrr": optimise the worst-case CMRR margin instead of cost
-    pair_shape: int | None = None  # pair_plus_discrete only: the one pair shape (index into ALL_SHAPES)
+    pair_shape: int | None = (
+        None  # pair_plus_discrete only: the one pair shape (index into ALL_SHAPES)
+    )
 
 
 @dataclass
@@ -158,7 +177,9 @@ class _Sum:
         self.literals: list[cp_model.IntVar] = []
         self.coefficients: list[float] = []
 
-    def add(self, literals: list[cp_model.IntVar], coefficients: NDArray[np.float64] | list[float]) -> None:
+    def add(
+        self, literals: list[cp_model.IntVar], coefficients: NDArray[np.float64] | list[float]
+    ) -> None:
         self.literals.extend(literals)
         self.coefficients.extend(float(c) for c in coefficients)
 
@@ -184,7 +205,9 @@ def build_model(
     """The CP-SAT model for network ``options`` and discrete ``block`` under ``limits``."""
     model = cp_model.CpModel()
     n = len(options)
-    allowed = set(variant.topologies if variant.topologies is not None else spec.preferences.topologies)
+    allowed = set(
+        variant.topologies if variant.topologies is not None else spec.preferences.topologies
+    )
     discrete_allowed = bool(allowed & {Topology.DISCRETE, Topology.PAIR_PLUS_DISCRETE})
     usable_options = _usable_options(options, allowed)
     if variant.pair_shape is not None:
@@ -201,7 +224,11 @@ def build_model(
     placed: list[cp_model.LinearExpr] = []  # 1 when position i holds a discrete part
     for position in range(4):
         cs = classes[position]
-        ks = np.unique(np.concatenate([block.avail[position][c] for c in cs])) if cs else np.zeros(0, dtype=np.int64)
+        ks = (
+            np.unique(np.concatenate([block.avail[position][c] for c in cs]))
+            if cs
+            else np.zeros(0, dtype=np.int64)
+        )
         value.append({int(k): model.new_bool_var(f"v{position}_{k}") for k in ks})
         grade.append({c: model.new_bool_var(f"g{position}_{c}") for c in cs})
         values_sum = sum(value[position].values())
@@ -229,7 +256,9 @@ def build_model(
         fixed = t.get(Topology.EQUAL_PAIRS, 0) if shape in EQUAL_SHAPES else 0
         fixed = t.get(Topology.DIVIDER_PAIRS, 0) if shape in DIVIDER_SHAPES else fixed
         model.add(sum(pairs) == fixed + mixed[s])
-    model.add(sum(placed) == 4 * t.get(Topology.DISCRETE, 0) + 2 * t.get(Topology.PAIR_PLUS_DISCRETE, 0))
+    model.add(
+        sum(placed) == 4 * t.get(Topology.DISCRETE, 0) + 2 * t.get(Topology.PAIR_PLUS_DISCRETE, 0)
+    )
 
     phi, fraction, value_noise = value_constants(block, spec, env)
     req = spec.requirements
@@ -246,7 +275,9 @@ def build_model(
                 acc.add([value[position][k] for k in ks], coef[position] * phi[ks, v, position])
         return acc
 
-    def spread(coef: NDArray[np.float64], v: int | tuple[int, ...], of_variance: bool, scale: float) -> cp_model.LinearExpr:
+    def spread(
+        coef: NDArray[np.float64], v: int | tuple[int, ...], of_variance: bool, scale: float
+    ) -> cp_model.LinearExpr:
         """Worst-case deviation (or variance) of Σ coefᵢ·φᵢ,v from the chosen grades, in integer
         units of ``scale``. A discrete position contributes |coefᵢ|·f·own (or coefᵢ²·f²·var),
         the product of a class term X and a value term Y = f (f²) = R/(R + rs). The values are
@@ -267,38 +298,50 @@ def build_model(
                 continue
             ks = list(value[position])
             f = fraction[np.ix_(ks, vs, [position])].min(axis=(1, 2)) ** (2 if of_variance else 1)
-            class_term = (block.var[cs] * coef[position] ** 2) if of_variance else (block.own[cs] * abs(coef[position]))
-            x_lo, x_hi = float(class_term.min()), float(class_term.max())
+            class_term = (
+                (block.var[cs] * coef[position] ** 2)
+                if of_variance
+                else (block.own[cs] * abs(coef[position]))
+            )
+            x_hi = float(class_term.max())
             y_lo, y_hi = float(f.min()), float(f.max())
             grades = [grade[position][c] for c in cs]
             values = [value[position][k] for k in ks]
             if y_hi - y_lo <= 1e-12 * y_hi:
-                terms.append(cp_model.LinearExpr.weighted_sum(grades, [int(v_) for v_ in np.floor(class_term * y_lo * scale)]))
+                terms.append(
+                    cp_model.LinearExpr.weighted_sum(
+                        grades, [int(v_) for v_ in np.floor(class_term * y_lo * scale)]
+                    )
+                )
                 continue
-            bound = model.new_int_var(0, 10**15, f"w{position}_{'_'.join(map(str, vs))}_{int(of_variance)}")
+            bound = model.new_int_var(
+                0, 10**15, f"w{position}_{'_'.join(map(str, vs))}_{int(of_variance)}"
+            )
             placed_here = sum(values)
             band_of = np.digitize(f, BAND_EDGES)
             for band in np.unique(band_of):
-                members = [lit for lit, b_ in zip(values, band_of) if b_ == band]
+                members = [lit for lit, b_ in zip(values, band_of, strict=False) if b_ == band]
                 y_band = float(f[band_of == band].min())
                 # bound ≥ X·y_band when a value of this band is chosen (vacuous otherwise).
-                relax = int(math.ceil(x_hi * y_band * scale))
+                relax = math.ceil(x_hi * y_band * scale)
                 model.add(
                     bound
-                    >= cp_model.LinearExpr.weighted_sum(grades, [int(c_) for c_ in np.floor(class_term * y_band * scale)])
+                    >= cp_model.LinearExpr.weighted_sum(
+                        grades, [int(c_) for c_ in np.floor(class_term * y_band * scale)]
+                    )
                     + relax * sum(members)
                     - relax * placed_here
                 )
             terms.append(bound)
         return sum(terms)  # type: ignore[return-value]
 
-    budget = int(math.floor(limits.cmrr_budget * LOG_SCALE)) if limits.cmrr_budget > 0 else -1
+    budget = math.floor(limits.cmrr_budget * LOG_SCALE) if limits.cmrr_budget > 0 else -1
     worst_margin = model.new_int_var(-(10**13), 10**13, "worst_margin")
     sides = extreme_vertices(env.vertices, req.gain)
-    log_g = int(round(math.log(req.gain) * LOG_SCALE))
-    upper = int(math.floor(limits.gain_upper * LOG_SCALE))
-    lower = int(math.ceil(limits.gain_lower * LOG_SCALE))
-    open_loop = int(round(limits.open_loop_term * LOG_SCALE))
+    log_g = round(math.log(req.gain) * LOG_SCALE)
+    upper = math.floor(limits.gain_upper * LOG_SCALE)
+    lower = math.ceil(limits.gain_lower * LOG_SCALE)
+    open_loop = round(limits.open_loop_term * LOG_SCALE)
     if req.cmrr_basis is CmrrBasis.WORST_CASE or variant.maximise == "cmrr":
         for sign, vertices in ((1, sides.delta_high), (-1, sides.delta_low)):
             for v in vertices:
@@ -309,9 +352,14 @@ def build_model(
             model.add(worst_margin >= 0)
     if req.cmrr_basis is CmrrBasis.WORST_CASE and variant.gain:
         for v in sides.gain_high:
-            model.add(linear(cg, v).expr(LOG_SCALE) - log_g + spread(cg, v, False, LOG_SCALE) <= upper)
+            model.add(
+                linear(cg, v).expr(LOG_SCALE) - log_g + spread(cg, v, False, LOG_SCALE) <= upper
+            )
         for v in sides.gain_low:
-            model.add(linear(cg, v).expr(LOG_SCALE) - log_g - spread(cg, v, False, LOG_SCALE) - open_loop >= lower)
+            model.add(
+                linear(cg, v).expr(LOG_SCALE) - log_g - spread(cg, v, False, LOG_SCALE) - open_loop
+                >= lower
+            )
     if req.cmrr_basis is CmrrBasis.YIELD:
         z2 = limits.z**2
         if variant.cmrr:
@@ -325,22 +373,39 @@ def build_model(
                 # (Φ is concave on u, w ≥ 0), so B − (D_h − D_l)/2 ≥ z₂·σ with z₂ = Φ⁻¹((1+Y)/2).
                 vh, vl = sides.delta_high[0], sides.delta_low[0]
                 swing = linear(C_DELTA, vh).expr(LOG_SCALE) - linear(C_DELTA, vl).expr(LOG_SCALE)
-                variance = spread(C_DELTA, (vh, vl), True, QUAD_SCALE**2 * 4.0 * limits.z_two_sided**2)
+                variance = spread(
+                    C_DELTA, (vh, vl), True, QUAD_SCALE**2 * 4.0 * limits.z_two_sided**2
+                )
                 _quadratic_margin(model, 2 * budget - swing, variance, "c_both")
         if variant.gain:
             for v in sides.gain_high:
                 gain = linear(cg, v).expr(LOG_SCALE) - log_g
-                _quadratic_margin(model, upper - gain, spread(cg, v, True, QUAD_SCALE**2 * z2), f"gu{v}")
+                _quadratic_margin(
+                    model, upper - gain, spread(cg, v, True, QUAD_SCALE**2 * z2), f"gu{v}"
+                )
             for v in sides.gain_low:
                 gain = linear(cg, v).expr(LOG_SCALE) - log_g
-                _quadratic_margin(model, gain - open_loop - lower, spread(cg, v, True, QUAD_SCALE**2 * z2), f"gl{v}")
+                _quadratic_margin(
+                    model,
+                    gain - open_loop - lower,
+                    spread(cg, v, True, QUAD_SCALE**2 * z2),
+                    f"gl{v}",
+                )
 
     halves = _halves(allowed, variant)
     if halves is not None and variant.cmrr and variant.gain:
         yield_basis = req.cmrr_basis is CmrrBasis.YIELD
         scale = QUAD_SCALE**2 if yield_basis else LOG_SCALE
         _couple_halves(
-            model, halves, x, value, options, phi, spec, limits, sides,
+            model,
+            halves,
+            x,
+            value,
+            options,
+            phi,
+            spec,
+            limits,
+            sides,
             lambda vs: spread(C_DELTA, vs, yield_basis, scale),
             lambda vs: spread(cg, vs, yield_basis, scale),
             usable,
@@ -349,28 +414,43 @@ def build_model(
     if variant.impedance and limits.min_impedance_ohm > 0.0:
         z_min = limits.min_impedance_ohm
         t_max = float(block.tolerance.max()) if block.tolerance.size else 0.0
-        for a, b, factor in ((0, 2, 1.0), (0, 1, 1.0 - 2.0 * req.gain_accuracy - 0.01), (2, 3, 1.0)):
+        for a, b, factor in (
+            (0, 2, 1.0),
+            (0, 1, 1.0 - 2.0 * req.gain_accuracy - 0.01),
+            (2, 3, 1.0),
+        ):
             acc = _Sum()
             acc.add(x, options.ohms[:, a] + options.ohms[:, b])
             for position in (a, b):
                 ks = list(value[position])
                 acc.add([value[position][k] for k in ks], block.values[ks] * (1.0 + t_max))
-            model.add(acc.expr(OHM_SCALE, "ceil") >= int(math.floor(z_min * factor * (1.0 - SLACK) * OHM_SCALE)))
+            model.add(
+                acc.expr(OHM_SCALE, "ceil")
+                >= math.floor(z_min * factor * (1.0 - SLACK) * OHM_SCALE)
+            )
         # Common-mode impedance Zcm = R1·(R3 + R4')/(R1 + R3) (analysis.checks). With
         # R1 + R3 ≥ 2·√(R1·R3) (AM-GM) and R3 + R4' = R3·(1 + R4'/R3) ≤ R3·(1 + G_hi):
         # Zcm ≤ √(R1·R3)·(1 + G_hi)/2, so ln R1 + ln R3 ≥ 2·ln Zmin − 2·ln((1 + G_hi)/2).
         g_hi = req.gain * (1.0 + req.gain_accuracy) * math.exp(max(limits.cmrr_budget, 0.0) + 0.05)
         acc = _Sum()
         with np.errstate(divide="ignore"):
-            acc.add(x, np.log(np.where(options.ohms[:, 0] > 0, options.ohms[:, 0], 1.0)) * options.covers[:, 0])
-            acc.add(x, np.log(np.where(options.ohms[:, 2] > 0, options.ohms[:, 2], 1.0)) * options.covers[:, 2])
+            acc.add(
+                x,
+                np.log(np.where(options.ohms[:, 0] > 0, options.ohms[:, 0], 1.0))
+                * options.covers[:, 0],
+            )
+            acc.add(
+                x,
+                np.log(np.where(options.ohms[:, 2] > 0, options.ohms[:, 2], 1.0))
+                * options.covers[:, 2],
+            )
         for position in (0, 2):
             ks = list(value[position])
             acc.add([value[position][k] for k in ks], np.log(block.values[ks]))
             cs = list(grade[position])
             acc.add([grade[position][c] for c in cs], np.log1p(block.swing[cs]))
         floor = 2.0 * math.log(z_min * (1.0 - SLACK)) - 2.0 * math.log((1.0 + g_hi) / 2.0)
-        model.add(acc.expr(LOG_SCALE, "ceil") >= int(math.floor(floor * LOG_SCALE)))
+        model.add(acc.expr(LOG_SCALE, "ceil") >= math.floor(floor * LOG_SCALE))
     if variant.noise and limits.noise_budget is not None:
         acc = _Sum()
         acc.add(x, options.noise * (1.0 - SLACK))
@@ -378,7 +458,14 @@ def build_model(
             ks = list(value[position])
             acc.add([value[position][k] for k in ks], value_noise[ks, position] * (1.0 - SLACK))
         noise = acc.expr(NOISE_SCALE, "floor")
-        model.add(noise <= (int(math.floor(limits.noise_budget * NOISE_SCALE)) if limits.noise_budget > 0 else -1))
+        model.add(
+            noise
+            <= (
+                math.floor(limits.noise_budget * NOISE_SCALE)
+                if limits.noise_budget > 0
+                else -1
+            )
+        )
 
     cost = _cost_expression(model, x, value, grade, options, block, spec)
     prefs = spec.preferences
@@ -386,18 +473,41 @@ def build_model(
     if variant.maximise == "cmrr" or objective is Objective.CMRR_MARGIN:
         cap = variant.cost_cap if variant.cost_cap is not None else prefs.cost_cap
         if cap is not None and variant.maximise is None:
-            model.add(cost <= int(math.floor(cap * COST_SCALE)))
+            model.add(cost <= math.floor(cap * COST_SCALE))
         model.maximize(worst_margin * 1000 - cost if variant.maximise is None else worst_margin)
     elif objective is Objective.PLACEMENTS:
         placements = sum(x) + sum(placed)
         model.minimize(placements * 10**9 + cost)
     else:
         model.minimize(cost)
-    return BuiltModel(model=model, x=x, value=value, grade=grade, options=options, margin_var=worst_margin)
+    return BuiltModel(
+        model=model, x=x, value=value, grade=grade, options=options, margin_var=worst_margin
+    )
 
 
 #: Edges of the bands of f = R/(R + rs) (or f²) used to bound the spread of discrete parts.
-BAND_EDGES = 1.0 - np.array([0.8, 0.5, 0.3, 0.2, 0.1, 0.07, 0.05, 0.04, 0.03, 0.02, 0.015, 0.01, 0.005, 3e-3, 2e-3, 1e-3, 3e-4, 1e-4])
+BAND_EDGES = 1.0 - np.array(
+    [
+        0.8,
+        0.5,
+        0.3,
+        0.2,
+        0.1,
+        0.07,
+        0.05,
+        0.04,
+        0.03,
+        0.02,
+        0.015,
+        0.01,
+        0.005,
+        3e-3,
+        2e-3,
+        1e-3,
+        3e-4,
+        1e-4,
+    ]
+)
 
 #: Largest value-pair grid the half coupling enumerates per half.
 MAX_HALF_GRID = 4_000_000
@@ -456,7 +566,8 @@ def _couple_halves(
     n_vertices = phi.shape[1]
 
     def discrete_side(
-        positions: tuple[int, int], keep: Callable[[NDArray[np.float64], NDArray[np.float64]], NDArray[np.bool_]]
+        positions: tuple[int, int],
+        keep: Callable[[NDArray[np.float64], NDArray[np.float64]], NDArray[np.bool_]],
     ) -> tuple[list[tuple[int, int]], NDArray[np.float64], NDArray[np.float64]]:
         """Value pairs (ki, kj) that ``keep`` accepts, given their δ and γ contributions at
         every vertex (arrays (n, V)); returns the pairs and those contributions."""
@@ -474,7 +585,9 @@ def _couple_halves(
         gains: list[NDArray[np.float64]] = []
         for start in range(0, ki.size, rows):
             block_i = phi_i[start : start + rows]
-            dl = (C_DELTA[i] * block_i[:, None, :] + C_DELTA[j] * phi_j[None, :, :]).reshape(-1, n_vertices)
+            dl = (C_DELTA[i] * block_i[:, None, :] + C_DELTA[j] * phi_j[None, :, :]).reshape(
+                -1, n_vertices
+            )
             gm = (cg[i] * block_i[:, None, :] + cg[j] * phi_j[None, :, :]).reshape(-1, n_vertices)
             mask = keep(dl, gm)
             if not mask.any():
@@ -487,12 +600,18 @@ def _couple_halves(
         if not firsts:
             return [], empty, empty
         first_k, second_k = np.concatenate(firsts), np.concatenate(seconds)
-        return list(zip(first_k.tolist(), second_k.tolist())), np.concatenate(deltas), np.concatenate(gains)
+        return (
+            list(zip(first_k.tolist(), second_k.tolist(), strict=False)),
+            np.concatenate(deltas),
+            np.concatenate(gains),
+        )
 
     def spread_of(contributions: NDArray[np.float64]) -> NDArray[np.float64]:
         return contributions.max(axis=1) - contributions.min(axis=1)
 
-    def b_keep(a_delta: NDArray[np.float64]) -> Callable[[NDArray[np.float64], NDArray[np.float64]], NDArray[np.bool_]]:
+    def b_keep(
+        a_delta: NDArray[np.float64],
+    ) -> Callable[[NDArray[np.float64], NDArray[np.float64]], NDArray[np.bool_]]:
         """Second half: some a must satisfy need(a, b) ≤ B, which requires δ_ref = q_a + q_b in
         [−B − swing_a − swing_b, B] at the reference (high) vertex (see the join below)."""
         centres = np.sort(a_delta[:, ref])
@@ -500,7 +619,9 @@ def _couple_halves(
 
         def keep(dl: NDArray[np.float64], gm: NDArray[np.float64]) -> NDArray[np.bool_]:
             q = dl[:, ref]
-            lo = np.searchsorted(centres, -q - budget - swing_a_max - spread_of(dl) - 1e-12, side="left")
+            lo = np.searchsorted(
+                centres, -q - budget - swing_a_max - spread_of(dl) - 1e-12, side="left"
+            )
             hi = np.searchsorted(centres, -q + budget + 1e-12, side="right")
             return hi > lo
 
@@ -510,14 +631,18 @@ def _couple_halves(
     a_lits: list[cp_model.IntVar] | None = None
     i2, j2 = second
     # Largest vertex-to-vertex swing of the second half's δ contribution (refined below).
-    swing_b = float(spread_of(phi[:, :, i2]).max() + spread_of(phi[:, :, j2]).max()) if phi.size else 0.0
+    swing_b = (
+        float(spread_of(phi[:, :, i2]).max() + spread_of(phi[:, :, j2]).max()) if phi.size else 0.0
+    )
     b_keys: list[tuple[int, int]] = []
     b_delta = b_gain = np.zeros((0, n_vertices))
     for _ in range(3):
         if isinstance(first, tuple):
             # (R1, R2): the gain at a vertex is γ = −q_a + h·δ with |δ| ≤ B + the design's swing,
             # so −q_a at the gain vertices must lie within the gain window widened by h·(B + swing).
-            def a_keep(dl: NDArray[np.float64], gm: NDArray[np.float64], swing_b: float = swing_b) -> NDArray[np.bool_]:
+            def a_keep(
+                dl: NDArray[np.float64], gm: NDArray[np.float64], swing_b: float = swing_b
+            ) -> NDArray[np.bool_]:
                 widen = h * (budget + spread_of(dl) + swing_b) + 1e-12
                 mask = np.ones(dl.shape[0], dtype=bool)
                 for v in gain_high:
@@ -557,7 +682,9 @@ def _couple_halves(
     for index in range(len(a_keys)):
         # need ≥ δ_ref (ref is a high vertex) and need ≥ −δ_ref − swing: δ_ref ∈ [−B − swing, B].
         centre = -a_delta[index, ref]
-        lo = np.searchsorted(sorted_q, centre - budget - swing_a[index] - swing_b - 1e-12, side="left")
+        lo = np.searchsorted(
+            sorted_q, centre - budget - swing_a[index] - swing_b - 1e-12, side="left"
+        )
         hi = np.searchsorted(sorted_q, centre + budget + 1e-12, side="right")
         if hi <= lo:
             continue
@@ -582,13 +709,15 @@ def _couple_halves(
         m_b[idx] = np.minimum(m_b[idx], need_ok)
         r_b[idx] = np.maximum(r_b[idx], room_ok)
 
-    def side_literals(keys: list[tuple[int, int]], positions: tuple[int, int], alive: NDArray[np.bool_]) -> list[cp_model.IntVar | None]:
+    def side_literals(
+        keys: list[tuple[int, int]], positions: tuple[int, int], alive: NDArray[np.bool_]
+    ) -> list[cp_model.IntVar | None]:
         """One literal per live value pair, linked to the value literals of its two positions;
         value literals with no live pair are fixed to false."""
         i, j = positions
         lits: list[cp_model.IntVar | None] = []
         by_value: dict[tuple[int, int], list[cp_model.IntVar]] = {}
-        for (ki, kj), live in zip(keys, alive):
+        for (ki, kj), live in zip(keys, alive, strict=False):
             if not live:
                 lits.append(None)
                 continue
@@ -606,8 +735,8 @@ def _couple_halves(
     if a_lits is None:
         a_side = side_literals(a_keys, first, alive_a)  # type: ignore[arg-type]
     else:
-        a_side = [lit if live else None for lit, live in zip(a_lits, alive_a)]
-        for lit, live in zip(a_lits, alive_a):
+        a_side = [lit if live else None for lit, live in zip(a_lits, alive_a, strict=False)]
+        for lit, live in zip(a_lits, alive_a, strict=False):
             if not live:
                 model.add(lit == 0)
     b_side = side_literals(b_keys, second, alive_b)
@@ -616,7 +745,7 @@ def _couple_halves(
     vertices = tuple(sorted(set(high + low)))
     gain_vertices = tuple(sorted(set(gain_high + gain_low)))
     for lits, m, r in ((a_side, m_a, r_a), (b_side, m_b, r_b)):
-        live = [(lit, mi, ri) for lit, mi, ri in zip(lits, m, r) if lit is not None]
+        live = [(lit, mi, ri) for lit, mi, ri in zip(lits, m, r, strict=False) if lit is not None]
         if not live:
             model.add_bool_or([])  # no choice of this half reaches a partner: infeasible
             return
@@ -627,8 +756,14 @@ def _couple_halves(
         else:
             delta_cap = [(budget - mi) * LOG_SCALE for _, mi, _ in live]
             gain_cap = [ri * LOG_SCALE for _, _, ri in live]
-        model.add(spread_delta(vertices) <= cp_model.LinearExpr.weighted_sum(literals, [int(math.ceil(c)) for c in delta_cap]))
-        model.add(spread_gain(gain_vertices) <= cp_model.LinearExpr.weighted_sum(literals, [int(math.ceil(c)) for c in gain_cap]))
+        model.add(
+            spread_delta(vertices)
+            <= cp_model.LinearExpr.weighted_sum(literals, [math.ceil(c) for c in delta_cap])
+        )
+        model.add(
+            spread_gain(gain_vertices)
+            <= cp_model.LinearExpr.weighted_sum(literals, [math.ceil(c) for c in gain_cap])
+        )
 
 
 def _merge_windows(windows: list[tuple[float, float]]) -> list[tuple[float, float]]:
@@ -681,7 +816,10 @@ def _prune(
     cg = gain_coefficients(req.gain)
     gain_room = (limits.gain_upper - limits.gain_lower - limits.open_loop_term) / 2.0
     if yield_basis:
-        checks = [(C_DELTA, options.s_delta, (limits.cmrr_budget / limits.z) ** 2), (cg, options.s_gain, (gain_room / limits.z) ** 2)]
+        checks = [
+            (C_DELTA, options.s_delta, (limits.cmrr_budget / limits.z) ** 2),
+            (cg, options.s_gain, (gain_room / limits.z) ** 2),
+        ]
     else:
         checks = [(C_DELTA, options.w_delta, limits.cmrr_budget), (cg, options.w_gain, gain_room)]
     covers = options.covers.sum(axis=1)
@@ -693,7 +831,11 @@ def _prune(
                 weights = []
                 for position in range(4):
                     cs = classes[position]
-                    ks = np.unique(np.concatenate([block.avail[position][c] for c in cs])) if cs else None
+                    ks = (
+                        np.unique(np.concatenate([block.avail[position][c] for c in cs]))
+                        if cs
+                        else None
+                    )
                     f = float(fraction[ks, v, position].min()) if ks is not None else 1.0
                     w = abs(coef[position]) * f
                     weights.append(w**2 if yield_basis else w)
@@ -702,7 +844,9 @@ def _prune(
                     candidates = [weights[j] * spread[c] for c in classes[j]]
                     covering = keep & options.covers[:, j]
                     if covering.any():
-                        candidates.append(float((option_spread[covering, v] / covers[covering]).min()))
+                        candidates.append(
+                            float((option_spread[covering, v] / covers[covering]).min())
+                        )
                     lows.append(min(candidates, default=np.inf))
                 total = sum(lows)
                 for i in range(4):
@@ -712,7 +856,9 @@ def _prune(
                         classes[i] = kept
                         changed = True
                 if keep.any():
-                    rest_of = total - options.covers.astype(float) @ np.where(np.isfinite(lows), lows, 0.0)
+                    rest_of = total - options.covers.astype(float) @ np.where(
+                        np.isfinite(lows), lows, 0.0
+                    )
                     bad = keep & (option_spread[:, v] + rest_of > budget)
                     if bad.any():
                         keep &= ~bad
@@ -723,7 +869,10 @@ def _prune(
         for v in range(env.vertices.shape[0]):
             mismatch = np.abs(options.delta[:, v]) + options.w_delta[:, v] > limits.cmrr_budget
             high = options.gain[:, v] - log_g + options.w_gain[:, v] > limits.gain_upper
-            low = options.gain[:, v] - log_g - options.w_gain[:, v] - limits.open_loop_term < limits.gain_lower
+            low = (
+                options.gain[:, v] - log_g - options.w_gain[:, v] - limits.open_loop_term
+                < limits.gain_lower
+            )
             keep &= ~(quads & (mismatch | high | low))
     return keep, classes
 
@@ -751,7 +900,9 @@ def extreme_vertices(vertices: NDArray[np.float64], gain: float) -> ExtremeVerti
     gain_score = -(1.0 - h) * vertices[:, 0] - h * vertices[:, 1] + h * vertices[:, 2] / gain
 
     def arg(score: NDArray[np.float64], best: float) -> tuple[int, ...]:
-        return tuple(int(i) for i in np.flatnonzero(np.abs(score - best) <= 1e-9 * (1.0 + abs(best))))
+        return tuple(
+            int(i) for i in np.flatnonzero(np.abs(score - best) <= 1e-9 * (1.0 + abs(best)))
+        )
 
     return ExtremeVertices(
         delta_high=arg(delta_score, float(delta_score.max())),
@@ -773,10 +924,12 @@ def _abs(model: cp_model.CpModel, expr: cp_model.LinearExpr, name: str) -> cp_mo
 QUAD_SCALE = 1e5
 
 
-def _quadratic_margin(model: cp_model.CpModel, margin: cp_model.LinearExprT, variance: cp_model.LinearExpr, name: str) -> None:
+def _quadratic_margin(
+    model: cp_model.CpModel, margin: cp_model.LinearExprT, variance: cp_model.LinearExpr, name: str
+) -> None:
     """margin ≥ 0 and margin² ≥ variance, with ``margin`` in LOG_SCALE units and ``variance``
     in QUAD_SCALE² units (the margin is carried over rounded up: optimistic)."""
-    ratio = int(round(LOG_SCALE / QUAD_SCALE))
+    ratio = round(LOG_SCALE / QUAD_SCALE)
     m = model.new_int_var(0, 10**7, f"m_{name}")
     model.add(margin >= 0)
     model.add(ratio * m >= margin)
@@ -807,7 +960,7 @@ def _cost_expression(
     expr = acc.expr(COST_SCALE)
     if prefs.line_cost <= 0.0:
         return expr
-    line_cost = int(round(prefs.line_cost * COST_SCALE))
+    line_cost = round(prefs.line_cost * COST_SCALE)
     lines: dict[int, list[int]] = {}
     for i, line in enumerate(options.line):
         lines.setdefault(int(line), []).append(i)
@@ -821,8 +974,16 @@ def _cost_expression(
     class_of = []
     used = []
     for position in range(4):
-        index_of.append(cp_model.LinearExpr.weighted_sum(list(value[position].values()), list(value[position].keys())))
-        class_of.append(cp_model.LinearExpr.weighted_sum(list(grade[position].values()), list(grade[position].keys())))
+        index_of.append(
+            cp_model.LinearExpr.weighted_sum(
+                list(value[position].values()), list(value[position].keys())
+            )
+        )
+        class_of.append(
+            cp_model.LinearExpr.weighted_sum(
+                list(grade[position].values()), list(grade[position].keys())
+            )
+        )
         used.append(sum(value[position].values()))
     repeats = []
     for i in range(1, 4):

@@ -23,16 +23,16 @@ import itertools
 from dataclasses import dataclass
 
 import numpy as np
-import pandas as pd
 from numpy.typing import NDArray
 
+from ..analysis.checks import BOLTZMANN_J_PER_K as BOLTZMANN
 from ..catalog import Catalog
-from ..design import Design, Placement, Topology
+from ..design import Topology
 from ..parts import NetworkPart
-from ..spec import CmrrBasis, Distribution, Spec, StockPolicy
-from .environment import LinearEnvironment, life_drift
+from ..spec import Distribution, Spec, StockPolicy
+from .environment import LinearEnvironment, life_drift, series_impedance
 
-__all__ = ["OptionTable", "build_options", "C_DELTA", "gain_coefficients"]
+__all__ = ["C_DELTA", "OptionTable", "build_options", "gain_coefficients"]
 
 C_DELTA = np.array([1.0, -1.0, -1.0, 1.0])
 
@@ -59,7 +59,9 @@ def log_deviation(*fractions: NDArray[np.float64] | float) -> NDArray[np.float64
     return total
 
 
-def variance(distribution: Distribution, sigma_k: float, *bounds: NDArray[np.float64] | float) -> NDArray[np.float64]:
+def variance(
+    distribution: Distribution, sigma_k: float, *bounds: NDArray[np.float64] | float
+) -> NDArray[np.float64]:
     """Σ var of independent variables bounded by ±xₖ: (xₖ/k)² for normal with bound = k·σ,
     xₖ²/3 for uniform on [−xₖ, xₖ]."""
     total: NDArray[np.float64] = np.zeros(np.broadcast(*[np.asarray(b) for b in bounds]).shape)
@@ -136,13 +138,17 @@ class _Rows:
     makers: list[tuple[tuple[int, str, int, int | None], ...]]
 
 
-def _effective_cost(cost: NDArray[np.float64], stocked: NDArray[np.bool_], spec: Spec) -> NDArray[np.float64]:
+def _effective_cost(
+    cost: NDArray[np.float64], stocked: NDArray[np.bool_], spec: Spec
+) -> NDArray[np.float64]:
     prefs = spec.preferences
     penalty = prefs.stock_penalty if prefs.stock is StockPolicy.PREFER else 0.0
     return cost + prefs.placement_cost + np.where(stocked, 0.0, penalty)
 
 
-def _network_rows(catalog: Catalog, spec: Spec, env: LinearEnvironment, rows: _Rows, lines: dict[str, int]) -> None:
+def _network_rows(
+    catalog: Catalog, spec: Spec, env: LinearEnvironment, rows: _Rows, lines: dict[str, int]
+) -> None:
     """Pair and quad options from the catalog's networks, for the allowed topologies."""
     prefs = spec.preferences
     topologies = set(prefs.topologies)
@@ -159,7 +165,9 @@ def _network_rows(catalog: Catalog, spec: Spec, env: LinearEnvironment, rows: _R
         if prefs.stock is StockPolicy.ONLY and not network.in_stock:
             continue
         values = np.array(network.values_ohm)
-        if values.min() < prefs.resistance_min_ohm * (1 - 1e-9) or values.max() > prefs.resistance_max_ohm * (1 + 1e-9):
+        if values.min() < prefs.resistance_min_ohm * (
+            1 - 1e-9
+        ) or values.max() > prefs.resistance_max_ohm * (1 + 1e-9):
             continue
         if network.elements == 2 and pair_shapes:
             shapes = sorted(pair_shapes)
@@ -169,11 +177,41 @@ def _network_rows(catalog: Catalog, spec: Spec, env: LinearEnvironment, rows: _R
             orders = list(itertools.permutations(range(4)))
         else:
             continue
-        cost = float(_effective_cost(np.array([network.unit_cost]), np.array([network.in_stock]), spec)[0])
-        own_dev = float(log_deviation(network.ratio_tolerance / 2.0, network.tracking_tempco_per_k / 2.0 * env.delta_t_k, life_drift(network.ratio_drift_1000h, env.life_h) / 2.0))
-        own_var = float(variance(dist, k, network.ratio_tolerance / 2.0, network.tracking_tempco_per_k / 2.0 * env.delta_t_k, life_drift(network.ratio_drift_1000h, env.life_h) / 2.0))
-        shared = float(log_deviation(network.abs_tolerance, network.abs_tempco_per_k * env.delta_t_k, life_drift(network.drift_1000h, env.life_h)))
-        shared_var = float(variance(dist, k, network.abs_tolerance, network.abs_tempco_per_k * env.delta_t_k, life_drift(network.drift_1000h, env.life_h)))
+        cost = float(
+            _effective_cost(np.array([network.unit_cost]), np.array([network.in_stock]), spec)[0]
+        )
+        own_dev = float(
+            log_deviation(
+                network.ratio_tolerance / 2.0,
+                network.tracking_tempco_per_k / 2.0 * env.delta_t_k,
+                life_drift(network.ratio_drift_1000h, env.life_h) / 2.0,
+            )
+        )
+        own_var = float(
+            variance(
+                dist,
+                k,
+                network.ratio_tolerance / 2.0,
+                network.tracking_tempco_per_k / 2.0 * env.delta_t_k,
+                life_drift(network.ratio_drift_1000h, env.life_h) / 2.0,
+            )
+        )
+        shared = float(
+            log_deviation(
+                network.abs_tolerance,
+                network.abs_tempco_per_k * env.delta_t_k,
+                life_drift(network.drift_1000h, env.life_h),
+            )
+        )
+        shared_var = float(
+            variance(
+                dist,
+                k,
+                network.abs_tolerance,
+                network.abs_tempco_per_k * env.delta_t_k,
+                life_drift(network.drift_1000h, env.life_h),
+            )
+        )
         line = lines.setdefault(network.part_id, len(lines))
         for shape in shapes:
             seen: set[tuple[float, ...]] = set()
@@ -200,11 +238,27 @@ def _network_rows(catalog: Catalog, spec: Spec, env: LinearEnvironment, rows: _R
                 rows.own_var.append(np.where(np.isnan(resist), 0.0, own_var))
                 rows.shared.append(shared)
                 rows.shared_var.append(shared_var)
-                rows.upper.append(np.where(np.isnan(resist), 0.0, resist * (1.0 + network.abs_tolerance + network.ratio_tolerance / 2.0)))
-                rows.makers.append(tuple((pos, network.part_id, index, el) for pos, el in zip(shape, elements)))
+                rows.upper.append(
+                    np.where(
+                        np.isnan(resist),
+                        0.0,
+                        resist * (1.0 + network.abs_tolerance + network.ratio_tolerance / 2.0),
+                    )
+                )
+                rows.makers.append(
+                    tuple(
+                        (pos, network.part_id, index, el)
+                        for pos, el in zip(shape, elements, strict=False)
+                    )
+                )
 
 
-def _rated(network: NetworkPart, values: NDArray[np.float64], positions: NDArray[np.int64], env: LinearEnvironment) -> bool:
+def _rated(
+    network: NetworkPart,
+    values: NDArray[np.float64],
+    positions: NDArray[np.int64],
+    env: LinearEnvironment,
+) -> bool:
     stress = env.stress_v[positions]
     if np.any(network.max_voltage_v < 0.97 * stress):
         return False
@@ -262,12 +316,9 @@ def _stack(
     env: LinearEnvironment,
     line_names: tuple[str, ...],
 ) -> OptionTable:
-    n = len(rows["kind"])
-    vertices = env.vertices  # (V, 3)
     resist = np.asarray(rows["resist"], dtype=float)
     covered = ~np.isnan(resist)
-    # Series impedance at each position per vertex: R1 ← Rs1, R2 ← 0, R3 ← Rs3, R4 ← Rref.
-    series = np.stack([vertices[:, 0], np.zeros(len(vertices)), vertices[:, 1], vertices[:, 2]], axis=1)  # (V, 4)
+    series = series_impedance(env)  # (V, 4)
     values = np.where(covered, resist, 1.0)[:, None, :]  # (n, 1, 4)
     effective = values + series[None, :, :]
     phi = np.where(covered[:, None, :], np.log(effective), 0.0)  # (n, V, 4)
@@ -307,9 +358,6 @@ def _stack(
     )
 
 
-BOLTZMANN = 1.380649e-23  # J/K, exact in the 2019 SI
-
-
 def lowest_gain(spec: Spec) -> float:
     """The lowest R2/R1 an accepted design can have, G·(1 − accuracy), less 2 % for the source
     impedance and rounding: noise is priced at it so that the noise bound never overstates."""
@@ -317,17 +365,20 @@ def lowest_gain(spec: Spec) -> float:
     return req.gain * (1.0 - req.gain_accuracy) * 0.98
 
 
-def _noise_terms(resist: NDArray[np.float64], covered: NDArray[np.bool_], spec: Spec, env: LinearEnvironment) -> NDArray[np.float64]:
-    """Output noise power density (V²/Hz) each option adds at the lowest gain G, position by
-    position: R1 → 4kT·R1·G², R2 → 4kT·R2 + in²·R2², R3 → 4kT·R3·G² + in²·R3²·G², R4 → 4kT·R4
-    (the balanced circuit: R1 seen through gain G, R2 directly, R3 and R4 through the divider
-    times the noise gain 1+G; R3∥R4 = R3·G/(1+G) for the current noise). A lower estimate: the
-    exact check adds the source impedances and the amplifier's voltage noise."""
+def position_noise(
+    values: NDArray[np.float64], spec: Spec, env: LinearEnvironment
+) -> NDArray[np.float64]:
+    """Output noise power density (V²/Hz) of a resistor of each value (n, 4) at each position,
+    at the lowest gain G (:func:`lowest_gain`) and the hottest temperature: R1 → 4kT·R1·G²,
+    R2 → 4kT·R2 + in²·R2², R3 → 4kT·R3·G² + in²·R3²·G², R4 → 4kT·R4 (the balanced circuit:
+    R1 seen through gain G, R2 directly, R3 and R4 through the divider times the noise gain
+    1+G; R3∥R4 = R3·G/(1+G) for the current noise). A lower estimate: the exact check adds the
+    source impedances and the amplifier's voltage noise."""
     g = lowest_gain(spec)
     four_kt = 4.0 * BOLTZMANN * env.hottest_k
     i_n = spec.amplifier.current_noise_a_rthz
-    r = np.where(covered, resist, 0.0)
-    per = np.stack(
+    r = values
+    return np.stack(
         [
             four_kt * r[:, 0] * g**2,
             four_kt * r[:, 1] + (i_n * r[:, 1]) ** 2,
@@ -336,7 +387,14 @@ def _noise_terms(resist: NDArray[np.float64], covered: NDArray[np.bool_], spec: 
         ],
         axis=1,
     )
-    return per.sum(axis=1)
+
+
+def _noise_terms(
+    resist: NDArray[np.float64], covered: NDArray[np.bool_], spec: Spec, env: LinearEnvironment
+) -> NDArray[np.float64]:
+    """Output noise power density (V²/Hz) each option adds (:func:`position_noise` summed over
+    the positions it covers)."""
+    return position_noise(np.where(covered, resist, 0.0), spec, env).sum(axis=1)
 
 
 def noise_floor(spec: Spec, env: LinearEnvironment) -> float:
@@ -346,13 +404,19 @@ def noise_floor(spec: Spec, env: LinearEnvironment) -> float:
     g = lowest_gain(spec)
     four_kt = 4.0 * BOLTZMANN * env.hottest_k
     src = spec.signal.source
-    return (spec.amplifier.voltage_noise_v_rthz * (1.0 + g)) ** 2 + four_kt * 2.0 * src.min_ohm * g**2
+    return (
+        spec.amplifier.voltage_noise_v_rthz * (1.0 + g)
+    ) ** 2 + four_kt * 2.0 * src.min_ohm * g**2
 
 
 def noise_bandwidth(spec: Spec) -> float:
     """Band (Hz) over which the output noise requirement integrates: high − low."""
     req = spec.requirements
-    high = req.noise_band_high_hz if req.noise_band_high_hz is not None else spec.signal.max_frequency_hz
+    high = (
+        req.noise_band_high_hz
+        if req.noise_band_high_hz is not None
+        else spec.signal.max_frequency_hz
+    )
     return max(high - req.noise_band_low_hz, 0.0)
 
 
@@ -361,4 +425,3 @@ def z_score(yield_target: float) -> float:
     from statistics import NormalDist
 
     return NormalDist().inv_cdf(yield_target)
-

@@ -24,9 +24,9 @@ from ..catalog import Catalog
 from ..cost import CostBreakdown, design_cost
 from ..design import Design, Placement, Topology
 from ..spec import Objective, Spec
-from .environment import LinearEnvironment, linear_environment
 from .amplifier import amplifier_limits
 from .discrete import DiscreteBlock, build_discrete
+from .environment import LinearEnvironment, linear_environment
 from .model import BuiltModel, Limits, ModelVariant, build_model, limits_for
 from .options import ALL_SHAPES, OptionTable, build_options
 
@@ -34,7 +34,9 @@ __all__ = ["Candidate", "PickResult", "SearchStatus", "pick", "solver_parameters
 
 DEFAULT_TIME_LIMIT_S = 30.0
 MAX_CUTS = 400
-NETWORK_TOPOLOGIES = frozenset({Topology.QUAD, Topology.EQUAL_PAIRS, Topology.DIVIDER_PAIRS, Topology.PAIR_PLUS_DISCRETE})
+NETWORK_TOPOLOGIES = frozenset(
+    {Topology.QUAD, Topology.EQUAL_PAIRS, Topology.DIVIDER_PAIRS, Topology.PAIR_PLUS_DISCRETE}
+)
 
 
 class SearchStatus(str, Enum):
@@ -125,9 +127,13 @@ class Problem:
 
     @property
     def size(self) -> int:
-        return len(self.options) + sum(len(self.block.value_indices(i)) + len(self.block.usable(i)) for i in range(4))
+        return len(self.options) + sum(
+            len(self.block.value_indices(i)) + len(self.block.usable(i)) for i in range(4)
+        )
 
-    def read(self, solver: cp_model.CpSolver, built: BuiltModel) -> tuple[list[cp_model.IntVar], Design]:
+    def read(
+        self, solver: cp_model.CpSolver, built: BuiltModel
+    ) -> tuple[list[cp_model.IntVar], Design]:
         """The chosen decision literals and the design they make."""
         chosen = [lit for lit in built.literals() if solver.boolean_value(lit)]
         slots: dict[int, Placement] = {}
@@ -155,7 +161,13 @@ class _Stream:
     """Verified designs of one topology, best first, one solve at a time: each solve is cut by
     the designs already seen, so each new optimum is the next best."""
 
-    def __init__(self, problem: Problem, topologies: frozenset[Topology], objective: Objective, pair_shape: int | None = None) -> None:
+    def __init__(
+        self,
+        problem: Problem,
+        topologies: frozenset[Topology],
+        objective: Objective,
+        pair_shape: int | None = None,
+    ) -> None:
         self.problem = problem
         self.topologies = topologies
         self.objective = objective
@@ -171,11 +183,17 @@ class _Stream:
     def _model(self, clock: _Clock) -> BuiltModel:
         if self._built is None:
             started = time.perf_counter()
-            self._built = self.problem.build(ModelVariant(objective=self.objective, topologies=self.topologies, pair_shape=self.pair_shape))
+            self._built = self.problem.build(
+                ModelVariant(
+                    objective=self.objective, topologies=self.topologies, pair_shape=self.pair_shape
+                )
+            )
             clock.build += time.perf_counter() - started
         return self._built
 
-    def next(self, verifier: Verifier, clock: _Clock, workers: int) -> tuple[float, Candidate] | None:
+    def next(
+        self, verifier: Verifier, clock: _Clock, workers: int
+    ) -> tuple[float, Candidate] | None:
         """The next verified design with its ranking key (lower is better), or None."""
         spec = self.problem.spec
         while not self.exhausted:
@@ -224,7 +242,14 @@ class _Stream:
 def prepare(spec: Spec, catalog: Catalog) -> Problem:
     """The environment, options, discrete block and limits of the linear model."""
     env = linear_environment(spec)
-    return Problem(spec, catalog, env, build_options(catalog, spec, env), build_discrete(catalog, spec, env), limits_for(spec, env))
+    return Problem(
+        spec,
+        catalog,
+        env,
+        build_options(catalog, spec, env),
+        build_discrete(catalog, spec, env),
+        limits_for(spec, env),
+    )
 
 
 def pick(
@@ -243,14 +268,17 @@ def pick(
     ``ranked`` with status INFEASIBLE lets the caller run the diagnosis."""
     wanted = top if top is not None else spec.preferences.alternatives
     started = time.perf_counter()
-    clock = _Clock(deadline=started + (time_limit_s if time_limit_s is not None else DEFAULT_TIME_LIMIT_S))
+    clock = _Clock(
+        deadline=started + (time_limit_s if time_limit_s is not None else DEFAULT_TIME_LIMIT_S)
+    )
     problem = prepare(spec, catalog)
     clock.build += time.perf_counter() - started
-    objective = spec.preferences.objective
     streams = _streams(problem, spec)
     if problem.size == 0 or problem.limits.cmrr_budget <= 0.0 or amplifier_limits(spec):
         streams = []  # nothing can pass: leave the reasons to the diagnosis
-    heads: list[tuple[float, Candidate] | None] = [s.next(verifier, clock, workers) for s in streams]
+    heads: list[tuple[float, Candidate] | None] = [
+        s.next(verifier, clock, workers) for s in streams
+    ]
     found: list[Candidate] = []
     while len(found) < wanted:
         live = [(head[0], i) for i, head in enumerate(heads) if head is not None]
@@ -268,7 +296,11 @@ def pick(
         proven = not timed_out and all(s.optimal for s in streams)
         status = SearchStatus.OPTIMAL if proven else SearchStatus.TIME_LIMIT
     else:
-        status = SearchStatus.TIME_LIMIT if timed_out or len(rejected) >= MAX_CUTS else SearchStatus.INFEASIBLE
+        status = (
+            SearchStatus.TIME_LIMIT
+            if timed_out or len(rejected) >= MAX_CUTS
+            else SearchStatus.INFEASIBLE
+        )
     gaps = [s.gap for s in streams if s.gap is not None]
     return PickResult(
         ranked=tuple(found),
@@ -294,7 +326,10 @@ def _streams(problem: Problem, spec: Spec) -> list[_Stream]:
         if topology not in spec.preferences.topologies:
             continue
         if topology is Topology.PAIR_PLUS_DISCRETE:
-            streams.extend(_Stream(problem, frozenset({topology}), objective, shape) for shape in range(len(ALL_SHAPES)))
+            streams.extend(
+                _Stream(problem, frozenset({topology}), objective, shape)
+                for shape in range(len(ALL_SHAPES))
+            )
         else:
             streams.append(_Stream(problem, frozenset({topology}), objective))
     return streams
@@ -315,7 +350,7 @@ def _best_of_each_kind(
             continue
         pool = [
             head
-            for stream, head in zip(streams, heads)
+            for stream, head in zip(streams, heads, strict=False)
             if head is not None and (Topology.DISCRETE in stream.topologies) == want_discrete
         ]
         if pool:
