@@ -152,12 +152,12 @@ def build_discrete(catalog: Catalog, spec: Spec, env: LinearEnvironment) -> Disc
         avail.append(
             tuple(_drop_dominated(usable, cost, spread, power, volts, stocked, values, stress))
         )
-    dist, k = prefs.distribution, prefs.sigma_k
+    dist, sigma_k = prefs.distribution, prefs.sigma_k
     return DiscreteBlock(
         values=values,
         cost=cost,
         own=log_deviation(t, tc, d),
-        var=variance(dist, k, t, tc, d),
+        var=variance(dist, sigma_k, t, tc, d),
         tolerance=t,
         swing=t + tc,
         avail=tuple(avail),

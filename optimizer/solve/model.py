@@ -221,7 +221,7 @@ def build_model(
 
     value: list[dict[int, cp_model.IntVar]] = []
     grade: list[dict[int, cp_model.IntVar]] = []
-    placed: list[cp_model.LinearExpr] = []  # 1 when position i holds a discrete part
+    placed: list[cp_model.LinearExprT] = []  # 1 when position i holds a discrete part
     for position in range(4):
         cs = classes[position]
         ks = (
@@ -422,8 +422,8 @@ def build_model(
             acc = _Sum()
             acc.add(x, options.ohms[:, a] + options.ohms[:, b])
             for position in (a, b):
-                ks = list(value[position])
-                acc.add([value[position][k] for k in ks], block.values[ks] * (1.0 + t_max))
+                keys = list(value[position])
+                acc.add([value[position][k] for k in keys], block.values[keys] * (1.0 + t_max))
             model.add(
                 acc.expr(OHM_SCALE, "ceil")
                 >= math.floor(z_min * factor * (1.0 - SLACK) * OHM_SCALE)
@@ -607,7 +607,7 @@ def _couple_halves(
         )
 
     def spread_of(contributions: NDArray[np.float64]) -> NDArray[np.float64]:
-        return contributions.max(axis=1) - contributions.min(axis=1)
+        return np.asarray(contributions.max(axis=1) - contributions.min(axis=1), dtype=float)
 
     def b_keep(
         a_delta: NDArray[np.float64],
@@ -788,7 +788,7 @@ def _usable_options(options: OptionTable, allowed: set[Topology]) -> NDArray[np.
         shapes.update(range(len(ALL_SHAPES)))
     pair_ok = (options.kind == 2) & np.isin(options.shape, sorted(shapes))
     quad_ok = (options.kind == 4) & (Topology.QUAD in allowed)
-    return pair_ok | quad_ok
+    return np.asarray(pair_ok | quad_ok, dtype=bool)
 
 
 def _prune(
