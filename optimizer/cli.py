@@ -10,12 +10,17 @@ from __future__ import annotations
 import argparse
 import sys
 from collections.abc import Callable, Sequence
+from typing import TYPE_CHECKING
 
 from rich.console import Console
 from rich.markup import escape
 
 from ._version import __version__
 from .errors import QuartetError
+
+if TYPE_CHECKING:
+    from .catalog import Catalog
+    from .spec import Spec
 
 EXIT_OK = 0
 EXIT_NOT_MET = 1
@@ -47,6 +52,7 @@ def build_parser() -> argparse.ArgumentParser:
     _add_catalog_commands(commands)
     _add_spec_commands(commands)
     _add_check_command(commands)
+    _add_pick_command(commands)
     return parser
 
 
@@ -164,11 +170,22 @@ def _add_check_command(commands: argparse._SubParsersAction[_Parser]) -> None:
     check.set_defaults(handler=_check)
 
 
-def _check(args: argparse.Namespace, console: Console) -> int:
-    import dataclasses
+def _spec_catalogs(spec: Spec, extra: Sequence[str]) -> Catalog:
+    """The spec's catalogs, then ``extra`` files (a file named twice is read once), plus the
+    built-in catalogs unless the spec says ``builtin_catalogs: false``."""
     import os
 
     from .catalog import load_catalogs
+
+    paths: dict[str, str] = {}
+    for path in (*spec.preferences.catalogs, *extra):
+        paths.setdefault(os.path.realpath(path), path)
+    return load_catalogs(list(paths.values()), spec.preferences.use_builtin_catalogs)
+
+
+def _check(args: argparse.Namespace, console: Console) -> int:
+    import dataclasses
+
     from .report.check import check_json_text, check_to_json, render_check
     from .specfile import load_spec
     from .userdesign import build_user_design
@@ -181,10 +198,7 @@ def _check(args: argparse.Namespace, console: Console) -> int:
         )
     catalog = None
     if args.parts is not None or args.network:
-        paths: dict[str, str] = {}
-        for path in (*spec.preferences.catalogs, *args.catalog):
-            paths.setdefault(os.path.realpath(path), path)
-        catalog = load_catalogs(list(paths.values()), spec.preferences.use_builtin_catalogs)
+        catalog = _spec_catalogs(spec, args.catalog)
     user = build_user_design(
         values=(args.r1, args.r2, args.r3, args.r4),
         parts=args.parts,
@@ -204,6 +218,108 @@ def _check(args: argparse.Namespace, console: Console) -> int:
     else:
         console.print(render_check(user.design, spec, result, **extra))
     return EXIT_OK if result.passed else EXIT_NOT_MET
+
+
+# ---------------------------------------------------------------------------------------------
+# pick: the cheapest designs that meet the spec
+# ---------------------------------------------------------------------------------------------
+
+#: Default time limit of ``quartet pick`` in seconds.
+PICK_TIME_LIMIT_S = 60.0
+#: The diagnosis of an infeasible spec runs several searches, each limited to this (seconds).
+DIAGNOSIS_TIME_LIMIT_S = 20.0
+
+
+def _seconds(text: str) -> float:
+    import math
+
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a number of seconds, got {text!r}") from None
+    if not math.isfinite(value) or value <= 0.0:
+        raise argparse.ArgumentTypeError(f"expected a number of seconds above zero, got {text!r}")
+    return value
+
+
+def _add_pick_command(commands: argparse._SubParsersAction[_Parser]) -> None:
+    from .spec import Objective
+
+    pick = commands.add_parser(
+        "pick",
+        help="find the cheapest resistor sets that meet a spec",
+        description="Search the catalogs for the best designs that meet a spec, verify each "
+        "exactly and show them ranked, then the full check of the best. Exit 0 when the "
+        "ranking is proven optimal, 1 when nothing meets the spec (with a diagnosis), 2 on "
+        "bad input, 3 when the time limit ended the search first.",
+    )
+    pick.add_argument("spec", metavar="SPEC", help="spec file (YAML)")
+    pick.add_argument(
+        "--catalog", action="append", default=[], metavar="PATH",
+        help="extra catalog file (repeatable); the spec's catalogs are always read",
+    )  # fmt: skip
+    pick.add_argument(
+        "--top", type=_whole_number(1), metavar="N",
+        help="how many designs to rank (default: the spec's alternatives)",
+    )  # fmt: skip
+    pick.add_argument(
+        "--stock-only", action="store_true", help="use only parts in house stock"
+    )
+    pick.add_argument(
+        "--objective", choices=[o.value for o in Objective],
+        help="what to rank by (default: the spec's objective)",
+    )  # fmt: skip
+    pick.add_argument(
+        "--time-limit", type=_seconds, default=PICK_TIME_LIMIT_S, metavar="S",
+        help=f"seconds for the search (default {PICK_TIME_LIMIT_S:g})",
+    )  # fmt: skip
+    pick.add_argument("--json", action="store_true", help="write the result as JSON")
+    pick.set_defaults(handler=_pick)
+
+
+def _pick(args: argparse.Namespace, console: Console) -> int:
+    import dataclasses
+
+    from .analysis.checks import safety_cautions
+    from .report.pick import build_pick_report, pick_json_text, pick_to_json, render_pick
+    from .solve.diagnose import diagnose
+    from .solve.search import SearchStatus, pick, with_objective
+    from .spec import Objective, StockPolicy
+    from .specfile import load_spec
+    from .verify import verify
+
+    spec = load_spec(args.spec)
+    if args.stock_only:
+        spec = dataclasses.replace(
+            spec, preferences=dataclasses.replace(spec.preferences, stock=StockPolicy.ONLY)
+        )
+    if args.objective is not None:
+        spec = with_objective(spec, Objective(args.objective))
+    catalog = _spec_catalogs(spec, args.catalog)
+    top = args.top if args.top is not None else spec.preferences.alternatives
+    result = pick(spec, catalog, verify, top=top, time_limit_s=args.time_limit)
+    diagnosis = None
+    if result.status is SearchStatus.INFEASIBLE:
+        limit = min(DIAGNOSIS_TIME_LIMIT_S, args.time_limit)
+        diagnosis = diagnose(spec, catalog, verify, time_limit_s=limit)
+    report = build_pick_report(
+        spec,
+        result,
+        designs_asked=top,
+        time_limit_s=args.time_limit,
+        cautions=safety_cautions(spec),
+        diagnosis=diagnosis,
+    )
+    if args.json:
+        text = pick_json_text(pick_to_json(report))
+        console.print(text, markup=False, highlight=False, emoji=False, soft_wrap=True)
+    else:
+        console.print(render_pick(report))
+    if result.status is SearchStatus.OPTIMAL:
+        return EXIT_OK
+    if result.status is SearchStatus.INFEASIBLE:
+        return EXIT_NOT_MET
+    return EXIT_TIME_LIMIT
 
 
 # ---------------------------------------------------------------------------------------------
