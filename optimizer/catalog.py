@@ -1593,6 +1593,11 @@ def _load_yaml(path: str) -> tuple[pd.DataFrame, IntArray, tuple[NetworkPart, ..
         raise CatalogError(
             f"not valid YAML: {exc.problem or exc.context}", path=path, row=line
         ) from None
+    except yaml.reader.ReaderError as exc:  # a control character (found by tests/test_fuzz.py)
+        line = text[: exc.position].count("\n") + 1
+        raise CatalogError(
+            f"not valid YAML: character #x{exc.character:04x} is not allowed", path=path, row=line
+        ) from None
     expected = "a mapping with a discrete: list and/or a networks: list"
     if root is None:
         raise CatalogError(f"the file is empty: expected {expected}", path=path)

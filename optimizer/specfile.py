@@ -245,6 +245,10 @@ class _Reader:
         except yaml.YAMLError as exc:
             problem = getattr(exc, "problem", None) or str(exc)
             self.fail(key, _line(node), f"cannot read this value: {problem}")
+        except Exception as exc:  # PyYAML's constructors fail in many ways on
+            # an explicit tag the text does not fit: ``!!int 9e9`` (ValueError), ``!!bool 1``
+            # (KeyError), ``!!timestamp 1`` (AttributeError) (found by tests/test_fuzz.py)
+            self.fail(key, _line(node), f"cannot read this value as {node.tag}: {exc}")
 
     def scalar(self, node: Node, key: str, expected: str) -> object:
         if not isinstance(node, ScalarNode):
@@ -287,13 +291,17 @@ class _Reader:
             value = self.scalar(node, key, expected)
             if isinstance(value, bool) or not isinstance(value, (int, float)):
                 self.fail(key, _line(node), f"expected {expected}, got {node.value!r}")
-            if not math.isfinite(value):
+            try:
+                number = float(value)
+            except OverflowError:  # an int beyond the float range (found by tests/test_fuzz.py)
+                number = math.inf
+            if not math.isfinite(number):
                 self.fail(
                     key,
                     _line(node),
                     f"expected {expected}, got {node.value!r} (not a finite number)",
                 )
-            return float(value)
+            return number
 
         return read
 
@@ -302,6 +310,9 @@ class _Reader:
             value = self.scalar(node, key, expected)
             if isinstance(value, bool) or not isinstance(value, int):
                 self.fail(key, _line(node), f"expected {expected}, got {node.value!r}")
+            if abs(value) >= 2**63:  # may be too long to print (found by tests/test_fuzz.py)
+                too_large = f"expected {expected}, got a number too large (2^63 or more)"
+                self.fail(key, _line(node), too_large)
             return value
 
         return read

@@ -142,7 +142,15 @@ def _from_number(token: object, expected: str) -> float | None:
     if isinstance(token, bool):
         raise UnitError(token, expected, "a yes/no value is not a number")
     if isinstance(token, (int, float)):
-        return _finite(token, float(token), expected)
+        try:
+            value = float(token)
+        except OverflowError:  # an int beyond the float range (found by tests/test_fuzz.py);
+            # described by its size: Python refuses to print an int of over 4300 digits.
+            assert isinstance(token, int)
+            digits = int(abs(token).bit_length() * math.log10(2)) + 1
+            shown = token if digits < 4000 else f"<an integer of about {digits} digits>"
+            raise UnitError(shown, expected, "not a finite number") from None
+        return _finite(token, value, expected)
     if not isinstance(token, str):
         raise UnitError(token, expected, f"a {type(token).__name__} is not a number")
     return None
