@@ -197,6 +197,9 @@ class _Stream:
         """The next verified design with its ranking key (lower is better), or None."""
         spec = self.problem.spec
         while not self.exhausted:
+            if clock.remaining() <= 0.0:
+                self.timed_out, self.optimal, self.exhausted = True, False, True
+                return None
             built = self._model(clock)
             remaining = clock.remaining()
             if remaining <= 0.0:
