@@ -20,7 +20,10 @@ from .errors import QuartetError
 
 if TYPE_CHECKING:
     from .catalog import Catalog
+    from .design import Design
+    from .report.pick import PickReport
     from .spec import Spec
+    from .verify import Verification
 
 EXIT_OK = 0
 EXIT_NOT_MET = 1
@@ -53,6 +56,7 @@ def build_parser() -> argparse.ArgumentParser:
     _add_spec_commands(commands)
     _add_check_command(commands)
     _add_pick_command(commands)
+    _add_sweep_command(commands)
     return parser
 
 
@@ -167,6 +171,7 @@ def _add_check_command(commands: argparse._SubParsersAction[_Parser]) -> None:
     check.add_argument("--samples", type=_whole_number(1), metavar="N", help="Monte-Carlo builds")
     check.add_argument("--seed", type=_whole_number(0), metavar="S", help="Monte-Carlo seed")
     check.add_argument("--json", action="store_true", help="write the result as JSON")
+    _add_export_options(check, "the checked design")
     check.set_defaults(handler=_check)
 
 
@@ -191,6 +196,7 @@ def _check(args: argparse.Namespace, console: Console) -> int:
     from .userdesign import build_user_design
     from .verify import verify
 
+    _refuse_existing_outputs(args)
     spec = load_spec(args.spec)
     if args.seed is not None:
         spec = dataclasses.replace(
@@ -212,11 +218,13 @@ def _check(args: argparse.Namespace, console: Console) -> int:
     )
     result = verify(user.design, spec, statistics=True, samples=args.samples)
     extra = {"origins": user.origins, "assumptions": user.assumptions}
+    json_text = check_json_text(check_to_json(user.design, spec, result, **extra))
     if args.json:
-        text = check_json_text(check_to_json(user.design, spec, result, **extra))
-        console.print(text, markup=False, highlight=False, emoji=False, soft_wrap=True)
+        console.print(json_text, markup=False, highlight=False, emoji=False, soft_wrap=True)
     else:
         console.print(render_check(user.design, spec, result, **extra))
+    _write_exports(args, console, spec, user.design, result, json_text, pick_report=None)
+    _verify_spice(args, console, spec, user.design)
     return EXIT_OK if result.passed else EXIT_NOT_MET
 
 
@@ -274,6 +282,7 @@ def _add_pick_command(commands: argparse._SubParsersAction[_Parser]) -> None:
         help=f"seconds for the search (default {PICK_TIME_LIMIT_S:g})",
     )  # fmt: skip
     pick.add_argument("--json", action="store_true", help="write the result as JSON")
+    _add_export_options(pick, "the best design (rank 1)")
     pick.set_defaults(handler=_pick)
 
 
@@ -288,6 +297,7 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
     from .specfile import load_spec
     from .verify import verify
 
+    _refuse_existing_outputs(args)
     spec = load_spec(args.spec)
     if args.stock_only:
         spec = dataclasses.replace(
@@ -310,16 +320,228 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
         cautions=safety_cautions(spec),
         diagnosis=diagnosis,
     )
+    json_text = pick_json_text(pick_to_json(report))
     if args.json:
-        text = pick_json_text(pick_to_json(report))
-        console.print(text, markup=False, highlight=False, emoji=False, soft_wrap=True)
+        console.print(json_text, markup=False, highlight=False, emoji=False, soft_wrap=True)
     else:
         console.print(render_pick(report))
+    winner = report.winner
+    if winner is not None:
+        _write_exports(
+            args, console, spec, winner.design, winner.verification, json_text, pick_report=report
+        )
+        _verify_spice(args, console, spec, winner.design)
+    elif args.json_out is not None:
+        _write_file(args, console, args.json_out, json_text + "\n")
+    if winner is None and (args.bom or args.netlist or args.report or args.verify_spice):
+        console.print(
+            "[yellow]warning[/yellow]: no design was found, so no BOM, netlist or report was "
+            "written and nothing was simulated",
+            highlight=False,
+        )
     if result.status is SearchStatus.OPTIMAL:
         return EXIT_OK
     if result.status is SearchStatus.INFEASIBLE:
         return EXIT_NOT_MET
     return EXIT_TIME_LIMIT
+
+
+# ---------------------------------------------------------------------------------------------
+# exports and the simulator cross-check (pick and check)
+# ---------------------------------------------------------------------------------------------
+
+
+def _add_export_options(parser: argparse.ArgumentParser, what: str) -> None:
+    parser.add_argument("--bom", metavar="FILE.csv", help=f"write the bill of materials of {what}")
+    parser.add_argument(
+        "--json-out", metavar="FILE", help="write the JSON document (as --json prints) to a file"
+    )
+    parser.add_argument(
+        "--netlist", metavar="FILE.cir", help=f"write a SPICE netlist of {what} (ngspice -b runs)"
+    )
+    parser.add_argument(
+        "--report", metavar="FILE.md|FILE.html",
+        help="write a report (Markdown or HTML by the extension) with the CMRR histogram",
+    )  # fmt: skip
+    parser.add_argument("--force", action="store_true", help="replace output files that exist")
+    parser.add_argument(
+        "--verify-spice", action="store_true",
+        help=f"simulate {what} with ngspice and compare its gains with the analysis",
+    )  # fmt: skip
+
+
+def _export_paths(args: argparse.Namespace) -> list[str]:
+    return [p for p in (args.bom, args.json_out, args.netlist, args.report) if p is not None]
+
+
+def _refuse_existing_outputs(args: argparse.Namespace) -> None:
+    """Fail before any work when an output file exists without --force, or a report has an
+    extension other than .md or .html."""
+    import os
+
+    from .report.exports import report_format
+    from .safewrite import OutputError
+
+    if args.report is not None and report_format(args.report) is None:
+        raise OutputError(f"{args.report}: a report file must end in .md or .html")
+    if args.force:
+        return
+    for path in _export_paths(args):
+        if os.path.exists(path):
+            raise OutputError(f"{path}: already exists; give --force to replace it")
+
+
+def _write_file(args: argparse.Namespace, console: Console, path: str, text: str) -> None:
+    from .safewrite import write_text
+
+    written = write_text(path, text, force=args.force)
+    console.print(f"wrote {escape(str(written))}", highlight=False)
+
+
+def _write_exports(
+    args: argparse.Namespace,
+    console: Console,
+    spec: Spec,
+    design: Design,
+    verification: Verification,
+    json_text: str,
+    *,
+    pick_report: PickReport | None,
+) -> None:
+    """Write the files asked for (all through safewrite; --force replaces existing ones)."""
+    if args.bom is not None:
+        from .report.exports import bom_csv_text
+
+        _write_file(args, console, args.bom, bom_csv_text(design))
+    if args.json_out is not None:
+        _write_file(args, console, args.json_out, json_text + "\n")
+    if args.netlist is not None:
+        from .analysis.checks import safety_cautions
+        from .netlist import design_netlist
+
+        netlist = design_netlist(design, spec, cautions=safety_cautions(spec))
+        _write_file(args, console, args.netlist, netlist)
+    if args.report is not None:
+        from .report.exports import check_blocks, pick_blocks, render_report, report_format
+
+        fmt = report_format(args.report)
+        assert fmt is not None  # checked by _refuse_existing_outputs
+        title = f"Quartet {'pick' if pick_report else 'check'}: {spec.title or spec.source_path}"
+        blocks = []
+        if pick_report is not None:
+            rows = [
+                (s.rank or 0, s.design, s.cost.total, s.verification) for s in pick_report.ranked
+            ]
+            blocks += pick_blocks(rows, spec, pick_report.result.status.value.replace("_", " "))
+        blocks += check_blocks(design, spec, verification)
+        _write_file(args, console, args.report, render_report(title, blocks, fmt))
+
+
+def _verify_spice(args: argparse.Namespace, console: Console, spec: Spec, design: Design) -> None:
+    """--verify-spice: the simulated gains beside the analysis, or a warning line when
+    ngspice is missing (the exit code is not changed)."""
+    if not args.verify_spice:
+        return
+    from .errors import SimulatorError
+    from .spice import ngspice_available
+
+    out = Console(stderr=True) if args.json else console
+    if not ngspice_available():
+        out.print(
+            "[yellow]warning[/yellow]: --verify-spice: ngspice was not found on PATH (Debian "
+            "package 'ngspice'); the simulator cross-check was skipped",
+            highlight=False,
+        )
+        return
+    from .report.simcheck import render_gain_comparison
+    from .spicecheck import simulate_gains
+
+    try:
+        comparison = simulate_gains(design, spec)
+    except SimulatorError as exc:
+        out.print(f"[yellow]warning[/yellow]: --verify-spice: {escape(str(exc))}")
+        return
+    out.print(render_gain_comparison(comparison))
+
+
+# ---------------------------------------------------------------------------------------------
+# sweep: cheapest cost against the CMRR floor
+# ---------------------------------------------------------------------------------------------
+
+#: Default time limit of each search of ``quartet sweep`` in seconds.
+SWEEP_TIME_LIMIT_S = 10.0
+
+
+def _add_sweep_command(commands: argparse._SubParsersAction[_Parser]) -> None:
+    sweep = commands.add_parser(
+        "sweep",
+        help="cheapest cost against the CMRR floor, discrete and network builds apart",
+        description="Find the cheapest four-discrete design and the cheapest network design "
+        "at each CMRR floor of a range (two searches per floor). Exit 0 when done, 2 on bad "
+        "input.",
+    )
+    sweep.add_argument("spec", metavar="SPEC", help="spec file (YAML)")
+    sweep.add_argument(
+        "--cmrr", required=True, metavar="START:STOP:STEP", help="CMRR floors in dB, e.g. 40:100:2"
+    )
+    sweep.add_argument(
+        "--catalog", action="append", default=[], metavar="PATH",
+        help="extra catalog file (repeatable); the spec's catalogs are always read",
+    )  # fmt: skip
+    sweep.add_argument(
+        "--time-limit", type=_seconds, default=SWEEP_TIME_LIMIT_S, metavar="S",
+        help=f"seconds for each search (default {SWEEP_TIME_LIMIT_S:g})",
+    )  # fmt: skip
+    sweep.add_argument("--plot", metavar="FILE.png|FILE.svg", help="write the cost curves")
+    sweep.add_argument("--force", action="store_true", help="replace a plot file that exists")
+    sweep.set_defaults(handler=_sweep)
+
+
+def _sweep(args: argparse.Namespace, console: Console) -> int:
+    import os
+
+    from rich.progress import Progress
+
+    from .report.sweep import render_sweep_table, sweep_plot, sweep_text_chart
+    from .safewrite import OutputError, write_bytes
+    from .specfile import load_spec
+    from .sweep import parse_range, sweep_cmrr
+
+    fmt = None
+    if args.plot is not None:
+        lower = args.plot.lower()
+        fmt = "png" if lower.endswith(".png") else "svg" if lower.endswith(".svg") else None
+        if fmt is None:
+            raise OutputError(f"{args.plot}: a plot file must end in .png or .svg")
+        if os.path.exists(args.plot) and not args.force:
+            raise OutputError(f"{args.plot}: already exists; give --force to replace it")
+    floors = parse_range(args.cmrr)
+    spec = load_spec(args.spec)
+    catalog = _spec_catalogs(spec, args.catalog)
+    with Progress(console=console, transient=True) as progress:
+        task = progress.add_task("sweeping the CMRR floor", total=len(floors))
+
+        def advance(done: int, floor: float) -> None:
+            progress.update(task, completed=done, description=f"CMRR floor {floor:g} dB done")
+
+        result = sweep_cmrr(spec, catalog, floors, time_limit_s=args.time_limit, progress=advance)
+    title = f"Cheapest design against the CMRR floor: {spec.title or args.spec}"
+    console.print(render_sweep_table(result, title))
+    image = None
+    if fmt is not None:
+        image = sweep_plot(result, "png" if fmt == "png" else "svg", title)
+        if image is not None:
+            written = write_bytes(args.plot, image, force=args.force)
+            console.print(f"wrote {escape(str(written))}", highlight=False)
+    if image is None:
+        if fmt is not None:
+            console.print(
+                "[yellow]warning[/yellow]: matplotlib is not installed (pip install "
+                "'quartet[plot]'); no plot written, the text chart follows",
+                highlight=False,
+            )
+        console.print(sweep_text_chart(result), markup=False, highlight=False)
+    return EXIT_OK
 
 
 # ---------------------------------------------------------------------------------------------
