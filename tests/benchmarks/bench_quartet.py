@@ -355,7 +355,11 @@ def scale_child(path: str, runs: int) -> dict[str, Any]:
     from optimizer.verify import verify
 
     spec = with_catalog(workload_spec(), [path], builtin=False)
-    reads, picks, cp_sat, builds, verifies = [], [], [], [], []
+    reads: list[float] = []
+    picks: list[float] = []
+    cp_sat: list[float] = []
+    builds: list[float] = []
+    verifies: list[float] = []
     for _ in range(runs):
         read_s, catalog = timed(load_catalogs, [path], include_builtin=False)
         reads.append(read_s)
@@ -465,7 +469,7 @@ def machine() -> dict[str, Any]:
         "python": platform.python_version(),
         "numpy": np.__version__,
         "pandas": pd.__version__,
-        "ortools": ortools.__version__,
+        "ortools": str(getattr(ortools, "__version__", "unknown")),
     }
 
 
