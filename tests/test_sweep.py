@@ -1,0 +1,134 @@
+"""``quartet sweep``: the cheapest design against the CMRR floor.
+
+Source of the checks: a looser floor admits every design a tighter floor admits (the feasible
+set of the tighter requirement is a subset), so the proven-cheapest cost can never rise as the
+floor falls, and once a kind is proven infeasible it stays infeasible at every higher floor
+(set inclusion; common practice). Plot files are checked against the PNG signature (PNG
+specification, ISO/IEC 15948, section 5.2) and the SVG root element (W3C SVG 1.1, the ``svg``
+element in the ``http://www.w3.org/2000/svg`` namespace).
+"""
+
+from __future__ import annotations
+
+import io
+import itertools
+import xml.etree.ElementTree as ET
+from pathlib import Path
+
+import pytest
+from rich.console import Console
+
+from optimizer.cli import _spec_catalogs, main
+from optimizer.errors import SpecError
+from optimizer.report.sweep import last_feasible, sweep_plot, sweep_text_chart
+from optimizer.solve.search import SearchStatus
+from optimizer.specfile import load_spec
+from optimizer.sweep import SweepResult, parse_range, sweep_cmrr
+
+EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
+INDUSTRIAL = str(EXAMPLES / "industrial_input.yaml")
+PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
+
+
+def _run(argv: list[str]) -> tuple[int, str, str]:
+    out = Console(file=io.StringIO(), width=200, color_system=None)
+    err = Console(file=io.StringIO(), width=200, color_system=None)
+    code = main(argv, console=out, err=err)
+    text = out.file.getvalue(), err.file.getvalue()  # type: ignore[attr-defined]
+    assert "Traceback" not in text[0] + text[1]
+    return code, text[0], text[1]
+
+
+@pytest.fixture(scope="module")
+def industrial_sweep() -> SweepResult:
+    spec = load_spec(INDUSTRIAL)
+    catalog = _spec_catalogs(spec, [])
+    seen: list[float] = []
+    result = sweep_cmrr(
+        spec,
+        catalog,
+        parse_range("50:60:5"),
+        time_limit_s=10.0,
+        progress=lambda done, floor: seen.append(floor),
+    )
+    assert seen == [50.0, 55.0, 60.0]
+    return result
+
+
+@pytest.mark.parametrize(
+    ("text", "expected"),
+    [("40:50:5", (40.0, 45.0, 50.0)), ("40:49:5", (40.0, 45.0)), ("60", (60.0,)),
+     ("0.5:1.5:0.5", (0.5, 1.0, 1.5))],
+)  # fmt: skip
+def test_parse_range(text: str, expected: tuple[float, ...]) -> None:
+    assert parse_range(text) == expected
+
+
+@pytest.mark.parametrize("text", ["40:30:2", "40:50:0", "a:b:c", "40:50", "40:50:-1", "nan:1:1"])
+def test_parse_range_rejects(text: str) -> None:
+    with pytest.raises(SpecError, match="--cmrr"):
+        parse_range(text)
+
+
+def test_cost_never_rises_as_the_floor_falls(industrial_sweep: SweepResult) -> None:
+    for kind in ("discrete", "network"):
+        series = [getattr(p, kind) for p in industrial_sweep.points]
+        proven = [(p.floor_db, s.cost) for p, s in zip(industrial_sweep.points, series,
+                  strict=True) if s.status is SearchStatus.OPTIMAL]  # fmt: skip
+        for (_, low_cost), (_, high_cost) in itertools.pairwise(proven):
+            assert low_cost is not None and high_cost is not None
+            assert low_cost <= high_cost + 1e-12
+        infeasible = [i for i, s in enumerate(series) if s.status is SearchStatus.INFEASIBLE]
+        if infeasible:
+            assert all(s.cost is None for s in series[infeasible[0] :])
+    # This example: both kinds feasible at 50 dB, nothing at 60 dB; the network is cheaper.
+    first, last = industrial_sweep.points[0], industrial_sweep.points[-1]
+    assert first.discrete.cost is not None and first.network.cost is not None
+    assert first.cheaper == "network"
+    assert last.discrete.cost is None and last.network.cost is None
+    assert last_feasible(industrial_sweep, "discrete") == 0
+    assert last_feasible(industrial_sweep, "network") == 1
+
+
+def test_text_chart(industrial_sweep: SweepResult) -> None:
+    chart = sweep_text_chart(industrial_sweep)
+    assert "d" in chart and "n" in chart and "CMRR floor 50 dB ... 60 dB" in chart
+
+
+def test_plots(industrial_sweep: SweepResult) -> None:
+    pytest.importorskip("matplotlib")
+    png = sweep_plot(industrial_sweep, "png", "t")
+    assert png is not None and png.startswith(PNG_SIGNATURE)
+    svg = sweep_plot(industrial_sweep, "svg", "t")
+    assert svg is not None
+    root = ET.fromstring(svg)
+    assert root.tag == "{http://www.w3.org/2000/svg}svg"
+
+
+def test_sweep_command(tmp_path: Path) -> None:
+    plot = tmp_path / "curve.png"
+    code, out, err = _run(
+        ["sweep", INDUSTRIAL, "--cmrr", "50:55:5", "--time-limit", "10", "--plot", str(plot)]
+    )
+    assert code == 0, err
+    assert "Cheapest design against the CMRR floor" in out
+    assert "50 dB" in out and "55 dB" in out and "last feasible" in out
+    try:
+        import matplotlib  # noqa: F401
+    except ImportError:
+        assert "matplotlib is not installed" in out and not plot.exists()
+    else:
+        assert plot.read_bytes().startswith(PNG_SIGNATURE)
+        # An existing plot is kept without --force (checked before any search runs).
+        before = plot.read_bytes()
+        code, _, err = _run(["sweep", INDUSTRIAL, "--cmrr", "50", "--plot", str(plot)])
+        assert code == 2 and str(plot) in err and plot.read_bytes() == before
+
+
+@pytest.mark.parametrize(
+    ("argv", "message"),
+    [(["--cmrr", "60:40:2"], "--cmrr"), (["--cmrr", "50", "--plot", "x.gif"], ".png or .svg")],
+)
+def test_sweep_command_bad_input(argv: list[str], message: str) -> None:
+    code, _, err = _run(["sweep", INDUSTRIAL, *argv])
+    assert code == 2 and message in err
