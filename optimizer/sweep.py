@@ -20,6 +20,7 @@ from .verify import verify
 __all__ = [
     "DISCRETE_TOPOLOGIES",
     "NETWORK_TOPOLOGIES",
+    "SeriesPoint",
     "SweepPoint",
     "SweepResult",
     "parse_range",

@@ -272,3 +272,12 @@ def test_verify_spice_without_ngspice_warns(
     assert code == code_with
     assert "warning" in out and "ngspice was not found" in out
     assert "Simulator cross-check" not in out
+
+
+def test_html_report_without_plots_keeps_the_text_histogram() -> None:
+    from optimizer.report.exports import Block, render_report
+
+    blocks = [Block("heading", text="a <b> & c"), Block("table", headers=("x",), rows=(("1",),))]
+    html_text = render_report("t", blocks, "html", plots=False)
+    assert "<h2>a &lt;b&gt; &amp; c</h2>" in html_text and "<img" not in html_text
+    assert render_report("t", blocks, "md").startswith("# t\n\n## a <b> & c\n\n| x |")

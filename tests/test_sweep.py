@@ -132,3 +132,22 @@ def test_sweep_command(tmp_path: Path) -> None:
 def test_sweep_command_bad_input(argv: list[str], message: str) -> None:
     code, _, err = _run(["sweep", INDUSTRIAL, *argv])
     assert code == 2 and message in err
+
+
+def test_text_chart_places_the_highest_cost_on_top() -> None:
+    # Layout check on hand-made points (the figures are arbitrary, not reference values).
+    from optimizer.sweep import SeriesPoint, SweepPoint
+
+    def point(floor: float, discrete: float | None, network: float) -> SweepPoint:
+        status = SearchStatus.OPTIMAL if discrete is not None else SearchStatus.INFEASIBLE
+        return SweepPoint(
+            floor,
+            SeriesPoint(discrete, status, None),
+            SeriesPoint(network, SearchStatus.OPTIMAL, None),
+        )
+
+    result = SweepResult((point(40, 300, 20), point(45, 380, 20), point(50, None, 380)), 5.0)
+    lines = sweep_text_chart(result).splitlines()
+    assert lines[0].split("|")[1] == "  d n"
+    widths = {line.index("|") for line in lines[:12]}
+    assert len(widths) == 1  # the axis is straight

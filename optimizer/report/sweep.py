@@ -90,11 +90,11 @@ def sweep_text_chart(result: SweepResult, rows: int = CHART_ROWS) -> str:
             row = min(rows - 1, round(point.cost / top * (rows - 1)))
             cell = grid[rows - 1 - row]
             cell[column] = "*" if cell[column] not in (" ", mark) else mark
-    label = len(f"{top:.3g}")
+    labels = [f"{top * (rows - 1 - i) / (rows - 1):.3g}" for i in range(rows)]
+    label = max(len(text) for text in labels)
     lines = []
-    for index, line in enumerate(grid):
-        value = top * (rows - 1 - index) / (rows - 1)
-        lines.append(f"{value:>{label}.3g} |" + " ".join(line))
+    for text, line in zip(labels, grid, strict=True):
+        lines.append(f"{text:>{label}} |" + " ".join(line))
     lines.append(" " * label + " +" + "-" * (2 * width - 1))
     first, last = result.points[0].floor_db, result.points[-1].floor_db
     lines.append(" " * label + f"  CMRR floor {first:g} dB ... {last:g} dB")
