@@ -281,3 +281,23 @@ def test_html_report_without_plots_keeps_the_text_histogram() -> None:
     html_text = render_report("t", blocks, "html", plots=False)
     assert "<h2>a &lt;b&gt; &amp; c</h2>" in html_text and "<img" not in html_text
     assert render_report("t", blocks, "md").startswith("# t\n\n## a <b> & c\n\n| x |")
+
+
+def test_mains_exports_carry_the_safety_cautions(tmp_path: Path) -> None:
+    # Source: the cautions the analysis gives for this spec (analysis.checks.safety_cautions);
+    # the exports must repeat them, not drop them.
+    from optimizer.analysis.checks import safety_cautions
+
+    mains = str(EXAMPLES / "mains_monitor.yaml")
+    cautions = safety_cautions(load_spec(mains))
+    assert cautions
+    netlist, report = tmp_path / "m.cir", tmp_path / "m.md"
+    code, _, err = _run(["check", mains, "--r1", "2M", "--r2", "15k", "--r3", "2M", "--r4",
+                         "15k", "--tolerance", "0.1%", "--tempco", "25ppm/K", "--samples",
+                         "1000", "--netlist", str(netlist), "--report", str(report)])  # fmt: skip
+    assert code in (0, 1), err
+    netlist_text = netlist.read_text(encoding="ascii")
+    report_text = report.read_text(encoding="utf-8")
+    for caution in cautions:
+        assert f"* Caution: {caution[:60]}" in netlist_text
+        assert f"SAFETY CAUTION: {caution}" in report_text
