@@ -176,45 +176,43 @@ def _drop_dominated(
     values: NDArray[np.float64],
     stress: float,
 ) -> list[NDArray[np.int64]]:
-    """Empty the availability of every class another class dominates at this position: no more
-    expensive, no wider spread, stocked if it is, available wherever it is, and rated no worse
-    (ratings above SAFE_RATING × the stress count as equal). Equal classes keep the first."""
-    live = [c for c, ks in enumerate(usable) if ks.size]
-    if len(live) < 2:
+    """Remove, value by value, every class that another class offering the same value
+    dominates at this position: no more expensive, no wider spread, stocked if it is, and rated
+    no worse (ratings above SAFE_RATING × the stress count as equal). Equal classes keep the
+    first. Swapping a dominated part for its dominator at every position it fills keeps cost,
+    lines and every check at least as good, so nothing better is lost. O(n log n) plus the
+    comparisons inside each value's group."""
+    classes = [np.full(ks.size, c, dtype=np.int64) for c, ks in enumerate(usable) if ks.size]
+    if not classes:
         return usable
-    result = list(usable)
-    masks = {}
-    for c in live:
-        mask = np.zeros(values.size, dtype=bool)
-        mask[usable[c]] = True
-        masks[c] = mask
-    need_p = {c: stress**2 / values[usable[c]].min() for c in live}
-    for c in live:
-        for other in live:
-            if other == c or not result[other].size:
-                continue
-            if cost[other] > cost[c] + 1e-12 or np.any(spread[other] > spread[c] + 1e-15):
-                continue
-            if stocked[c] and not stocked[other]:
-                continue
-            if np.any(masks[c] & ~masks[other]):
-                continue
-            if (
-                min(power[other], SAFE_RATING * need_p[c])
-                < min(power[c], SAFE_RATING * need_p[c]) - 1e-15
-            ):
-                continue
-            if (
-                min(volts[other], SAFE_RATING * stress)
-                < min(volts[c], SAFE_RATING * stress) - 1e-12
-            ):
-                continue
-            equal = cost[other] == cost[c] and np.all(spread[other] == spread[c])
-            if equal and other > c:
-                continue
-            result[c] = np.zeros(0, dtype=np.int64)
-            break
-    return result
+    cls = np.concatenate(classes)
+    val = np.concatenate([ks for ks in usable if ks.size])
+    need_p = stress**2 / values[val]
+    attrs = np.column_stack(
+        [
+            cost[cls],
+            spread[cls],
+            -np.minimum(power[cls], SAFE_RATING * need_p),
+            -np.minimum(volts[cls], SAFE_RATING * stress),
+            -stocked[cls].astype(float),
+            cls.astype(float),  # tie-break: the first class wins among equals
+        ]
+    )
+    order = np.lexsort(tuple(attrs[:, i] for i in range(attrs.shape[1] - 1, -1, -1)) + (val,))
+    cls, val, attrs = cls[order], val[order], attrs[order]
+    keep = np.ones(cls.size, dtype=bool)
+    starts = np.flatnonzero(np.r_[True, val[1:] != val[:-1]])
+    ends = np.r_[starts[1:], val.size]
+    for start, end in zip(starts[ends - starts > 1], ends[ends - starts > 1], strict=True):
+        group = attrs[start:end, :-1]
+        # Rows are sorted by cost first: a row is dominated by an earlier one that is no worse.
+        no_worse = np.all(group[None, :, :] <= group[:, None, :] + 1e-15, axis=2)
+        earlier = np.tri(end - start, k=-1, dtype=bool)
+        keep[start:end] = ~np.any(no_worse & earlier, axis=1)
+    result: list[list[int]] = [[] for _ in usable]
+    for c, k in zip(cls[keep].tolist(), val[keep].tolist(), strict=True):
+        result[c].append(k)
+    return [np.array(sorted(ks), dtype=np.int64) for ks in result]
 
 
 def value_constants(
