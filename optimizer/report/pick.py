@@ -232,12 +232,15 @@ def _noise(verification: Verification) -> str:
     return "n/a"
 
 
+#: Shorter names than ``label_of`` gives, for the narrow margin column.
+_SHORT_LABELS: Final = {"yield": "yield"}
+
+
 def _tightest(verification: Verification) -> Text:
     tight = verification.tightest
     style = "green" if tight.passed else "bold red"
-    return Text(
-        f"{label_of(tight.name)}\n{_figure(tight.margin, tight.unit, signed=True)}", style=style
-    )
+    label = _SHORT_LABELS.get(tight.name) or label_of(tight.name)
+    return Text(f"{label}\n{_figure(tight.margin, tight.unit, signed=True)}", style=style)
 
 
 def _row(shown: Shown) -> list[RenderableType]:
@@ -258,8 +261,11 @@ def _row(shown: Shown) -> list[RenderableType]:
     ]
 
 
-def render_pick_table(shown: Sequence[Shown], spec: Spec, title: str) -> Table:
-    """The ranked designs as a table (the columns are :data:`TABLE_COLUMNS`)."""
+def render_pick_table(
+    shown: Sequence[Shown], spec: Spec, title: str, *, explain: bool = True
+) -> Table:
+    """The designs as a table (the columns are :data:`TABLE_COLUMNS`); ``explain``: a caption
+    saying what the CMRR columns mean."""
     req = spec.requirements
     caption = (
         f"CMRR worst: every tolerance, tempco over {req.temp_min_c:g} to {req.temp_max_c:g} °C"
@@ -272,7 +278,7 @@ def render_pick_table(shown: Sequence[Shown], spec: Spec, title: str) -> Table:
         title=title,
         title_justify="left",
         header_style="bold",
-        caption=caption,
+        caption=caption if explain else None,
         caption_justify="left",
         show_lines=True,
     )
@@ -375,6 +381,7 @@ def render_pick(report: PickReport) -> RenderableType:
                 report.other_kind,
                 spec,
                 "Best of the kind the ranking above lacks (shown for comparison)",
+                explain=not report.ranked,
             )
         )
     parts.append(render_status(report))
