@@ -481,9 +481,12 @@ def _add_sweep_command(commands: argparse._SubParsersAction[_Parser]) -> None:
         "input.",
     )
     sweep.add_argument("spec", metavar="SPEC", help="spec file (YAML)")
-    sweep.add_argument(
-        "--cmrr", required=True, metavar="START:STOP:STEP", help="CMRR floors in dB, e.g. 40:100:2"
-    )
+    axis = sweep.add_mutually_exclusive_group(required=True)
+    axis.add_argument("--cmrr", metavar="START:STOP:STEP", help="CMRR floors in dB, e.g. 40:100:2")
+    axis.add_argument(
+        "--gain-accuracy", metavar="START:STOP:STEP",
+        help="gain accuracies in percent, e.g. 0.05:0.5:0.05",
+    )  # fmt: skip
     sweep.add_argument(
         "--catalog", action="append", default=[], metavar="PATH",
         help="extra catalog file (repeatable); the spec's catalogs are always read",
@@ -505,7 +508,7 @@ def _sweep(args: argparse.Namespace, console: Console) -> int:
     from .report.sweep import render_sweep_table, sweep_plot, sweep_text_chart
     from .safewrite import OutputError, write_bytes
     from .specfile import load_spec
-    from .sweep import parse_range, sweep_cmrr
+    from .sweep import parse_range, sweep
 
     fmt = None
     if args.plot is not None:
@@ -515,17 +518,28 @@ def _sweep(args: argparse.Namespace, console: Console) -> int:
             raise OutputError(f"{args.plot}: a plot file must end in .png or .svg")
         if os.path.exists(args.plot) and not args.force:
             raise OutputError(f"{args.plot}: already exists; give --force to replace it")
-    floors = parse_range(args.cmrr)
+    if args.cmrr is not None:
+        floors = parse_range(args.cmrr, "--cmrr")
+    else:
+        floors = tuple(p / 100.0 for p in parse_range(args.gain_accuracy, "--gain-accuracy"))
     spec = load_spec(args.spec)
     catalog = _spec_catalogs(spec, args.catalog)
     with Progress(console=console, transient=True) as progress:
-        task = progress.add_task("sweeping the CMRR floor", total=len(floors))
+        what = "CMRR floor" if args.cmrr is not None else "gain accuracy"
+        task = progress.add_task(f"sweeping the {what}", total=len(floors))
 
-        def advance(done: int, floor: float) -> None:
-            progress.update(task, completed=done, description=f"CMRR floor {floor:g} dB done")
+        def advance(done: int, level: float) -> None:
+            progress.update(task, completed=done, description=f"{what}: {done} of {len(floors)}")
 
-        result = sweep_cmrr(spec, catalog, floors, time_limit_s=args.time_limit, progress=advance)
-    title = f"Cheapest design against the CMRR floor: {spec.title or args.spec}"
+        result = sweep(
+            spec,
+            catalog,
+            "cmrr" if args.cmrr is not None else "gain_accuracy",
+            floors,
+            time_limit_s=args.time_limit,
+            progress=advance,
+        )
+    title = f"Cheapest design against the {what}: {spec.title or args.spec}"
     console.print(render_sweep_table(result, title))
     image = None
     if fmt is not None:

@@ -1,7 +1,7 @@
-"""Cost against the CMRR floor: the cheapest design at each floor of a range, as two series —
-four discrete parts only, and the network builds only — each found by
-:func:`optimizer.solve.search.pick` with ``top=1`` on a copy of the spec whose floor (and
-allowed topologies) are replaced.
+"""Cost against a requirement: the cheapest design at each CMRR floor (or each gain accuracy)
+of a range, as two series — four discrete parts only, and the network builds only — each found
+by :func:`optimizer.solve.search.pick` with ``top=1`` on a copy of the spec whose requirement
+(and allowed topologies) are replaced, ranked by lowest cost.
 """
 
 from __future__ import annotations
@@ -9,6 +9,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, replace
+from typing import Literal
 
 from .catalog import Catalog
 from .design import Topology
@@ -21,11 +22,16 @@ __all__ = [
     "DISCRETE_TOPOLOGIES",
     "NETWORK_TOPOLOGIES",
     "SeriesPoint",
+    "SweepAxis",
     "SweepPoint",
     "SweepResult",
     "parse_range",
+    "sweep",
     "sweep_cmrr",
 ]
+
+#: What a sweep varies: the CMRR floor (dB) or the gain accuracy (a fraction).
+SweepAxis = Literal["cmrr", "gain_accuracy"]
 
 DISCRETE_TOPOLOGIES: tuple[Topology, ...] = (Topology.DISCRETE,)
 NETWORK_TOPOLOGIES: tuple[Topology, ...] = tuple(t for t in Topology if t is not Topology.DISCRETE)
@@ -71,9 +77,10 @@ class SeriesPoint:
 
 @dataclass(frozen=True)
 class SweepPoint:
-    """One CMRR floor (dB) with the discrete and network results."""
+    """One requirement level (a CMRR floor in dB, or a gain accuracy as a fraction) with the
+    discrete and network results."""
 
-    floor_db: float
+    level: float
     discrete: SeriesPoint
     network: SeriesPoint
 
@@ -92,19 +99,35 @@ class SweepPoint:
 
 @dataclass(frozen=True)
 class SweepResult:
+    """The points in the order asked; ``axis`` says what ``SweepPoint.level`` is."""
+
     points: tuple[SweepPoint, ...]
     time_limit_s: float
+    axis: SweepAxis = "cmrr"
+
+    def tightening(self, index: int, other: int) -> bool:
+        """True when point ``other`` asks more than point ``index`` (a higher CMRR floor, or a
+        smaller gain accuracy)."""
+        a, b = self.points[index].level, self.points[other].level
+        return b > a if self.axis == "cmrr" else b < a
 
 
 def _series(
-    spec: Spec, catalog: Catalog, floor: float, kinds: Sequence[Topology], time_limit_s: float
+    spec: Spec,
+    catalog: Catalog,
+    axis: SweepAxis,
+    level: float,
+    kinds: Sequence[Topology],
+    time_limit_s: float,
 ) -> SeriesPoint:
     allowed = tuple(t for t in spec.preferences.topologies if t in kinds)
     if not allowed:
         return SeriesPoint(None, None, None)
     point_spec = replace(
         spec,
-        requirements=replace(spec.requirements, cmrr_floor_db=floor),
+        requirements=replace(spec.requirements, cmrr_floor_db=level)
+        if axis == "cmrr"
+        else replace(spec.requirements, gain_accuracy=level),
         preferences=replace(spec.preferences, topologies=allowed, objective=Objective.COST),
     )
     result: PickResult = pick(point_spec, catalog, verify, top=1, time_limit_s=time_limit_s)
@@ -112,6 +135,37 @@ def _series(
         return SeriesPoint(None, result.status, None)
     best = result.ranked[0]
     return SeriesPoint(best.cost.total, result.status, best.design.topology)
+
+
+def sweep(
+    spec: Spec,
+    catalog: Catalog,
+    axis: SweepAxis,
+    levels: Sequence[float],
+    *,
+    time_limit_s: float,
+    progress: Callable[[int, float], None] | None = None,
+) -> SweepResult:
+    """The cheapest discrete and network designs at each of ``levels`` (CMRR floors in dB for
+    ``axis="cmrr"``, gain accuracies as fractions for ``"gain_accuracy"``); each search is
+    limited to ``time_limit_s`` seconds. ``progress(done, level)`` is called after each
+    level. Bad levels (e.g. a gain accuracy of 0) raise :class:`optimizer.errors.ModelError`
+    before any search."""
+    if axis not in ("cmrr", "gain_accuracy"):
+        raise ValueError(f"unknown sweep axis {axis!r}")
+    for level in levels:  # validate every level first: no half-done sweep on bad input
+        if axis == "cmrr":
+            replace(spec.requirements, cmrr_floor_db=level)
+        else:
+            replace(spec.requirements, gain_accuracy=level)
+    points = []
+    for index, level in enumerate(levels):
+        discrete = _series(spec, catalog, axis, level, DISCRETE_TOPOLOGIES, time_limit_s)
+        network = _series(spec, catalog, axis, level, NETWORK_TOPOLOGIES, time_limit_s)
+        points.append(SweepPoint(float(level), discrete, network))
+        if progress is not None:
+            progress(index + 1, float(level))
+    return SweepResult(tuple(points), time_limit_s, axis)
 
 
 def sweep_cmrr(
@@ -122,14 +176,5 @@ def sweep_cmrr(
     time_limit_s: float,
     progress: Callable[[int, float], None] | None = None,
 ) -> SweepResult:
-    """The cheapest discrete and network designs at each floor in ``floors_db`` (dB); each
-    search is limited to ``time_limit_s`` seconds. ``progress(done, floor)`` is called after
-    each floor."""
-    points = []
-    for index, floor in enumerate(floors_db):
-        discrete = _series(spec, catalog, floor, DISCRETE_TOPOLOGIES, time_limit_s)
-        network = _series(spec, catalog, floor, NETWORK_TOPOLOGIES, time_limit_s)
-        points.append(SweepPoint(float(floor), discrete, network))
-        if progress is not None:
-            progress(index + 1, float(floor))
-    return SweepResult(tuple(points), time_limit_s)
+    """:func:`sweep` over CMRR floors (dB)."""
+    return sweep(spec, catalog, "cmrr", floors_db, time_limit_s=time_limit_s, progress=progress)

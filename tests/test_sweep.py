@@ -20,10 +20,10 @@ from rich.console import Console
 
 from optimizer.cli import _spec_catalogs, main
 from optimizer.errors import SpecError
-from optimizer.report.sweep import last_feasible, sweep_plot, sweep_text_chart
+from optimizer.report.sweep import last_feasible, render_sweep_table, sweep_plot, sweep_text_chart
 from optimizer.solve.search import SearchStatus
 from optimizer.specfile import load_spec
-from optimizer.sweep import SweepResult, parse_range, sweep_cmrr
+from optimizer.sweep import SweepResult, parse_range, sweep, sweep_cmrr
 
 EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 INDUSTRIAL = str(EXAMPLES / "industrial_input.yaml")
@@ -73,7 +73,7 @@ def test_parse_range_rejects(text: str) -> None:
 def test_cost_never_rises_as_the_floor_falls(industrial_sweep: SweepResult) -> None:
     for kind in ("discrete", "network"):
         series = [getattr(p, kind) for p in industrial_sweep.points]
-        proven = [(p.floor_db, s.cost) for p, s in zip(industrial_sweep.points, series,
+        proven = [(p.level, s.cost) for p, s in zip(industrial_sweep.points, series,
                   strict=True) if s.status is SearchStatus.OPTIMAL]  # fmt: skip
         for (_, low_cost), (_, high_cost) in itertools.pairwise(proven):
             assert low_cost is not None and high_cost is not None
@@ -151,3 +151,27 @@ def test_text_chart_places_the_highest_cost_on_top() -> None:
     assert lines[0].split("|")[1] == "  d n"
     widths = {line.index("|") for line in lines[:12]}
     assert len(widths) == 1  # the axis is straight
+
+
+def test_gain_accuracy_sweep() -> None:
+    # A looser gain accuracy admits every design a tighter one admits (set inclusion): the
+    # proven cheapest cost never rises as the accuracy loosens.
+    spec = load_spec(INDUSTRIAL)
+    result = sweep(
+        spec, _spec_catalogs(spec, []), "gain_accuracy", (0.0005, 0.001, 0.002), time_limit_s=10
+    )
+    assert result.axis == "gain_accuracy"
+    costs = [p.network.cost for p in result.points if p.network.status is SearchStatus.OPTIMAL]
+    assert len(costs) >= 2
+    assert all(a >= b for a, b in itertools.pairwise(c for c in costs if c is not None))
+    mark = last_feasible(result, "network")
+    if mark is not None:  # the tightest feasible accuracy has an infeasible tighter one
+        assert result.points[0].network.cost is None
+    table = io.StringIO()
+    Console(file=table, width=200, color_system=None).print(render_sweep_table(result, "t"))
+    assert "gain accuracy" in table.getvalue() and "±0.05 %" in table.getvalue()
+
+
+def test_gain_accuracy_of_zero_is_refused() -> None:
+    code, _, err = _run(["sweep", INDUSTRIAL, "--gain-accuracy", "0:0.1:0.05"])
+    assert code == 2 and "gain_accuracy" in err

@@ -1,5 +1,6 @@
-"""Outputs of ``quartet sweep``: a Rich table of cost against the CMRR floor, a text chart for
-the terminal, and a plot (PNG or SVG) through matplotlib when it is installed."""
+"""Outputs of ``quartet sweep``: a Rich table of cost against the CMRR floor (or the gain
+accuracy), a text chart for the terminal, and a plot (PNG or SVG) through matplotlib when it is
+installed."""
 
 from __future__ import annotations
 
@@ -11,8 +12,16 @@ from rich.text import Text
 
 from ..solve.search import SearchStatus
 from ..sweep import SeriesPoint, SweepResult
+from ..units import format_fraction
 
-__all__ = ["last_feasible", "render_sweep_table", "sweep_plot", "sweep_text_chart"]
+__all__ = [
+    "axis_label",
+    "last_feasible",
+    "level_text",
+    "render_sweep_table",
+    "sweep_plot",
+    "sweep_text_chart",
+]
 
 SERIES: Final = ("discrete", "network")
 #: Height of the text chart in lines.
@@ -23,15 +32,30 @@ def _series(result: SweepResult, kind: str) -> list[SeriesPoint]:
     return [p.discrete if kind == "discrete" else p.network for p in result.points]
 
 
+def axis_label(result: SweepResult) -> str:
+    return "CMRR floor" if result.axis == "cmrr" else "gain accuracy"
+
+
+def level_text(result: SweepResult, level: float) -> str:
+    """``80 dB`` for a CMRR floor, ``±0.1 %`` for a gain accuracy."""
+    return f"{level:g} dB" if result.axis == "cmrr" else f"±{format_fraction(level, 4)}"
+
+
 def last_feasible(result: SweepResult, kind: str) -> int | None:
-    """Index of the highest floor at which the ``kind`` series ("discrete" or "network") still
-    has a design while every higher floor has none, or None when it never stops (or never
-    starts) within the range."""
+    """Index of the most demanding level (highest CMRR floor, smallest gain accuracy) at
+    which the ``kind`` series ("discrete" or "network") still has a design while a more
+    demanding level of the range has none; None when it never stops (or never starts) within
+    the range."""
     costs = [s.cost for s in _series(result, kind)]
     found = [i for i, c in enumerate(costs) if c is not None]
-    if not found or found[-1] == len(costs) - 1:
+    if not found:
         return None
-    return found[-1]
+    tightest = found[0]
+    for index in found[1:]:
+        if result.tightening(tightest, index):
+            tightest = index
+    beyond = [j for j in range(len(costs)) if result.tightening(tightest, j)]
+    return tightest if beyond else None
 
 
 def _cell(point: SeriesPoint, marked: bool) -> Text:
@@ -59,13 +83,13 @@ def render_sweep_table(result: SweepResult, title: str) -> Table:
         caption=f"Relative cost units; each search limited to {result.time_limit_s:g} s.",
         caption_justify="left",
     )
-    table.add_column("CMRR floor", justify="right")
+    table.add_column(axis_label(result), justify="right")
     table.add_column("4 discrete", justify="right")
     table.add_column("network", justify="right")
     table.add_column("cheaper")
     for index, point in enumerate(result.points):
         table.add_row(
-            Text(f"{point.floor_db:g} dB"),
+            Text(level_text(result, point.level)),
             _cell(point.discrete, marks["discrete"] == index),
             _cell(point.network, marks["network"] == index),
             Text(point.cheaper),
@@ -96,8 +120,11 @@ def sweep_text_chart(result: SweepResult, rows: int = CHART_ROWS) -> str:
     for text, line in zip(labels, grid, strict=True):
         lines.append(f"{text:>{label}} |" + " ".join(line))
     lines.append(" " * label + " +" + "-" * (2 * width - 1))
-    first, last = result.points[0].floor_db, result.points[-1].floor_db
-    lines.append(" " * label + f"  CMRR floor {first:g} dB ... {last:g} dB")
+    first, last = result.points[0].level, result.points[-1].level
+    lines.append(
+        " " * label
+        + f"  {axis_label(result)} {level_text(result, first)} ... {level_text(result, last)}"
+    )
     lines.append(" " * label + "  d = four discrete, n = network, * = both; cost relative units")
     return "\n".join(lines)
 
@@ -116,13 +143,13 @@ def sweep_plot(result: SweepResult, fmt: Literal["png", "svg"], title: str) -> b
     try:
         for kind, style in (("discrete", "o-"), ("network", "s-")):
             pairs = [
-                (p.floor_db, s.cost)
+                (p.level * (1.0 if result.axis == "cmrr" else 100.0), s.cost)
                 for p, s in zip(result.points, _series(result, kind), strict=True)
                 if s.cost is not None
             ]
             if pairs:
                 axes.plot([f for f, _ in pairs], [c for _, c in pairs], style, label=kind)
-        axes.set_xlabel("CMRR floor (dB)")
+        axes.set_xlabel("CMRR floor (dB)" if result.axis == "cmrr" else "gain accuracy (± %)")
         axes.set_ylabel("cheapest cost (relative units)")
         axes.set_title(title)
         axes.legend()
