@@ -54,7 +54,7 @@ EXAMPLE_SPECS = sorted(
 )
 #: Examples whose search runs past ~20 s (adc_driver: about 70 s without a proven ranking at
 #: the 60 s default when measured): a shorter limit, and the time-limit exit is accepted.
-SLOW_EXAMPLES = {"adc_driver.yaml": 8.0, "adc_driver_stock.yaml": 8.0}
+SLOW_EXAMPLES = {"adc_driver.yaml": 5.0, "adc_driver_stock.yaml": 5.0}
 #: Examples that nothing in their catalogs can meet (the example's own comment says so).
 INFEASIBLE_EXAMPLES = {"bridge_front_end_stock.yaml"}
 
