@@ -334,7 +334,7 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
     elif args.json_out is not None:
         _write_file(args, console, args.json_out, json_text + "\n")
     if winner is None and (args.bom or args.netlist or args.report or args.verify_spice):
-        console.print(
+        _notes(args, console).print(
             "[yellow]warning[/yellow]: no design was found, so no BOM, netlist or report was "
             "written and nothing was simulated",
             highlight=False,
@@ -391,11 +391,19 @@ def _refuse_existing_outputs(args: argparse.Namespace) -> None:
             raise OutputError(f"{path}: already exists; give --force to replace it")
 
 
+def _notes(args: argparse.Namespace, console: Console) -> Console:
+    """Where side notes go: standard error when --json puts a document on standard output."""
+    note_console: Console | None = getattr(args, "note_console", None)
+    if getattr(args, "json", False):
+        return note_console if note_console is not None else Console(stderr=True)
+    return console
+
+
 def _write_file(args: argparse.Namespace, console: Console, path: str, text: str) -> None:
     from .safewrite import write_text
 
     written = write_text(path, text, force=args.force)
-    console.print(f"wrote {escape(str(written))}", highlight=False)
+    _notes(args, console).print(f"wrote {escape(str(written))}", highlight=False)
 
 
 def _write_exports(
@@ -445,7 +453,7 @@ def _verify_spice(args: argparse.Namespace, console: Console, spec: Spec, design
     from .errors import SimulatorError
     from .spice import ngspice_available
 
-    out = Console(stderr=True) if args.json else console
+    out = _notes(args, console)
     if not ngspice_available():
         out.print(
             "[yellow]warning[/yellow]: --verify-spice: ngspice was not found on PATH (Debian "
@@ -577,6 +585,8 @@ def main(argv: Sequence[str] | None = None, *, console: Console | None = None, e
     except SystemExit as exc:  # --version and --help
         return int(exc.code or 0)
     handler: Handler = args.handler
+    # Side notes (files written, the simulator cross-check) go here when stdout carries JSON.
+    args.note_console = errors
     try:
         return handler(args, out)
     except QuartetError as exc:

@@ -301,3 +301,13 @@ def test_mains_exports_carry_the_safety_cautions(tmp_path: Path) -> None:
     for caution in cautions:
         assert f"* Caution: {caution[:60]}" in netlist_text
         assert f"SAFETY CAUTION: {caution}" in report_text
+
+
+@pytest.mark.ngspice
+def test_json_stdout_stays_json_with_files_and_spice(tmp_path: Path, ngspice: str) -> None:
+    target = tmp_path / "c.json"
+    code, out, err = _run(["check", MOTOR, *VALUES, "--json", "--json-out", str(target),
+                           "--verify-spice"])  # fmt: skip
+    assert code in (0, 1)
+    assert json.loads(out) == json.loads(target.read_text(encoding="utf-8"))
+    assert f"wrote {target}" in err.replace("\n", "") and "differential gain" in err
