@@ -72,6 +72,13 @@ class Limits:
     min_impedance_ohm: float
 
 
+#: A mismatch budget this large (natural-log units) no design can exceed: |δ| is at most
+#: 2·ln(largest/smallest resistance) plus the source and REF terms, far below it.
+LOOSE_BUDGET = 100.0
+#: Above this budget (log units) the half coupling cannot tighten anything and is skipped.
+COUPLING_BUDGET = 0.5
+
+
 def _cmrr_budget(spec: Spec) -> float:
     req = spec.requirements
     floor = 10.0 ** (-req.cmrr_floor_db / 20.0)
@@ -79,8 +86,11 @@ def _cmrr_budget(spec: Spec) -> float:
     x = floor - amp
     if x <= 0.0:
         return -1.0
+    if x >= 1.0:
+        return LOOSE_BUDGET  # a floor below 0 dB: any bridge meets it
     g_hi = req.gain * (1.0 + req.gain_accuracy) * math.exp(min((1.0 + req.gain) * x, 50.0))
-    return 2.0 * math.atanh(min(x / 2.0, 0.999999)) * (1.0 + g_hi) * (1.0 + SLACK) + 1e-9
+    budget = 2.0 * math.atanh(min(x / 2.0, 0.999999)) * (1.0 + g_hi) * (1.0 + SLACK) + 1e-9
+    return min(budget, LOOSE_BUDGET)
 
 
 def limits_for(spec: Spec, env: LinearEnvironment) -> Limits:
@@ -393,7 +403,7 @@ def build_model(
                 )
 
     halves = _halves(allowed, variant)
-    if halves is not None and variant.cmrr and variant.gain:
+    if halves is not None and variant.cmrr and variant.gain and limits.cmrr_budget <= COUPLING_BUDGET:
         yield_basis = req.cmrr_basis is CmrrBasis.YIELD
         scale = QUAD_SCALE**2 if yield_basis else LOG_SCALE
         _couple_halves(
@@ -509,8 +519,9 @@ BAND_EDGES = 1.0 - np.array(
     ]
 )
 
-#: Largest value-pair grid the half coupling enumerates per half.
-MAX_HALF_GRID = 4_000_000
+#: Most value pairs the half coupling keeps per half; beyond it the coupling (a tightening
+#: only) is skipped so that model building stays bounded.
+MAX_HALF_PAIRS = 300_000
 
 
 def _halves(allowed: set[Topology], variant: ModelVariant) -> tuple[object, tuple[int, int]] | None:
@@ -652,6 +663,8 @@ def _couple_halves(
                 return mask
 
             a_keys, a_delta, a_gain = discrete_side(first, a_keep)
+            if len(a_keys) > MAX_HALF_PAIRS:
+                return
         else:
             members = np.flatnonzero(usable & (options.kind == 2) & (options.shape == first))
             a_keys = [(int(i), -1) for i in members]
@@ -661,6 +674,8 @@ def _couple_halves(
             model.add_bool_or([])
             return
         b_keys, b_delta, b_gain = discrete_side(second, b_keep(a_delta))
+        if len(b_keys) > MAX_HALF_PAIRS:
+            return
         if not b_keys:
             model.add_bool_or([])
             return
