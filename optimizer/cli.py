@@ -375,8 +375,8 @@ def _export_paths(args: argparse.Namespace) -> list[str]:
 
 
 def _refuse_existing_outputs(args: argparse.Namespace) -> None:
-    """Fail before any work when an output file exists without --force, or a report has an
-    extension other than .md or .html."""
+    """Fail before any work when an output file exists without --force, its folder is missing,
+    one file is named for two outputs, or a report has an extension other than .md or .html."""
     import os
 
     from .report.exports import report_format
@@ -384,10 +384,16 @@ def _refuse_existing_outputs(args: argparse.Namespace) -> None:
 
     if args.report is not None and report_format(args.report) is None:
         raise OutputError(f"{args.report}: a report file must end in .md or .html")
-    if args.force:
-        return
+    seen: dict[str, str] = {}
     for path in _export_paths(args):
-        if os.path.exists(path):
+        real = os.path.realpath(path)
+        if real in seen:
+            raise OutputError(f"{path}: named for two outputs; give each output its own file")
+        seen[real] = path
+        folder = os.path.dirname(path) or "."
+        if not os.path.isdir(folder):
+            raise OutputError(f"{path}: folder {folder} does not exist")
+        if os.path.exists(path) and not args.force:
             raise OutputError(f"{path}: already exists; give --force to replace it")
 
 

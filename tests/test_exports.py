@@ -311,3 +311,19 @@ def test_json_stdout_stays_json_with_files_and_spice(tmp_path: Path, ngspice: st
     assert code in (0, 1)
     assert json.loads(out) == json.loads(target.read_text(encoding="utf-8"))
     assert f"wrote {target}" in err.replace("\n", "") and "differential gain" in err
+
+
+@pytest.mark.parametrize(
+    ("extra", "message"),
+    [
+        (["--bom", "{d}/same.out", "--json-out", "{d}/same.out"], "named for two outputs"),
+        (["--netlist", "{d}/missing/n.cir"], "does not exist"),
+    ],
+)
+def test_outputs_are_checked_before_any_work(
+    tmp_path: Path, extra: list[str], message: str
+) -> None:
+    argv = ["check", MOTOR, *VALUES, *(e.format(d=tmp_path) for e in extra)]
+    code, out, err = _run(argv)
+    assert code == 2 and message in err
+    assert out == "" and list(tmp_path.iterdir()) == []
