@@ -169,7 +169,10 @@ def test_report_markdown_has_budget_and_histogram(check_run: dict[str, object]) 
     assert "## Error budget" in text
     assert "| source of error |" in text
     assert "█" in text
-    assert "floor" in text and "80 dB" in text
+    histogram = text.split("```text", 1)[1].split("```", 1)[0]
+    assert "---- CMRR floor 80 dB ----" in histogram or "<- floor" in histogram
+    bars = [line for line in histogram.splitlines() if " dB |" in line]
+    assert len(bars) >= 10  # one line per bin, each with its count
     assert "```text" in text
 
 
