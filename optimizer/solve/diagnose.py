@@ -49,13 +49,40 @@ class _Relaxation:
     asked: str
 
 
+#: How far below the asked floor (dB) the diagnosis tries, in turn, to see whether the CMRR
+#: floor binds. Small steps first: a mildly relaxed floor keeps the linear model tight and the
+#: searches short, and it is where the answer usually is.
+CMRR_STEPS_DB = (3.0, 6.0, 12.0, 20.0, 30.0)
+
+
+def _relaxed_floor(asked_db: float) -> float:
+    """The loosest floor the diagnosis tries: the asked floor less the largest step (≥ 1 dB)."""
+    return max(1.0, asked_db - CMRR_STEPS_DB[-1])
+
+
+def _loosest_feasible_floor(
+    spec: Spec, catalog: Catalog, verifier: Verifier, time_limit_s: float
+) -> Spec | None:
+    """The spec with the first relaxed floor (asked − 3, −6, −12, −20, −30 dB) at which a
+    design exists, or None when none of them helps."""
+    req = spec.requirements
+    for step in CMRR_STEPS_DB:
+        floor = max(1.0, req.cmrr_floor_db - step)
+        relaxed = replace(spec, requirements=replace(req, cmrr_floor_db=floor))
+        if _feasible(relaxed, catalog, verifier, time_limit_s).ranked:
+            return relaxed
+    return None
+
+
 def _relaxations(spec: Spec) -> list[_Relaxation]:
     req = spec.requirements
     out = [
         _Relaxation(
             "cmrr_floor",
             "CMRR floor",
-            replace(spec, requirements=replace(req, cmrr_floor_db=1.0)),
+            replace(
+                spec, requirements=replace(req, cmrr_floor_db=_relaxed_floor(req.cmrr_floor_db))
+            ),
             f"{req.cmrr_floor_db:g} dB",
         ),
         _Relaxation(
@@ -131,9 +158,15 @@ def diagnose(
     binding: list[str] = []
     best: list[BestReachable] = []
     for relaxation in _relaxations(spec):
-        result = _feasible(relaxation.relaxed, catalog, verifier, time_limit_s)
-        if not result.ranked:
-            continue
+        if relaxation.name == "cmrr_floor":
+            relaxed = _loosest_feasible_floor(spec, catalog, verifier, time_limit_s)
+            if relaxed is None:
+                continue
+            relaxation = _Relaxation(relaxation.name, relaxation.label, relaxed, relaxation.asked)
+        else:
+            result = _feasible(relaxation.relaxed, catalog, verifier, time_limit_s)
+            if not result.ranked:
+                continue
         binding.append(relaxation.name)
         best.append(_best_reachable(relaxation, spec, catalog, verifier, time_limit_s))
     if not binding:
