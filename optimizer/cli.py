@@ -8,6 +8,7 @@ limit ended the search with a best design found (not proven optimal).
 from __future__ import annotations
 
 import argparse
+import os
 import sys
 from collections.abc import Callable, Sequence
 from typing import TYPE_CHECKING
@@ -579,7 +580,7 @@ def _sweep(args: argparse.Namespace, console: Console) -> int:
 
 def main(argv: Sequence[str] | None = None, *, console: Console | None = None, err: Console | None = None) -> int:
     """Run the command line; returns the exit code instead of exiting."""
-    out = console or Console()
+    out = console or _output_console()
     errors = err or Console(stderr=True)
     parser = build_parser()
     try:
@@ -603,6 +604,18 @@ def main(argv: Sequence[str] | None = None, *, console: Console | None = None, e
     except KeyboardInterrupt:
         errors.print("interrupted")
         return 130
+
+
+#: Width used when the output is not a terminal (a pipe or a file) and COLUMNS is not set:
+#: wide enough for the ranked table without truncating part ids.
+PIPE_WIDTH = 160
+
+
+def _output_console() -> Console:
+    """The console for standard output: the terminal's width, or PIPE_WIDTH for pipes."""
+    if sys.stdout.isatty() or "COLUMNS" in os.environ:
+        return Console()
+    return Console(width=PIPE_WIDTH)
 
 
 def main_entry() -> None:
