@@ -530,3 +530,30 @@ def test_missing_spec_file(tmp_path: Path) -> None:
     code, _, err = _run(["pick", str(tmp_path / "absent.yaml")])
     assert code == EXIT_BAD_INPUT
     assert "SpecError" in err and "absent.yaml" in err and "not found" in err
+
+
+def test_time_limit_with_a_design_found_exits_3(monkeypatch: pytest.MonkeyPatch) -> None:
+    """Exit code 3 (README: the time limit ended the search with a best design found): the
+    clock is made to run out after the first solves, deterministically, by letting
+    ``_Clock.remaining`` report time left for its first calls only."""
+    from optimizer.solve import search
+
+    calls = {"n": 0}
+    real = search._Clock.remaining
+
+    def running_out(self: search._Clock) -> float:
+        calls["n"] += 1
+        return real(self) if calls["n"] <= 6 else -1.0
+
+    monkeypatch.setattr(search._Clock, "remaining", running_out)
+    out = io.StringIO()
+    err = io.StringIO()
+    code = main(
+        ["pick", str(EXAMPLES / "motor_shunt.yaml"), "--top", "5"],
+        console=Console(file=out, width=200),
+        err=Console(file=err, width=200),
+    )
+    text = out.getvalue()
+    assert code == EXIT_TIME_LIMIT, text + err.getvalue()
+    assert "Traceback" not in text + err.getvalue()
+    assert "time limit" in text.lower()
