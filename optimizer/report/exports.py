@@ -39,6 +39,7 @@ from ..spec import Spec
 from ..units import format_fraction, format_resistance, format_tempco
 from ..verify import Verification
 from .check import _db, _pct, label_of
+from .pick import TABLE_COLUMNS
 
 __all__ = [
     "BOM_COLUMNS",
@@ -366,18 +367,7 @@ def pick_blocks(
         Block("para", text=f"Search: {status}. Costs in relative units."),
         Block(
             "table",
-            headers=(
-                "#",
-                "build",
-                "R1",
-                "R2",
-                "R3",
-                "R4",
-                "rel. cost",
-                "CMRR worst",
-                "CMRR stat.",
-                "gain err. worst",
-            ),
+            headers=TABLE_COLUMNS[: TABLE_COLUMNS.index("gain err. worst") + 1],
             rows=tuple(table_rows),
         ),
     ]
