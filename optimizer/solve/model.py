@@ -211,6 +211,7 @@ def build_model(
     env: LinearEnvironment,
     limits: Limits,
     variant: ModelVariant,
+    constants: tuple[NDArray[np.float64], NDArray[np.float64], NDArray[np.float64]] | None = None,
 ) -> BuiltModel:
     """The CP-SAT model for network ``options`` and discrete ``block`` under ``limits``."""
     model = cp_model.CpModel()
@@ -222,7 +223,9 @@ def build_model(
     usable_options = _usable_options(options, allowed)
     if variant.pair_shape is not None:
         usable_options &= (options.kind == 2) & (options.shape == variant.pair_shape)
-    usable, classes = _prune(options, block, spec, env, limits, usable_options, discrete_allowed)
+    if constants is None:
+        constants = value_constants(block, spec, env)
+    usable, classes = _prune(options, block, spec, env, limits, usable_options, discrete_allowed, constants[1])
     options = options.subset(usable)
     usable = np.ones(len(options), dtype=bool)
     n = len(options)
@@ -270,7 +273,9 @@ def build_model(
         sum(placed) == 4 * t.get(Topology.DISCRETE, 0) + 2 * t.get(Topology.PAIR_PLUS_DISCRETE, 0)
     )
 
-    phi, fraction, value_noise = value_constants(block, spec, env)
+    if constants is None:
+        constants = value_constants(block, spec, env)
+    phi, fraction, value_noise = constants
     req = spec.requirements
     cg = gain_coefficients(req.gain)
 
@@ -814,6 +819,7 @@ def _prune(
     limits: Limits,
     usable: NDArray[np.bool_],
     discrete_allowed: bool,
+    fraction: NDArray[np.float64],
 ) -> tuple[NDArray[np.bool_], list[list[int]]]:
     """Drop network options and discrete classes that cannot meet the CMRR or gain budget even
     if every other position got its least-varying choice (a necessary condition, so nothing
@@ -827,7 +833,6 @@ def _prune(
     if yield_basis and limits.z <= 0:
         return keep, classes
     spread = block.var if yield_basis else block.own
-    _, fraction, _ = value_constants(block, spec, env)
     cg = gain_coefficients(req.gain)
     gain_room = (limits.gain_upper - limits.gain_lower - limits.open_loop_term) / 2.0
     if yield_basis:

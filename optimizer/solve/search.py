@@ -18,6 +18,8 @@ from dataclasses import dataclass, field, replace
 from enum import Enum
 from typing import Protocol
 
+import numpy as np
+from numpy.typing import NDArray
 from ortools.sat.python import cp_model
 
 from ..catalog import Catalog
@@ -25,7 +27,7 @@ from ..cost import CostBreakdown, design_cost
 from ..design import Design, Placement, Topology
 from ..spec import Objective, Spec
 from .amplifier import amplifier_limits
-from .discrete import DiscreteBlock, build_discrete
+from .discrete import DiscreteBlock, build_discrete, value_constants
 from .environment import LinearEnvironment, linear_environment
 from .model import BuiltModel, Limits, ModelVariant, build_model, limits_for
 from .options import ALL_SHAPES, OptionTable, build_options
@@ -122,8 +124,12 @@ class Problem:
     block: DiscreteBlock
     limits: Limits
 
+    constants: tuple[NDArray[np.float64], NDArray[np.float64], NDArray[np.float64]]
+
     def build(self, variant: ModelVariant) -> BuiltModel:
-        return build_model(self.options, self.block, self.spec, self.env, self.limits, variant)
+        return build_model(
+            self.options, self.block, self.spec, self.env, self.limits, variant, self.constants
+        )
 
     @property
     def size(self) -> int:
@@ -245,13 +251,15 @@ class _Stream:
 def prepare(spec: Spec, catalog: Catalog) -> Problem:
     """The environment, options, discrete block and limits of the linear model."""
     env = linear_environment(spec)
+    block = build_discrete(catalog, spec, env)
     return Problem(
         spec,
         catalog,
         env,
         build_options(catalog, spec, env),
-        build_discrete(catalog, spec, env),
+        block,
         limits_for(spec, env),
+        value_constants(block, spec, env),
     )
 
 
