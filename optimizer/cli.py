@@ -66,7 +66,7 @@ def build_parser() -> argparse.ArgumentParser:
 # ---------------------------------------------------------------------------------------------
 
 
-def _add_catalog_commands(commands: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
+def _add_catalog_commands(commands: argparse._SubParsersAction[_Parser]) -> None:
     catalog = commands.add_parser("catalog", help="show or validate parts catalogs")
     sub = catalog.add_subparsers(dest="catalog_command", metavar="ACTION", parser_class=_Parser)
     sub.required = True
@@ -78,7 +78,7 @@ def _add_catalog_commands(commands: argparse._SubParsersAction[argparse.Argument
     validate.set_defaults(handler=_catalog_validate)
 
 
-def _add_spec_commands(commands: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
+def _add_spec_commands(commands: argparse._SubParsersAction[_Parser]) -> None:
     spec = commands.add_parser("spec", help="validate a spec file")
     sub = spec.add_subparsers(dest="spec_command", metavar="ACTION", parser_class=_Parser)
     sub.required = True

@@ -84,14 +84,14 @@ def divider_ratio(r3_eff: ArrayLike, r4_eff: ArrayLike) -> Array:
 def feedback_factor(r1_eff: ArrayLike, r2: ArrayLike) -> Array:
     """β = R1'/(R1' + R2): feedback factor; the noise gain is 1/β = 1 + R2/R1' (ohms in)."""
     r1 = np.asarray(r1_eff, dtype=float)
-    return r1 / (r1 + np.asarray(r2, dtype=float))
+    return np.asarray(r1 / (r1 + np.asarray(r2, dtype=float)), dtype=float)
 
 
 def loop_gain_factor(beta: ArrayLike, open_loop_gain: ArrayLike) -> Array:
     """1/(1 + 1/(A·β)): the factor by which finite open-loop gain A scales every closed-loop
     gain (standard feedback result; equals 1/(1 + (1+G)/A) for β = 1/(1+G))."""
     inv_a = 1.0 / np.asarray(open_loop_gain, dtype=float)
-    return 1.0 / (1.0 + inv_a / np.asarray(beta, dtype=float))
+    return np.asarray(1.0 / (1.0 + inv_a / np.asarray(beta, dtype=float)), dtype=float)
 
 
 def coefficients(

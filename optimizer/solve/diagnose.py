@@ -15,6 +15,7 @@ Two steps:
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass, replace
 
 from ..catalog import Catalog
@@ -129,7 +130,7 @@ def diagnose(
     limits = amplifier_limits(spec)
     if limits:
         names = tuple(c.name for c in limits)
-        best = tuple(
+        amplifier_best = tuple(
             BestReachable(
                 c.name,
                 _format(c.limit, c.unit),
@@ -139,9 +140,10 @@ def diagnose(
             for c in limits
         )
         text = "; ".join(
-            f"{b.requirement}: {b.reachable} reachable, {b.asked} needed ({b.note})" for b in best
+            f"{b.requirement}: {b.reachable} reachable, {b.asked} needed ({b.note})"
+            for b in amplifier_best
         )
-        return Diagnosis(names, best, f"nothing can meet the spec: {text}")
+        return Diagnosis(names, amplifier_best, f"nothing can meet the spec: {text}")
     if 1.0 / spec.amplifier.cmrr_ratio >= 10.0 ** (-spec.requirements.cmrr_floor_db / 20.0):
         best_amp = BestReachable(
             "cmrr_floor",
@@ -229,9 +231,9 @@ def _best_reachable(
             "the search for the best CMRR ran out of time",
         )
     low, high, fmt = _bisection_range(relaxation.name, spec)
-    best = _bisect(relaxation.name, spec, catalog, verifier, low, high, time_limit_s)
+    reached = _bisect(relaxation.name, spec, catalog, verifier, low, high, time_limit_s)
     return BestReachable(
-        relaxation.name, relaxation.asked, fmt(best) if best is not None else "nothing", ""
+        relaxation.name, relaxation.asked, fmt(reached) if reached is not None else "nothing", ""
     )
 
 
@@ -243,7 +245,7 @@ def _ids(design: Design) -> str:
     return "(" + ", ".join(seen) + ")"
 
 
-def _bisection_range(name: str, spec: Spec) -> tuple[float, float, object]:
+def _bisection_range(name: str, spec: Spec) -> tuple[float, float, Callable[[float], str]]:
     req = spec.requirements
     if name == "gain_accuracy":
         return req.gain_accuracy, 0.5, lambda v: f"±{format_fraction(v, 3)}"
@@ -261,13 +263,15 @@ def _bisection_range(name: str, spec: Spec) -> tuple[float, float, object]:
 
 def _with(name: str, spec: Spec, value: float) -> Spec:
     req = spec.requirements
-    field = {
-        "gain_accuracy": "gain_accuracy",
-        "min_input_impedance": "min_input_impedance_ohm",
-        "output_noise": "max_output_noise_v_rms",
-        "operating_life": "life_s",
-    }[name]
-    return replace(spec, requirements=replace(req, **{field: value}))
+    if name == "gain_accuracy":
+        relaxed = replace(req, gain_accuracy=value)
+    elif name == "min_input_impedance":
+        relaxed = replace(req, min_input_impedance_ohm=value)
+    elif name == "output_noise":
+        relaxed = replace(req, max_output_noise_v_rms=value)
+    else:
+        relaxed = replace(req, life_s=value)
+    return replace(spec, requirements=relaxed)
 
 
 def _bisect(

@@ -70,7 +70,7 @@ class DiscreteBlock:
 
 
 def _empty() -> DiscreteBlock:
-    none = tuple(tuple() for _ in range(4))
+    none: tuple[tuple[NDArray[np.int64], ...], ...] = tuple(() for _ in range(4))
     return DiscreteBlock(
         np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0), none, {}, {}
     )

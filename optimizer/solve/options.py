@@ -230,7 +230,7 @@ def _network_rows(
                 covers = tuple(bool(i in shape) for i in range(4))
                 rows.kind.append(len(shape))
                 rows.covers.append(covers)  # type: ignore[arg-type]
-                rows.shape.append(ALL_SHAPES.index(shape) if len(shape) == 2 else -1)  # type: ignore[arg-type]
+                rows.shape.append(ALL_SHAPES.index(shape) if len(shape) == 2 else -1)
                 rows.line.append(line)
                 rows.cost.append(cost)
                 rows.resist.append(resist)
@@ -304,7 +304,7 @@ def build_options(catalog: Catalog, spec: Spec, env: LinearEnvironment) -> Optio
             "shared_var": np.zeros(0),
             "upper": np.zeros((0, 4)),
         }
-        blocks.append(empty)  # type: ignore[arg-type]
+        blocks.append(empty)
     merged = {key: np.concatenate([b[key] for b in blocks]) for key in blocks[0]}
     return _stack(merged, makers, spec, env, tuple(lines))
 
@@ -394,7 +394,7 @@ def _noise_terms(
 ) -> NDArray[np.float64]:
     """Output noise power density (V²/Hz) each option adds (:func:`position_noise` summed over
     the positions it covers)."""
-    return position_noise(np.where(covered, resist, 0.0), spec, env).sum(axis=1)
+    return np.asarray(position_noise(np.where(covered, resist, 0.0), spec, env).sum(axis=1), dtype=float)
 
 
 def noise_floor(spec: Spec, env: LinearEnvironment) -> float:
