@@ -225,10 +225,22 @@ def build_model(
         usable_options &= (options.kind == 2) & (options.shape == variant.pair_shape)
     if constants is None:
         constants = value_constants(block, spec, env)
-    usable, classes = _prune(options, block, spec, env, limits, usable_options, discrete_allowed, constants[1])
+    usable, classes = _prune(
+        options, block, spec, env, limits, usable_options, discrete_allowed, constants[1]
+    )
     options = options.subset(usable)
     usable = np.ones(len(options), dtype=bool)
     n = len(options)
+    if any(not classes[i] and not options.covers[:, i].any() for i in range(4)):
+        # A position nothing can fill after pruning: the stream is infeasible; skip the rest.
+        model.add_bool_or([])
+        return BuiltModel(
+            model=model,
+            x=[],
+            value=[{} for _ in range(4)],
+            grade=[{} for _ in range(4)],
+            options=options.subset(np.zeros(n, dtype=bool)),
+        )
     x = [model.new_bool_var(f"o{i}") for i in range(n)]
     kinds = options.kind
 
@@ -408,7 +420,12 @@ def build_model(
                 )
 
     halves = _halves(allowed, variant)
-    if halves is not None and variant.cmrr and variant.gain and limits.cmrr_budget <= COUPLING_BUDGET:
+    if (
+        halves is not None
+        and variant.cmrr
+        and variant.gain
+        and limits.cmrr_budget <= COUPLING_BUDGET
+    ):
         yield_basis = req.cmrr_basis is CmrrBasis.YIELD
         scale = QUAD_SCALE**2 if yield_basis else LOG_SCALE
         _couple_halves(
@@ -475,11 +492,7 @@ def build_model(
         noise = acc.expr(NOISE_SCALE, "floor")
         model.add(
             noise
-            <= (
-                math.floor(limits.noise_budget * NOISE_SCALE)
-                if limits.noise_budget > 0
-                else -1
-            )
+            <= (math.floor(limits.noise_budget * NOISE_SCALE) if limits.noise_budget > 0 else -1)
         )
 
     cost = _cost_expression(model, x, value, grade, options, block, spec)
