@@ -63,6 +63,7 @@ __all__ = [
     "STOCK_UNCOUNTED",
     "Catalog",
     "builtin_catalog",
+    "catalog_from_parts",
     "empty_discrete_frame",
     "generate_discrete",
     "generate_networks",
@@ -159,6 +160,35 @@ def empty_discrete_frame() -> pd.DataFrame:
         series=np.array([], dtype=object),
         source=np.array([], dtype=object),
     )
+
+
+def catalog_from_parts(
+    discrete: Sequence[DiscretePart],
+    networks: Sequence[NetworkPart] = (),
+    source: str = "in-memory",
+) -> Catalog:
+    """A :class:`Catalog` from part objects, every part credited to ``source`` (for parts built
+    in code: tests, benchmarks, a design typed on the command line)."""
+    values = np.array([p.resistance_ohm for p in discrete], dtype=float)
+    tolerance = np.array([p.tolerance for p in discrete], dtype=float)
+    frame = _frame(
+        part_id=np.array([p.part_id for p in discrete], dtype=object),
+        resistance_ohm=values,
+        tolerance=tolerance,
+        tempco_per_k=np.array([p.tempco_per_k for p in discrete], dtype=float),
+        size=np.array([p.size for p in discrete], dtype=object),
+        power_w=np.array([p.power_w for p in discrete], dtype=float),
+        max_voltage_v=np.array([p.max_voltage_v for p in discrete], dtype=float),
+        unit_cost=np.array([p.unit_cost for p in discrete], dtype=float),
+        stock_qty=np.array([p.stock_qty for p in discrete], dtype=np.int64),
+        technology=np.array(
+            [p.technology.value if p.technology is not None else "" for p in discrete], dtype=object
+        ),
+        drift_1000h=np.array([p.drift_1000h for p in discrete], dtype=float),
+        series=series_of_values(values, tolerance),
+        source=np.array([source] * len(discrete), dtype=object),
+    )
+    return Catalog(frame, tuple(networks), (source,), (source,) * len(networks))
 
 
 def _frame(**columns: Any) -> pd.DataFrame:

@@ -27,12 +27,11 @@ import random
 from dataclasses import dataclass
 
 import numpy as np
-import pandas as pd
 import pytest
 
 from optimizer.analysis.checks import check_input_impedance, check_output_noise
 from optimizer.analysis.worstcase import worst_case
-from optimizer.catalog import DISCRETE_COLUMNS, Catalog, series_of_values
+from optimizer.catalog import Catalog, catalog_from_parts
 from optimizer.cost import design_cost
 from optimizer.design import Design, Placement, Topology
 from optimizer.eseries import ESeries, nearest
@@ -87,29 +86,8 @@ YEAR_S = 8760 * 3600.0
 
 
 def build_catalog(parts: list[DiscretePart], networks: list[NetworkPart]) -> Catalog:
-    """A :class:`Catalog` from part objects (the discrete table in the catalog's own columns)."""
-    n = len(parts)
-    values = np.array([p.resistance_ohm for p in parts], dtype=float)
-    tolerance = np.array([p.tolerance for p in parts], dtype=float)
-    frame = pd.DataFrame(
-        {
-            "part_id": [p.part_id for p in parts],
-            "resistance_ohm": values,
-            "tolerance": tolerance,
-            "tempco_per_k": [p.tempco_per_k for p in parts],
-            "size": [p.size for p in parts],
-            "power_w": [p.power_w for p in parts],
-            "max_voltage_v": [p.max_voltage_v for p in parts],
-            "unit_cost": [p.unit_cost for p in parts],
-            "stock_qty": np.array([p.stock_qty for p in parts], dtype=np.int64),
-            "technology": [""] * n,
-            "drift_1000h": [p.drift_1000h for p in parts],
-            "series": series_of_values(values, tolerance),
-            "source": ["oracle-test"] * n,
-        },
-        columns=list(DISCRETE_COLUMNS),
-    )
-    return Catalog(frame, tuple(networks), ("oracle-test",))
+    """A :class:`Catalog` from part objects."""
+    return catalog_from_parts(parts, networks, source="oracle-test")
 
 
 def amplifier(

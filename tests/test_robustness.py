@@ -24,14 +24,12 @@ from __future__ import annotations
 import itertools
 import math
 
-import numpy as np
-import pandas as pd
 import pytest
 
 from optimizer.analysis.checks import check_resistor_ratings, derated_power
 from optimizer.analysis.transfer import coefficients, differential_gain
 from optimizer.analysis.worstcase import worst_case
-from optimizer.catalog import DISCRETE_COLUMNS, Catalog, series_of_values
+from optimizer.catalog import Catalog, catalog_from_parts
 from optimizer.design import Design, Placement, Topology
 from optimizer.parts import Amplifier, DiscretePart, RailSpan
 from optimizer.solve.search import SearchStatus, pick
@@ -240,28 +238,7 @@ def test_ratings_fail_clearly_at_155_c() -> None:
 
 
 def _catalog(parts: list[DiscretePart]) -> Catalog:
-    values = np.array([p.resistance_ohm for p in parts], dtype=float)
-    tolerance = np.array([p.tolerance for p in parts], dtype=float)
-    n = len(parts)
-    frame = pd.DataFrame(
-        {
-            "part_id": [p.part_id for p in parts],
-            "resistance_ohm": values,
-            "tolerance": tolerance,
-            "tempco_per_k": [p.tempco_per_k for p in parts],
-            "size": [p.size for p in parts],
-            "power_w": [p.power_w for p in parts],
-            "max_voltage_v": [p.max_voltage_v for p in parts],
-            "unit_cost": [p.unit_cost for p in parts],
-            "stock_qty": np.zeros(n, dtype=np.int64),
-            "technology": [""] * n,
-            "drift_1000h": [p.drift_1000h for p in parts],
-            "series": series_of_values(values, tolerance),
-            "source": ["robustness-test"] * n,
-        },
-        columns=list(DISCRETE_COLUMNS),
-    )
-    return Catalog(frame, (), ("robustness-test",))
+    return catalog_from_parts(parts, source="robustness-test")
 
 
 @pytest.mark.parametrize(
