@@ -33,13 +33,11 @@ from collections.abc import Callable, Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
 from importlib import resources
 from pathlib import Path
-from typing import Any, Final
+from typing import TYPE_CHECKING, Any, Final
 
 import numpy as np
 import numpy.typing as npt
-import pandas as pd
 import yaml
-from pandas.api.types import union_categoricals
 
 from .errors import CatalogError, DesignError, ModelError, UnitError
 from .eseries import ESeries, decade_values, series_for_name, values_in_range
@@ -51,6 +49,9 @@ from .units import (
     parse_tempco,
     parse_voltage,
 )
+
+if TYPE_CHECKING:  # pandas is imported where a table is built (it takes a third of a second)
+    import pandas as pd
 
 __all__ = [
     "BUILTIN_DISCRETE_SOURCE",
@@ -194,6 +195,8 @@ def catalog_from_parts(
 def _frame(**columns: Any) -> pd.DataFrame:
     """Build the discrete table: columns in :data:`DISCRETE_COLUMNS` order, low-cardinality text
     columns as categoricals (a million rows then cost a few bytes each, not a string object)."""
+    import pandas as pd
+
     frame = pd.DataFrame({name: columns[name] for name in DISCRETE_COLUMNS})
     return _normalise(frame)
 
@@ -289,6 +292,8 @@ class Catalog:
 
     @functools.cached_property
     def _id_index(self) -> pd.Index:
+        import pandas as pd
+
         index: pd.Index = pd.Index(self.discrete["part_id"])
         return index
 
@@ -315,6 +320,8 @@ class Catalog:
 
         Looks only at ids that share the longest possible prefix with ``part_id`` (at most a
         few thousand), so it stays quick on a catalog of a million rows."""
+        import pandas as pd
+
         ids = pd.concat(
             [
                 self.discrete["part_id"].astype(object),
@@ -338,6 +345,8 @@ class Catalog:
 
     def all_ids(self) -> pd.Index:
         """Every part id, discrete first, then networks."""
+        import pandas as pd
+
         ids: pd.Index = pd.Index(
             np.concatenate(
                 [
@@ -454,6 +463,8 @@ def _series_codes(values: FloatArray, tolerance: FloatArray) -> npt.NDArray[np.i
 def _text_categorical(values: pd.Series) -> pd.Categorical:
     """A text column as a categorical with plain (object) text categories, so that tables
     from different sources unite without a dtype clash."""
+    import pandas as pd
+
     if isinstance(values.dtype, pd.CategoricalDtype):
         categorical: pd.Categorical = values.array
         if categorical.categories.dtype == object:
@@ -470,6 +481,8 @@ def _series_categorical(values: FloatArray, tolerance: FloatArray) -> pd.Categor
 
 def _from_codes(codes: npt.NDArray[np.integer[Any]], categories: Sequence[str]) -> pd.Categorical:
     """``pd.Categorical.from_codes`` with text categories."""
+    import pandas as pd
+
     categorical: pd.Categorical = pd.Categorical.from_codes(
         codes, categories=pd.Index(list(categories), dtype=object)
     )
@@ -648,8 +661,10 @@ def generate_discrete(
         key = f"tempco_premium.{name}"
         premium[r.parse(parse_tempco, name, key)] = r.number(cost, key)
 
-    blocks: list[dict[str, Any]] = []
+    blocks: list[_Block] = []
     seen: dict[str, str] = {}
+    ladders: dict[tuple[ESeries, float, float], tuple[FloatArray, list[str]]] = {}
+    code_of: dict[tuple[float, int], str] = {}  # ladders overlap: each code is worked out once
     for i, grade in enumerate(r.items(r.get(data, "grades", ""), "grades")):
         key = f"grades[{i}]"
         grade = r.mapping(grade, key)
@@ -684,11 +699,15 @@ def generate_discrete(
         series = next((s for start, s in rules if tolerance >= start - 1e-12), None)
         if series is None:
             raise r.fail(f"{key}.tolerance", "no series_by_tolerance rule covers this tolerance")
-        values = np.array(
-            list(values_in_range(series, max(low, g_low), min(high, g_high))), dtype=float
-        )
-        figures = 2 if series <= ESeries.E24 else 3
-        codes = [rkm_code(v, figures) for v in values]
+        ladder = (series, max(low, g_low), min(high, g_high))
+        if ladder not in ladders:  # grades of one series and range share values and codes
+            values = np.array(list(values_in_range(*ladder)), dtype=float)
+            figures = 2 if series <= ESeries.E24 else 3
+            for v in values:
+                if (v, figures) not in code_of:
+                    code_of[v, figures] = rkm_code(v, figures)
+            ladders[ladder] = values, [code_of[v, figures] for v in values]
+        values, codes = ladders[ladder]
         grade_code = f"{tech_code}{round(tolerance * 1e4):d}"
         for size in size_names:
             power, voltage, factor = sizes[size]
@@ -701,27 +720,79 @@ def generate_discrete(
                         "(same technology, tolerance, tempco and size)",
                     )
                 seen[prefix] = key
-                n = len(values)
                 blocks.append(
-                    {
-                        "part_id": np.array([prefix + c for c in codes], dtype=object),
-                        "resistance_ohm": values,
-                        "tolerance": np.full(n, tolerance),
-                        "tempco_per_k": np.full(n, tempco),
-                        "size": np.full(n, size, dtype=object),
-                        "power_w": np.full(n, power),
-                        "max_voltage_v": np.full(n, voltage),
-                        "unit_cost": np.full(n, _discrete_cost(cost, factor, premium[tempco])),
-                        "stock_qty": np.zeros(n, dtype=np.int64),
-                        "technology": np.full(n, tech_name, dtype=object),
-                        "drift_1000h": np.full(n, drift),
-                        "series": np.full(n, series.name, dtype=object),
-                        "source": np.full(n, source, dtype=object),
-                    }
+                    _Block(
+                        prefix=prefix,
+                        values=values,
+                        codes=codes,
+                        tolerance=tolerance,
+                        tempco_per_k=tempco,
+                        size=size,
+                        power_w=power,
+                        max_voltage_v=voltage,
+                        unit_cost=_discrete_cost(cost, factor, premium[tempco]),
+                        technology=tech_name,
+                        drift_1000h=drift,
+                        series=series.name,
+                    )
                 )
     if not blocks:
         return empty_discrete_frame()
-    return _frame(**{name: np.concatenate([b[name] for b in blocks]) for name in DISCRETE_COLUMNS})
+    return _blocks_frame(blocks, source)
+
+
+@dataclass(frozen=True)
+class _Block:
+    """One run of generated discrete parts: a grade in one size and tempco class, at every
+    value of its ladder (``codes`` the RKM code of each value; the id is prefix + code)."""
+
+    prefix: str
+    values: FloatArray
+    codes: Sequence[str]
+    tolerance: float
+    tempco_per_k: float
+    size: str
+    power_w: float
+    max_voltage_v: float
+    unit_cost: float
+    technology: str
+    drift_1000h: float
+    series: str
+
+
+def _blocks_frame(blocks: Sequence[_Block], source: str) -> pd.DataFrame:
+    """The discrete table of generated blocks: each block's attributes repeated over its values
+    and the text columns built as categoricals straight from the blocks (categories in order of
+    first appearance, as factorising the rows would give), without a Python object per row
+    except the ids."""
+    counts = np.array([len(b.values) for b in blocks], dtype=np.int64)
+
+    def repeated(name: str) -> FloatArray:
+        return np.repeat(np.array([getattr(b, name) for b in blocks], dtype=float), counts)
+
+    def categorical(labels: Sequence[str]) -> pd.Categorical:
+        categories = list(
+            dict.fromkeys(label for label, n in zip(labels, counts, strict=True) if n)
+        )
+        code_of = {label: code for code, label in enumerate(categories)}
+        codes = np.array([code_of.get(label, 0) for label in labels], dtype=np.int64)
+        return _from_codes(np.repeat(codes, counts), categories)
+
+    return _frame(
+        part_id=np.array([b.prefix + c for b in blocks for c in b.codes], dtype=object),
+        resistance_ohm=np.concatenate([b.values for b in blocks]),
+        tolerance=repeated("tolerance"),
+        tempco_per_k=repeated("tempco_per_k"),
+        size=categorical([b.size for b in blocks]),
+        power_w=repeated("power_w"),
+        max_voltage_v=repeated("max_voltage_v"),
+        unit_cost=repeated("unit_cost"),
+        stock_qty=np.zeros(int(counts.sum()), dtype=np.int64),
+        technology=categorical([b.technology for b in blocks]),
+        drift_1000h=repeated("drift_1000h"),
+        series=categorical([b.series for b in blocks]),
+        source=categorical([source] * len(blocks)),
+    )
 
 
 def _ratio_values(base: float, ratio: float) -> float:
@@ -853,9 +924,16 @@ def generate_networks(
     return tuple(parts)
 
 
+#: libyaml's safe loader when PyYAML was built with it (ten times faster than the pure-Python
+#: one, and it builds the same objects); the pure-Python loader otherwise.
+_FAST_SAFE_LOADER: Final[type[yaml.SafeLoader] | type[yaml.CSafeLoader]] = getattr(
+    yaml, "CSafeLoader", yaml.SafeLoader
+)
+
+
 def _read_builtin(name: str) -> object:
     text = resources.files("optimizer.catalogs").joinpath(name).read_text(encoding="utf-8")
-    return yaml.safe_load(text)
+    return yaml.load(text, Loader=_FAST_SAFE_LOADER)
 
 
 @functools.cache
@@ -929,6 +1007,8 @@ class _ProblemList:
 
 
 def _is_numeric(cells: pd.Series) -> bool:
+    import pandas as pd
+
     return pd.api.types.is_numeric_dtype(cells.dtype) and not pd.api.types.is_bool_dtype(
         cells.dtype
     )
@@ -960,6 +1040,8 @@ class _Cells:
 
 def _categorical(codes: IntArray, labels: npt.NDArray[np.object_]) -> pd.Categorical:
     """Rows ``labels[codes]`` as a categorical (labels may repeat; unused ones are dropped)."""
+    import pandas as pd
+
     label_codes, categories = pd.factorize(labels)
     categorical = _from_codes(label_codes[codes], [str(c) for c in categories])
     return categorical.remove_unused_categories()
@@ -967,6 +1049,8 @@ def _categorical(codes: IntArray, labels: npt.NDArray[np.object_]) -> pd.Categor
 
 def _factorise(cells: pd.Series) -> _Cells:
     """Factorise a column of text (or of anything, read as text) into :class:`_Cells`."""
+    import pandas as pd
+
     # plain object arrays factorise about twice as fast as pandas' string dtype
     codes, uniques = pd.factorize(cells.to_numpy(dtype=object), use_na_sentinel=True)
     raw = np.asarray(uniques, dtype=object)
@@ -1087,6 +1171,8 @@ def _read_quantity(
     units parser (once per distinct cell text), then the range check vectorised.
 
     ``default`` None makes the column required (an empty cell is a problem)."""
+    import pandas as pd
+
     cells = table.columns[column]
     n = len(cells)
     if _is_numeric(cells):
@@ -1137,6 +1223,8 @@ def _read_ids(
     table: _Table, column: str = "part_id"
 ) -> tuple[npt.NDArray[np.object_], _Problem | None]:
     """Part ids: non-empty text, unique within the file."""
+    import pandas as pd
+
     factor = _factorise(table.columns[column])
     text = factor.rows()
     row = factor.first_row(factor.empty_unique)
@@ -1216,6 +1304,8 @@ def _read_technology(
 
 def _read_stock(table: _Table, column: str = "stock") -> tuple[IntArray, _Problem | None]:
     """Stock: a whole number of zero or more, or yes/no (yes = :data:`STOCK_UNCOUNTED`)."""
+    import pandas as pd
+
     expected = "a whole number of zero or more, or yes/no"
     cells = table.columns[column]
     n = len(cells)
@@ -1376,6 +1466,8 @@ def _check_columns(
 
 
 def _load_csv(path: str) -> tuple[pd.DataFrame, IntArray]:
+    import pandas as pd
+
     header_index, header = _find_header(path)
     names = [h.strip().lower() for h in header]
     header_line = header_index + 1
@@ -1520,6 +1612,8 @@ def _yaml_rows(
 def _yaml_table(
     path: str, node: yaml.Node, section: str, required: Sequence[str], optional: Sequence[str]
 ) -> _Table:
+    import pandas as pd
+
     rows, cells, lines = _yaml_rows(path, node, section, required, optional)
     return _Table(
         path,
@@ -1696,6 +1790,8 @@ class _Located:
 
 
 def _load_located(path: str) -> _Located:
+    import pandas as pd
+
     file = Path(path)
     if not file.exists():
         raise CatalogError("cannot open the file: no such file", path=path)
@@ -1776,6 +1872,8 @@ def load_catalogs(paths: Sequence[str], include_builtin: bool = True) -> Catalog
 def _first_common(ids: npt.NDArray[np.object_], others: npt.NDArray[np.object_]) -> str | None:
     """The first id of ``ids`` (in order) that is also in ``others``; None if there is none.
     The hash table is built on the smaller side."""
+    import pandas as pd
+
     if len(ids) == 0 or len(others) == 0:
         return None
     if len(others) <= len(ids):
@@ -1799,6 +1897,8 @@ def _concat(first: Catalog, second: Catalog) -> Catalog:
 def _concat_frames(first: pd.DataFrame, second: pd.DataFrame) -> pd.DataFrame:
     """Rows of both discrete tables; categorical columns are united without going through
     text, so adding a million-row file to the built-in catalog stays cheap."""
+    from pandas.api.types import union_categoricals
+
     if len(first) == 0:
         return second
     if len(second) == 0:
