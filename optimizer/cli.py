@@ -271,9 +271,7 @@ def _add_pick_command(commands: argparse._SubParsersAction[_Parser]) -> None:
         "--top", type=_whole_number(1), metavar="N",
         help="how many designs to rank (default: the spec's alternatives)",
     )  # fmt: skip
-    pick.add_argument(
-        "--stock-only", action="store_true", help="use only parts in house stock"
-    )
+    pick.add_argument("--stock-only", action="store_true", help="use only parts in house stock")
     pick.add_argument(
         "--objective", choices=[o.value for o in Objective],
         help="what to rank by (default: the spec's objective)",
@@ -292,7 +290,6 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
 
     from .analysis.checks import safety_cautions
     from .report.pick import build_pick_report, pick_json_text, pick_to_json, render_pick
-    from .solve.diagnose import diagnose
     from .solve.search import SearchStatus, pick, with_objective
     from .spec import Objective, StockPolicy
     from .specfile import load_spec
@@ -311,6 +308,8 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
     result = pick(spec, catalog, verify, top=top, time_limit_s=args.time_limit)
     diagnosis = None
     if result.status is SearchStatus.INFEASIBLE:
+        from .solve.diagnose import diagnose
+
         limit = min(DIAGNOSIS_TIME_LIMIT_S, args.time_limit)
         diagnosis = diagnose(spec, catalog, verify, time_limit_s=limit)
     report = build_pick_report(
@@ -380,11 +379,13 @@ def _refuse_existing_outputs(args: argparse.Namespace) -> None:
     one file is named for two outputs, or a report has an extension other than .md or .html."""
     import os
 
-    from .report.exports import report_format
     from .safewrite import OutputError
 
-    if args.report is not None and report_format(args.report) is None:
-        raise OutputError(f"{args.report}: a report file must end in .md or .html")
+    if args.report is not None:
+        from .report.exports import report_format
+
+        if report_format(args.report) is None:
+            raise OutputError(f"{args.report}: a report file must end in .md or .html")
     seen: dict[str, str] = {}
     for path in _export_paths(args):
         real = os.path.realpath(path)
@@ -578,7 +579,9 @@ def _sweep(args: argparse.Namespace, console: Console) -> int:
 # ---------------------------------------------------------------------------------------------
 
 
-def main(argv: Sequence[str] | None = None, *, console: Console | None = None, err: Console | None = None) -> int:
+def main(
+    argv: Sequence[str] | None = None, *, console: Console | None = None, err: Console | None = None
+) -> int:
     """Run the command line; returns the exit code instead of exiting."""
     out = console or _output_console()
     errors = err or Console(stderr=True)

@@ -39,7 +39,6 @@ from ..spec import Spec
 from ..units import format_fraction, format_resistance, format_tempco
 from ..verify import Verification
 from .check import _db, _pct, label_of
-from .pick import TABLE_COLUMNS
 
 __all__ = [
     "BOM_COLUMNS",
@@ -348,6 +347,8 @@ def pick_blocks(
     rows: Sequence[tuple[int, Design, float, Verification]], spec: Spec, status: str
 ) -> list[Block]:
     """The ranked table of a pick: ``rows`` of (rank, design, total cost, verification)."""
+    from .pick import TABLE_COLUMNS  # here, so that ``quartet check`` does not load the solver
+
     table_rows = []
     for rank, design, cost, verification in rows:
         mc = verification.monte_carlo

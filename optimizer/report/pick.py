@@ -45,7 +45,7 @@ from __future__ import annotations
 import time
 from collections.abc import Sequence
 from dataclasses import dataclass, replace
-from typing import Any, Final
+from typing import TYPE_CHECKING, Any, Final
 
 from rich.console import Group, RenderableType
 from rich.table import Table
@@ -56,7 +56,6 @@ from ..analysis.montecarlo import monte_carlo
 from ..cost import CostBreakdown
 from ..design import Design, Placement, Topology
 from ..parts import NetworkPart
-from ..solve.diagnose import Diagnosis
 from ..solve.search import MAX_CUTS, PickResult, SearchStatus
 from ..spec import CmrrBasis, Spec
 from ..units import format_fraction, format_quantity, format_resistance, format_tempco
@@ -72,6 +71,9 @@ from .check import (
     label_of,
     render_check,
 )
+
+if TYPE_CHECKING:  # the diagnosis module is imported only when a pick finds nothing
+    from ..solve.diagnose import Diagnosis
 
 __all__ = [
     "SCHEMA",
