@@ -24,15 +24,12 @@ from numpy.typing import NDArray
 from ..catalog import Catalog
 from ..spec import CmrrBasis, Spec, StockPolicy
 from .environment import LinearEnvironment, life_drift, series_impedance
-from .options import log_deviation, position_noise, variance
+from .options import RATING_RELAXATION, log_deviation, position_noise, variance
 
 __all__ = ["DiscreteBlock", "build_discrete"]
 
 #: Ratings this far above the estimated stress count as equally good when comparing classes.
 SAFE_RATING = 1.5
-#: A rating must cover this fraction of the estimated stress (a relaxation: the exact check
-#: verifies the real stress of the chosen design).
-RATING_RELAXATION = 0.97
 
 
 @dataclass(frozen=True)
@@ -42,8 +39,7 @@ class DiscreteBlock:
     ``values``: (K,) distinct resistances in ohms, ascending; per class (C,): ``cost`` (with
     placement cost and stock penalty), ``own`` (log deviation, worst-case side), ``var``
     (variance), ``tolerance``; ``avail[i][c]``: value indices where class c may sit at position
-    i (empty: not usable there); ``part_row[(c, k)]``: the catalog row of that part;
-    ``part_id[(c, k)]``: its id."""
+    i (empty: not usable there); ``part_row[c, k]``: the catalog row of that part (−1: none)."""
 
     values: NDArray[np.float64]
     cost: NDArray[np.float64]
@@ -52,8 +48,7 @@ class DiscreteBlock:
     tolerance: NDArray[np.float64]
     swing: NDArray[np.float64]
     avail: tuple[tuple[NDArray[np.int64], ...], ...]
-    part_row: dict[tuple[int, int], int]
-    part_id: dict[tuple[int, int], str]
+    part_row: NDArray[np.int64]
 
     @property
     def class_count(self) -> int:
@@ -72,8 +67,9 @@ class DiscreteBlock:
 def _empty() -> DiscreteBlock:
     none: tuple[tuple[NDArray[np.int64], ...], ...] = tuple(() for _ in range(4))
     return DiscreteBlock(
-        np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0), none, {}, {}
-    )
+        np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0), none,
+        np.zeros((0, 0), dtype=np.int64),
+    )  # fmt: skip
 
 
 def build_discrete(catalog: Catalog, spec: Spec, env: LinearEnvironment) -> DiscreteBlock:
@@ -115,13 +111,10 @@ def build_discrete(catalog: Catalog, spec: Spec, env: LinearEnvironment) -> Disc
     pair = class_of[order].astype(np.int64) * values.size + value_of[order]
     first = np.r_[True, pair[1:] != pair[:-1]]
     chosen = order[first]
-    part_row = {(int(class_of[i]), int(value_of[i])): int(rows[i]) for i in chosen}
-    part_id = {(int(class_of[i]), int(value_of[i])): str(ids[i]) for i in chosen}
     n_classes = len(classes)
-    at_value = [[] for _ in range(n_classes)]  # type: list[list[int]]
-    for c, k in part_row:
-        at_value[c].append(k)
-    class_values = [np.array(sorted(ks), dtype=np.int64) for ks in at_value]
+    part_row = np.full((n_classes, values.size), -1, dtype=np.int64)
+    part_row[class_of[chosen], value_of[chosen]] = rows[chosen]
+    class_values = [np.flatnonzero(part_row[c] >= 0) for c in range(n_classes)]
 
     t = classes["t"].to_numpy(float)
     tc = classes["tc"].to_numpy(float) * env.delta_t_k
@@ -162,7 +155,6 @@ def build_discrete(catalog: Catalog, spec: Spec, env: LinearEnvironment) -> Disc
         swing=t + tc,
         avail=tuple(avail),
         part_row=part_row,
-        part_id=part_id,
     )
 
 
@@ -180,39 +172,57 @@ def _drop_dominated(
     dominates at this position: no more expensive, no wider spread, stocked if it is, and rated
     no worse (ratings above SAFE_RATING × the stress count as equal). Equal classes keep the
     first. Swapping a dominated part for its dominator at every position it fills keeps cost,
-    lines and every check at least as good, so nothing better is lost. O(n log n) plus the
-    comparisons inside each value's group."""
-    classes = [np.full(ks.size, c, dtype=np.int64) for c, ks in enumerate(usable) if ks.size]
-    if not classes:
+    lines and every check at least as good, so nothing better is lost.
+
+    Only the power rating's comparison depends on the value (the stress needs ``V²/R``), so the
+    other attributes are compared once per class pair and the power term per value, one
+    dominated class at a time over all values at once: O(C²·K) vector work for C classes and K
+    values. "Earlier" (which of two equal classes survives) is the lexicographic order of
+    (cost, spread, power term, voltage term, stock term, class index)."""
+    n_classes = cost.size
+    avail = np.zeros((values.size, n_classes), dtype=bool)
+    for c, ks in enumerate(usable):
+        avail[ks, c] = True
+    present = np.flatnonzero(avail.any(axis=0))
+    if present.size < 2:
         return usable
-    cls = np.concatenate(classes)
-    val = np.concatenate([ks for ks in usable if ks.size])
-    need_p = stress**2 / values[val]
-    attrs = np.column_stack(
-        [
-            cost[cls],
-            spread[cls],
-            -np.minimum(power[cls], SAFE_RATING * need_p),
-            -np.minimum(volts[cls], SAFE_RATING * stress),
-            -stocked[cls].astype(float),
-            cls.astype(float),  # tie-break: the first class wins among equals
-        ]
-    )
-    order = np.lexsort(tuple(attrs[:, i] for i in range(attrs.shape[1] - 1, -1, -1)) + (val,))
-    cls, val, attrs = cls[order], val[order], attrs[order]
-    keep = np.ones(cls.size, dtype=bool)
-    starts = np.flatnonzero(np.r_[True, val[1:] != val[:-1]])
-    ends = np.r_[starts[1:], val.size]
-    for start, end in zip(starts[ends - starts > 1], ends[ends - starts > 1], strict=True):
-        group = attrs[start:end, :-1]
-        # Rows are sorted by cost first: a row is dominated by an earlier one that is no worse.
-        no_worse = np.all(group[None, :, :] <= group[:, None, :] + 1e-15, axis=2)
-        earlier = np.tri(end - start, k=-1, dtype=bool)
-        keep[start:end] = ~np.any(no_worse & earlier, axis=1)
-    result: list[list[int]] = [[] for _ in usable]
-    for c, k in zip(cls[keep].tolist(), val[keep].tolist(), strict=True):
-        result[c].append(k)
-    return [np.array(sorted(ks), dtype=np.int64) for ks in result]
+    cap = SAFE_RATING * stress**2 / values
+    power_term = -np.minimum(power[None, :], cap[:, None])  # (K, C); lower is better
+    before = np.column_stack([cost, spread])  # compared before the power term
+    after = np.column_stack(
+        [-np.minimum(volts, SAFE_RATING * stress), -stocked.astype(float)]
+    )  # compared after it (then the class index)
+    static = np.column_stack([before, after])
+    result = [ks.copy() for ks in usable]
+    for b in present:
+        a = present[present != b]
+        a = a[np.all(static[a] <= static[b] + 1e-15, axis=1)]
+        if a.size == 0:
+            continue
+        rows = np.flatnonzero(avail[:, b])
+        lt_before, eq_before = _lex_less(before[a], before[b])
+        lt_after, _ = _lex_less(np.column_stack([after[a], a]), np.r_[after[b], b])
+        pa = power_term[np.ix_(rows, a)]
+        pb = power_term[rows, b][:, None]
+        earlier = lt_before | (eq_before & ((pa < pb) | ((pa == pb) & lt_after)))
+        beaten = np.any(avail[np.ix_(rows, a)] & (pa <= pb + 1e-15) & earlier, axis=1)
+        if beaten.any():
+            keep = avail[:, b].copy()
+            keep[rows[beaten]] = False
+            result[b] = np.flatnonzero(keep)
+    return result
+
+
+def _lex_less(
+    rows: NDArray[np.float64], key: NDArray[np.float64]
+) -> tuple[NDArray[np.bool_], NDArray[np.bool_]]:
+    """Per row of ``rows``: (row < key lexicographically, row == key)."""
+    less = np.zeros(rows.shape[0], dtype=bool)
+    equal = np.ones(rows.shape[0], dtype=bool)
+    for j in range(rows.shape[1]):
+        less |= equal & (rows[:, j] < key[j])
+        equal &= rows[:, j] == key[j]
+    return less, equal
 
 
 def value_constants(

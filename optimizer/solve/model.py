@@ -185,23 +185,34 @@ class _Sum:
 
     def __init__(self) -> None:
         self.literals: list[cp_model.IntVar] = []
-        self.coefficients: list[float] = []
+        self.chunks: list[NDArray[np.float64]] = []
 
     def add(
         self, literals: list[cp_model.IntVar], coefficients: NDArray[np.float64] | list[float]
     ) -> None:
         self.literals.extend(literals)
-        self.coefficients.extend(float(c) for c in coefficients)
+        self.chunks.append(np.asarray(coefficients, dtype=float).reshape(-1))
 
     def expr(self, scale: float, rounding: str = "nearest") -> cp_model.LinearExpr:
-        values = np.asarray(self.coefficients, dtype=float) * scale
+        values = (np.concatenate(self.chunks) if self.chunks else np.zeros(0)) * scale
         if rounding == "floor":
-            ints = [int(v) for v in np.floor(values)]
+            ints = _as_ints(np.floor(values))
         elif rounding == "ceil":
-            ints = [int(v) for v in np.ceil(values)]
+            ints = _as_ints(np.ceil(values))
         else:
-            ints = [int(v) for v in np.rint(values)]
+            ints = _as_ints(np.rint(values))
         return cp_model.LinearExpr.weighted_sum(self.literals, ints)
+
+
+def _total(literals: list[cp_model.IntVar]) -> cp_model.LinearExprT:
+    """Σ literals (0 when there are none, as Python's ``sum`` gives), built in one call."""
+    return cp_model.LinearExpr.sum(literals) if literals else 0
+
+
+def _as_ints(values: NDArray[np.float64]) -> list[int]:
+    """Whole-valued floats as Python ints (the coefficients CP-SAT takes)."""
+    ints: list[int] = values.astype(np.int64).tolist()
+    return ints
 
 
 def build_model(
@@ -256,10 +267,12 @@ def build_model(
         )
         value.append({int(k): model.new_bool_var(f"v{position}_{k}") for k in ks})
         grade.append({c: model.new_bool_var(f"g{position}_{c}") for c in cs})
-        values_sum = sum(value[position].values())
-        model.add(sum(grade[position].values()) == values_sum)
+        values_sum = _total(list(value[position].values()))
+        model.add(_total(list(grade[position].values())) == values_sum)
         for c, lit in grade[position].items():
-            model.add(lit <= sum(value[position][int(k)] for k in block.avail[position][c]))
+            model.add(
+                lit <= _total([value[position][k] for k in block.avail[position][c].tolist()])
+            )
         placed.append(values_sum)
 
     # Topology selection and exact cover.
@@ -267,12 +280,12 @@ def build_model(
     model.add_exactly_one(t.values())
     for position in range(4):
         covering = [x[i] for i in np.flatnonzero(options.covers[:, position])]
-        model.add(sum(covering) + placed[position] == 1)
+        model.add(_total(covering) + placed[position] == 1)
     quads = [x[i] for i in np.flatnonzero(kinds == 4)]
-    model.add(sum(quads) == t.get(Topology.QUAD, 0))
+    model.add(_total(quads) == t.get(Topology.QUAD, 0))
     mixed = {s: model.new_bool_var(f"mixed{s}") for s in range(len(ALL_SHAPES))}
     if Topology.PAIR_PLUS_DISCRETE in t:
-        model.add(sum(mixed.values()) == t[Topology.PAIR_PLUS_DISCRETE])
+        model.add(_total(list(mixed.values())) == t[Topology.PAIR_PLUS_DISCRETE])
     else:
         for var in mixed.values():
             model.add(var == 0)
@@ -280,7 +293,7 @@ def build_model(
         pairs = [x[i] for i in np.flatnonzero((kinds == 2) & (options.shape == s))]
         fixed = t.get(Topology.EQUAL_PAIRS, 0) if shape in EQUAL_SHAPES else 0
         fixed = t.get(Topology.DIVIDER_PAIRS, 0) if shape in DIVIDER_SHAPES else fixed
-        model.add(sum(pairs) == fixed + mixed[s])
+        model.add(_total(pairs) == fixed + mixed[s])
     model.add(
         sum(placed) == 4 * t.get(Topology.DISCRETE, 0) + 2 * t.get(Topology.PAIR_PLUS_DISCRETE, 0)
     )
@@ -301,6 +314,22 @@ def build_model(
             if ks:
                 acc.add([value[position][k] for k in ks], coef[position] * phi[ks, v, position])
         return acc
+
+    bands: dict[tuple[int, bytes], cp_model.IntVar] = {}
+
+    def band_literal(
+        position: int,
+        ks: list[int],
+        members_at: NDArray[np.int64],
+        values: list[cp_model.IntVar],
+    ) -> cp_model.IntVar:
+        """The literal "the value at ``position`` is one of these" (made once per set)."""
+        key = (position, np.asarray(ks, dtype=np.int64)[members_at].tobytes())
+        if key not in bands:
+            lit = model.new_bool_var(f"band{position}_{len(bands)}")
+            model.add(lit == _total([values[m] for m in members_at.tolist()]))
+            bands[key] = lit
+        return bands[key]
 
     def spread(
         coef: NDArray[np.float64], v: int | tuple[int, ...], of_variance: bool, scale: float
@@ -337,30 +366,36 @@ def build_model(
             if y_hi - y_lo <= 1e-12 * y_hi:
                 terms.append(
                     cp_model.LinearExpr.weighted_sum(
-                        grades, [int(v_) for v_ in np.floor(class_term * y_lo * scale)]
+                        grades, _as_ints(np.floor(class_term * y_lo * scale))
                     )
                 )
                 continue
             bound = model.new_int_var(
                 0, 10**15, f"w{position}_{'_'.join(map(str, vs))}_{int(of_variance)}"
             )
-            placed_here = sum(values)
             band_of = np.digitize(f, BAND_EDGES)
-            for band in np.unique(band_of):
-                members = [lit for lit, b_ in zip(values, band_of, strict=False) if b_ == band]
-                y_band = float(f[band_of == band].min())
+            order = np.argsort(band_of, kind="stable")  # members keep their value order
+            _, starts = np.unique(band_of[order], return_index=True)
+            groups = np.split(order, starts[1:])
+            # One literal per band (shared by every bound that splits the values alike): "a
+            # value of this band is chosen". The bands partition the values, so their sum is
+            # "a part is placed here", and each bound has one term per band, not per value.
+            in_band = [band_literal(position, ks, members_at, values) for members_at in groups]
+            placed_here = _total(in_band)
+            for members_at, chosen in zip(groups, in_band, strict=True):
+                y_band = float(f[members_at].min())
                 # bound ≥ X·y_band when a value of this band is chosen (vacuous otherwise).
                 relax = math.ceil(x_hi * y_band * scale)
                 model.add(
                     bound
                     >= cp_model.LinearExpr.weighted_sum(
-                        grades, [int(c_) for c_ in np.floor(class_term * y_band * scale)]
+                        grades, _as_ints(np.floor(class_term * y_band * scale))
                     )
-                    + relax * sum(members)
+                    + relax * chosen
                     - relax * placed_here
                 )
             terms.append(bound)
-        return sum(terms)  # type: ignore[return-value]
+        return _total(terms)  # type: ignore[return-value,arg-type]
 
     budget = math.floor(limits.cmrr_budget * LOG_SCALE) if limits.cmrr_budget > 0 else -1
     worst_margin = model.new_int_var(-(10**13), 10**13, "worst_margin")
@@ -435,6 +470,7 @@ def build_model(
             value,
             options,
             phi,
+            _LeastSpread(block, grade, fraction, yield_basis),
             spec,
             limits,
             sides,
@@ -556,6 +592,75 @@ def _halves(allowed: set[Topology], variant: ModelVariant) -> tuple[object, tupl
     return None
 
 
+#: Absolute allowance (natural-log units) when comparing a pair's need plus its least spread
+#: with the budget: keeps rounding from removing a pair that sits exactly at the limit.
+FLOOR_TOLERANCE = 1e-9
+
+
+class _LeastSpread:
+    """The least spread a choice of one half can bring, whatever grades are picked.
+
+    For a discrete part of value k at position p the worst-case deviation of a linear form
+    Σ cᵢ·φᵢ is |c_p|·f·own_c (variance: c_p²·f²·var_c), with f = R/(R + rs) at the vertex
+    (``options``: own = Σ ln(1 + xₖ), var = Σ (xₖ/k)² or xₖ²/3). Its least value over the
+    classes c the model keeps at p for value k, and over the vertices ``vs`` (f is smallest
+    there), is a lower bound on that part's term in ``spread`` at any of those vertices. For a
+    network option it is the option's own least spread over ``vs`` (its w or s constants)."""
+
+    def __init__(
+        self,
+        block: DiscreteBlock,
+        grade: list[dict[int, cp_model.IntVar]],
+        fraction: NDArray[np.float64],
+        of_variance: bool,
+    ) -> None:
+        self.fraction = fraction
+        self.of_variance = of_variance
+        per_class = block.var if of_variance else block.own
+        self.least: list[NDArray[np.float64]] = []
+        for position in range(4):
+            least = np.full(block.values.size, np.inf)
+            for c in grade[position]:
+                ks = block.avail[position][c]
+                np.minimum.at(least, ks, per_class[c])
+            self.least.append(least)
+
+    def pairs(
+        self,
+        keys: NDArray[np.int64],
+        positions: tuple[int, int],
+        coef: NDArray[np.float64],
+        vs: tuple[int, ...],
+    ) -> NDArray[np.float64]:
+        """Per value pair (k_i, k_j) (rows of ``keys``) at ``positions``: the least spread of
+        the two parts."""
+        index = keys.reshape(-1, 2)
+        total = np.zeros(index.shape[0])
+        if not vs:
+            return total
+        for column, position in enumerate(positions):
+            f = self.fraction[:, list(vs), position].min(axis=1)
+            if self.of_variance:
+                term = coef[position] ** 2 * f**2 * self.least[position]
+            else:
+                term = abs(coef[position]) * f * self.least[position]
+            total += term[index[:, column]]
+        return total
+
+    def options(
+        self, options: OptionTable, members: NDArray[np.int64], delta: bool, vs: tuple[int, ...]
+    ) -> NDArray[np.float64]:
+        """Per network option in ``members``: its least spread over the vertices ``vs``."""
+        if not vs:
+            return np.zeros(members.size)
+        if self.of_variance:
+            table = options.s_delta if delta else options.s_gain
+        else:
+            table = options.w_delta if delta else options.w_gain
+        least: NDArray[np.float64] = table[np.ix_(members, list(vs))].min(axis=1)
+        return least
+
+
 def _couple_halves(
     model: cp_model.CpModel,
     halves: tuple[object, tuple[int, int]],
@@ -563,6 +668,7 @@ def _couple_halves(
     value: list[dict[int, cp_model.IntVar]],
     options: OptionTable,
     phi: NDArray[np.float64],
+    least: _LeastSpread,
     spec: Spec,
     limits: Limits,
     sides: ExtremeVertices,
@@ -581,7 +687,14 @@ def _couple_halves(
     and likewise for the other half. Unlike the sum constraint |Σ δ| + spread ≤ B, whose LP
     relaxation can average mismatches of opposite sign to zero, these bound the spread by the
     chosen choice's own best case, which keeps the LP bound close to the integer optimum.
-    Value pairs that reach no partner within the budget are removed."""
+    Value pairs that reach no partner within the budget are removed.
+
+    A pair (a, b) only counts as reachable when its mismatch leaves room for the least spread
+    its own values allow (``_LeastSpread``): need(a, b) + W_a + W_b ≤ B and W'_a + W'_b ≤ room
+    (worst case), or z²·(S_a + S_b) ≤ (B − need)² and z²·(S'_a + S'_b) ≤ room² (yield), with W
+    (S) the least worst-case deviation (variance) of the pair's parts over the model's vertices.
+    The model's own spread constraints imply these, so the model stays a relaxation; checking
+    them here removes pairs (and often whole streams) before CP-SAT sees them."""
     req = spec.requirements
     cg = gain_coefficients(req.gain)
     high, low = list(sides.delta_high), list(sides.delta_low)
@@ -597,64 +710,87 @@ def _couple_halves(
     def discrete_side(
         positions: tuple[int, int],
         keep: Callable[[NDArray[np.float64], NDArray[np.float64]], NDArray[np.bool_]],
-    ) -> tuple[list[tuple[int, int]], NDArray[np.float64], NDArray[np.float64]]:
+        coarse: Callable[[NDArray[np.float64], NDArray[np.float64]], NDArray[np.bool_]]
+        | None = None,
+    ) -> tuple[NDArray[np.int64], NDArray[np.float64], NDArray[np.float64]]:
         """Value pairs (ki, kj) that ``keep`` accepts, given their δ and γ contributions at
-        every vertex (arrays (n, V)); returns the pairs and those contributions."""
+        every vertex (arrays (n, V)); returns the pairs ((n, 2) value indices) and those
+        contributions. ``coarse``, when given, sees only each pair's δ at the reference vertex
+        and an upper bound on its vertex-to-vertex swing (the sum of the two parts' swings,
+        which bounds the swing of their sum) and must accept every pair ``keep`` accepts; the
+        full contributions are then computed for its survivors only."""
         i, j = positions
         ki = np.array(sorted(value[i]), dtype=np.int64)
         kj = np.array(sorted(value[j]), dtype=np.int64)
         empty = np.zeros((0, n_vertices))
         if ki.size == 0 or kj.size == 0:
-            return [], empty, empty
+            return np.zeros((0, 2), dtype=np.int64), empty, empty
         phi_i, phi_j = phi[ki, :, i], phi[kj, :, j]
-        rows = max(1, int(2_000_000 // (kj.size * n_vertices)))
+        swing_i = abs(C_DELTA[i]) * spread_of(phi_i)
+        swing_j = abs(C_DELTA[j]) * spread_of(phi_j)
+        width = kj.size * (1 if coarse is not None else n_vertices)
+        rows = max(1, int(2_000_000 // width))
         firsts: list[NDArray[np.int64]] = []
         seconds: list[NDArray[np.int64]] = []
         deltas: list[NDArray[np.float64]] = []
         gains: list[NDArray[np.float64]] = []
         for start in range(0, ki.size, rows):
             block_i = phi_i[start : start + rows]
-            dl = (C_DELTA[i] * block_i[:, None, :] + C_DELTA[j] * phi_j[None, :, :]).reshape(
-                -1, n_vertices
-            )
-            gm = (cg[i] * block_i[:, None, :] + cg[j] * phi_j[None, :, :]).reshape(-1, n_vertices)
+            if coarse is not None:
+                q = (C_DELTA[i] * block_i[:, None, ref] + C_DELTA[j] * phi_j[None, :, ref]).reshape(
+                    -1
+                )
+                bound = (swing_i[start : start + rows, None] + swing_j[None, :]).reshape(-1)
+                flat = np.flatnonzero(coarse(q, bound))
+                if flat.size == 0:
+                    continue
+                first_at, second_at = start + flat // kj.size, flat % kj.size
+                dl = C_DELTA[i] * phi_i[first_at] + C_DELTA[j] * phi_j[second_at]
+                gm = cg[i] * phi_i[first_at] + cg[j] * phi_j[second_at]
+            else:
+                dl = (C_DELTA[i] * block_i[:, None, :] + C_DELTA[j] * phi_j[None, :, :]).reshape(
+                    -1, n_vertices
+                )
+                gm = (cg[i] * block_i[:, None, :] + cg[j] * phi_j[None, :, :]).reshape(
+                    -1, n_vertices
+                )
+                flat = np.arange(dl.shape[0])
+                first_at, second_at = start + flat // kj.size, flat % kj.size
             mask = keep(dl, gm)
             if not mask.any():
                 continue
-            flat = np.flatnonzero(mask)
-            firsts.append(ki[start + flat // kj.size])
-            seconds.append(kj[flat % kj.size])
-            deltas.append(dl[flat])
-            gains.append(gm[flat])
+            firsts.append(ki[first_at[mask]])
+            seconds.append(kj[second_at[mask]])
+            deltas.append(dl[mask])
+            gains.append(gm[mask])
         if not firsts:
-            return [], empty, empty
-        first_k, second_k = np.concatenate(firsts), np.concatenate(seconds)
-        return (
-            list(zip(first_k.tolist(), second_k.tolist(), strict=False)),
-            np.concatenate(deltas),
-            np.concatenate(gains),
-        )
+            return np.zeros((0, 2), dtype=np.int64), empty, empty
+        keys = np.column_stack([np.concatenate(firsts), np.concatenate(seconds)])
+        return keys, np.concatenate(deltas), np.concatenate(gains)
 
     def spread_of(contributions: NDArray[np.float64]) -> NDArray[np.float64]:
         return np.asarray(contributions.max(axis=1) - contributions.min(axis=1), dtype=float)
 
     def b_keep(
         a_delta: NDArray[np.float64],
-    ) -> Callable[[NDArray[np.float64], NDArray[np.float64]], NDArray[np.bool_]]:
+    ) -> tuple[
+        Callable[[NDArray[np.float64], NDArray[np.float64]], NDArray[np.bool_]],
+        Callable[[NDArray[np.float64], NDArray[np.float64]], NDArray[np.bool_]],
+    ]:
         """Second half: some a must satisfy need(a, b) ≤ B, which requires δ_ref = q_a + q_b in
         [−B − swing_a − swing_b, B] at the reference (high) vertex (see the join below)."""
         centres = np.sort(a_delta[:, ref])
         swing_a_max = float(spread_of(a_delta).max())
 
-        def keep(dl: NDArray[np.float64], gm: NDArray[np.float64]) -> NDArray[np.bool_]:
-            q = dl[:, ref]
-            lo = np.searchsorted(
-                centres, -q - budget - swing_a_max - spread_of(dl) - 1e-12, side="left"
-            )
+        def window(q: NDArray[np.float64], swing: NDArray[np.float64]) -> NDArray[np.bool_]:
+            lo = np.searchsorted(centres, -q - budget - swing_a_max - swing - 1e-12, side="left")
             hi = np.searchsorted(centres, -q + budget + 1e-12, side="right")
-            return hi > lo
+            return np.asarray(hi > lo)
 
-        return keep
+        def keep(dl: NDArray[np.float64], gm: NDArray[np.float64]) -> NDArray[np.bool_]:
+            return window(dl[:, ref], spread_of(dl))
+
+        return keep, window
 
     h = 1.0 / (2.0 * (1.0 + req.gain))
     a_lits: list[cp_model.IntVar] | None = None
@@ -663,7 +799,7 @@ def _couple_halves(
     swing_b = (
         float(spread_of(phi[:, :, i2]).max() + spread_of(phi[:, :, j2]).max()) if phi.size else 0.0
     )
-    b_keys: list[tuple[int, int]] = []
+    b_keys = np.zeros((0, 2), dtype=np.int64)
     b_delta = b_gain = np.zeros((0, n_vertices))
     for _ in range(3):
         if isinstance(first, tuple):
@@ -685,16 +821,16 @@ def _couple_halves(
                 return
         else:
             members = np.flatnonzero(usable & (options.kind == 2) & (options.shape == first))
-            a_keys = [(int(i), -1) for i in members]
+            a_keys = np.column_stack([members, np.full(members.size, -1)])
             a_delta, a_gain = options.delta[members], options.gain[members]
             a_lits = [x[i] for i in members]
-        if not a_keys:
+        if len(a_keys) == 0:
             model.add_bool_or([])
             return
-        b_keys, b_delta, b_gain = discrete_side(second, b_keep(a_delta))
+        b_keys, b_delta, b_gain = discrete_side(second, *b_keep(a_delta))
         if len(b_keys) > MAX_HALF_PAIRS:
             return
-        if not b_keys:
+        if len(b_keys) == 0:
             model.add_bool_or([])
             return
         new_swing = float(spread_of(b_delta).max())
@@ -703,6 +839,18 @@ def _couple_halves(
         swing_b = new_swing
     swing_a = spread_of(a_delta)
     swing_b = float(spread_of(b_delta).max())
+    yield_basis = req.cmrr_basis is CmrrBasis.YIELD
+    z = limits.z if yield_basis else 1.0
+    vertices = tuple(sorted(set(high + low)))
+    gain_vertices = tuple(sorted(set(gain_high + gain_low)))
+    if a_lits is None:
+        floor_a = least.pairs(a_keys, first, C_DELTA, vertices)  # type: ignore[arg-type]
+        gain_floor_a = least.pairs(a_keys, first, cg, gain_vertices)  # type: ignore[arg-type]
+    else:
+        floor_a = least.options(options, members, True, vertices)
+        gain_floor_a = least.options(options, members, False, gain_vertices)
+    floor_b = least.pairs(b_keys, second, C_DELTA, vertices)
+    gain_floor_b = least.pairs(b_keys, second, cg, gain_vertices)
 
     m_a = np.full(len(a_keys), np.inf)
     r_a = np.full(len(a_keys), -np.inf)
@@ -732,7 +880,19 @@ def _couple_halves(
             room = np.minimum(room, upper - (a_gain[index, v] + b_gain[idx, v]))
         for v in gain_low:
             room = np.minimum(room, (a_gain[index, v] + b_gain[idx, v]) - lower)
-        ok = (need <= budget) & (room >= 0.0)
+        floor = floor_a[index] + floor_b[idx]
+        gain_floor = gain_floor_a[index] + gain_floor_b[idx]
+        if yield_basis:
+            ok = (
+                (need <= budget)
+                & (room >= 0.0)
+                & (z * np.sqrt(floor) <= budget - need + FLOOR_TOLERANCE)
+                & (z * np.sqrt(gain_floor) <= room + FLOOR_TOLERANCE)
+            )
+        else:
+            ok = (need + floor <= budget + FLOOR_TOLERANCE) & (
+                room - gain_floor >= -FLOOR_TOLERANCE
+            )
         if not ok.any():
             continue
         need_ok = np.where(ok, need, np.inf)
@@ -743,24 +903,29 @@ def _couple_halves(
         r_b[idx] = np.maximum(r_b[idx], room_ok)
 
     def side_literals(
-        keys: list[tuple[int, int]], positions: tuple[int, int], alive: NDArray[np.bool_]
+        keys: NDArray[np.int64], positions: tuple[int, int], alive: NDArray[np.bool_]
     ) -> list[cp_model.IntVar | None]:
         """One literal per live value pair, linked to the value literals of its two positions;
         value literals with no live pair are fixed to false."""
         i, j = positions
-        lits: list[cp_model.IntVar | None] = []
-        by_value: dict[tuple[int, int], list[cp_model.IntVar]] = {}
-        for (ki, kj), live in zip(keys, alive, strict=False):
-            if not live:
-                lits.append(None)
-                continue
-            lit = model.new_bool_var(f"h{i}{j}_{ki}_{kj}")
-            lits.append(lit)
-            by_value.setdefault((i, ki), []).append(lit)
-            by_value.setdefault((j, kj), []).append(lit)
-        for position in positions:
+        lits: list[cp_model.IntVar | None] = [None] * len(keys)
+        live_at = np.flatnonzero(alive)
+        made = [model.new_bool_var(f"h{i}{j}_{ki}_{kj}") for ki, kj in keys[live_at].tolist()]
+        for at, lit in zip(live_at.tolist(), made, strict=True):
+            lits[at] = lit
+        for column, position in enumerate(positions):
+            owner = keys[live_at, column]
+            order = np.argsort(owner, kind="stable")  # pairs keep their order within a value
+            owners, starts = np.unique(owner[order], return_index=True)
+            groups = (
+                dict(zip(owners.tolist(), np.split(order, starts[1:]), strict=True))
+                if owner.size
+                else {}
+            )
             for k, var in value[position].items():
-                model.add(var == sum(by_value.get((position, k), [])))
+                members = groups.get(k)
+                chosen = [] if members is None else [made[m] for m in members.tolist()]
+                model.add(var == _total(chosen))
         return lits
 
     alive_a = np.isfinite(m_a)
@@ -773,10 +938,6 @@ def _couple_halves(
             if not live:
                 model.add(lit == 0)
     b_side = side_literals(b_keys, second, alive_b)
-    yield_basis = req.cmrr_basis is CmrrBasis.YIELD
-    z = limits.z if yield_basis else 1.0
-    vertices = tuple(sorted(set(high + low)))
-    gain_vertices = tuple(sorted(set(gain_high + gain_low)))
     for lits, m, r in ((a_side, m_a, r_a), (b_side, m_b, r_b)):
         live = [(lit, mi, ri) for lit, mi, ri in zip(lits, m, r, strict=False) if lit is not None]
         if not live:
@@ -1017,7 +1178,7 @@ def _cost_expression(
                 list(grade[position].values()), list(grade[position].keys())
             )
         )
-        used.append(sum(value[position].values()))
+        used.append(_total(list(value[position].values())))
     repeats = []
     for i in range(1, 4):
         same_any = []
@@ -1034,7 +1195,7 @@ def _cost_expression(
             same_any.append(same)
         if same_any:
             repeat = model.new_bool_var(f"repeat{i}")
-            model.add(repeat <= sum(same_any))
+            model.add(repeat <= _total(same_any))
             repeats.append(repeat)
     discrete_lines = sum(used) - sum(repeats)
     return expr + line_cost * (sum(network_lines) + discrete_lines)

@@ -20,6 +20,7 @@ Per option and per environment vertex v (a combination of source and REF impedan
 from __future__ import annotations
 
 import itertools
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -28,9 +29,12 @@ from numpy.typing import NDArray
 from ..analysis.checks import BOLTZMANN_J_PER_K as BOLTZMANN
 from ..catalog import Catalog
 from ..design import Topology
-from ..parts import NetworkPart
 from ..spec import Distribution, Spec, StockPolicy
 from .environment import LinearEnvironment, life_drift, series_impedance
+
+#: A rating must cover this fraction of the estimated stress (a relaxation: the exact check
+#: verifies the real stress of the chosen design).
+RATING_RELAXATION = 0.97
 
 __all__ = ["C_DELTA", "OptionTable", "build_options", "gain_coefficients"]
 
@@ -129,12 +133,12 @@ class _Rows:
     shape: list[int]
     line: list[int]
     cost: list[float]
-    resist: list[NDArray[np.float64]]  # (4,) values, nan where not covered
-    own: list[NDArray[np.float64]]  # (4,) own log deviation
-    own_var: list[NDArray[np.float64]]  # (4,) own variance
+    resist: list[list[float]]  # (4,) values, nan where not covered
+    own: list[list[float]]  # (4,) own log deviation
+    own_var: list[list[float]]  # (4,) own variance
     shared: list[float]
     shared_var: list[float]
-    upper: list[NDArray[np.float64]]  # (4,) R·(1 + own tolerance) for impedance bounds
+    upper: list[list[float]]  # (4,) R·(1 + own tolerance) for impedance bounds
     makers: list[tuple[tuple[int, str, int, int | None], ...]]
 
 
@@ -149,7 +153,10 @@ def _effective_cost(
 def _network_rows(
     catalog: Catalog, spec: Spec, env: LinearEnvironment, rows: _Rows, lines: dict[str, int]
 ) -> None:
-    """Pair and quad options from the catalog's networks, for the allowed topologies."""
+    """Pair and quad options from the catalog's networks, for the allowed topologies.
+
+    The per-network constants (cost, own and shared log deviation and variance) are computed
+    for all networks at once; the loop over element orders only places them."""
     prefs = spec.preferences
     topologies = set(prefs.topologies)
     pair_shapes: set[tuple[int, int]] = set()
@@ -160,109 +167,91 @@ def _network_rows(
     if Topology.PAIR_PLUS_DISCRETE in topologies:
         pair_shapes.update(ALL_SHAPES)
     want_quads = Topology.QUAD in topologies
+    networks = catalog.networks
+    if not networks:
+        return
     dist, k = prefs.distribution, prefs.sigma_k
-    for index, network in enumerate(catalog.networks):
+
+    def column(name: str) -> NDArray[np.float64]:
+        return np.array([float(getattr(n, name)) for n in networks])
+
+    ratio = (
+        column("ratio_tolerance") / 2.0,
+        column("tracking_tempco_per_k") / 2.0 * env.delta_t_k,
+        life_drift(column("ratio_drift_1000h"), env.life_h) / 2.0,
+    )
+    absolute = (
+        column("abs_tolerance"),
+        column("abs_tempco_per_k") * env.delta_t_k,
+        life_drift(column("drift_1000h"), env.life_h),
+    )
+    in_stock = np.array([n.in_stock for n in networks], dtype=bool)
+    costs = _effective_cost(column("unit_cost"), in_stock, spec).tolist()
+    own_devs = log_deviation(*ratio).tolist()
+    own_vars = variance(dist, k, *ratio).tolist()
+    shareds = log_deviation(*absolute).tolist()
+    shared_vars = variance(dist, k, *absolute).tolist()
+    stress = [float(s) for s in env.stress_v]
+    low = prefs.resistance_min_ohm * (1 - 1e-9)
+    high = prefs.resistance_max_ohm * (1 + 1e-9)
+    pair_list = sorted(pair_shapes)
+    quad_orders = list(itertools.permutations(range(4)))
+    for index, network in enumerate(networks):
         if prefs.stock is StockPolicy.ONLY and not network.in_stock:
             continue
-        values = np.array(network.values_ohm)
-        if values.min() < prefs.resistance_min_ohm * (
-            1 - 1e-9
-        ) or values.max() > prefs.resistance_max_ohm * (1 + 1e-9):
+        values = [float(v) for v in network.values_ohm]
+        if min(values) < low or max(values) > high:
             continue
+        shapes: list[tuple[int, ...]]
         if network.elements == 2 and pair_shapes:
-            shapes = sorted(pair_shapes)
-            orders: list[tuple[int, ...]] = [(0, 1), (1, 0)]
+            shapes, orders = list(pair_list), [(0, 1), (1, 0)]
         elif network.elements == 4 and want_quads:
-            shapes = [(0, 1, 2, 3)]  # type: ignore[list-item]
-            orders = list(itertools.permutations(range(4)))
+            shapes, orders = [(0, 1, 2, 3)], quad_orders
         else:
             continue
-        cost = float(
-            _effective_cost(np.array([network.unit_cost]), np.array([network.in_stock]), spec)[0]
-        )
-        own_dev = float(
-            log_deviation(
-                network.ratio_tolerance / 2.0,
-                network.tracking_tempco_per_k / 2.0 * env.delta_t_k,
-                life_drift(network.ratio_drift_1000h, env.life_h) / 2.0,
-            )
-        )
-        own_var = float(
-            variance(
-                dist,
-                k,
-                network.ratio_tolerance / 2.0,
-                network.tracking_tempco_per_k / 2.0 * env.delta_t_k,
-                life_drift(network.ratio_drift_1000h, env.life_h) / 2.0,
-            )
-        )
-        shared = float(
-            log_deviation(
-                network.abs_tolerance,
-                network.abs_tempco_per_k * env.delta_t_k,
-                life_drift(network.drift_1000h, env.life_h),
-            )
-        )
-        shared_var = float(
-            variance(
-                dist,
-                k,
-                network.abs_tolerance,
-                network.abs_tempco_per_k * env.delta_t_k,
-                life_drift(network.drift_1000h, env.life_h),
-            )
-        )
+        own_dev, own_var = own_devs[index], own_vars[index]
+        grow = 1.0 + network.abs_tolerance + network.ratio_tolerance / 2.0
+        volt_ok = [network.max_voltage_v >= RATING_RELAXATION * s for s in stress]
+        power = network.power_per_element_w * env.derating
         line = lines.setdefault(network.part_id, len(lines))
         for shape in shapes:
             seen: set[tuple[float, ...]] = set()
             for order in orders:
-                elements = [order[j] for j in range(len(shape))]
+                elements = order[: len(shape)]
                 # Elements of one package vary alike (same bounds), so two element orders that put
                 # the same values at the same positions are the same design electrically: keep one.
-                layout = tuple(float(v) for v in values[elements])
+                layout = tuple(values[e] for e in elements)
                 if layout in seen:
                     continue
                 seen.add(layout)
-                if not _rated(network, values[elements], np.array(shape), env):
+                if not all(
+                    volt_ok[p] and power >= RATING_RELAXATION * stress[p] ** 2 / r
+                    for p, r in zip(shape, layout, strict=True)
+                ):
                     continue
-                resist = np.full(4, np.nan)
-                resist[list(shape)] = values[elements]
-                covers = tuple(bool(i in shape) for i in range(4))
+                resist = [math.nan] * 4
+                own = [0.0] * 4
+                own_v = [0.0] * 4
+                upper = [0.0] * 4
+                for p, r in zip(shape, layout, strict=True):
+                    resist[p], own[p], own_v[p], upper[p] = r, own_dev, own_var, r * grow
                 rows.kind.append(len(shape))
-                rows.covers.append(covers)  # type: ignore[arg-type]
-                rows.shape.append(ALL_SHAPES.index(shape) if len(shape) == 2 else -1)
+                rows.covers.append(tuple(i in shape for i in range(4)))  # type: ignore[arg-type]
+                rows.shape.append(ALL_SHAPES.index(shape) if len(shape) == 2 else -1)  # type: ignore[arg-type]
                 rows.line.append(line)
-                rows.cost.append(cost)
+                rows.cost.append(costs[index])
                 rows.resist.append(resist)
-                rows.own.append(np.where(np.isnan(resist), 0.0, own_dev))
-                rows.own_var.append(np.where(np.isnan(resist), 0.0, own_var))
-                rows.shared.append(shared)
-                rows.shared_var.append(shared_var)
-                rows.upper.append(
-                    np.where(
-                        np.isnan(resist),
-                        0.0,
-                        resist * (1.0 + network.abs_tolerance + network.ratio_tolerance / 2.0),
-                    )
-                )
+                rows.own.append(own)
+                rows.own_var.append(own_v)
+                rows.shared.append(shareds[index])
+                rows.shared_var.append(shared_vars[index])
+                rows.upper.append(upper)
                 rows.makers.append(
                     tuple(
                         (pos, network.part_id, index, el)
                         for pos, el in zip(shape, elements, strict=False)
                     )
                 )
-
-
-def _rated(
-    network: NetworkPart,
-    values: NDArray[np.float64],
-    positions: NDArray[np.int64],
-    env: LinearEnvironment,
-) -> bool:
-    stress = env.stress_v[positions]
-    if np.any(network.max_voltage_v < 0.97 * stress):
-        return False
-    return bool(np.all(network.power_per_element_w * env.derating >= 0.97 * stress**2 / values))
 
 
 def build_options(catalog: Catalog, spec: Spec, env: LinearEnvironment) -> OptionTable:
@@ -394,7 +383,9 @@ def _noise_terms(
 ) -> NDArray[np.float64]:
     """Output noise power density (V²/Hz) each option adds (:func:`position_noise` summed over
     the positions it covers)."""
-    return np.asarray(position_noise(np.where(covered, resist, 0.0), spec, env).sum(axis=1), dtype=float)
+    return np.asarray(
+        position_noise(np.where(covered, resist, 0.0), spec, env).sum(axis=1), dtype=float
+    )
 
 
 def noise_floor(spec: Spec, env: LinearEnvironment) -> float:

@@ -157,7 +157,7 @@ class Problem:
             ks = [k for k, lit in built.value[position].items() if solver.boolean_value(lit)]
             cs = [c for c, lit in built.grade[position].items() if solver.boolean_value(lit)]
             if ks and cs:
-                row = self.block.part_row[(cs[0], ks[0])]
+                row = int(self.block.part_row[cs[0], ks[0]])
                 slots[position] = Placement(f"R{position + 1}", self.catalog.discrete_part(row))
         design = Design((slots[0], slots[1], slots[2], slots[3]))
         return chosen, design
