@@ -59,7 +59,12 @@ def amplifier_limits(spec: Spec) -> tuple[CheckResult, ...]:
         check_input_range,
         check_output_swing,
     ):
-        results = [check(design, spec) for design in designs]
-        if all(not r.passed for r in results):
+        results: list[CheckResult] = []
+        for design in designs:
+            result = check(design, spec)
+            if result.passed:
+                break  # one ideal set passes: the resistors can meet this check
+            results.append(result)
+        else:
             failing.append(max(results, key=lambda r: r.margin))
     return tuple(failing)
