@@ -161,6 +161,8 @@ class BuiltModel:
     options: OptionTable
     cuts: int = 0
     margin_var: cp_model.IntVar | None = None
+    #: Proven infeasible while building (the model holds an empty clause): no solve is needed.
+    infeasible: bool = False
 
     def literals(self) -> list[cp_model.IntVar]:
         """Every decision literal (for reading a solution)."""
@@ -244,16 +246,10 @@ def build_model(
     n = len(options)
     if any(not classes[i] and not options.covers[:, i].any() for i in range(4)):
         # A position nothing can fill after pruning: the stream is infeasible; skip the rest.
-        model.add_bool_or([])
-        return BuiltModel(
-            model=model,
-            x=[],
-            value=[{} for _ in range(4)],
-            grade=[{} for _ in range(4)],
-            options=options.subset(np.zeros(n, dtype=bool)),
-        )
+        return _infeasible(model, options)
     x = [model.new_bool_var(f"o{i}") for i in range(n)]
     kinds = options.kind
+    req_early = spec.requirements
 
     value: list[dict[int, cp_model.IntVar]] = []
     grade: list[dict[int, cp_model.IntVar]] = []
@@ -274,6 +270,30 @@ def build_model(
                 lit <= _total([value[position][k] for k in block.avail[position][c].tolist()])
             )
         placed.append(values_sum)
+
+    # The half coupling's analysis needs only the value and grade sets: run it first, so that a
+    # stream it proves infeasible costs no further building (constraints come later, in order).
+    halves = _halves(allowed, variant)
+    coupling: _HalfPairs | None = None
+    if (
+        halves is not None
+        and variant.cmrr
+        and variant.gain
+        and limits.cmrr_budget <= COUPLING_BUDGET
+    ):
+        coupling = _half_pairs(
+            halves,
+            value,
+            options,
+            constants[0],
+            _LeastSpread(block, grade, constants[1], req_early.cmrr_basis is CmrrBasis.YIELD),
+            spec,
+            limits,
+            extreme_vertices(env.vertices, req_early.gain),
+            np.ones(len(options), dtype=bool),
+        )
+        if coupling.infeasible if coupling is not None else False:
+            return _infeasible(model, options)
 
     # Topology selection and exact cover.
     t = {top: model.new_bool_var(top.value) for top in Topology if top in allowed}
@@ -454,29 +474,16 @@ def build_model(
                     f"gl{v}",
                 )
 
-    halves = _halves(allowed, variant)
-    if (
-        halves is not None
-        and variant.cmrr
-        and variant.gain
-        and limits.cmrr_budget <= COUPLING_BUDGET
-    ):
+    if coupling is not None:
         yield_basis = req.cmrr_basis is CmrrBasis.YIELD
         scale = QUAD_SCALE**2 if yield_basis else LOG_SCALE
         _couple_halves(
             model,
-            halves,
+            coupling,
             x,
             value,
-            options,
-            phi,
-            _LeastSpread(block, grade, fraction, yield_basis),
-            spec,
-            limits,
-            sides,
             lambda vs: spread(C_DELTA, vs, yield_basis, scale),
             lambda vs: spread(cg, vs, yield_basis, scale),
-            usable,
         )
 
     if variant.impedance and limits.min_impedance_ohm > 0.0:
@@ -661,10 +668,44 @@ class _LeastSpread:
         return least
 
 
-def _couple_halves(
-    model: cp_model.CpModel,
+@dataclass(frozen=True)
+class _HalfPairs:
+    """The half coupling's analysis (:func:`_half_pairs`): the choices of each half ((n, 2) value
+    index pairs; for a network half, option indices in ``a_members`` with −1 beside them), each
+    choice's least needed mismatch ``m`` and largest gain room ``r`` (inf / −inf: reaches no
+    partner), the vertices the spreads are taken over, and the budget and yield factor z."""
+
+    first: object
+    second: tuple[int, int]
+    a_keys: NDArray[np.int64]
+    b_keys: NDArray[np.int64]
+    a_members: NDArray[np.int64] | None
+    m_a: NDArray[np.float64]
+    r_a: NDArray[np.float64]
+    m_b: NDArray[np.float64]
+    r_b: NDArray[np.float64]
+    vertices: tuple[int, ...]
+    gain_vertices: tuple[int, ...]
+    z: float
+    budget: float
+    yield_basis: bool
+
+    @property
+    def infeasible(self) -> bool:
+        """No choice of one of the halves reaches a partner."""
+        return not (np.isfinite(self.m_a).any() and np.isfinite(self.m_b).any())
+
+    @staticmethod
+    def none_reachable() -> _HalfPairs:
+        empty = np.zeros(0)
+        keys = np.zeros((0, 2), dtype=np.int64)
+        return _HalfPairs(
+            (0, 1), (2, 3), keys, keys, None, empty, empty, empty, empty, (), (), 1.0, 0.0, False
+        )
+
+
+def _half_pairs(
     halves: tuple[object, tuple[int, int]],
-    x: list[cp_model.IntVar],
     value: list[dict[int, cp_model.IntVar]],
     options: OptionTable,
     phi: NDArray[np.float64],
@@ -672,11 +713,10 @@ def _couple_halves(
     spec: Spec,
     limits: Limits,
     sides: ExtremeVertices,
-    spread_delta: Callable[[tuple[int, ...]], cp_model.LinearExpr],
-    spread_gain: Callable[[tuple[int, ...]], cp_model.LinearExpr],
     usable: NDArray[np.bool_],
-) -> None:
-    """Tighten the model with what each half can reach given the best partner in the other half.
+) -> _HalfPairs | None:
+    """What each half can reach given the best partner in the other half (the analysis behind
+    :func:`_couple_halves`, which turns it into constraints; nothing is added to a model here).
 
     For a choice a of one half, m_a = min over partners b of the mismatch the pair needs,
     need(a, b) = max(δ_v(a, b) over the high vertices, −δ_v(a, b) over the low ones), and
@@ -687,7 +727,9 @@ def _couple_halves(
     and likewise for the other half. Unlike the sum constraint |Σ δ| + spread ≤ B, whose LP
     relaxation can average mismatches of opposite sign to zero, these bound the spread by the
     chosen choice's own best case, which keeps the LP bound close to the integer optimum.
-    Value pairs that reach no partner within the budget are removed.
+    Value pairs that reach no partner within the budget are removed. Returns None when a half
+    has too many choices to couple (MAX_HALF_PAIRS); ``infeasible`` is set when no choice of a
+    half reaches a partner (the stream has no solution).
 
     A pair (a, b) only counts as reachable when its mismatch leaves room for the least spread
     its own values allow (``_LeastSpread``): need(a, b) + W_a + W_b ≤ B and W'_a + W'_b ≤ room
@@ -793,7 +835,7 @@ def _couple_halves(
         return keep, window
 
     h = 1.0 / (2.0 * (1.0 + req.gain))
-    a_lits: list[cp_model.IntVar] | None = None
+    a_members: NDArray[np.int64] | None = None
     i2, j2 = second
     # Largest vertex-to-vertex swing of the second half's δ contribution (refined below).
     swing_b = (
@@ -818,21 +860,19 @@ def _couple_halves(
 
             a_keys, a_delta, a_gain = discrete_side(first, a_keep)
             if len(a_keys) > MAX_HALF_PAIRS:
-                return
+                return None
         else:
             members = np.flatnonzero(usable & (options.kind == 2) & (options.shape == first))
             a_keys = np.column_stack([members, np.full(members.size, -1)])
             a_delta, a_gain = options.delta[members], options.gain[members]
-            a_lits = [x[i] for i in members]
+            a_members = members
         if len(a_keys) == 0:
-            model.add_bool_or([])
-            return
+            return _HalfPairs.none_reachable()
         b_keys, b_delta, b_gain = discrete_side(second, *b_keep(a_delta))
         if len(b_keys) > MAX_HALF_PAIRS:
-            return
+            return None
         if len(b_keys) == 0:
-            model.add_bool_or([])
-            return
+            return _HalfPairs.none_reachable()
         new_swing = float(spread_of(b_delta).max())
         if not isinstance(first, tuple) or new_swing >= 0.9 * swing_b:
             break
@@ -843,7 +883,7 @@ def _couple_halves(
     z = limits.z if yield_basis else 1.0
     vertices = tuple(sorted(set(high + low)))
     gain_vertices = tuple(sorted(set(gain_high + gain_low)))
-    if a_lits is None:
+    if a_members is None:
         floor_a = least.pairs(a_keys, first, C_DELTA, vertices)  # type: ignore[arg-type]
         gain_floor_a = least.pairs(a_keys, first, cg, gain_vertices)  # type: ignore[arg-type]
     else:
@@ -902,6 +942,43 @@ def _couple_halves(
         m_b[idx] = np.minimum(m_b[idx], need_ok)
         r_b[idx] = np.maximum(r_b[idx], room_ok)
 
+    return _HalfPairs(
+        first=first,
+        second=second,
+        a_keys=a_keys,
+        b_keys=b_keys,
+        a_members=a_members,
+        m_a=m_a,
+        r_a=r_a,
+        m_b=m_b,
+        r_b=r_b,
+        vertices=vertices,
+        gain_vertices=gain_vertices,
+        z=z,
+        budget=budget,
+        yield_basis=yield_basis,
+    )
+
+
+def _couple_halves(
+    model: cp_model.CpModel,
+    pairs: _HalfPairs,
+    x: list[cp_model.IntVar],
+    value: list[dict[int, cp_model.IntVar]],
+    spread_delta: Callable[[tuple[int, ...]], cp_model.LinearExpr],
+    spread_gain: Callable[[tuple[int, ...]], cp_model.LinearExpr],
+) -> None:
+    """Tighten the model with the analysis of :func:`_half_pairs`: one literal per live value
+    pair of a discrete half (linked to its two value literals), dead network options fixed to
+    false, and per half: spread ≤ Σ cap(choice)·[choice] (worst case: cap = B − m; yield:
+    ((B − m)/z)²; gain: r or (r/z)²)."""
+    first, second = pairs.first, pairs.second
+    a_keys, b_keys = pairs.a_keys, pairs.b_keys
+    m_a, r_a, m_b, r_b = pairs.m_a, pairs.r_a, pairs.m_b, pairs.r_b
+    budget, z, yield_basis = pairs.budget, pairs.z, pairs.yield_basis
+    vertices, gain_vertices = pairs.vertices, pairs.gain_vertices
+    a_lits = None if pairs.a_members is None else [x[i] for i in pairs.a_members.tolist()]
+
     def side_literals(
         keys: NDArray[np.int64], positions: tuple[int, int], alive: NDArray[np.bool_]
     ) -> list[cp_model.IntVar | None]:
@@ -940,8 +1017,8 @@ def _couple_halves(
     b_side = side_literals(b_keys, second, alive_b)
     for lits, m, r in ((a_side, m_a, r_a), (b_side, m_b, r_b)):
         live = [(lit, mi, ri) for lit, mi, ri in zip(lits, m, r, strict=False) if lit is not None]
-        if not live:
-            model.add_bool_or([])  # no choice of this half reaches a partner: infeasible
+        if not live:  # _half_pairs reports this case as infeasible before any build
+            model.add_bool_or([])
             return
         literals = [lit for lit, _, _ in live]
         if yield_basis:
@@ -969,6 +1046,19 @@ def _merge_windows(windows: list[tuple[float, float]]) -> list[tuple[float, floa
         else:
             merged.append((lo, hi))
     return merged
+
+
+def _infeasible(model: cp_model.CpModel, options: OptionTable) -> BuiltModel:
+    """The model of a stream found infeasible while building: one empty clause, no literals."""
+    model.add_bool_or([])
+    return BuiltModel(
+        model=model,
+        x=[],
+        value=[{} for _ in range(4)],
+        grade=[{} for _ in range(4)],
+        options=options.subset(np.zeros(len(options), dtype=bool)),
+        infeasible=True,
+    )
 
 
 def _usable_options(options: OptionTable, allowed: set[Topology]) -> NDArray[np.bool_]:

@@ -207,6 +207,9 @@ class _Stream:
                 self.timed_out, self.optimal, self.exhausted = True, False, True
                 return None
             built = self._model(clock)
+            if built.infeasible:
+                self.exhausted = True
+                return None
             remaining = clock.remaining()
             if remaining <= 0.0:
                 self.timed_out, self.optimal, self.exhausted = True, False, True
