@@ -1,4 +1,3 @@
-# ruff: noqa: RUF002  (Greek letters and symbols are the formulas' own notation)
 """How the parts of a design vary: the variables of the exact error model, their corners and
 their Monte-Carlo samples.
 
@@ -64,6 +63,7 @@ __all__ = [
     "Variation",
     "amplifier_corners",
     "discrete_factor_bounds",
+    "dominant_vertices",
     "drift_bound",
     "environment_from_spec",
     "passive_corners",
@@ -78,12 +78,16 @@ __all__ = [
 ]
 
 Array = NDArray[np.float64]
+#: A source-impedance vertex ``(Rs1, Rs3)`` in ohms.
+Vertex = tuple[float, float]
 
 #: Temperature at which tolerances are specified (°C); ΔT is measured from here.
 REFERENCE_TEMPERATURE_C = 25.0
 
 _HOURS_PER_SECOND = 1.0 / 3600.0
 _DRIFT_REFERENCE_H = 1000.0
+#: Builds drawn per block in :func:`sample_values` (a block of draws stays in cache).
+_DRAW_BLOCK = 8192
 
 
 # --------------------------------------------------------------------------------------------
@@ -156,6 +160,31 @@ def source_vertices(min_ohm: float, max_ohm: float, imbalance_ohm: float) -> Arr
         if point not in unique:
             unique.append(point)
     return np.array(unique, dtype=float)
+
+
+def dominant_vertices(
+    vertices: tuple[tuple[float, float], ...], rs1_way: float, rs3_way: float
+) -> tuple[Vertex, ...]:
+    """The vertices ``(Rs1, Rs3)`` (ohms) that no other vertex beats in both coordinates,
+    where ``rs1_way`` and ``rs3_way`` (±1) say which way each should move (+1: larger).
+
+    ``w`` beats ``v`` when ``w ≠ v``, ``rs1_way·(w₁ − v₁) ≥ 0`` and ``rs3_way·(w₃ − v₃) ≥ 0``.
+    A quantity that never falls as ``Rs1`` moves ``rs1_way`` and ``Rs3`` moves ``rs3_way`` is
+    at least as large at ``w`` as at ``v``, so its largest value over the vertices lies at one
+    of those returned (the Pareto set; order of first appearance, duplicates dropped)."""
+    unique: list[Vertex] = []
+    for rs1, rs3 in vertices:
+        point = (float(rs1), float(rs3))
+        if point not in unique:
+            unique.append(point)
+
+    def beaten(v: Vertex) -> bool:
+        return any(
+            w != v and rs1_way * (w[0] - v[0]) >= 0.0 and rs3_way * (w[1] - v[1]) >= 0.0
+            for w in unique
+        )
+
+    return tuple(v for v in unique if not beaten(v))
 
 
 def discrete_factor_bounds(
@@ -396,15 +425,17 @@ def static_and_tempco(variation: Variation, values: VariableValues) -> tuple[Arr
 
     ``base_i = R0_i·(1 + e_i)(1 + e_g)·(1 + d_i)(1 + d_g)`` (ohms) and
     ``α_total,i = α_i + α_g`` (per K), where ``g`` is the group of position ``i`` (shared terms
-    are zero for positions without a group). Returns two ``(n, 4)`` arrays."""
-    nominal = variation.nominal
+    are zero for positions without a group). Returns two ``(n, 4)`` arrays, evaluated as
+    ``((1 + e_i)(1 + d_i))·((1 + e_g)(1 + d_g))·R0_i``."""
     base = (1.0 + values.own_error) * (1.0 + values.own_drift)
     alpha = values.own_tempco.copy()
     if variation.groups:
-        member = variation.membership
-        base *= (1.0 + values.shared_error @ member) * (1.0 + values.shared_drift @ member)
-        alpha += values.shared_tempco @ member
-    base *= nominal
+        shared = (1.0 + values.shared_error) * (1.0 + values.shared_drift)
+        for i, g in enumerate(variation.group_of):
+            if g >= 0:
+                base[:, i] *= shared[:, g]
+                alpha[:, i] += values.shared_tempco[:, g]
+    base *= variation.nominal
     return base, alpha
 
 
@@ -486,8 +517,8 @@ def sample_values(
     independently, uniform on ``[−b, b]`` or normal with standard deviation ``σ = b/k``
     (``k = sigma_k``; the bound is the ``k·σ`` point; the normal is *not* truncated).
 
-    Draws are made in bulk, one row per build in a fixed variable order (own e, α, d of R1..R4,
-    then e, α, d of each group), so a seed gives the same builds whatever the chunking."""
+    Draws are made one row per build in a fixed variable order (own e, α, d of R1..R4, then
+    e, α, d of each group), so a seed gives the same builds whatever the chunking."""
     normal, inv_k = _spread(distribution, sigma_k)
     bounds: list[float] = []
     slots: list[tuple[str, int]] = []
@@ -512,16 +543,20 @@ def sample_values(
     values = _empty_values(count, len(variation.groups))
     if not slots:
         return values
-    scale = np.array(bounds)
-    if normal:
-        draws = rng.standard_normal((count, len(slots)))
-        draws *= scale * inv_k
-    else:
-        draws = rng.random((count, len(slots)))
-        draws *= 2.0 * scale
-        draws -= scale
-    for column, (kind, index) in enumerate(slots):
-        getattr(values, kind)[:, index] = draws[:, column]
+    targets = [getattr(values, kind)[:, index] for kind, index in slots]
+    # Normal: σ = b/k; uniform on [0, 1) mapped to [−b, b) as u·2b − b.
+    factors = [b * inv_k if normal else 2.0 * b for b in bounds]
+    # Rows are drawn in blocks that stay in cache while their columns are scattered; the
+    # generator fills row by row, so the builds are the same as from one bulk draw.
+    for start in range(0, count, _DRAW_BLOCK):
+        stop = min(count, start + _DRAW_BLOCK)
+        shape = (stop - start, len(slots))
+        draws = rng.standard_normal(shape) if normal else rng.random(shape)
+        for column, target in enumerate(targets):
+            out = target[start:stop]
+            np.multiply(draws[:, column], factors[column], out=out)
+            if not normal:
+                out -= bounds[column]
     return values
 
 
@@ -536,8 +571,8 @@ class Environment:
 
     ``temperatures_c``: ends of the operating range (°C); ``source_ohm``: vertices
     ``(Rs1, Rs3)`` of the source-impedance polygon (ohms); ``ref_ohm``: ends of the REF
-    impedance range (ohms); ``amp_cmrr``: the amplifier's minimum CMRR (ratio, ``inf`` ideal);
-    ``open_loop_gain``: its minimum open-loop gain (ratio, ``inf`` ideal)."""
+    impedance range (ohms); ``amp_cmrr``: the amplifier's minimum CMRR (ratio of 1 or more,
+    ``inf`` ideal); ``open_loop_gain``: its minimum open-loop gain (ratio, ``inf`` ideal)."""
 
     temperatures_c: tuple[float, ...] = (REFERENCE_TEMPERATURE_C,)
     source_ohm: tuple[tuple[float, float], ...] = ((0.0, 0.0),)
@@ -565,12 +600,20 @@ class Environment:
             raise ModelError(
                 "environment", "reference", f"expected impedances ≥ 0, got {self.ref_ohm!r}"
             )
-        for field in ("amp_cmrr", "open_loop_gain"):
-            value = getattr(self, field)
-            if math.isnan(value) or value <= 0.0:
-                raise ModelError(
-                    "environment", field, f"expected a ratio above zero, got {value!r}"
-                )
+        if math.isnan(self.amp_cmrr) or self.amp_cmrr < 1.0:
+            # An amplifier's CMRR is a level above 0 dB (parts.Amplifier); the sign arguments
+            # of the worst case and the Monte Carlo need |ε| = 1/(2·CMRR) < 1.
+            raise ModelError(
+                "environment",
+                "amp_cmrr",
+                f"expected a ratio of 1 (0 dB) or more, got {self.amp_cmrr!r}",
+            )
+        if math.isnan(self.open_loop_gain) or self.open_loop_gain <= 0.0:
+            raise ModelError(
+                "environment",
+                "open_loop_gain",
+                f"expected a ratio above zero, got {self.open_loop_gain!r}",
+            )
 
     @property
     def has_impedance(self) -> bool:
@@ -669,24 +712,16 @@ def passive_corners(variation: Variation, environment: Environment) -> PassiveCo
                 "a resistance would be zero or negative",
             )
         blocks.append((r, temperature))
+    # Corner order: temperature, then part vertex, then source vertex, then REF end.
     env_count = source.shape[0] * ref.shape[0]
-    rs1_env = np.repeat(source[:, 0], ref.shape[0])
-    rs3_env = np.repeat(source[:, 1], ref.shape[0])
-    rref_env = np.tile(ref, source.shape[0])
-    r_parts, rs1, rs3, rref, temps = [], [], [], [], []
-    for r, temperature in blocks:
-        n = r.shape[0]
-        r_parts.append(np.repeat(r, env_count, axis=0))
-        rs1.append(np.tile(rs1_env, n))
-        rs3.append(np.tile(rs3_env, n))
-        rref.append(np.tile(rref_env, n))
-        temps.append(np.full(n * env_count, temperature))
+    counts = [r.shape[0] for r, _ in blocks]
+    shape = (sum(counts), source.shape[0], ref.shape[0])
     return PassiveCorners(
-        np.concatenate(r_parts),
-        np.concatenate(rs1),
-        np.concatenate(rs3),
-        np.concatenate(rref),
-        np.concatenate(temps),
+        np.repeat(np.concatenate([r for r, _ in blocks]), env_count, axis=0),
+        np.broadcast_to(source[None, :, 0, None], shape).reshape(-1),
+        np.broadcast_to(source[None, :, 1, None], shape).reshape(-1),
+        np.broadcast_to(ref[None, None, :], shape).reshape(-1),
+        np.repeat([t for _, t in blocks], [n * env_count for n in counts]).astype(float),
     )
 
 
