@@ -1,4 +1,3 @@
-# ruff: noqa: RUF002  (Greek letters and symbols are the formulas' own notation)
 """Worst case of the difference amplifier: the exact extremes of CMRR and gain over every
 bounded variable, and the error budget.
 
@@ -83,6 +82,7 @@ from .variation import (
     Environment,
     Variation,
     amplifier_corners,
+    dominant_vertices,
     environment_from_spec,
     passive_corners,
     variation_from_design,
@@ -100,7 +100,9 @@ __all__ = [
     "common_mode_error",
     "common_mode_error_from_balance",
     "common_mode_error_from_terms",
+    "common_mode_error_worst_sign",
     "differential_gain_from_terms",
+    "feedback_complement",
     "needs_scale_search",
     "opposing_group",
     "rejection_db",
@@ -130,6 +132,11 @@ ROUNDING_FLOOR = 1e-13
 _GOLDEN = (math.sqrt(5.0) - 1.0) / 2.0
 _ITERATIONS_1D = 48
 _ITERATIONS_2D = 24
+#: Golden-section steps evaluated per call of the objective (:func:`_golden_max`): a single
+#: search or the inner level of a nested one, and the outer level (whose every call is a whole
+#: inner search). Measured on the bundled examples; the results do not depend on them.
+_LOOKAHEAD = 3
+_LOOKAHEAD_OUTER = 4
 
 _X_UP = np.array([-1.0, 1.0, 1.0, -1.0])  # R1 low, R2 high, R3 high, R4 low: x largest
 _GAIN_UP = np.array([-1.0, 1.0, -1.0, 1.0])  # R1 low, R2 high, R3 low, R4 high: Adm largest
@@ -154,12 +161,20 @@ def rejection_db(error: ArrayLike) -> Array:
     return level
 
 
+def feedback_complement(r1_eff: ArrayLike, r2: ArrayLike) -> Array:
+    """``c = R2/(R1'+R2) = 1 − β``, evaluated as ``1 − β`` with the feedback factor
+    ``β = R1'/(R1'+R2)`` of :mod:`~optimizer.analysis.transfer` (ohms in; ``R1'`` includes
+    the source impedance ``Rs1``; dimensionless out)."""
+    c: Array = 1.0 - feedback_factor(r1_eff, r2)
+    return c
+
+
 def bridge_terms(
     r1_eff: ArrayLike, r2: ArrayLike, r3_eff: ArrayLike, r4_eff: ArrayLike
 ) -> tuple[Array, Array]:
     """``(a, c)``: the divider ratio ``a = R4'/(R3'+R4')`` and ``c = R2/(R1'+R2) = 1 − β`` of
     :mod:`~optimizer.analysis.transfer` (ohms in; primes include source and REF impedance)."""
-    return divider_ratio(r3_eff, r4_eff), 1.0 - feedback_factor(r1_eff, r2)
+    return divider_ratio(r3_eff, r4_eff), feedback_complement(r1_eff, r2)
 
 
 def common_mode_error_from_terms(a: ArrayLike, c: ArrayLike, eps: ArrayLike) -> Array:
@@ -171,6 +186,29 @@ def common_mode_error_from_terms(a: ArrayLike, c: ArrayLike, eps: ArrayLike) -> 
     plus = np.asarray(a, dtype=float) * (1.0 + e)
     minus = np.asarray(c, dtype=float) * (1.0 - e)
     return 2.0 * np.abs(plus - minus) / (plus + minus)
+
+
+def common_mode_error_worst_sign(x: ArrayLike, eps_abs: float) -> Array:
+    """``max over ε = ±e`` of ``|Acm/Adm|`` at the balance ``x = c/a``:
+    ``2·(|1 − x| + e·(1 + x)) / ((1 + x) + e·|1 − x|)``, ``e = |ε| = 1/(2·CMRR)`` (dimensionless
+    in and out; ``x > 0``, ``0 ≤ e < 1``).
+
+    Derivation: :func:`common_mode_error_from_balance` is ``2|y − 1|/(y + 1)`` with
+    ``y = (1 + ε)/((1 − ε)·x)``; multiplying both parts by ``(1 − ε)·x > 0`` gives
+    ``2·|u + ε·v| / (v + ε·u)`` with ``u = 1 − x`` and ``v = 1 + x > |u|``. Write
+    ``w = |u|/v < 1``. The sign of ``ε`` that agrees with ``u`` gives ``(w + e)/(1 + e·w)``, the
+    other ``|w − e|/(1 − e·w)``, and the first is never smaller: for ``w ≥ e``,
+    ``(w+e)(1−ew) − (w−e)(1+ew) = 2e(1 − w²) ≥ 0``; for ``w < e``,
+    ``(w+e)(1−ew) − (e−w)(1+ew) = 2w(1 − e²) ≥ 0`` (both denominators positive). Multiplying
+    back by ``v`` gives the form above (``2|1 − x|/(1 + x)`` for an ideal amplifier). Each sign's
+    error falls as ``x`` moves towards its zero ``y = 1`` and rises beyond it, so this maximum
+    of the two is quasi-convex in ``x``: over any set of balances it is largest at the
+    smallest or the largest ``x``."""
+    x_ = np.asarray(x, dtype=float)
+    u = np.abs(1.0 - x_)
+    v = 1.0 + x_
+    error: Array = 2.0 * (u + eps_abs * v) / (v + eps_abs * u)
+    return error
 
 
 def differential_gain_from_terms(
@@ -338,27 +376,87 @@ def _enumerate(variation: Variation, environment: Environment) -> _Extremes:
 # --------------------------------------------------------------------------------------------
 
 
-def _golden_max(f: Callable[[Array], Array], lo: Array, hi: Array, iterations: int) -> Array:
+def _golden_split(a: Array, b: Array, c: Array, d: Array) -> tuple[Array, Array]:
+    """The new point of a golden-section step on ``a < c < d < b`` for either outcome:
+    ``d − φ⁻¹·(d − a)`` when the step keeps ``[a, d]`` (its better interior point is ``c``),
+    ``c + φ⁻¹·(b − c)`` when it keeps ``[c, b]`` (``φ⁻¹ = (√5 − 1)/2``); the kept interior
+    point stays, so each kept interval again holds two points at its golden sections."""
+    return d - _GOLDEN * (d - a), c + _GOLDEN * (b - c)
+
+
+def _golden_max(
+    f: Callable[[Array], Array],
+    lo: Array,
+    hi: Array,
+    iterations: int,
+    lookahead: int = _LOOKAHEAD,
+) -> Array:
     """Largest value of ``f`` found by golden-section search on ``[lo, hi]`` (one interval per
-    problem, vectorised), including both ends. Exact for functions that are unimodal or
-    monotone on the interval; every returned value is ``f`` at a point of the interval."""
-    a, b = lo.copy(), hi.copy()
-    best = np.maximum(f(a), f(b))
+    problem, any array shape, vectorised), including both ends. Exact for functions that are
+    unimodal or monotone on the interval; every returned value is ``f`` at a point of the
+    interval.
+
+    ``f`` takes points of shape ``(m, *lo.shape)`` and returns values of that shape. The
+    search is the sequential one (each step keeps the part of the bracket around the better
+    interior point and evaluates one new point: :func:`_golden_split`), run ``lookahead``
+    steps per call of ``f``: where a step puts its new point depends only on which part the
+    earlier steps kept, so the ``2**k − 1`` points that the next ``k`` steps could need are
+    known before any of them is evaluated. They are evaluated in one call, and the steps are
+    then replayed with their values, taking exactly the decisions, points and maximum of the
+    step-by-step search. The extra evaluations cost little where a call of ``f`` costs mostly
+    its fixed overhead (small arrays, and above all the outer level of a nested search, whose
+    every call is a whole inner search)."""
+    shape, n = lo.shape, lo.size
+
+    def values_at(points: Array) -> Array:
+        return f(points.reshape((-1, *shape))).reshape(points.shape[0], n)
+
+    a, b = lo.reshape(n), hi.reshape(n)
     c = b - _GOLDEN * (b - a)
     d = a + _GOLDEN * (b - a)
-    fc, fd = f(c), f(d)
-    best = np.maximum(best, np.maximum(fc, fd))
-    for _ in range(iterations):
+    start = values_at(np.concatenate((a, b, c, d)).reshape(4, n))
+    best = np.maximum(np.maximum(start[0], start[1]), np.maximum(start[2], start[3]))
+    fc, fd = start[2], start[3]
+    columns = np.arange(n)
+    done = 0
+    while done < iterations:
+        steps = min(lookahead, iterations - done)
+        # Step 0: its decision is known.
         left = fc >= fd
-        b = np.where(left, d, b)
-        a = np.where(left, a, c)
-        kept, f_kept = np.where(left, c, d), np.where(left, fc, fd)
-        new = np.where(left, b - _GOLDEN * (b - a), a + _GOLDEN * (b - a))
-        f_new = f(new)
-        best = np.maximum(best, f_new)
-        c, d = np.where(left, new, kept), np.where(left, kept, new)
-        fc, fd = np.where(left, f_new, f_kept), np.where(left, f_kept, f_new)
-    return best
+        new_left, new_right = _golden_split(a, b, c, d)
+        a, b, c, d = (
+            np.where(left, a, c),
+            np.where(left, d, b),
+            np.where(left, new_left, d),
+            np.where(left, c, new_right),
+        )
+        points = [np.where(left, new_left, new_right)[None]]
+        # Steps 1..k−1: both outcomes of every step. Level j holds the 2**j brackets after
+        # step j, the outcomes "keep [a, d]" of level j − 1 first, then "keep [c, b]": branch
+        # p of level j − 1 becomes branches p and p + 2**(j−1).
+        level = np.concatenate((a, b, c, d)).reshape(4, 1, n)
+        for _ in range(1, steps):
+            a_, b_, c_, d_ = level
+            new_left, new_right = _golden_split(a_, b_, c_, d_)
+            points += [new_left, new_right]
+            level = np.concatenate((a_, c_, d_, b_, new_left, d_, c_, new_right)).reshape(4, -1, n)
+        values = values_at(np.concatenate(points)).reshape(-1)
+        # Replay: ``at`` indexes the value of the point the current step evaluates (row
+        # 2**j − 1 + branch of the flattened values).
+        at = columns
+        for j in range(steps):
+            f_new = values[at]
+            best = np.maximum(best, f_new)
+            fc, fd = np.where(left, f_new, fd), np.where(left, fc, f_new)
+            if j + 1 < steps:
+                left = fc >= fd
+                at = at + np.where(left, 2**j * n, 2 ** (j + 1) * n)
+        if steps > 1:
+            branch = at - (2 ** (steps - 1) - 1) * n  # branch·n + column
+            a, b, c, d = level.reshape(4, -1)[:, branch]
+        done += steps
+    result: Array = best.reshape(shape)
+    return result
 
 
 @dataclass(frozen=True)
@@ -393,62 +491,93 @@ class _ScaleObjective:
     ``u = max(−U, Σ/S+ − 1)``, ``S = Σ/(1+u)``,
     ``r_i = R0_i(1+σt_i)(1+σD_i)·S·(1 + u + σ·TC_i|ΔT|)`` (ungrouped positions: ``S = 1``,
     ``u = 0``); value ``direction × log x`` for the first ``x_rows`` problems and
-    ``direction × Adm`` for the others."""
+    ``direction × Adm`` for the others.
+
+    A group's resistances depend on its own scale only (:meth:`group_resistances`), ``a`` on
+    R3 and R4 only (:meth:`a_term`) and ``c`` on R1 and R2 only (:meth:`c_term`), so a nested
+    search computes what its outer scale fixes once for its whole inner search. Scales may
+    carry leading axes (``(..., P)`` per group); values have the broadcast shape."""
 
     def __init__(self, variation: Variation, problems: _Problems, x_rows: int) -> None:
         sigma = problems.sigma
-        count = len(variation.groups)
         own = variation.nominal * (1.0 + sigma * np.array(variation.tolerance))
         own *= 1.0 + sigma * np.array(variation.drift)
         tc = 1.0 + sigma * np.outer(problems.abs_dt, np.array(variation.tempco_per_k))
-        group_of = np.array([g if g >= 0 else count for g in variation.group_of])
-        ungrouped = group_of == count
+        ungrouped = np.array([g < 0 for g in variation.group_of])
         own[:, ungrouped] *= tc[:, ungrouped]  # own tempco of parts that share nothing
-        tc[:, ungrouped] = 1.0
-        self.own, self.tc, self.group_of = own, tc, group_of
-        self.s_high = np.array([(1.0 + g.tolerance) * (1.0 + g.drift) for g in variation.groups])
+        self.own, self.tc = own, tc
+        self.fixed = {i: own[:, i] for i in range(4) if ungrouped[i]}
+        self.positions = [group.positions for group in variation.groups]
+        self.s_high = [(1.0 + g.tolerance) * (1.0 + g.drift) for g in variation.groups]
         self.neg_u_bound = -np.outer(
             problems.abs_dt, np.array([g.tempco_per_k for g in variation.groups])
         )
-        self.ones = np.ones((sigma.shape[0], 1))
-        self.zeros = np.zeros((sigma.shape[0], 1))
         self.rs1, self.rs3, self.rref = problems.rs1, problems.rs3, problems.rref
         self.x_rows = x_rows
         self.eps = (problems.sign / (2.0 * problems.cmrr))[x_rows:]
         self.inv_gain = (1.0 / problems.open_loop_gain)[x_rows:]
         self.direction = problems.direction
 
-    def __call__(self, scale: Array) -> Array:
-        u = np.maximum(self.neg_u_bound, scale / self.s_high - 1.0)
+    def group_resistances(self, group: int, scale: Array) -> dict[int, Array]:
+        """Resistances (ohms) of the group's positions at its common scale ``Σ``."""
+        u = np.maximum(self.neg_u_bound[:, group], scale / self.s_high[group] - 1.0)
         s = scale / (1.0 + u)
-        s_full = np.concatenate((s, self.ones), axis=1)[:, self.group_of]
-        u_full = np.concatenate((u, self.zeros), axis=1)[:, self.group_of]
-        r = self.own * s_full * (u_full + self.tc)
-        a, c = bridge_terms(r[:, 0] + self.rs1, r[:, 1], r[:, 2] + self.rs3, r[:, 3] + self.rref)
+        return {i: self.own[:, i] * s * (u + self.tc[:, i]) for i in self.positions[group]}
+
+    def a_term(self, r: dict[int, Array]) -> Array:
+        """``a`` of :func:`bridge_terms` from the resistances by position (ohms; source and REF
+        impedance added here)."""
+        return divider_ratio(r[2] + self.rs3, r[3] + self.rref)
+
+    def c_term(self, r: dict[int, Array]) -> Array:
+        """``c`` of :func:`bridge_terms` from the resistances by position (ohms; source
+        impedance added here)."""
+        return feedback_complement(r[0] + self.rs1, r[1])
+
+    def value(self, a: Array, c: Array) -> Array:
+        """``direction × log x`` (x rows) and ``direction × Adm`` (Adm rows) from ``a``, ``c``."""
         n = self.x_rows
-        log_x = np.log(c[:n] / a[:n])
-        adm = differential_gain_from_terms(a[n:], c[n:], self.eps, self.inv_gain)
-        value: Array = self.direction * np.concatenate((log_x, adm))
+        log_x = np.log(c[..., :n] / a[..., :n])
+        adm = differential_gain_from_terms(a[..., n:], c[..., n:], self.eps, self.inv_gain)
+        value: Array = self.direction * np.concatenate((log_x, adm), axis=-1)
         return value
 
 
 def _maximise_scales(variation: Variation, problems: _Problems, x_rows: int) -> Array:
     """Largest objective value over the box of group scales (one or two groups); the first
-    ``x_rows`` problems are of kind x, the rest of kind Adm."""
+    ``x_rows`` problems are of kind x, the rest of kind Adm. With two groups the search is
+    nested: the outer search over the first group's scale takes, at each of its points, the
+    largest value that an inner search over the second group's scale finds there."""
     lo, hi = _scale_bounds(variation, problems.abs_dt)
     objective = _ScaleObjective(variation, problems, x_rows)
     groups = len(variation.groups)
     if groups == 1:
-        return _golden_max(lambda z: objective(z[:, None]), lo[:, 0], hi[:, 0], _ITERATIONS_1D)
+
+        def single(z: Array) -> Array:
+            r = objective.fixed | objective.group_resistances(0, z)
+            return objective.value(objective.a_term(r), objective.c_term(r))
+
+        return _golden_max(single, lo[:, 0], hi[:, 0], _ITERATIONS_1D)
     if groups == 2:
+        inner_moves = set(objective.positions[1])
 
         def outer(z0: Array) -> Array:
+            r0 = objective.fixed | objective.group_resistances(0, z0)
+            # a or c that the inner scale does not move: computed once per inner search.
+            a0 = None if inner_moves & {2, 3} else objective.a_term(r0)
+            c0 = None if inner_moves & {0, 1} else objective.c_term(r0)
+
             def inner(z1: Array) -> Array:
-                return objective(np.stack([z0, z1], axis=1))
+                r = r0 | objective.group_resistances(1, z1)
+                a = objective.a_term(r) if a0 is None else a0
+                c = objective.c_term(r) if c0 is None else c0
+                return objective.value(a, c)
 
-            return _golden_max(inner, lo[:, 1], hi[:, 1], _ITERATIONS_2D)
+            lo1 = np.broadcast_to(lo[:, 1], z0.shape)
+            hi1 = np.broadcast_to(hi[:, 1], z0.shape)
+            return _golden_max(inner, lo1, hi1, _ITERATIONS_2D, _LOOKAHEAD)
 
-        return _golden_max(outer, lo[:, 0], hi[:, 0], _ITERATIONS_2D)
+        return _golden_max(outer, lo[:, 0], hi[:, 0], _ITERATIONS_2D, _LOOKAHEAD_OUTER)
     raise ModelError("worst case", "groups", f"expected at most two shared groups, got {groups}")
 
 
@@ -488,28 +617,40 @@ def needs_scale_search(variation: Variation, environment: Environment) -> bool:
 
 def _refine(variation: Variation, environment: Environment) -> _Extremes | None:
     """Extremes over the interior of the shared groups' common scale (module docstring);
-    ``None`` when the corners are already exact (:func:`needs_scale_search`)."""
+    ``None`` when the corners are already exact (:func:`needs_scale_search`).
+
+    The search runs only at the environment corners that can hold each extreme: for every
+    resistance value ``x = c/a`` rises with ``Rs3`` and falls with ``Rs1`` and ``Rref``, and
+    ``Adm`` rises with ``Rref`` and falls with ``Rs1`` and ``Rs3``, so at every scale a
+    source vertex that another one beats in both coordinates
+    (:func:`~optimizer.analysis.variation.dominant_vertices`), or the other end of the REF
+    range, gives a value no better."""
     if not needs_scale_search(variation, environment):
         return None
-    source = np.array(environment.source_ohm, dtype=float)
-    ref = np.array(environment.ref_ohm, dtype=float)
     ac = amplifier_corners(environment)
+    ref_low, ref_high = min(environment.ref_ohm), max(environment.ref_ohm)
+
+    def corners(rs1_way: float, rs3_way: float, rref: float) -> list[tuple[float, float, float]]:
+        vertices = dominant_vertices(environment.source_ohm, rs1_way, rs3_way)
+        return [(rs1, rs3, rref) for rs1, rs3 in vertices]
+
+    cmrr, a_min = environment.amp_cmrr, environment.open_loop_gain
     rows: list[tuple[float, float, float, float, float, float, float, float, float]] = []
-    passive_keys: list[tuple[float, float, float, float]] = []
     for dt in environment.delta_t_k:
-        for rs1, rs3 in source:
-            for rref in ref:
-                passive_keys.append((abs(dt), rs1, rs3, rref))
-    for key in passive_keys:
-        for way in (1.0, -1.0):
-            rows.append((*key, math.inf, 1.0, math.inf, 0.0, way))
+        for env in corners(-1.0, 1.0, ref_low):  # x largest
+            rows.append((abs(dt), *env, math.inf, 1.0, math.inf, 0.0, 1.0))
+        for env in corners(1.0, -1.0, ref_high):  # x smallest
+            rows.append((abs(dt), *env, math.inf, 1.0, math.inf, 0.0, -1.0))
     x_count = len(rows)
     # Adm rises with A: its largest value needs A = inf, its smallest A = A_min.
     signs = sorted({float(s) for s in ac.sign})
-    for key in passive_keys:
-        for sign in signs:
-            rows.append((*key, environment.amp_cmrr, sign, math.inf, 1.0, 1.0))
-            rows.append((*key, environment.amp_cmrr, sign, environment.open_loop_gain, 1.0, -1.0))
+    for dt in environment.delta_t_k:
+        for env in corners(-1.0, -1.0, ref_high):  # Adm largest
+            for sign in signs:
+                rows.append((abs(dt), *env, cmrr, sign, math.inf, 1.0, 1.0))
+        for env in corners(1.0, 1.0, ref_low):  # Adm smallest
+            for sign in signs:
+                rows.append((abs(dt), *env, cmrr, sign, a_min, 1.0, -1.0))
     table = np.array(rows, dtype=float)
     kind, direction = table[:, 7], table[:, 8]
     sigma = np.where((kind == 0.0)[:, None], _X_UP, _GAIN_UP) * direction[:, None]
@@ -526,22 +667,16 @@ def _refine(variation: Variation, environment: Environment) -> _Extremes | None:
         direction,
     )
     best = _maximise_scales(variation, problems, x_count)
-    x_high = np.exp(best[:x_count:2])
-    x_low = np.exp(-best[1:x_count:2])
+    x_extremes = np.exp(direction[:x_count] * best[:x_count])  # largest and smallest x
     eps = ac.sign / (2.0 * ac.cmrr)
-    cm = np.maximum(
-        common_mode_error_from_balance(x_high[:, None], eps[None, :]),
-        common_mode_error_from_balance(x_low[:, None], eps[None, :]),
-    )
-    cm_passive = np.maximum(
-        common_mode_error_from_balance(x_high, 0.0), common_mode_error_from_balance(x_low, 0.0)
-    )
-    gains = best[x_count:]
+    cm = common_mode_error_from_balance(x_extremes[:, None], eps[None, :])
+    cm_passive = common_mode_error_from_balance(x_extremes, 0.0)
+    gains, gain_way = best[x_count:], direction[x_count:]
     return _Extremes(
         float(cm.max()),
         float(cm_passive.max()),
-        float(-gains[1::2].max()),
-        float(gains[0::2].max()),
+        float(-gains[gain_way < 0.0].max()),
+        float(gains[gain_way > 0.0].max()),
         int(best.shape[0]),
     )
 
