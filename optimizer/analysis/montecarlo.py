@@ -25,8 +25,9 @@ Method
   of the balance ``x = c/a``
   (:func:`~optimizer.analysis.worstcase.common_mode_error_worst_sign`), so over all corners it
   is largest at the largest ``x`` (``Rs1`` low, ``Rs3`` high, ``Rref`` low) or the smallest
-  (the opposite): each build keeps its extremes of ``x`` over both temperatures and the error
-  is evaluated at those two. The gain rises with ``a``, ``c`` and ``A``, so it is largest at
+  (the opposite): each build keeps its largest ``x`` over the corners where ``x`` can be
+  largest and its smallest over those where it can be smallest, at both temperatures, and the
+  error is evaluated at those two. The gain rises with ``a``, ``c`` and ``A``, so it is largest at
   ``Rs1``, ``Rs3`` low, ``Rref`` high, ``A = ∞`` and smallest at the opposite corner with
   ``A = A_min``. Of the source-polygon vertices only those that no other vertex beats in both
   coordinates can hold such an extreme
@@ -165,13 +166,15 @@ def kernel(
 class JudgingCorners:
     """The environment corners at which a build is judged (module docstring).
 
-    ``balance``: corners ``(Rs1, Rs3, Rref)`` (ohms) where ``x = c/a`` can be largest or
-    smallest, for the common-mode error at the worse sign of ``ε``, ``eps_abs = 1/(2·CMRR)``;
-    ``gain_high``: corners of the largest gain (``A = ∞``, ``ε = +eps_abs``); ``gain_low``:
-    corners of the smallest gain (``1/A = inv_open_loop_gain``, ``ε`` in ``eps_low``: both
-    signs, or ``(0,)`` for an ideal amplifier)."""
+    ``x_high`` and ``x_low``: corners ``(Rs1, Rs3, Rref)`` (ohms) where ``x = c/a`` can be
+    largest and smallest, for the common-mode error at the worse sign of ``ε``,
+    ``eps_abs = 1/(2·CMRR)``; ``gain_high``: corners of the largest gain (``A = ∞``,
+    ``ε = +eps_abs``); ``gain_low``: corners of the smallest gain
+    (``1/A = inv_open_loop_gain``, ``ε`` in ``eps_low``: both signs, or ``(0,)`` for an ideal
+    amplifier)."""
 
-    balance: tuple[Corner, ...]
+    x_high: tuple[Corner, ...]
+    x_low: tuple[Corner, ...]
     gain_high: tuple[Corner, ...]
     gain_low: tuple[Corner, ...]
     eps_abs: float
@@ -189,10 +192,10 @@ def judging_corners(environment: Environment) -> JudgingCorners:
     def corners(rs1_way: float, rs3_way: float, rref: float) -> tuple[Corner, ...]:
         return tuple((v[0], v[1], rref) for v in dominant_vertices(source, rs1_way, rs3_way))
 
-    balance = tuple(dict.fromkeys(corners(-1.0, 1.0, ref_low) + corners(1.0, -1.0, ref_high)))
     eps_abs = 0.0 if math.isinf(environment.amp_cmrr) else 0.5 / environment.amp_cmrr
     return JudgingCorners(
-        balance=balance,
+        x_high=corners(-1.0, 1.0, ref_low),
+        x_low=corners(1.0, -1.0, ref_high),
         gain_high=corners(-1.0, -1.0, ref_high),
         gain_low=corners(1.0, 1.0, ref_low),
         eps_abs=eps_abs,
@@ -270,7 +273,7 @@ def _judge(base: Array, alpha: Array, environment: Environment) -> tuple[Array, 
     ``alpha``: ``(n, 4)`` from :func:`~optimizer.analysis.variation.static_and_tempco`."""
     n = base.shape[0]
     corners = judging_corners(environment)
-    every = corners.balance + corners.gain_high + corners.gain_low
+    every = corners.x_high + corners.x_low + corners.gain_high + corners.gain_low
     rs1_values = tuple(dict.fromkeys(rs1 for rs1, _, _ in every))
     a_keys = tuple(dict.fromkeys((rs3, rref) for _, rs3, rref in every))
     x_high = np.full(n, -np.inf)
@@ -289,10 +292,10 @@ def _judge(base: Array, alpha: Array, environment: Environment) -> tuple[Array, 
         # c depends on Rs1 only, a on (Rs3, Rref) only: each is computed once per value.
         c_of = {rs1: feedback_complement(_plus(r1, rs1), r2) for rs1 in rs1_values}
         a_of = {key: divider_ratio(_plus(r3, key[0]), _plus(r4, key[1])) for key in a_keys}
-        for rs1, rs3, rref in corners.balance:
-            x = c_of[rs1] / a_of[rs3, rref]
-            np.maximum(x_high, x, out=x_high)
-            np.minimum(x_low, x, out=x_low)
+        for rs1, rs3, rref in corners.x_high:
+            np.maximum(x_high, c_of[rs1] / a_of[rs3, rref], out=x_high)
+        for rs1, rs3, rref in corners.x_low:
+            np.minimum(x_low, c_of[rs1] / a_of[rs3, rref], out=x_low)
         for rs1, rs3, rref in corners.gain_high:
             g = differential_gain_from_terms(a_of[rs3, rref], c_of[rs1], corners.eps_abs, 0.0)
             np.maximum(gain_high, g, out=gain_high)
