@@ -163,6 +163,9 @@ class BuiltModel:
     margin_var: cp_model.IntVar | None = None
     #: Proven infeasible while building (the model holds an empty clause): no solve is needed.
     infeasible: bool = False
+    #: The objective expression and its sense (+1 minimise, −1 maximise), for ``no_better``.
+    goal: cp_model.LinearExprT | None = None
+    sense: int = 1
 
     def literals(self) -> list[cp_model.IntVar]:
         """Every decision literal (for reading a solution)."""
@@ -171,6 +174,17 @@ class BuiltModel:
             out.extend(self.value[position].values())
             out.extend(self.grade[position].values())
         return out
+
+    def no_better(self, optimum: float) -> None:
+        """After an optimal solve: every design still allowed is at best as good as the one just
+        found (cuts only remove designs), so the objective can be bounded by that optimum. The
+        bound removes nothing and gives the next solve its LP bound from the start."""
+        if self.goal is None:
+            return
+        if self.sense > 0:
+            self.model.add(self.goal >= round(optimum))
+        else:
+            self.model.add(self.goal <= round(optimum))
 
     def exclude(self, chosen: list[cp_model.IntVar]) -> None:
         """No-good cut: forbid this exact set of decisions from appearing together again."""
@@ -265,10 +279,16 @@ def build_model(
         grade.append({c: model.new_bool_var(f"g{position}_{c}") for c in cs})
         values_sum = _total(list(value[position].values()))
         model.add(_total(list(grade[position].values())) == values_sum)
+        offered: dict[int, list[cp_model.IntVar]] = {}
         for c, lit in grade[position].items():
             model.add(
                 lit <= _total([value[position][k] for k in block.avail[position][c].tolist()])
             )
+            for k in block.avail[position][c].tolist():
+                offered.setdefault(k, []).append(lit)
+        # And the other way: a value needs one of the classes that offer it (tightens the LP).
+        for k, lit in value[position].items():
+            model.add(lit <= _total(offered[k]))
         placed.append(values_sum)
 
     # The half coupling's analysis needs only the value and grade sets: run it first, so that a
@@ -541,18 +561,32 @@ def build_model(
     cost = _cost_expression(model, x, value, grade, options, block, spec)
     prefs = spec.preferences
     objective = variant.objective
+    goal: cp_model.LinearExprT
     if variant.maximise == "cmrr" or objective is Objective.CMRR_MARGIN:
         cap = variant.cost_cap if variant.cost_cap is not None else prefs.cost_cap
         if cap is not None and variant.maximise is None:
             model.add(cost <= math.floor(cap * COST_SCALE))
-        model.maximize(worst_margin * 1000 - cost if variant.maximise is None else worst_margin)
+        goal = worst_margin * 1000 - cost if variant.maximise is None else worst_margin
+        model.maximize(goal)
+        sense = -1
     elif objective is Objective.PLACEMENTS:
         placements = sum(x) + sum(placed)
-        model.minimize(placements * 10**9 + cost)
+        goal = placements * 10**9 + cost
+        model.minimize(goal)
+        sense = 1
     else:
-        model.minimize(cost)
+        goal = cost
+        model.minimize(goal)
+        sense = 1
     return BuiltModel(
-        model=model, x=x, value=value, grade=grade, options=options, margin_var=worst_margin
+        model=model,
+        x=x,
+        value=value,
+        grade=grade,
+        options=options,
+        margin_var=worst_margin,
+        goal=goal,
+        sense=sense,
     )
 
 
@@ -1254,34 +1288,30 @@ def _cost_expression(
         for i in members:
             model.add_implication(x[i], y)
         network_lines.append(y)
-    index_of = []
-    class_of = []
-    used = []
-    for position in range(4):
-        index_of.append(
-            cp_model.LinearExpr.weighted_sum(
-                list(value[position].values()), list(value[position].keys())
-            )
-        )
-        class_of.append(
-            cp_model.LinearExpr.weighted_sum(
-                list(grade[position].values()), list(grade[position].keys())
-            )
-        )
-        used.append(_total(list(value[position].values())))
+    used = [_total(list(value[position].values())) for position in range(4)]
     repeats = []
     for i in range(1, 4):
         same_any = []
         for j in range(i):
-            shared_values = set(value[i]) & set(value[j])
-            shared_classes = set(grade[i]) & set(grade[j])
+            shared_values = sorted(set(value[i]) & set(value[j]))
+            shared_classes = sorted(set(grade[i]) & set(grade[j]))
             if not shared_values or not shared_classes:
                 continue
+            # Positions j and i hold the same part (one line) only if they share a value and a
+            # class: same ≤ Σ_k both_k and same ≤ Σ_c both_c, with both_k ≤ either value
+            # literal (a tight linear form; an equality of index sums is weak in the LP).
             same = model.new_bool_var(f"same{j}{i}")
-            model.add(index_of[i] == index_of[j]).only_enforce_if(same)
-            model.add(class_of[i] == class_of[j]).only_enforce_if(same)
-            model.add(used[i] >= 1).only_enforce_if(same)
-            model.add(used[j] >= 1).only_enforce_if(same)
+            for kind, shared, lits in (
+                ("v", shared_values, value),
+                ("g", shared_classes, grade),
+            ):
+                both = []
+                for key in shared:
+                    lit = model.new_bool_var(f"both{kind}{j}{i}_{key}")
+                    model.add_implication(lit, lits[i][key])
+                    model.add_implication(lit, lits[j][key])
+                    both.append(lit)
+                model.add(same <= _total(both))
             same_any.append(same)
         if same_any:
             repeat = model.new_bool_var(f"repeat{i}")

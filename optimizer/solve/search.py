@@ -232,6 +232,12 @@ class _Stream:
                 self.gap = abs(objective - bound) / max(abs(objective), 1e-12)
             chosen, design = self.problem.read(solver, built)
             built.exclude(chosen)
+            if status == cp_model.OPTIMAL:
+                built.no_better(solver.objective_value)
+            # Start the next solve from this design: its neighbours are often the next best.
+            built.model.clear_hints()
+            for lit in built.literals():
+                built.model.add_hint(lit, solver.boolean_value(lit))
             started = time.perf_counter()
             verdict = verifier(design, spec)
             clock.verify += time.perf_counter() - started
