@@ -220,7 +220,7 @@ class _Sum:
         return cp_model.LinearExpr.weighted_sum(self.literals, ints)
 
 
-def _total(literals: list[cp_model.IntVar]) -> cp_model.LinearExprT:
+def _total(literals: list[cp_model.IntVar]) -> cp_model.LinearExpr | int:
     """Σ literals (0 when there are none, as Python's ``sum`` gives), built in one call."""
     return cp_model.LinearExpr.sum(literals) if literals else 0
 
@@ -267,7 +267,7 @@ def build_model(
 
     value: list[dict[int, cp_model.IntVar]] = []
     grade: list[dict[int, cp_model.IntVar]] = []
-    placed: list[cp_model.LinearExprT] = []  # 1 when position i holds a discrete part
+    placed: list[cp_model.LinearExpr | int] = []  # 1 when position i holds a discrete part
     for position in range(4):
         cs = classes[position]
         ks = (
@@ -540,8 +540,8 @@ def build_model(
                 * options.covers[:, 2],
             )
         for position in (0, 2):
-            ks = list(value[position])
-            acc.add([value[position][k] for k in ks], np.log(block.values[ks]))
+            keys = list(value[position])
+            acc.add([value[position][k] for k in keys], np.log(block.values[keys]))
             cs = list(grade[position])
             acc.add([grade[position][c] for c in cs], np.log1p(block.swing[cs]))
         floor = 2.0 * math.log(z_min * (1.0 - SLACK)) - 2.0 * math.log((1.0 + g_hi) / 2.0)
@@ -550,8 +550,8 @@ def build_model(
         acc = _Sum()
         acc.add(x, options.noise * (1.0 - SLACK))
         for position in range(4):
-            ks = list(value[position])
-            acc.add([value[position][k] for k in ks], value_noise[ks, position] * (1.0 - SLACK))
+            keys = list(value[position])
+            acc.add([value[position][k] for k in keys], value_noise[keys, position] * (1.0 - SLACK))
         noise = acc.expr(NOISE_SCALE, "floor")
         model.add(
             noise
@@ -570,7 +570,7 @@ def build_model(
         model.maximize(goal)
         sense = -1
     elif objective is Objective.PLACEMENTS:
-        placements = sum(x) + sum(placed)
+        placements = _total(x) + sum(placed)
         goal = placements * 10**9 + cost
         model.minimize(goal)
         sense = 1
@@ -698,7 +698,9 @@ class _LeastSpread:
             table = options.s_delta if delta else options.s_gain
         else:
             table = options.w_delta if delta else options.w_gain
-        least: NDArray[np.float64] = table[np.ix_(members, list(vs))].min(axis=1)
+        least: NDArray[np.float64] = table[np.ix_(members, np.asarray(vs, dtype=np.int64))].min(
+            axis=1
+        )
         return least
 
 
@@ -1317,5 +1319,5 @@ def _cost_expression(
             repeat = model.new_bool_var(f"repeat{i}")
             model.add(repeat <= _total(same_any))
             repeats.append(repeat)
-    discrete_lines = sum(used) - sum(repeats)
-    return expr + line_cost * (sum(network_lines) + discrete_lines)
+    discrete_lines = sum(used) - _total(repeats)
+    return expr + line_cost * (_total(network_lines) + discrete_lines)

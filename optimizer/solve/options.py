@@ -203,6 +203,7 @@ def _network_rows(
         if min(values) < low or max(values) > high:
             continue
         shapes: list[tuple[int, ...]]
+        orders: list[tuple[int, ...]]
         if network.elements == 2 and pair_shapes:
             shapes, orders = list(pair_list), [(0, 1), (1, 0)]
         elif network.elements == 4 and want_quads:
@@ -237,7 +238,7 @@ def _network_rows(
                     resist[p], own[p], own_v[p], upper[p] = r, own_dev, own_var, r * grow
                 rows.kind.append(len(shape))
                 rows.covers.append(tuple(i in shape for i in range(4)))  # type: ignore[arg-type]
-                rows.shape.append(ALL_SHAPES.index(shape) if len(shape) == 2 else -1)  # type: ignore[arg-type]
+                rows.shape.append(ALL_SHAPES.index(shape) if len(shape) == 2 else -1)  # type: ignore[arg-type,unused-ignore]
                 rows.line.append(line)
                 rows.cost.append(costs[index])
                 rows.resist.append(resist)

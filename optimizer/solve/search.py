@@ -235,7 +235,7 @@ class _Stream:
             if status == cp_model.OPTIMAL:
                 built.no_better(solver.objective_value)
             # Start the next solve from this design: its neighbours are often the next best.
-            built.model.clear_hints()
+            built.model.clear_hints()  # type: ignore[no-untyped-call]
             for lit in built.literals():
                 built.model.add_hint(lit, solver.boolean_value(lit))
             started = time.perf_counter()
