@@ -68,7 +68,8 @@ class SpecError(QuartetError, ValueError):
 
 
 class CatalogError(QuartetError, ValueError):
-    """A problem in a catalog file, located by file, row (1-based, as an editor shows it) and column."""
+    """A problem in a catalog file, located by file, row (1-based, as an editor shows it) and
+    column."""
 
     def __init__(
         self,
@@ -104,7 +105,9 @@ class BestReachable:
 class InfeasibleError(QuartetError):
     """No design from the catalogs meets the spec; ``binding`` names the requirements that bind."""
 
-    def __init__(self, binding: tuple[str, ...], best: tuple[BestReachable, ...], text: str) -> None:
+    def __init__(
+        self, binding: tuple[str, ...], best: tuple[BestReachable, ...], text: str
+    ) -> None:
         self.binding = binding
         self.best = best
         super().__init__(text)

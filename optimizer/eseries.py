@@ -62,7 +62,8 @@ def series_for_name(name: str) -> ESeries:
 
 def _formula(index: int, count: int, figures: int) -> int:
     """Rounded formula value 10^(index/count) as an integer of ``figures`` significant digits."""
-    return round(10 ** (index / count) * 10 ** (figures - 1))
+    scaled: float = 10.0 ** (index / count) * 10.0 ** (figures - 1)
+    return round(scaled)
 
 
 @cache

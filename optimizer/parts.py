@@ -15,12 +15,12 @@ from enum import Enum
 from .errors import ModelError
 
 __all__ = [
+    "SIZE_CODES",
     "Amplifier",
     "DiscretePart",
     "NetworkPart",
     "RailSpan",
     "Technology",
-    "SIZE_CODES",
 ]
 
 #: Package size codes Quartet knows (imperial chip sizes); user catalogs may add others.
@@ -43,7 +43,9 @@ class Technology(str, Enum):
             if member.value == key:
                 return member
         valid = ", ".join(m.value for m in cls)
-        raise ModelError("technology", "value", f"unknown technology {text!r}; expected one of {valid}")
+        raise ModelError(
+            "technology", "value", f"unknown technology {text!r}; expected one of {valid}"
+        )
 
 
 def _check_finite(owner: str, field: str, value: float) -> None:
@@ -72,7 +74,9 @@ def _check_fraction(owner: str, field: str, value: float, limit: float = 0.5) ->
 def _check_tempco(owner: str, field: str, value: float) -> None:
     _check_nonnegative(owner, field, value)
     if value > 0.01:
-        raise ModelError(owner, field, f"expected at most 0.01 per kelvin (10,000 ppm/K), got {value!r}")
+        raise ModelError(
+            owner, field, f"expected at most 0.01 per kelvin (10,000 ppm/K), got {value!r}"
+        )
 
 
 def _check_id(owner: str, part_id: str) -> None:
@@ -113,8 +117,14 @@ class DiscretePart:
         _check_positive(owner, "power", self.power_w)
         _check_positive(owner, "max_voltage", self.max_voltage_v)
         _check_nonnegative(owner, "cost", self.unit_cost)
-        if isinstance(self.stock_qty, bool) or not isinstance(self.stock_qty, int) or self.stock_qty < 0:
-            raise ModelError(owner, "stock", f"expected a whole number of zero or more, got {self.stock_qty!r}")
+        if (
+            isinstance(self.stock_qty, bool)
+            or not isinstance(self.stock_qty, int)
+            or self.stock_qty < 0
+        ):
+            raise ModelError(
+                owner, "stock", f"expected a whole number of zero or more, got {self.stock_qty!r}"
+            )
         _check_fraction(owner, "drift", self.drift_1000h)
 
     @property
@@ -161,8 +171,14 @@ class NetworkPart:
         _check_positive(owner, "power_per_element", self.power_per_element_w)
         _check_positive(owner, "max_voltage", self.max_voltage_v)
         _check_nonnegative(owner, "cost", self.unit_cost)
-        if isinstance(self.stock_qty, bool) or not isinstance(self.stock_qty, int) or self.stock_qty < 0:
-            raise ModelError(owner, "stock", f"expected a whole number of zero or more, got {self.stock_qty!r}")
+        if (
+            isinstance(self.stock_qty, bool)
+            or not isinstance(self.stock_qty, int)
+            or self.stock_qty < 0
+        ):
+            raise ModelError(
+                owner, "stock", f"expected a whole number of zero or more, got {self.stock_qty!r}"
+            )
         _check_fraction(owner, "drift", self.drift_1000h)
         _check_fraction(owner, "ratio_drift", self.ratio_drift_1000h)
 
@@ -192,7 +208,9 @@ class RailSpan:
         _check_finite("span", "low", self.low_v)
         _check_finite("span", "high", self.high_v)
         if not self.relative and self.low_v >= self.high_v:
-            raise ModelError("span", "low", f"low {self.low_v!r} V is not below high {self.high_v!r} V")
+            raise ModelError(
+                "span", "low", f"low {self.low_v!r} V is not below high {self.high_v!r} V"
+            )
 
     def resolve(self, negative_rail_v: float, positive_rail_v: float) -> tuple[float, float]:
         """The absolute (low, high) in volts for the given rails."""
@@ -230,7 +248,9 @@ class Amplifier:
         for field in ("cmrr_db", "open_loop_gain_db"):
             value = getattr(self, field)
             if not isinstance(value, (int, float)) or math.isnan(value) or value <= 0.0:
-                raise ModelError(owner, field.removesuffix("_db"), f"expected a level above 0 dB, got {value!r}")
+                raise ModelError(
+                    owner, field.removesuffix("_db"), f"expected a level above 0 dB, got {value!r}"
+                )
         _check_positive(owner, "gbw", self.gbw_hz)
         _check_positive(owner, "slew_rate", self.slew_v_per_s)
         _check_nonnegative(owner, "offset_voltage", abs(self.offset_v))
@@ -248,4 +268,8 @@ class Amplifier:
     @property
     def open_loop_gain(self) -> float:
         """Open-loop gain as a ratio (``inf`` for an ideal amplifier)."""
-        return math.inf if math.isinf(self.open_loop_gain_db) else 10.0 ** (self.open_loop_gain_db / 20.0)
+        return (
+            math.inf
+            if math.isinf(self.open_loop_gain_db)
+            else 10.0 ** (self.open_loop_gain_db / 20.0)
+        )

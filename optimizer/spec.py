@@ -52,7 +52,11 @@ class Rails:
         _finite("rails", "positive", self.positive_v)
         _finite("rails", "negative", self.negative_v)
         if self.negative_v >= self.positive_v:
-            raise ModelError("rails", "negative", f"{self.negative_v:g} V is not below positive {self.positive_v:g} V")
+            raise ModelError(
+                "rails",
+                "negative",
+                f"{self.negative_v:g} V is not below positive {self.positive_v:g} V",
+            )
 
 
 @dataclass(frozen=True)
@@ -67,10 +71,16 @@ class SourceImpedance:
     def __post_init__(self) -> None:
         _ordered("source impedance", "min", self.min_ohm, "max", self.max_ohm)
         if self.min_ohm < 0.0:
-            raise ModelError("source impedance", "min", f"expected zero or more, got {self.min_ohm:g}")
+            raise ModelError(
+                "source impedance", "min", f"expected zero or more, got {self.min_ohm:g}"
+            )
         _finite("source impedance", "imbalance", self.imbalance_ohm)
         if self.imbalance_ohm < 0.0:
-            raise ModelError("source impedance", "imbalance", f"expected zero or more, got {self.imbalance_ohm:g}")
+            raise ModelError(
+                "source impedance",
+                "imbalance",
+                f"expected zero or more, got {self.imbalance_ohm:g}",
+            )
 
 
 @dataclass(frozen=True)
@@ -88,11 +98,25 @@ class Signal:
     ac: bool = False
 
     def __post_init__(self) -> None:
-        _ordered("signal", "differential min", self.differential_min_v, "differential max", self.differential_max_v)
-        _ordered("signal", "common_mode min", self.common_mode_min_v, "common_mode max", self.common_mode_max_v)
+        _ordered(
+            "signal",
+            "differential min",
+            self.differential_min_v,
+            "differential max",
+            self.differential_max_v,
+        )
+        _ordered(
+            "signal",
+            "common_mode min",
+            self.common_mode_min_v,
+            "common_mode max",
+            self.common_mode_max_v,
+        )
         _finite("signal", "max_frequency", self.max_frequency_hz)
         if self.max_frequency_hz <= 0.0:
-            raise ModelError("signal", "max_frequency", f"expected above zero, got {self.max_frequency_hz:g}")
+            raise ModelError(
+                "signal", "max_frequency", f"expected above zero, got {self.max_frequency_hz:g}"
+            )
 
     @property
     def differential_peak_v(self) -> float:
@@ -110,9 +134,19 @@ class Reference:
 
     def __post_init__(self) -> None:
         _ordered("reference", "voltage min", self.voltage_min_v, "voltage max", self.voltage_max_v)
-        _ordered("reference", "impedance min", self.impedance_min_ohm, "impedance max", self.impedance_max_ohm)
+        _ordered(
+            "reference",
+            "impedance min",
+            self.impedance_min_ohm,
+            "impedance max",
+            self.impedance_max_ohm,
+        )
         if self.impedance_min_ohm < 0.0:
-            raise ModelError("reference", "impedance min", f"expected zero or more, got {self.impedance_min_ohm:g}")
+            raise ModelError(
+                "reference",
+                "impedance min",
+                f"expected zero or more, got {self.impedance_min_ohm:g}",
+            )
 
 
 class CmrrBasis(str, Enum):
@@ -154,14 +188,22 @@ class Requirements:
             raise ModelError(owner, "gain", f"expected a gain above zero, got {self.gain:g}")
         _finite(owner, "gain_accuracy", self.gain_accuracy)
         if not 0.0 < self.gain_accuracy < 1.0:
-            raise ModelError(owner, "gain_accuracy", f"expected a fraction between 0 and 100 %, got {self.gain_accuracy:g}")
+            raise ModelError(
+                owner,
+                "gain_accuracy",
+                f"expected a fraction between 0 and 100 %, got {self.gain_accuracy:g}",
+            )
         _finite(owner, "cmrr_floor", self.cmrr_floor_db)
         _ordered(owner, "temperature min", self.temp_min_c, "temperature max", self.temp_max_c)
         if self.temp_min_c < -273.15:
             raise ModelError(owner, "temperature min", "below absolute zero")
         _finite(owner, "yield", self.yield_target)
         if not 0.0 < self.yield_target < 1.0:
-            raise ModelError(owner, "yield", f"expected a fraction between 0 and 100 % (exclusive), got {self.yield_target:g}")
+            raise ModelError(
+                owner,
+                "yield",
+                f"expected a fraction between 0 and 100 % (exclusive), got {self.yield_target:g}",
+            )
         _finite(owner, "life", self.life_s)
         if self.life_s < 0.0:
             raise ModelError(owner, "life", "expected zero or more")
@@ -173,7 +215,13 @@ class Requirements:
             if self.max_output_noise_v_rms <= 0.0:
                 raise ModelError(owner, "max_output_noise", "expected above zero")
         if self.noise_band_high_hz is not None:
-            _ordered(owner, "noise band low", self.noise_band_low_hz, "noise band high", self.noise_band_high_hz)
+            _ordered(
+                owner,
+                "noise band low",
+                self.noise_band_low_hz,
+                "noise band high",
+                self.noise_band_high_hz,
+            )
         if self.noise_band_low_hz <= 0.0:
             raise ModelError(owner, "noise band low", "expected above zero")
 
@@ -229,13 +277,27 @@ class Preferences:
 
     def __post_init__(self) -> None:
         owner = "preferences"
-        _ordered(owner, "resistance_range min", self.resistance_min_ohm, "resistance_range max", self.resistance_max_ohm)
+        _ordered(
+            owner,
+            "resistance_range min",
+            self.resistance_min_ohm,
+            "resistance_range max",
+            self.resistance_max_ohm,
+        )
         if self.resistance_min_ohm <= 0.0:
             raise ModelError(owner, "resistance_range min", "expected above zero")
         if not self.topologies:
             raise ModelError(owner, "topologies", "expected at least one topology")
-        if isinstance(self.alternatives, bool) or not isinstance(self.alternatives, int) or not 1 <= self.alternatives <= 1000:
-            raise ModelError(owner, "alternatives", f"expected a whole number from 1 to 1000, got {self.alternatives!r}")
+        if (
+            isinstance(self.alternatives, bool)
+            or not isinstance(self.alternatives, int)
+            or not 1 <= self.alternatives <= 1000
+        ):
+            raise ModelError(
+                owner,
+                "alternatives",
+                f"expected a whole number from 1 to 1000, got {self.alternatives!r}",
+            )
         for name in ("stock_penalty", "placement_cost", "line_cost"):
             value = getattr(self, name)
             _finite(owner, name, value)
@@ -248,10 +310,20 @@ class Preferences:
         _finite(owner, "sigma_k", self.sigma_k)
         if self.sigma_k <= 0.0:
             raise ModelError(owner, "sigma_k", "expected above zero")
-        if isinstance(self.samples, bool) or not isinstance(self.samples, int) or not 100 <= self.samples <= 100_000_000:
-            raise ModelError(owner, "samples", f"expected a whole number from 100 to 100,000,000, got {self.samples!r}")
+        if (
+            isinstance(self.samples, bool)
+            or not isinstance(self.samples, int)
+            or not 100 <= self.samples <= 100_000_000
+        ):
+            raise ModelError(
+                owner,
+                "samples",
+                f"expected a whole number from 100 to 100,000,000, got {self.samples!r}",
+            )
         if isinstance(self.seed, bool) or not isinstance(self.seed, int) or self.seed < 0:
-            raise ModelError(owner, "seed", f"expected a whole number of zero or more, got {self.seed!r}")
+            raise ModelError(
+                owner, "seed", f"expected a whole number of zero or more, got {self.seed!r}"
+            )
 
 
 @dataclass(frozen=True)

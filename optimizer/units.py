@@ -23,8 +23,8 @@ __all__ = [
     "format_fraction",
     "format_quantity",
     "format_resistance",
-    "format_temperature",
     "format_tempco",
+    "format_temperature",
     "parse_current",
     "parse_current_noise",
     "parse_db",
@@ -34,8 +34,8 @@ __all__ = [
     "parse_power",
     "parse_resistance",
     "parse_slew_rate",
-    "parse_temperature",
     "parse_tempco",
+    "parse_temperature",
     "parse_voltage",
     "parse_voltage_noise",
 ]
@@ -128,7 +128,13 @@ _DURATION_UNITS: Final[Mapping[str, float]] = {
     "year": 365.25 * 86400.0,
     "years": 365.25 * 86400.0,
 }
-_TEMPERATURE_UNITS: Final[Mapping[str, float]] = {"": 0.0, "°C": 0.0, "C": 0.0, "degC": 0.0, "K": -273.15}
+_TEMPERATURE_UNITS: Final[Mapping[str, float]] = {
+    "": 0.0,
+    "°C": 0.0,
+    "C": 0.0,
+    "degC": 0.0,
+    "K": -273.15,
+}
 
 
 def _finite(token: object, value: float, expected: str) -> float:
@@ -190,7 +196,9 @@ def _parse(
             if suffix.endswith(unit):
                 prefix = suffix[: len(suffix) - len(unit)].strip()
                 if prefix in PREFIXES:
-                    return _finite(token, _apply_scale(_apply_scale(number, PREFIXES[prefix]), scale), expected)
+                    return _finite(
+                        token, _apply_scale(_apply_scale(number, PREFIXES[prefix]), scale), expected
+                    )
     raise UnitError(token, expected, f"unknown suffix {suffix!r}")
 
 
@@ -263,7 +271,9 @@ def _positive(token: object, value: float, expected: str, *, allow_zero: bool) -
 
 def parse_voltage(token: object) -> float:
     """A voltage in volts from ``2.5 V``, ``-12V``, ``500mV``, ``3.3``; may be negative."""
-    return _parse(token, {"V": 1.0, "": 1.0}, "a voltage such as 2.5 V, -12V or 500 mV", prefixed=True)
+    return _parse(
+        token, {"V": 1.0, "": 1.0}, "a voltage such as 2.5 V, -12V or 500 mV", prefixed=True
+    )
 
 
 def parse_frequency(token: object) -> float:
@@ -281,7 +291,8 @@ def parse_slew_rate(token: object) -> float:
 
 
 def parse_voltage_noise(token: object) -> float:
-    """A voltage noise density in V/√Hz from ``28 nV/rtHz``, ``28nV/√Hz``, ``28e-9``; not below 0."""
+    """A voltage noise density in V/√Hz from ``28 nV/rtHz``, ``28nV/√Hz``, ``28e-9``; not below
+    0."""
     expected = "a voltage noise density such as 28 nV/rtHz"
     value = _parse(token, {**_VNOISE_UNITS, "": 1.0}, expected, prefixed=True)
     return _positive(token, value, expected, allow_zero=True)
@@ -309,7 +320,7 @@ def parse_power(token: object) -> float:
 def parse_duration(token: object) -> float:
     """A duration in seconds from ``10 years``, ``1000 h``, ``30 days``, ``3600``; not below 0."""
     expected = "a duration such as 10 years, 1000 h or 30 days"
-    value = _parse(token, _DURATION_UNITS | {"": 1.0}, expected, prefixed=False)
+    value = _parse(token, {**_DURATION_UNITS, "": 1.0}, expected, prefixed=False)
     return _positive(token, value, expected, allow_zero=True)
 
 
@@ -352,7 +363,7 @@ def format_quantity(value: float, unit: str, digits: int = 12) -> str:
     if value == 0.0:
         return f"0 {unit}".strip()
     magnitude = abs(value)
-    for scale, prefix in _FORMAT_PREFIXES:
+    for scale, prefix in _FORMAT_PREFIXES:  # noqa: B007 (both are used after the loop)
         if magnitude >= scale * (1 - 1e-12):
             break
     mantissa = _mantissa(value / scale, digits)

@@ -1,4 +1,3 @@
-# ruff: noqa: RUF002, RUF003  (Greek letters and symbols are the formulas' own notation)
 """Monte-Carlo yield (optimizer.analysis.montecarlo) against sources outside it.
 
 Sources named beside each check:

@@ -1,4 +1,3 @@
-# ruff: noqa: RUF002  (Greek letters and symbols are the formulas' own notation)
 """The exact worst case (optimizer.analysis.worstcase, .variation) against sources outside it.
 
 Sources named beside each check:

@@ -1047,7 +1047,17 @@ def test_wheel_install_carries_the_builtin_catalog(tmp_path: Path) -> None:
     # Install the wheel first, so that pip cannot mistake the runner's own installed copy of
     # the project (CI installs it non-editable) for this one.
     subprocess.run(
-        [str(python), "-m", "pip", "install", "--no-deps", "--no-index", "--force-reinstall", "-q", str(wheels[0])],
+        [
+            str(python),
+            "-m",
+            "pip",
+            "install",
+            "--no-deps",
+            "--no-index",
+            "--force-reinstall",
+            "-q",
+            str(wheels[0]),
+        ],
         check=True,
         env=env,
         timeout=300,

@@ -1,4 +1,3 @@
-# ruff: noqa: RUF002  (the minus sign is the formulas' own notation)
 """``quartet check``: a design the user brings, verified against a spec.
 
 Sources of the expected values:

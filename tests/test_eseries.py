@@ -24,9 +24,13 @@ from optimizer.eseries import (
 @pytest.mark.parametrize("series", list(ESeries), ids=lambda s: s.name)
 def test_every_value_matches_the_eseries_package(series: ESeries) -> None:
     ours = list(values_in_range(series, 1.0, 10e6))
-    theirs = [v for v in reference.erange(reference.ESeries[series.name], 1.0, 10e6) if v <= 10e6 * (1 + 1e-9)]
+    theirs = [
+        v
+        for v in reference.erange(reference.ESeries[series.name], 1.0, 10e6)
+        if v <= 10e6 * (1 + 1e-9)
+    ]
     assert len(ours) == len(theirs) == 7 * series + 1  # seven decades 1 Ω … 9.x MΩ, plus 10 MΩ
-    for mine, ref in zip(ours, theirs):
+    for mine, ref in zip(ours, theirs, strict=True):
         assert mine == pytest.approx(ref, rel=1e-12)
 
 
@@ -68,4 +72,7 @@ def test_nearest_lies_between_neighbours(series: ESeries, value: float) -> None:
 def test_unknown_series_name() -> None:
     with pytest.raises(UnitError) as info:
         series_for_name("E25")
-    assert str(info.value) == "cannot read 'E25' (unknown E-series): expected one of E3, E6, E12, E24, E48, E96, E192"
+    assert (
+        str(info.value)
+        == "cannot read 'E25' (unknown E-series): expected one of E3, E6, E12, E24, E48, E96, E192"
+    )

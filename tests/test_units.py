@@ -28,8 +28,8 @@ from optimizer.units import (
     parse_power,
     parse_resistance,
     parse_slew_rate,
-    parse_temperature,
     parse_tempco,
+    parse_temperature,
     parse_voltage,
     parse_voltage_noise,
 )
@@ -97,7 +97,14 @@ def test_parse_quantities(parser: object, text: str, value: float) -> None:
 
 @pytest.mark.parametrize(
     ("ohms", "text"),
-    [(4990.0, "4.99 kΩ"), (0.1, "100 mΩ"), (2.2e6, "2.2 MΩ"), (100.0, "100 Ω"), (1e7, "10 MΩ"), (999.9999999999999, "1 kΩ")],
+    [
+        (4990.0, "4.99 kΩ"),
+        (0.1, "100 mΩ"),
+        (2.2e6, "2.2 MΩ"),
+        (100.0, "100 Ω"),
+        (1e7, "10 MΩ"),
+        (999.9999999999999, "1 kΩ"),
+    ],
 )
 def test_format_resistance(ohms: float, text: str) -> None:
     assert format_resistance(ohms) == text
@@ -113,15 +120,42 @@ def test_format_other() -> None:
 @pytest.mark.parametrize(
     ("token", "message"),
     [
-        ("0", "cannot read '0' (not above zero): expected a resistance above zero such as 4.99k, 4k99, 100R, 0R1 or 2.2 MΩ"),
-        ("-1k", "cannot read '-1k' (not above zero): expected a resistance above zero such as 4.99k, 4k99, 100R, 0R1 or 2.2 MΩ"),
-        ("nan", "cannot read 'nan' (no number at the start): expected a resistance above zero such as 4.99k, 4k99, 100R, 0R1 or 2.2 MΩ"),
-        ("inf", "cannot read 'inf' (no number at the start): expected a resistance above zero such as 4.99k, 4k99, 100R, 0R1 or 2.2 MΩ"),
-        (math.nan, "cannot read nan (not a finite number): expected a resistance above zero such as 4.99k, 4k99, 100R, 0R1 or 2.2 MΩ"),
-        (math.inf, "cannot read inf (not a finite number): expected a resistance above zero such as 4.99k, 4k99, 100R, 0R1 or 2.2 MΩ"),
-        ("10x", "cannot read '10x' (unknown suffix 'x'): expected a resistance above zero such as 4.99k, 4k99, 100R, 0R1 or 2.2 MΩ"),
-        ("1e999", "cannot read '1e999' (not a finite number): expected a resistance above zero such as 4.99k, 4k99, 100R, 0R1 or 2.2 MΩ"),
-        (True, "cannot read True (a yes/no value is not a number): expected a resistance above zero such as 4.99k, 4k99, 100R, 0R1 or 2.2 MΩ"),
+        (
+            "0",
+            "cannot read '0' (not above zero): expected a resistance above zero such as 4.99k, 4k99, 100R, 0R1 or 2.2 MΩ",
+        ),
+        (
+            "-1k",
+            "cannot read '-1k' (not above zero): expected a resistance above zero such as 4.99k, 4k99, 100R, 0R1 or 2.2 MΩ",
+        ),
+        (
+            "nan",
+            "cannot read 'nan' (no number at the start): expected a resistance above zero such as 4.99k, 4k99, 100R, 0R1 or 2.2 MΩ",
+        ),
+        (
+            "inf",
+            "cannot read 'inf' (no number at the start): expected a resistance above zero such as 4.99k, 4k99, 100R, 0R1 or 2.2 MΩ",
+        ),
+        (
+            math.nan,
+            "cannot read nan (not a finite number): expected a resistance above zero such as 4.99k, 4k99, 100R, 0R1 or 2.2 MΩ",
+        ),
+        (
+            math.inf,
+            "cannot read inf (not a finite number): expected a resistance above zero such as 4.99k, 4k99, 100R, 0R1 or 2.2 MΩ",
+        ),
+        (
+            "10x",
+            "cannot read '10x' (unknown suffix 'x'): expected a resistance above zero such as 4.99k, 4k99, 100R, 0R1 or 2.2 MΩ",
+        ),
+        (
+            "1e999",
+            "cannot read '1e999' (not a finite number): expected a resistance above zero such as 4.99k, 4k99, 100R, 0R1 or 2.2 MΩ",
+        ),
+        (
+            True,
+            "cannot read True (a yes/no value is not a number): expected a resistance above zero such as 4.99k, 4k99, 100R, 0R1 or 2.2 MΩ",
+        ),
     ],
 )
 def test_resistance_refusals(token: object, message: str) -> None:
@@ -133,14 +167,46 @@ def test_resistance_refusals(token: object, message: str) -> None:
 @pytest.mark.parametrize(
     ("parser", "token", "message"),
     [
-        (parse_fraction, "150%", "cannot read '150%' (outside 0 % to 100 %): expected a fraction such as 0.1%, 1000 ppm or 0.001"),
-        (parse_fraction, "0.1 pct", "cannot read '0.1 pct' (unknown suffix 'pct'): expected a fraction such as 0.1%, 1000 ppm or 0.001"),
-        (parse_tempco, 25, "cannot read 25 (larger than 10,000 ppm/K; did you mean ppm/K?): expected a tempco such as 25 ppm/K, 25ppm/°C or 25e-6"),
-        (parse_tempco, "-5ppm/K", "cannot read '-5ppm/K' (a tempco bound is a magnitude, not below zero): expected a tempco such as 25 ppm/K, 25ppm/°C or 25e-6"),
-        (parse_temperature, "-300 °C", "cannot read '-300 °C' (below absolute zero): expected a temperature such as -40 °C, 125C or 233.15 K"),
-        (parse_temperature, "20 F", "cannot read '20 F' (unknown suffix 'F'): expected a temperature such as -40 °C, 125C or 233.15 K"),
-        (parse_frequency, "0 Hz", "cannot read '0 Hz' (zero is not allowed): expected a frequency above zero such as 1 MHz or 10 kHz"),
-        (parse_voltage, "5 A", "cannot read '5 A' (unknown suffix 'A'): expected a voltage such as 2.5 V, -12V or 500 mV"),
+        (
+            parse_fraction,
+            "150%",
+            "cannot read '150%' (outside 0 % to 100 %): expected a fraction such as 0.1%, 1000 ppm or 0.001",
+        ),
+        (
+            parse_fraction,
+            "0.1 pct",
+            "cannot read '0.1 pct' (unknown suffix 'pct'): expected a fraction such as 0.1%, 1000 ppm or 0.001",
+        ),
+        (
+            parse_tempco,
+            25,
+            "cannot read 25 (larger than 10,000 ppm/K; did you mean ppm/K?): expected a tempco such as 25 ppm/K, 25ppm/°C or 25e-6",
+        ),
+        (
+            parse_tempco,
+            "-5ppm/K",
+            "cannot read '-5ppm/K' (a tempco bound is a magnitude, not below zero): expected a tempco such as 25 ppm/K, 25ppm/°C or 25e-6",
+        ),
+        (
+            parse_temperature,
+            "-300 °C",
+            "cannot read '-300 °C' (below absolute zero): expected a temperature such as -40 °C, 125C or 233.15 K",
+        ),
+        (
+            parse_temperature,
+            "20 F",
+            "cannot read '20 F' (unknown suffix 'F'): expected a temperature such as -40 °C, 125C or 233.15 K",
+        ),
+        (
+            parse_frequency,
+            "0 Hz",
+            "cannot read '0 Hz' (zero is not allowed): expected a frequency above zero such as 1 MHz or 10 kHz",
+        ),
+        (
+            parse_voltage,
+            "5 A",
+            "cannot read '5 A' (unknown suffix 'A'): expected a voltage such as 2.5 V, -12V or 500 mV",
+        ),
     ],
 )
 def test_other_refusals(parser: object, token: object, message: str) -> None:
@@ -161,7 +227,9 @@ def test_resistance_round_trip(ohms: float) -> None:
 
 @given(st.floats(min_value=0.0, max_value=0.99, allow_nan=False))
 def test_fraction_round_trip(fraction: float) -> None:
-    assert parse_fraction(format_fraction(fraction)) == pytest.approx(fraction, rel=1e-11, abs=1e-18)
+    assert parse_fraction(format_fraction(fraction)) == pytest.approx(
+        fraction, rel=1e-11, abs=1e-18
+    )
 
 
 @given(st.floats(min_value=0.0, max_value=0.01, allow_nan=False))
@@ -171,4 +239,6 @@ def test_tempco_round_trip(per_k: float) -> None:
 
 @given(st.floats(min_value=-273.15, max_value=1000.0, allow_nan=False))
 def test_temperature_round_trip(celsius: float) -> None:
-    assert parse_temperature(format_temperature(celsius)) == pytest.approx(celsius, rel=1e-11, abs=1e-9)
+    assert parse_temperature(format_temperature(celsius)) == pytest.approx(
+        celsius, rel=1e-11, abs=1e-9
+    )

@@ -70,7 +70,8 @@ class Coefficients:
 
 def ideal_gain(r1: ArrayLike, r2: ArrayLike) -> Array:
     """G = R2/R1 (dimensionless), the nominal differential gain of the difference amplifier."""
-    return np.asarray(r2, dtype=float) / np.asarray(r1, dtype=float)
+    gain: Array = np.asarray(r2, dtype=float) / np.asarray(r1, dtype=float)
+    return gain
 
 
 def divider_ratio(r3_eff: ArrayLike, r4_eff: ArrayLike) -> Array:
@@ -78,7 +79,8 @@ def divider_ratio(r3_eff: ArrayLike, r4_eff: ArrayLike) -> Array:
     (voltage divider; R3' and R4' include the source and REF impedances, ohms)."""
     r3 = np.asarray(r3_eff, dtype=float)
     r4 = np.asarray(r4_eff, dtype=float)
-    return r4 / (r3 + r4)
+    ratio: Array = r4 / (r3 + r4)
+    return ratio
 
 
 def feedback_factor(r1_eff: ArrayLike, r2: ArrayLike) -> Array:
