@@ -42,8 +42,10 @@ unit in the key name; fractions are plain fractions, 0.001 = 0.1 %)::
 
 from __future__ import annotations
 
+import os
 import time
 from collections.abc import Sequence
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, replace
 from typing import TYPE_CHECKING, Any, Final
 
@@ -157,6 +159,10 @@ class PickReport:
         return self.ranked[0] if self.ranked else None
 
 
+#: Most threads for the displayed designs' Monte Carlo runs.
+STATISTICS_THREADS = 4
+
+
 def _with_statistics(verdict: object, design: Design, spec: Spec) -> Verification:
     if not isinstance(verdict, Verification):
         raise TypeError(f"expected the verdict of optimizer.verify.verify, got {type(verdict)}")
@@ -179,13 +185,20 @@ def build_pick_report(
     """The report of one pick: runs the Monte Carlo (``spec.preferences`` samples and seed)
     for every displayed design that has none yet."""
     started = time.perf_counter()
+    shown = (*result.ranked, *result.extras)
+    # Each design's Monte Carlo has its own generator (seeded from the spec), so running them on
+    # the machine's cores in threads (numpy releases the GIL) gives the same results in order.
+    workers = max(1, min(len(shown), os.cpu_count() or 1, STATISTICS_THREADS))
+    with ThreadPoolExecutor(workers) as pool:
+        verdicts = list(pool.map(lambda c: _with_statistics(c.verdict, c.design, spec), shown))
+    count = len(result.ranked)
     ranked = tuple(
-        Shown(i + 1, c.design, c.cost, _with_statistics(c.verdict, c.design, spec))
-        for i, c in enumerate(result.ranked)
+        Shown(i + 1, c.design, c.cost, v)
+        for i, (c, v) in enumerate(zip(result.ranked, verdicts[:count], strict=True))
     )
     others = tuple(
-        Shown(None, c.design, c.cost, _with_statistics(c.verdict, c.design, spec))
-        for c in result.extras
+        Shown(None, c.design, c.cost, v)
+        for c, v in zip(result.extras, verdicts[count:], strict=True)
     )
     return PickReport(
         spec=spec,
