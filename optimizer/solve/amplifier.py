@@ -3,6 +3,8 @@ range and output swing, judged on ideal resistor sets across the gain tolerance 
 
 from __future__ import annotations
 
+from collections.abc import Iterator
+
 import numpy as np
 
 from ..analysis.checks import (
@@ -51,7 +53,16 @@ def amplifier_limits(spec: Spec) -> tuple[CheckResult, ...]:
     top = max(prefs.resistance_min_ohm, prefs.resistance_max_ohm / max(req.gain, 1.0))
     levels = np.geomspace(prefs.resistance_min_ohm, top, TRIAL_LEVELS)
     rref = 0.5 * (spec.reference.impedance_min_ohm + spec.reference.impedance_max_ohm)
-    designs = [_ideal_design(float(r), float(g), rref) for r in levels for g in gains]
+    grid = [(float(r), float(g)) for r in levels for g in gains]
+    made: dict[tuple[float, float], Design] = {}
+
+    def designs() -> Iterator[Design]:
+        """The ideal sets, built once each and only when a check gets that far."""
+        for key in grid:
+            if key not in made:
+                made[key] = _ideal_design(key[0], key[1], rref)
+            yield made[key]
+
     failing: list[CheckResult] = []
     for check in (
         check_bandwidth,
@@ -60,7 +71,7 @@ def amplifier_limits(spec: Spec) -> tuple[CheckResult, ...]:
         check_output_swing,
     ):
         results: list[CheckResult] = []
-        for design in designs:
+        for design in designs():
             result = check(design, spec)
             if result.passed:
                 break  # one ideal set passes: the resistors can meet this check

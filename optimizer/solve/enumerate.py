@@ -243,13 +243,15 @@ def design_count(spec: Spec, catalog: Catalog) -> int:
     return sum(_counts(spec, catalog).values())
 
 
-def _checked_families(spec: Spec, catalog: Catalog) -> list[_Family]:
-    """The families of designs, after refusing more than :data:`MAX_DESIGNS` of them."""
+def _checked_families(
+    spec: Spec, catalog: Catalog, max_designs: int = MAX_DESIGNS
+) -> list[_Family]:
+    """The families of designs, after refusing more than ``max_designs`` of them."""
     counts = _counts(spec, catalog)
     total = sum(counts.values())
-    if total > MAX_DESIGNS:
+    if total > max_designs:
         detail = ", ".join(f"{t.value} {n:,}" for t, n in counts.items() if n)
-        raise TooManyDesigns(total, MAX_DESIGNS, detail)
+        raise TooManyDesigns(total, max_designs, detail)
     topologies = set(spec.preferences.topologies)
     discrete = allowed_discrete(spec, catalog)
     networks = allowed_networks(spec, catalog)
@@ -521,6 +523,7 @@ def reference_search(
     top: int = 1,
     *,
     prune: bool | None = None,
+    max_designs: int = MAX_DESIGNS,
 ) -> ReferenceResult:
     """The ``top`` cheapest designs from ``catalog`` that pass ``verifier``, found by trying
     every design ``spec`` allows in order of (cost, stable key).
@@ -529,12 +532,13 @@ def reference_search(
     ``verify`` must reject: on the worst-case basis without same-lot tracking those whose
     corner bound misses the CMRR floor or the gain accuracy (:func:`_screen`), and on any basis
     those that fail the input-impedance or noise check (:func:`fails_a_check`), before the
-    full verification. ``prune=False`` verifies every design."""
+    full verification. ``prune=False`` verifies every design. More than ``max_designs`` designs
+    raise :class:`TooManyDesigns` (the benchmark raises the limit to time larger catalogs)."""
     if isinstance(top, bool) or not isinstance(top, int) or top < 1:
         raise ModelError(
             "reference search", "top", f"expected a whole number of 1 or more, got {top!r}"
         )
-    families = _checked_families(spec, catalog)
+    families = _checked_families(spec, catalog, max_designs)
     if prune is None:
         prune = verifier is verify
     elif prune and verifier is not verify:

@@ -30,7 +30,7 @@ from .amplifier import amplifier_limits
 from .discrete import DiscreteBlock, build_discrete, value_constants
 from .environment import LinearEnvironment, linear_environment
 from .model import BuiltModel, Limits, ModelVariant, build_model, limits_for
-from .options import ALL_SHAPES, OptionTable, build_options
+from .options import ALL_SHAPES, DIVIDER_SHAPES, EQUAL_SHAPES, OptionTable, build_options
 
 __all__ = ["Candidate", "PickResult", "SearchStatus", "pick", "solver_parameters"]
 
@@ -339,18 +339,30 @@ def pick(
 
 def _streams(problem: Problem, spec: Spec) -> list[_Stream]:
     """One stream per allowed topology; one dual network plus two discrete parts gets one stream
-    per position pair the network may occupy (each such model is much smaller)."""
+    per position pair the network may occupy (each such model is much smaller). A stream whose
+    parts the catalog lacks altogether (no quad, no dual for its positions, no discrete part for
+    a position it needs) is left out: it has no design, so no model is built for it."""
     objective = spec.preferences.objective
+    kind, shape_of = problem.options.kind, problem.options.shape
+    has_discrete = [bool(problem.block.usable(i)) for i in range(4)]
     streams: list[_Stream] = []
     for topology in Topology:
         if topology not in spec.preferences.topologies:
             continue
         if topology is Topology.PAIR_PLUS_DISCRETE:
-            streams.extend(
-                _Stream(problem, frozenset({topology}), objective, shape)
-                for shape in range(len(ALL_SHAPES))
-            )
+            for shape in range(len(ALL_SHAPES)):
+                rest = [i for i in range(4) if i not in ALL_SHAPES[shape]]
+                if ((kind == 2) & (shape_of == shape)).any() and all(has_discrete[i] for i in rest):
+                    streams.append(_Stream(problem, frozenset({topology}), objective, shape))
+            continue
+        if topology is Topology.DISCRETE:
+            possible = all(has_discrete)
+        elif topology is Topology.QUAD:
+            possible = bool((kind == 4).any())
         else:
+            shapes = EQUAL_SHAPES if topology is Topology.EQUAL_PAIRS else DIVIDER_SHAPES
+            possible = all(((kind == 2) & (shape_of == ALL_SHAPES.index(s))).any() for s in shapes)
+        if possible:
             streams.append(_Stream(problem, frozenset({topology}), objective))
     return streams
 

@@ -65,6 +65,8 @@ WORKLOAD_SPEC = os.path.join(REPO, "examples", "motor_shunt.yaml")
 TIME_LIMIT: list[float | None] = [None]
 #: CMRR floor (dB) of the oracle sweep's spec (the workload spec with a relaxed floor).
 ORACLE_CMRR_DB = 60.0
+#: Design count the enumerator accepts in the oracle section (its default is 500,000).
+ORACLE_MAX_DESIGNS = 5_000_000
 #: Gain accuracy (fraction) of the oracle sweep's spec.
 ORACLE_GAIN_ACCURACY = 0.01
 #: A pick (example or scaling) whose first run times ``runs`` exceeds this many seconds gets
@@ -296,7 +298,9 @@ def bench_oracle(runs: int, sizes: Sequence[int], stop_s: float, tmp: str) -> li
         spec = with_catalog(base, [path], builtin=False)
         catalog = spec_catalog(spec)
         try:
-            enum_s, ref = timed(reference_search, spec, catalog, verify, top=1)
+            enum_s, ref = timed(
+                reference_search, spec, catalog, verify, top=1, max_designs=ORACLE_MAX_DESIGNS
+            )
         except TooManyDesigns as exc:
             rows.append({"parts": n, "note": f"enumerator refused: {exc.count:,} designs"})
             break
@@ -591,9 +595,9 @@ def main(argv: Sequence[str] | None = None) -> int:
     if args.oracle_sizes:
         oracle_sizes = [int(s) for s in args.oracle_sizes.split(",")]
     else:
-        # the enumerator refuses more than MAX_DESIGNS (500,000) designs: 26 parts (26⁴ = 456,976)
-        # is the largest all-discrete catalog it takes
-        oracle_sizes = [8, 10, 12, 15, 19, 22, 24, 26]
+        # grows until the enumerator needs --oracle-stop-s (10 s); the enumerator's own limit is
+        # raised to ORACLE_MAX_DESIGNS for this section (its default refuses above 500,000)
+        oracle_sizes = [8, 10, 12, 15, 19, 22, 24, 26, 28, 30, 33, 36, 40]
     stop_s = args.oracle_stop_s or (1.0 if quick else TARGET_ENUM_AT_S)
     big_runs = min(runs, 3)
     mc_samples = args.mc_samples or 1_000_000
