@@ -25,7 +25,7 @@ ones the relaxation let through.
 from __future__ import annotations
 
 import math
-from collections.abc import Callable
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -261,20 +261,52 @@ def build_model(
     if any(not classes[i] and not options.covers[:, i].any() for i in range(4)):
         # A position nothing can fill after pruning: the stream is infeasible; skip the rest.
         return _infeasible(model, options)
+    req_early = spec.requirements
+    value_sets = [
+        np.unique(np.concatenate([block.avail[position][c] for c in classes[position]]))
+        if classes[position]
+        else np.zeros(0, dtype=np.int64)
+        for position in range(4)
+    ]
+
+    # The half coupling's analysis needs only the value and class sets: run it before any
+    # literal exists, so that a stream it proves infeasible costs no further building (its
+    # constraints are added later, in their usual place).
+    halves = _halves(allowed, variant)
+    coupling: _HalfPairs | None = None
+    if (
+        halves is not None
+        and variant.cmrr
+        and variant.gain
+        and limits.cmrr_budget <= COUPLING_BUDGET
+    ):
+        coupling = _half_pairs(
+            halves,
+            [{int(k): None for k in ks} for ks in value_sets],
+            options,
+            constants[0],
+            _LeastSpread(
+                block,
+                [{c: None for c in cs} for cs in classes],
+                constants[1],
+                req_early.cmrr_basis is CmrrBasis.YIELD,
+            ),
+            spec,
+            limits,
+            extreme_vertices(env.vertices, req_early.gain),
+            np.ones(len(options), dtype=bool),
+        )
+        if coupling.infeasible if coupling is not None else False:
+            return _infeasible(model, options)
+
     x = [model.new_bool_var(f"o{i}") for i in range(n)]
     kinds = options.kind
-    req_early = spec.requirements
-
     value: list[dict[int, cp_model.IntVar]] = []
     grade: list[dict[int, cp_model.IntVar]] = []
     placed: list[cp_model.LinearExpr | int] = []  # 1 when position i holds a discrete part
     for position in range(4):
         cs = classes[position]
-        ks = (
-            np.unique(np.concatenate([block.avail[position][c] for c in cs]))
-            if cs
-            else np.zeros(0, dtype=np.int64)
-        )
+        ks = value_sets[position]
         value.append({int(k): model.new_bool_var(f"v{position}_{k}") for k in ks})
         grade.append({c: model.new_bool_var(f"g{position}_{c}") for c in cs})
         values_sum = _total(list(value[position].values()))
@@ -290,30 +322,6 @@ def build_model(
         for k, lit in value[position].items():
             model.add(lit <= _total(offered[k]))
         placed.append(values_sum)
-
-    # The half coupling's analysis needs only the value and grade sets: run it first, so that a
-    # stream it proves infeasible costs no further building (constraints come later, in order).
-    halves = _halves(allowed, variant)
-    coupling: _HalfPairs | None = None
-    if (
-        halves is not None
-        and variant.cmrr
-        and variant.gain
-        and limits.cmrr_budget <= COUPLING_BUDGET
-    ):
-        coupling = _half_pairs(
-            halves,
-            value,
-            options,
-            constants[0],
-            _LeastSpread(block, grade, constants[1], req_early.cmrr_basis is CmrrBasis.YIELD),
-            spec,
-            limits,
-            extreme_vertices(env.vertices, req_early.gain),
-            np.ones(len(options), dtype=bool),
-        )
-        if coupling.infeasible if coupling is not None else False:
-            return _infeasible(model, options)
 
     # Topology selection and exact cover.
     t = {top: model.new_bool_var(top.value) for top in Topology if top in allowed}
@@ -651,7 +659,7 @@ class _LeastSpread:
     def __init__(
         self,
         block: DiscreteBlock,
-        grade: list[dict[int, cp_model.IntVar]],
+        grade: Sequence[Mapping[int, object]],
         fraction: NDArray[np.float64],
         of_variance: bool,
     ) -> None:
@@ -742,7 +750,7 @@ class _HalfPairs:
 
 def _half_pairs(
     halves: tuple[object, tuple[int, int]],
-    value: list[dict[int, cp_model.IntVar]],
+    value: Sequence[Mapping[int, object]],
     options: OptionTable,
     phi: NDArray[np.float64],
     least: _LeastSpread,
