@@ -19,6 +19,7 @@ from ortools.sat.python import cp_model
 
 from optimizer.catalog import Catalog, load_catalogs
 from optimizer.design import Topology
+from optimizer.solve import discrete as discrete_module
 from optimizer.solve import model as model_module
 from optimizer.solve import search as search_module
 from optimizer.solve.discrete import SAFE_RATING, _drop_dominated
@@ -135,10 +136,16 @@ def _dominated_by_definition(
     return kept
 
 
+@pytest.mark.parametrize("by_value", [False, True], ids=["class-by-class", "value-groups"])
 @pytest.mark.parametrize("seed", range(40))
-def test_drop_dominated_matches_the_rule_written_out(seed: int) -> None:
-    """The vectorised filter keeps exactly what the pairwise rule keeps, on random classes with
-    ties (attributes drawn from few levels, so equal classes and partial orders are common)."""
+def test_drop_dominated_matches_the_rule_written_out(
+    seed: int, by_value: bool, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """Both ways of filtering (class against class for few classes, within each value's group
+    for many) keep exactly what the pairwise rule keeps, on random classes with ties
+    (attributes drawn from few levels, so equal classes and partial orders are common)."""
+    if by_value:
+        monkeypatch.setattr(discrete_module, "MANY_CLASSES", 0)
     rng = np.random.default_rng(seed)
     n_classes, n_values = int(rng.integers(2, 9)), int(rng.integers(1, 7))
     values = np.sort(rng.choice([100.0, 1e3, 4.99e3, 1e4, 1e5, 1e6], n_values, replace=False))

@@ -32,6 +32,11 @@ __all__ = ["DiscreteBlock", "build_discrete"]
 SAFE_RATING = 1.5
 
 
+#: Above this many classes at a position the dominance filter compares within each value's group
+#: of parts instead of class against class (its cost grows with the square of the class count).
+MANY_CLASSES = 1000
+
+
 @dataclass(frozen=True)
 class DiscreteBlock:
     """Values and classes of the discrete parts the pick may use.
@@ -186,6 +191,8 @@ def _drop_dominated(
     present = np.flatnonzero(avail.any(axis=0))
     if present.size < 2:
         return usable
+    if present.size > MANY_CLASSES:
+        return _drop_dominated_by_value(usable, cost, spread, power, volts, stocked, values, stress)
     cap = SAFE_RATING * stress**2 / values
     power_term = -np.minimum(power[None, :], cap[:, None])  # (K, C); lower is better
     before = np.column_stack([cost, spread])  # compared before the power term
@@ -211,6 +218,53 @@ def _drop_dominated(
             keep[rows[beaten]] = False
             result[b] = np.flatnonzero(keep)
     return result
+
+
+def _drop_dominated_by_value(
+    usable: list[NDArray[np.int64]],
+    cost: NDArray[np.float64],
+    spread: NDArray[np.float64],
+    power: NDArray[np.float64],
+    volts: NDArray[np.float64],
+    stocked: NDArray[np.bool_],
+    values: NDArray[np.float64],
+    stress: float,
+) -> list[NDArray[np.int64]]:
+    """:func:`_drop_dominated` for many classes: one sort of all (class, value) parts, then the
+    pairwise comparison inside each value's group only, O(n log n + Σ group²). With a class per
+    part (a stockroom that prices every part on its own) the groups stay small while the class
+    count is the part count."""
+    classes = [np.full(ks.size, c, dtype=np.int64) for c, ks in enumerate(usable) if ks.size]
+    if not classes:
+        return usable
+    cls = np.concatenate(classes)
+    val = np.concatenate([ks for ks in usable if ks.size])
+    need_p = stress**2 / values[val]
+    attrs = np.column_stack(
+        [
+            cost[cls],
+            spread[cls],
+            -np.minimum(power[cls], SAFE_RATING * need_p),
+            -np.minimum(volts[cls], SAFE_RATING * stress),
+            -stocked[cls].astype(float),
+            cls.astype(float),  # tie-break: the first class wins among equals
+        ]
+    )
+    order = np.lexsort((*(attrs[:, i] for i in range(attrs.shape[1] - 1, -1, -1)), val))
+    cls, val, attrs = cls[order], val[order], attrs[order]
+    keep = np.ones(cls.size, dtype=bool)
+    starts = np.flatnonzero(np.r_[True, val[1:] != val[:-1]])
+    ends = np.r_[starts[1:], val.size]
+    for start, end in zip(starts[ends - starts > 1], ends[ends - starts > 1], strict=True):
+        group = attrs[start:end, :-1]
+        # Rows are sorted by cost first: a row is dominated by an earlier one that is no worse.
+        no_worse = np.all(group[None, :, :] <= group[:, None, :] + 1e-15, axis=2)
+        earlier = np.tri(end - start, k=-1, dtype=bool)
+        keep[start:end] = ~np.any(no_worse & earlier, axis=1)
+    result: list[list[int]] = [[] for _ in usable]
+    for c, k in zip(cls[keep].tolist(), val[keep].tolist(), strict=True):
+        result[c].append(k)
+    return [np.array(sorted(ks), dtype=np.int64) for ks in result]
 
 
 def _lex_less(
