@@ -310,9 +310,7 @@ def pick(
         found.append(head[1])
         # The stream's next design is needed only if more are wanted (not for the extras, which
         # come from streams of the other kind).
-        heads[best] = (
-            streams[best].next(verifier, clock, workers) if len(found) < wanted else None
-        )
+        heads[best] = streams[best].next(verifier, clock, workers) if len(found) < wanted else None
     extras = _best_of_each_kind(found, streams, heads)
     timed_out = any(s.timed_out for s in streams)
     rejected = [r for s in streams for r in s.rejected]
