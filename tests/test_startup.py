@@ -31,25 +31,30 @@ SPEC = ROOT / "examples" / "motor_shunt.yaml"
 HEAVY = ("pandas", "ortools")
 
 
-def _loaded_after(code: str) -> list[str]:
-    """Run ``code`` in a fresh interpreter; the heavy top-level packages it left loaded."""
+def _loaded_after(code: str, tmp: Path) -> list[str]:
+    """Run ``code`` in a fresh interpreter; the heavy top-level packages it left loaded. The
+    interpreter starts in an empty directory, so ``import optimizer`` finds the installed
+    package (as a user's would), not the source tree (whose ``optimizer.catalogs`` exists only
+    once installed)."""
     probe = (
         f"{code}\nimport json, sys\n"
         f"print(json.dumps(sorted({{m.split('.')[0] for m in sys.modules}} & {set(HEAVY)!r})))"
     )
     done = subprocess.run(
-        [sys.executable, "-c", probe], cwd=ROOT, capture_output=True, text=True, check=True
+        [sys.executable, "-c", probe], cwd=tmp, capture_output=True, text=True, check=True
     )
     loaded: list[str] = json.loads(done.stdout.strip().splitlines()[-1])
     return loaded
 
 
-def test_importing_the_cli_and_the_catalog_loads_neither_pandas_nor_ortools() -> None:
+def test_importing_the_cli_and_the_catalog_loads_neither_pandas_nor_ortools(
+    tmp_path: Path,
+) -> None:
     code = (
         "import optimizer, optimizer.cli, optimizer.catalog, optimizer.userdesign, "
         "optimizer.report.check, optimizer.report.exports, optimizer.specfile"
     )
-    assert _loaded_after(code) == []
+    assert _loaded_after(code, tmp_path) == []
 
 
 def test_check_without_catalog_parts_runs_without_pandas_or_ortools(tmp_path: Path) -> None:
@@ -65,14 +70,14 @@ def test_check_without_catalog_parts_runs_without_pandas_or_ortools(tmp_path: Pa
         f"'--report', {str(tmp_path / 'r.md')!r}, '--bom', {str(tmp_path / 'b.csv')!r}]\n"
         "assert main(args, console=con, err=con) in (0, 1)\n"
     )
-    assert _loaded_after(code) == []
+    assert _loaded_after(code, tmp_path) == []
     assert (tmp_path / "r.md").is_file() and (tmp_path / "b.csv").is_file()
 
 
-def test_building_a_catalog_still_loads_pandas() -> None:
+def test_building_a_catalog_still_loads_pandas(tmp_path: Path) -> None:
     """The probe can fail: a catalog is a pandas table, so building one loads pandas."""
     code = "import optimizer.catalog as c\nc.builtin_catalog()"
-    assert _loaded_after(code) == ["pandas"]
+    assert _loaded_after(code, tmp_path) == ["pandas"]
 
 
 @pytest.mark.parametrize("name", ["discrete_recipe.yaml", "networks.yaml"])
