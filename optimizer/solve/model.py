@@ -261,7 +261,8 @@ def build_model(
     if any(not classes[i] and not options.covers[:, i].any() for i in range(4)):
         # A position nothing can fill after pruning: the stream is infeasible; skip the rest.
         return _infeasible(model, options)
-    req_early = spec.requirements
+    req = spec.requirements
+    sides = extreme_vertices(env.vertices, req.gain)
     value_sets = [
         np.unique(np.concatenate([block.avail[position][c] for c in classes[position]]))
         if classes[position]
@@ -289,11 +290,11 @@ def build_model(
                 block,
                 [{c: None for c in cs} for cs in classes],
                 constants[1],
-                req_early.cmrr_basis is CmrrBasis.YIELD,
+                req.cmrr_basis is CmrrBasis.YIELD,
             ),
             spec,
             limits,
-            extreme_vertices(env.vertices, req_early.gain),
+            sides,
             np.ones(len(options), dtype=bool),
         )
         if coupling.infeasible if coupling is not None else False:
@@ -346,10 +347,7 @@ def build_model(
         sum(placed) == 4 * t.get(Topology.DISCRETE, 0) + 2 * t.get(Topology.PAIR_PLUS_DISCRETE, 0)
     )
 
-    if constants is None:
-        constants = value_constants(block, spec, env)
     phi, fraction, value_noise = constants
-    req = spec.requirements
     cg = gain_coefficients(req.gain)
 
     def linear(coef: NDArray[np.float64], v: int) -> _Sum:
@@ -447,7 +445,6 @@ def build_model(
 
     budget = math.floor(limits.cmrr_budget * LOG_SCALE) if limits.cmrr_budget > 0 else -1
     worst_margin = model.new_int_var(-(10**13), 10**13, "worst_margin")
-    sides = extreme_vertices(env.vertices, req.gain)
     log_g = round(math.log(req.gain) * LOG_SCALE)
     upper = math.floor(limits.gain_upper * LOG_SCALE)
     lower = math.ceil(limits.gain_lower * LOG_SCALE)
