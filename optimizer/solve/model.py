@@ -638,6 +638,9 @@ def _halves(allowed: set[Topology], variant: ModelVariant) -> tuple[object, tupl
     return None
 
 
+#: Most (a, b) pairs the half coupling's join evaluates at once (bounds its memory).
+JOIN_CHUNK = 500_000
+
 #: Absolute allowance (natural-log units) when comparing a pair's need plus its least spread
 #: with the budget: keeps rounding from removing a pair that sits exactly at the limit.
 FLOOR_TOLERANCE = 1e-9
@@ -919,7 +922,7 @@ def _half_pairs(
             break
         swing_b = new_swing
     swing_a = spread_of(a_delta)
-    swing_b = float(spread_of(b_delta).max())
+    swing_b = new_swing  # the final second half's largest swing, taken in the loop
     yield_basis = req.cmrr_basis is CmrrBasis.YIELD
     z = limits.z if yield_basis else 1.0
     vertices = tuple(sorted(set(high + low)))
@@ -941,28 +944,49 @@ def _half_pairs(
     # contribution at the reference vertex lies within the budget (plus vertex slack).
     order = np.argsort(b_delta[:, ref], kind="stable")
     sorted_q = b_delta[order, ref]
-    for index in range(len(a_keys)):
-        # need ≥ δ_ref (ref is a high vertex) and need ≥ −δ_ref − swing: δ_ref ∈ [−B − swing, B].
-        centre = -a_delta[index, ref]
-        lo = np.searchsorted(
-            sorted_q, centre - budget - swing_a[index] - swing_b - 1e-12, side="left"
-        )
-        hi = np.searchsorted(sorted_q, centre + budget + 1e-12, side="right")
-        if hi <= lo:
+    # need ≥ δ_ref (ref is a high vertex) and need ≥ −δ_ref − swing: δ_ref ∈ [−B − swing, B].
+    centre = -a_delta[:, ref]
+    window_lo = np.searchsorted(sorted_q, centre - budget - swing_a - swing_b - 1e-12, side="left")
+    window_hi = np.searchsorted(sorted_q, centre + budget + 1e-12, side="right")
+    counts = np.maximum(window_hi - window_lo, 0)
+
+    # Each side's contribution at each vertex that matters as its own contiguous column (the
+    # per-pair gathers below read one column at a time).
+    def columns(
+        a: NDArray[np.float64], b: NDArray[np.float64], vs: list[int]
+    ) -> list[tuple[NDArray[np.float64], NDArray[np.float64]]]:
+        return [(np.ascontiguousarray(a[:, v]), np.ascontiguousarray(b[:, v])) for v in vs]
+
+    high_cols = columns(a_delta, b_delta, high)
+    low_cols = columns(a_delta, b_delta, low)
+    up_cols = columns(a_gain, b_gain, gain_high)
+    down_cols = columns(a_gain, b_gain, gain_low)
+    # Every (a, b) pair inside a's window, a few hundred thousand pairs at a time.
+    ends = np.cumsum(counts)
+    start = 0
+    while start < len(a_keys):
+        stop = int(np.searchsorted(ends, ends[start] - counts[start] + JOIN_CHUNK, side="right"))
+        stop = max(stop, start + 1)
+        block = np.arange(start, stop)
+        start = stop
+        sizes = counts[block]
+        if not sizes.any():
             continue
-        idx = order[lo:hi]
-        need = np.full(idx.size, -np.inf)
-        for v in high:
-            need = np.maximum(need, a_delta[index, v] + b_delta[idx, v])
-        for v in low:
-            need = np.maximum(need, -(a_delta[index, v] + b_delta[idx, v]))
-        room = np.full(idx.size, np.inf)
-        for v in gain_high:
-            room = np.minimum(room, upper - (a_gain[index, v] + b_gain[idx, v]))
-        for v in gain_low:
-            room = np.minimum(room, (a_gain[index, v] + b_gain[idx, v]) - lower)
-        floor = floor_a[index] + floor_b[idx]
-        gain_floor = gain_floor_a[index] + gain_floor_b[idx]
+        a_at = np.repeat(block, sizes)
+        within = np.arange(a_at.size) - np.repeat(np.cumsum(sizes) - sizes, sizes)
+        b_at = order[np.repeat(window_lo[block], sizes) + within]
+        need = np.full(a_at.size, -np.inf)
+        for a_col, b_col in high_cols:
+            np.maximum(need, a_col[a_at] + b_col[b_at], out=need)
+        for a_col, b_col in low_cols:
+            np.maximum(need, -(a_col[a_at] + b_col[b_at]), out=need)
+        room = np.full(a_at.size, np.inf)
+        for a_col, b_col in up_cols:
+            np.minimum(room, upper - (a_col[a_at] + b_col[b_at]), out=room)
+        for a_col, b_col in down_cols:
+            np.minimum(room, (a_col[a_at] + b_col[b_at]) - lower, out=room)
+        floor = floor_a[a_at] + floor_b[b_at]
+        gain_floor = gain_floor_a[a_at] + gain_floor_b[b_at]
         if yield_basis:
             ok = (
                 (need <= budget)
@@ -978,10 +1002,10 @@ def _half_pairs(
             continue
         need_ok = np.where(ok, need, np.inf)
         room_ok = np.where(ok, room, -np.inf)
-        m_a[index] = need_ok.min()
-        r_a[index] = room_ok.max()
-        m_b[idx] = np.minimum(m_b[idx], need_ok)
-        r_b[idx] = np.maximum(r_b[idx], room_ok)
+        np.minimum.at(m_a, a_at, need_ok)
+        np.maximum.at(r_a, a_at, room_ok)
+        np.minimum.at(m_b, b_at, need_ok)
+        np.maximum.at(r_b, b_at, room_ok)
 
     return _HalfPairs(
         first=first,
