@@ -184,15 +184,16 @@ def _drop_dominated(
     dominated class at a time over all values at once: O(C²·K) vector work for C classes and K
     values. "Earlier" (which of two equal classes survives) is the lexicographic order of
     (cost, spread, power term, voltage term, stock term, class index)."""
-    n_classes = cost.size
-    avail = np.zeros((values.size, n_classes), dtype=bool)
-    for c, ks in enumerate(usable):
-        avail[ks, c] = True
-    present = np.flatnonzero(avail.any(axis=0))
+    present = np.array([c for c, ks in enumerate(usable) if ks.size], dtype=np.int64)
     if present.size < 2:
         return usable
     if present.size > MANY_CLASSES:
+        # Decided before the dense (values × classes) table below is built: with a class per
+        # part that table alone would be large.
         return _drop_dominated_by_value(usable, cost, spread, power, volts, stocked, values, stress)
+    avail = np.zeros((values.size, cost.size), dtype=bool)
+    for c, ks in enumerate(usable):
+        avail[ks, c] = True
     cap = SAFE_RATING * stress**2 / values
     power_term = -np.minimum(power[None, :], cap[:, None])  # (K, C); lower is better
     before = np.column_stack([cost, spread])  # compared before the power term

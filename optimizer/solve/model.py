@@ -931,8 +931,8 @@ def _half_pairs(
         floor_a = least.pairs(a_keys, first, C_DELTA, vertices)  # type: ignore[arg-type]
         gain_floor_a = least.pairs(a_keys, first, cg, gain_vertices)  # type: ignore[arg-type]
     else:
-        floor_a = least.options(options, members, True, vertices)
-        gain_floor_a = least.options(options, members, False, gain_vertices)
+        floor_a = least.options(options, a_members, True, vertices)
+        gain_floor_a = least.options(options, a_members, False, gain_vertices)
     floor_b = least.pairs(b_keys, second, C_DELTA, vertices)
     gain_floor_b = least.pairs(b_keys, second, cg, gain_vertices)
 
