@@ -1,22 +1,28 @@
 """The cost of a design in relative units: parts, placements, distinct lines, stock penalty.
 
-One definition serves the CP-SAT objective, the exhaustive reference enumerator and the reports,
-so that "cheapest" means the same thing everywhere::
+One definition serves the pick, the exhaustive reference searches and the reports, so that
+"cheapest" means the same thing everywhere::
 
     cost = Σ part costs (a network package counted once)
          + placement_cost × placements (each discrete part and each network package)
          + line_cost × distinct part numbers
-         + stock_penalty × placements not in house stock (only with stock policy "prefer")
+         + stock_penalty × distinct part numbers not in house stock (stock policy "prefer")
+
+The stock penalty is charged **per line**, like the line cost: a part that is not stocked must
+be ordered and qualified once, however many times the design places it (one unstocked quad used
+as two packages, or one unstocked chip resistor at two positions, pays the penalty once).
 """
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 from .design import Design
+from .parts import DiscretePart, NetworkPart
 from .spec import Preferences, StockPolicy
 
-__all__ = ["CostBreakdown", "design_cost"]
+__all__ = ["CostBreakdown", "design_cost", "parts_cost"]
 
 
 @dataclass(frozen=True)
@@ -33,12 +39,31 @@ class CostBreakdown:
         return self.parts + self.placements + self.lines + self.stock_penalty
 
 
+def parts_cost(
+    placed: Sequence[DiscretePart | NetworkPart], preferences: Preferences
+) -> CostBreakdown:
+    """Relative cost of the physical parts ``placed`` (each discrete part and each network
+    package once, in any order) under ``preferences`` (module docstring for the formula)."""
+    lines: dict[str, bool] = {}
+    parts = 0.0
+    for part in placed:
+        parts += part.unit_cost
+        lines[part.part_id] = part.in_stock
+    unstocked = sum(1 for stocked in lines.values() if not stocked)
+    penalty = (
+        preferences.stock_penalty * unstocked if preferences.stock is StockPolicy.PREFER else 0.0
+    )
+    return CostBreakdown(
+        parts=parts,
+        placements=preferences.placement_cost * len(placed),
+        lines=preferences.line_cost * len(lines),
+        stock_penalty=penalty,
+    )
+
+
 def design_cost(design: Design, preferences: Preferences) -> CostBreakdown:
     """Relative cost of ``design`` under ``preferences`` (module docstring for the formula)."""
-    parts = 0.0
-    placed = 0
-    not_stocked = 0
-    lines: set[str] = set()
+    placed: list[DiscretePart | NetworkPart] = []
     seen_packages: set[tuple[str, int]] = set()
     for placement in design.placements:
         key = placement.package_key
@@ -46,17 +71,5 @@ def design_cost(design: Design, preferences: Preferences) -> CostBreakdown:
             if key in seen_packages:
                 continue
             seen_packages.add(key)
-        parts += placement.part.unit_cost
-        placed += 1
-        lines.add(placement.part.part_id)
-        if not placement.part.in_stock:
-            not_stocked += 1
-    penalty = (
-        preferences.stock_penalty * not_stocked if preferences.stock is StockPolicy.PREFER else 0.0
-    )
-    return CostBreakdown(
-        parts=parts,
-        placements=preferences.placement_cost * placed,
-        lines=preferences.line_cost * len(lines),
-        stock_penalty=penalty,
-    )
+        placed.append(placement.part)
+    return parts_cost(placed, preferences)

@@ -25,10 +25,11 @@ from ortools.sat.python import cp_model
 from ..catalog import Catalog
 from ..cost import CostBreakdown, design_cost
 from ..design import Design, Placement, Topology
-from ..spec import Objective, Spec
+from ..spec import CmrrBasis, Objective, Spec
 from .amplifier import amplifier_limits
 from .discrete import DiscreteBlock, build_discrete, value_constants
 from .environment import LinearEnvironment, linear_environment
+from .frontier import discrete_frontier, quad_frontier
 from .model import BuiltModel, Limits, ModelVariant, build_model, limits_for
 from .options import ALL_SHAPES, DIVIDER_SHAPES, EQUAL_SHAPES, OptionTable, build_options
 
@@ -257,6 +258,61 @@ class _Stream:
         return None
 
 
+class _FrontierStream:
+    """Verified designs of one topology from an exact cost-ordered enumeration
+    (``optimizer.solve.frontier``): each design it yields is the cheapest not yet seen that can
+    meet CMRR and gain, so the k-th that passes the exact check is the k-th cheapest overall."""
+
+    def __init__(self, problem: Problem, topology: Topology) -> None:
+        self.problem = problem
+        self.topologies = frozenset({topology})
+        self.pair_shape: int | None = None
+        make = discrete_frontier if topology is Topology.DISCRETE else quad_frontier
+        self._source = make(problem.spec, problem.catalog, problem.env)
+        self.exhausted = False
+        self.optimal = True
+        self.timed_out = False
+        self.gap: float | None = None
+        self.solves = 0
+        self.rejected: list[tuple[Design, Verdict]] = []
+
+    def next(
+        self, verifier: Verifier, clock: _Clock, workers: int
+    ) -> tuple[float, Candidate] | None:
+        del workers
+        spec = self.problem.spec
+        while not self.exhausted:
+            if clock.remaining() <= 0.0:
+                self.timed_out, self.optimal, self.exhausted = True, False, True
+                return None
+            started = time.perf_counter()
+            design = next(self._source, None)
+            clock.build += time.perf_counter() - started
+            if design is None:
+                self.exhausted = True
+                return None
+            self.solves += 1
+            started = time.perf_counter()
+            verdict = verifier(design, spec)
+            clock.verify += time.perf_counter() - started
+            if not verdict.passed:
+                self.rejected.append((design, verdict))
+                continue
+            cost = design_cost(design, spec.preferences)
+            return cost.total, Candidate(design, cost, verdict)
+        return None
+
+
+def _frontier_applies(spec: Spec, topology: Topology) -> bool:
+    """The exact enumeration serves the lowest-cost objective on the worst-case basis for four
+    discrete parts and for quad networks; the other cases use the CP-SAT streams."""
+    return (
+        topology in (Topology.DISCRETE, Topology.QUAD)
+        and spec.preferences.objective is Objective.COST
+        and spec.requirements.cmrr_basis is CmrrBasis.WORST_CASE
+    )
+
+
 def prepare(spec: Spec, catalog: Catalog) -> Problem:
     """The environment, options, discrete block and limits of the linear model."""
     env = linear_environment(spec)
@@ -339,7 +395,7 @@ def pick(
     )
 
 
-def _streams(problem: Problem, spec: Spec) -> list[_Stream]:
+def _streams(problem: Problem, spec: Spec) -> list[_Stream | _FrontierStream]:
     """One stream per allowed topology; one dual network plus two discrete parts gets one stream
     per position pair the network may occupy (each such model is much smaller). A stream whose
     parts the catalog lacks altogether (no quad, no dual for its positions, no discrete part for
@@ -347,9 +403,12 @@ def _streams(problem: Problem, spec: Spec) -> list[_Stream]:
     objective = spec.preferences.objective
     kind, shape_of = problem.options.kind, problem.options.shape
     has_discrete = [bool(problem.block.usable(i)) for i in range(4)]
-    streams: list[_Stream] = []
+    streams: list[_Stream | _FrontierStream] = []
     for topology in Topology:
         if topology not in spec.preferences.topologies:
+            continue
+        if _frontier_applies(spec, topology):
+            streams.append(_FrontierStream(problem, topology))
             continue
         if topology is Topology.PAIR_PLUS_DISCRETE:
             for shape in range(len(ALL_SHAPES)):
@@ -370,7 +429,9 @@ def _streams(problem: Problem, spec: Spec) -> list[_Stream]:
 
 
 def _best_of_each_kind(
-    found: list[Candidate], streams: list[_Stream], heads: list[tuple[float, Candidate] | None]
+    found: list[Candidate],
+    streams: list[_Stream | _FrontierStream],
+    heads: list[tuple[float, Candidate] | None],
 ) -> tuple[Candidate, ...]:
     """When the ranking shows only discrete or only network designs although both kinds are
     allowed, add the best design of the missing kind (the next head of its streams)."""

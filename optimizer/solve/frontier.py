@@ -1,0 +1,738 @@
+"""Exact cost-ordered search for four discrete parts and for quad networks.
+
+Why this exists
+---------------
+With independent parts the exact worst case of CMRR and gain has a closed form at one corner
+per extreme (``analysis.worstcase``): ``x = c/a`` is largest with R1 low, R2 high, R3 high and
+R4 low, and the differential gain is largest with R1 low, R2 high, R3 low, R4 high. Write, for
+one environment vertex ``(Rs1, Rs3, Rref)`` and each position's factor bounds
+``[lo, hi] = [(1 − t)(1 − TC·|ΔT|)(1 − D), (1 + t)(1 + TC·|ΔT|)(1 + D)]``::
+
+    c_hi = R2·hi2 / (R1·lo1 + Rs1 + R2·hi2)         c_lo = R2·lo2 / (R1·hi1 + Rs1 + R2·lo2)
+    a_hi = (R4·hi4 + Rref) / (R3·lo3 + Rs3 + R4·hi4 + Rref)
+    a_lo = (R4·lo4 + Rref) / (R3·hi3 + Rs3 + R4·lo4 + Rref)
+
+Then (``optimizer.analysis.worstcase``, module docstring) a design meets a CMRR floor with an
+amplifier whose CMRR gives ``e = 1/(2·CMRR)`` exactly when, at every vertex,
+
+    ln c_hi − ln a_lo ≤ Λ   and   ln c_lo − ln a_hi ≥ −Λ,      Λ = 2·atanh(w*),
+    w* = (X/2 − e)/(1 − e·X/2),  X = 10^(−floor/20)
+
+(:func:`log_balance_limit`: the worst-sign error ``2(w + e)/(1 + e·w)``, ``w = tanh(|ln x|/2)``,
+rises with ``|ln x|``), and meets the gain accuracy exactly when ``Adm(a_hi, c_hi)`` (ideal
+open-loop gain) stays at most ``G(1 + acc)`` and ``Adm(a_lo, c_lo)`` (minimum open-loop gain)
+at least ``G(1 − acc)`` for both signs of the amplifier's CMRR. Both sides of the bridge enter
+only through their own pair ``(c_lo, c_hi)`` or ``(a_lo, a_hi)``: the search works on *halves*
+(R1, R2) and (R3, R4), joined by interval containment.
+
+The search
+----------
+1. Parts are grouped by their electrical class ``(t, TC, D)``; the cheapest usable part of each
+   class and value at each position carries the cost (other parts of the same class and value,
+   e.g. other sizes, are emitted later as variants of the same electrical design).
+2. Half records ``(class, value, class, value)`` are generated per class pair inside the value
+   window that the gain and balance conditions allow (:func:`_side_window`), then pruned by the
+   least spread any partner half reaches (a necessary condition).
+3. Pairs of half groups (class pairs) are taken in the order of their lowest possible cost; a
+   group pair whose least spreads already exceed ``2Λ`` at some vertex is skipped; the others
+   are joined exactly and every feasible combination enters a heap keyed by a lower bound of its
+   cost, which is replaced by the exact cost (``optimizer.cost``) before it is emitted.
+
+Designs come out in nondecreasing exact cost; the stream that consumes them runs the full exact
+check (``optimizer.verify``) on each, so every check besides CMRR and gain (noise, ranges,
+ratings, bandwidth) is decided exactly there. Nothing the exact check could accept is dropped:
+every pruning step is a necessary condition, ratings are pre-filtered at half the estimated
+stress, and with same-lot tracking the screen drops the tempco (a shared tempco's worst case is
+at least the worst case with every tempco at zero), which keeps it optimistic.
+
+Quad networks are few (hundreds of options): each element order is a candidate; they are sorted
+by exact cost and screened at their nominal values (a point of every variable's range, so the
+nominal error never exceeds the worst case) before the exact check.
+"""
+
+from __future__ import annotations
+
+import heapq
+import itertools
+import math
+from collections.abc import Iterator
+from dataclasses import dataclass
+from typing import cast
+
+import numpy as np
+from numpy.typing import NDArray
+
+from ..analysis.transfer import coefficients, common_mode_gain, differential_gain
+from ..analysis.worstcase import common_mode_error
+from ..catalog import Catalog
+from ..cost import design_cost, parts_cost
+from ..design import Design, Placement
+from ..parts import DiscretePart, NetworkPart
+from ..spec import Spec, StockPolicy
+from .environment import LinearEnvironment, life_drift
+
+__all__ = [
+    "RATING_SCREEN",
+    "discrete_frontier",
+    "gain_threshold",
+    "log_balance_limit",
+    "quad_frontier",
+]
+
+Array = NDArray[np.float64]
+IntArray = NDArray[np.int64]
+
+#: A part is left out at a position only if its rating covers less than this fraction of the
+#: estimated stress (voltage) or of its square (power): a loose screen; the exact check decides.
+RATING_SCREEN = 0.5
+#: Relative widening of the screen's limits against rounding (keeps the screen optimistic).
+_SLACK = 1e-9
+# Heap entry kinds, in the order they are taken at equal keys: an exact cost first (it can be
+# emitted), then a bound of one design, then a block of a group pair's combinations.
+_EXACT, _BOUND, _BLOCK = 0, 1, 2
+#: Combinations joined at once (bounds the memory of one join step).
+_JOIN_CHUNK = 400_000
+
+
+# --------------------------------------------------------------------------------------------
+# Formulas
+# --------------------------------------------------------------------------------------------
+
+
+def log_balance_limit(floor_db: float, amp_cmrr_ratio: float) -> float:
+    """Largest ``|ln x|`` (``x = c/a``, the bridge balance) that meets a CMRR floor of
+    ``floor_db`` with an amplifier of CMRR ``amp_cmrr_ratio`` (a ratio; ``inf`` when ideal):
+    ``Λ = 2·atanh(w*)``, ``w* = (X/2 − e)/(1 − e·X/2)``, ``X = 10^(−floor/20)``,
+    ``e = 1/(2·CMRR)``. From the worst-sign error ``2(w + e)/(1 + e·w)`` with
+    ``w = |1 − x|/(1 + x) = tanh(|ln x|/2)`` (``analysis.worstcase.
+    common_mode_error_worst_sign``), which rises with ``w``. Negative: no balance meets it."""
+    x_max = 10.0 ** (-floor_db / 20.0)
+    e = 0.0 if math.isinf(amp_cmrr_ratio) else 1.0 / (2.0 * amp_cmrr_ratio)
+    w = (x_max / 2.0 - e) / (1.0 - e * x_max / 2.0)
+    if w <= 0.0:
+        return -1.0
+    if w >= 1.0:
+        return math.inf
+    return 2.0 * math.atanh(w)
+
+
+def gain_threshold(gain: float, k: float, eps: float, inv_a: float, side: int) -> float:
+    """The bridge term at which the differential gain reaches ``gain`` when the other term is
+    ``k`` times it: for side 1 (``c``, with ``a = k·c``) and side 2 (``a``, with ``c = k·a``).
+
+    From ``Adm = (a(1+ε) + c(1−ε)) / (2(1/A + (1−c)(1−ε)))`` (``analysis.worstcase.
+    differential_gain_from_terms``), linear in the term once the other is ``k`` times it:
+    side 1: ``c* = 2G(1/A + 1 − ε) / (k(1+ε) + (1−ε) + 2G(1−ε))``;
+    side 2: ``a* = 2G(1/A + 1 − ε) / ((1+ε) + k(1−ε) + 2Gk(1−ε))``. ``Adm`` rises with the term,
+    so ``Adm ≤ G`` exactly below it (dimensionless)."""
+    top = 2.0 * gain * (inv_a + 1.0 - eps)
+    if side == 1:
+        return top / (k * (1.0 + eps) + (1.0 - eps) + 2.0 * gain * (1.0 - eps))
+    return top / ((1.0 + eps) + k * (1.0 - eps) + 2.0 * gain * k * (1.0 - eps))
+
+
+def _adm(a: Array, c: Array, eps: float, inv_a: float) -> Array:
+    """``Adm = (a(1+ε) + c(1−ε)) / (2(1/A + (1−c)(1−ε)))`` (``analysis.worstcase.
+    differential_gain_from_terms``, repeated here on plain arrays for the join's speed)."""
+    return (a * (1.0 + eps) + c * (1.0 - eps)) / (2.0 * (inv_a + (1.0 - c) * (1.0 - eps)))
+
+
+# --------------------------------------------------------------------------------------------
+# The spec's limits as the screen sees them
+# --------------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class _Limits:
+    balance: float  # Λ
+    gain_max: float
+    gain_min: float
+    eps: tuple[float, ...]  # amplifier CMRR signs: ±e, or 0
+    inv_a: float  # 1/A_min (0 when ideal)
+    rs1: Array  # (V,)
+    rs3: Array
+    rref: Array
+    min_impedance: float
+
+
+def _limits(spec: Spec, env: LinearEnvironment) -> _Limits:
+    req = spec.requirements
+    amp = spec.amplifier
+    balance = log_balance_limit(req.cmrr_floor_db, amp.cmrr_ratio)
+    e = 0.0 if math.isinf(amp.cmrr_ratio) else 1.0 / (2.0 * amp.cmrr_ratio)
+    eps = (e, -e) if e > 0.0 else (0.0,)
+    a_ol = amp.open_loop_gain
+    return _Limits(
+        balance=balance * (1.0 + _SLACK) + _SLACK if math.isfinite(balance) else balance,
+        gain_max=req.gain * (1.0 + req.gain_accuracy) * (1.0 + _SLACK),
+        gain_min=req.gain * (1.0 - req.gain_accuracy) * (1.0 - _SLACK),
+        eps=eps,
+        inv_a=0.0 if math.isinf(a_ol) else 1.0 / a_ol,
+        rs1=env.vertices[:, 0].copy(),
+        rs3=env.vertices[:, 1].copy(),
+        rref=env.vertices[:, 2].copy(),
+        min_impedance=req.min_input_impedance_ohm * (1.0 - _SLACK),
+    )
+
+
+# --------------------------------------------------------------------------------------------
+# Discrete parts, grouped by electrical class
+# --------------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class _Parts:
+    """Usable discrete parts. ``values`` (K,) ascending; per electrical class (E,): ``lo``,
+    ``hi`` factor bounds; per position ``best[i]`` (E, K): catalog row of the cheapest usable
+    part (−1: none) and ``best_cost[i]`` its cost with the placement cost. ``rows[i]`` and
+    ``costs[i]`` list the usable parts of position ``i`` sorted by (class, value, cost, id);
+    ``span[i]`` (E, K, 2) is the slice of each (class, value) in them."""
+
+    values: Array
+    lo: Array
+    hi: Array
+    best: tuple[IntArray, ...]
+    best_cost: tuple[Array, ...]
+    rows: tuple[IntArray, ...]
+    costs: tuple[Array, ...]
+    span: tuple[IntArray, ...]
+
+    def variants(self, position: int, key: tuple[int, int]) -> list[tuple[float, int]]:
+        """(cost, catalog row) of every usable part of class and value ``key``, cheapest first."""
+        start, stop = self.span[position][key]
+        rows = self.rows[position][start:stop].tolist()
+        return list(zip(self.costs[position][start:stop].tolist(), rows, strict=True))
+
+
+def _discrete_parts(catalog: Catalog, spec: Spec, env: LinearEnvironment) -> _Parts | None:
+    prefs = spec.preferences
+    frame = catalog.discrete
+    if frame.empty:
+        return None
+    r_all = frame["resistance_ohm"].to_numpy(float)
+    stock = frame["stock_qty"].to_numpy() > 0
+    keep = (r_all >= prefs.resistance_min_ohm * (1 - 1e-9)) & (
+        r_all <= prefs.resistance_max_ohm * (1 + 1e-9)
+    )
+    if prefs.stock is StockPolicy.ONLY:
+        keep &= stock
+    rows = np.flatnonzero(keep)
+    if rows.size == 0:
+        return None
+    r = r_all[rows]
+    t = frame["tolerance"].to_numpy(float)[rows]
+    tc = frame["tempco_per_k"].to_numpy(float)[rows]
+    if prefs.same_lot_tracking:
+        tc = np.zeros_like(tc)  # optimistic: see the module docstring
+    d = life_drift(frame["drift_1000h"].to_numpy(float)[rows], env.life_h)
+    classes, class_of = np.unique(np.column_stack([t, tc, d]), axis=0, return_inverse=True)
+    class_of = class_of.reshape(-1).astype(np.int64)
+    values, value_of = np.unique(r, return_inverse=True)
+    value_of = value_of.reshape(-1).astype(np.int64)
+    swing = classes[:, 1] * env.delta_t_k
+    lo = (1.0 - classes[:, 0]) * (1.0 - swing) * (1.0 - classes[:, 2])
+    hi = (1.0 + classes[:, 0]) * (1.0 + swing) * (1.0 + classes[:, 2])
+    cost = frame["unit_cost"].to_numpy(float)[rows] + prefs.placement_cost
+    power = frame["power_w"].to_numpy(float)[rows] * env.derating
+    volts = frame["max_voltage_v"].to_numpy(float)[rows]
+    ids = frame["part_id"].to_numpy()[rows].astype(str)
+    order = np.lexsort((ids, cost, value_of, class_of))
+    shape = (len(classes), values.size)
+    best, best_cost, kept_rows, kept_costs, spans = [], [], [], [], []
+    for position in range(4):
+        stress = float(env.stress_v[position])
+        usable = (volts >= RATING_SCREEN * stress) & (power * r >= RATING_SCREEN * stress**2)
+        sel = order[usable[order]]
+        flat = class_of[sel] * values.size + value_of[sel]
+        starts = np.flatnonzero(np.r_[True, flat[1:] != flat[:-1]]) if sel.size else sel
+        stops = np.r_[starts[1:], sel.size].astype(np.int64)
+        table = np.full(shape, -1, dtype=np.int64)
+        table_cost = np.full(shape, np.inf)
+        span = np.zeros((*shape, 2), dtype=np.int64)
+        heads = sel[starts]
+        table[class_of[heads], value_of[heads]] = rows[heads]
+        table_cost[class_of[heads], value_of[heads]] = cost[heads]
+        span[class_of[heads], value_of[heads], 0] = starts
+        span[class_of[heads], value_of[heads], 1] = stops
+        best.append(table)
+        best_cost.append(table_cost)
+        kept_rows.append(rows[sel])
+        kept_costs.append(cost[sel])
+        spans.append(span)
+    return _Parts(
+        values, lo, hi, tuple(best), tuple(best_cost), tuple(kept_rows), tuple(kept_costs),
+        tuple(spans),
+    )  # fmt: skip
+
+
+# --------------------------------------------------------------------------------------------
+# Half records
+# --------------------------------------------------------------------------------------------
+
+
+@dataclass
+class _Half:
+    """Half records of one side: class and value index of each position, cost, and per vertex
+    the bounds ``(low, high)`` of the side's bridge term (``c`` or ``a``) as logs (N, V)."""
+
+    group: IntArray  # class-pair group index
+    ca: IntArray
+    ka: IntArray
+    cb: IntArray
+    kb: IntArray
+    cost: Array
+    low: Array
+    high: Array
+
+
+def _side_window(lim: _Limits, side: int, vertex: int) -> tuple[float, float]:
+    """``(t_hi, t_lo)``: the side's bridge term must satisfy ``term_hi ≤ t_hi`` and
+    ``term_lo ≥ t_lo`` for a partner to exist (gain and balance together, see
+    :func:`gain_threshold`): the partner term lies within ``e^{±Λ}`` of this one."""
+    k_down = math.exp(-lim.balance) if math.isfinite(lim.balance) else 0.0
+    k_up = math.exp(lim.balance) if math.isfinite(lim.balance) else math.inf
+    upper = min(gain_threshold(lim.gain_max, k_down, e, 0.0, side) for e in lim.eps)
+    if math.isinf(k_up):
+        lower = 0.0
+    else:
+        lower = max(gain_threshold(lim.gain_min, k_up, e, lim.inv_a, side) for e in lim.eps)
+    return upper, lower
+
+
+def _half_records(parts: _Parts, lim: _Limits, side: int) -> _Half:
+    """Every (class, value, class, value) of one side inside the window of every vertex."""
+    pa, pb = (0, 1) if side == 1 else (2, 3)
+    windows = [_side_window(lim, side, v) for v in range(lim.rs1.size)]
+    t_hi = min(w[0] for w in windows)
+    t_lo = max(w[1] for w in windows)
+    if side == 1:
+        series_a = lim.rs1
+        series_b = np.zeros_like(lim.rs1)
+    else:
+        series_a = lim.rs3
+        series_b = lim.rref
+    values = parts.values
+    pieces: list[tuple[IntArray, ...]] = []
+    n_classes = parts.lo.size
+    avail_a = [np.flatnonzero(parts.best[pa][c] >= 0) for c in range(n_classes)]
+    avail_b = [np.flatnonzero(parts.best[pb][c] >= 0) for c in range(n_classes)]
+    group = 0
+    for ca in range(n_classes):
+        ka = avail_a[ca]
+        if ka.size == 0:
+            continue
+        for cb in range(n_classes):
+            kb = avail_b[cb]
+            if kb.size == 0:
+                continue
+            vb = values[kb]
+            ra = values[ka]
+            if side == 1:
+                # c_hi ≤ t_hi: R2·hi2·(1 − t) ≤ t·(R1·lo1 + Rs1); c_lo ≥ t_lo likewise.
+                top = (
+                    np.max(t_hi * (ra[:, None] * parts.lo[ca] + series_a[None, :]), axis=1)
+                    / ((1.0 - t_hi) * parts.hi[cb])
+                    if t_hi < 1.0
+                    else np.full(ra.size, np.inf)
+                )
+                bottom = np.min(t_lo * (ra[:, None] * parts.hi[ca] + series_a[None, :]), axis=1) / (
+                    (1.0 - t_lo) * parts.lo[cb]
+                )
+            else:
+                # a_hi ≤ t_hi: (R4·hi4 + Rref)(1 − t) ≤ t·(R3·lo3 + Rs3); a_lo ≥ t_lo likewise.
+                top = (
+                    np.max(
+                        t_hi * (ra[:, None] * parts.lo[ca] + series_a[None, :]) / (1.0 - t_hi)
+                        - series_b[None, :],
+                        axis=1,
+                    )
+                    / parts.hi[cb]
+                    if t_hi < 1.0
+                    else np.full(ra.size, np.inf)
+                )
+                bottom = (
+                    np.min(
+                        t_lo * (ra[:, None] * parts.hi[ca] + series_a[None, :]) / (1.0 - t_lo)
+                        - series_b[None, :],
+                        axis=1,
+                    )
+                    / parts.lo[cb]
+                )
+            first = np.searchsorted(vb, bottom * (1.0 - 1e-9), side="left")
+            last = np.searchsorted(vb, top * (1.0 + 1e-9), side="right")
+            count = np.maximum(last - first, 0)
+            total = int(count.sum())
+            if total == 0:
+                continue
+            ia = np.repeat(np.arange(ka.size), count)
+            offsets = np.arange(total) - np.repeat(np.cumsum(count) - count, count)
+            ib = np.repeat(first, count) + offsets
+            pieces.append(
+                (
+                    np.full(total, group, dtype=np.int64),
+                    np.full(total, ca, dtype=np.int64),
+                    ka[ia],
+                    np.full(total, cb, dtype=np.int64),
+                    kb[ib],
+                )
+            )
+            group += 1
+    if not pieces:
+        empty_i = np.zeros(0, dtype=np.int64)
+        empty_f = np.zeros((0, lim.rs1.size))
+        return _Half(empty_i, empty_i, empty_i, empty_i, empty_i, np.zeros(0), empty_f, empty_f)
+    g, ca_, ka_, cb_, kb_ = (np.concatenate(p) for p in zip(*pieces, strict=True))
+    ra_ = values[ka_][:, None]
+    rb_ = values[kb_][:, None]
+    if side == 1:
+        rs = lim.rs1[None, :]
+        high = (
+            rb_
+            * parts.hi[cb_][:, None]
+            / (ra_ * parts.lo[ca_][:, None] + rs + rb_ * parts.hi[cb_][:, None])
+        )
+        low = (
+            rb_
+            * parts.lo[cb_][:, None]
+            / (ra_ * parts.hi[ca_][:, None] + rs + rb_ * parts.lo[cb_][:, None])
+        )
+    else:
+        rs, rr = lim.rs3[None, :], lim.rref[None, :]
+        num_hi = rb_ * parts.hi[cb_][:, None] + rr
+        num_lo = rb_ * parts.lo[cb_][:, None] + rr
+        high = num_hi / (ra_ * parts.lo[ca_][:, None] + rs + num_hi)
+        low = num_lo / (ra_ * parts.hi[ca_][:, None] + rs + num_lo)
+    cost = parts.best_cost[pa][ca_, ka_] + parts.best_cost[pb][cb_, kb_]
+    return _Half(g, ca_, ka_, cb_, kb_, cost, np.log(low), np.log(high))
+
+
+def _keep(half: _Half, mask: NDArray[np.bool_]) -> _Half:
+    return _Half(
+        half.group[mask], half.ca[mask], half.ka[mask], half.cb[mask], half.kb[mask],
+        half.cost[mask], half.low[mask], half.high[mask],
+    )  # fmt: skip
+
+
+def _prune(one: _Half, two: _Half, balance: float) -> tuple[_Half, _Half]:
+    """Drop records whose spread plus the least spread of any partner exceeds ``2Λ`` at some
+    vertex (the partner interval must fit inside this record's window), until nothing moves."""
+    while one.cost.size and two.cost.size:
+        least_one = np.min(one.high - one.low, axis=0)
+        least_two = np.min(two.high - two.low, axis=0)
+        keep_one = np.all(one.high - one.low + least_two <= 2.0 * balance, axis=1)
+        keep_two = np.all(two.high - two.low + least_one <= 2.0 * balance, axis=1)
+        if keep_one.all() and keep_two.all():
+            break
+        one, two = _keep(one, keep_one), _keep(two, keep_two)
+    if not (one.cost.size and two.cost.size):
+        one, two = (
+            _keep(one, np.zeros(one.cost.size, bool)),
+            _keep(two, np.zeros(two.cost.size, bool)),
+        )
+    return one, two
+
+
+# --------------------------------------------------------------------------------------------
+# The discrete search
+# --------------------------------------------------------------------------------------------
+
+
+def _group_table(half: _Half) -> tuple[IntArray, IntArray, Array, Array, IntArray, IntArray]:
+    """Per distinct group: its record indices (sorted by group), start/stop offsets, least
+    cost, least spread per vertex, and its two classes."""
+    order = np.argsort(half.group, kind="stable")
+    groups, starts = np.unique(half.group[order], return_index=True)
+    stops = np.r_[starts[1:], order.size]
+    least_cost = np.minimum.reduceat(half.cost[order], starts) if order.size else np.zeros(0)
+    spread = half.high - half.low
+    least_spread = (
+        np.minimum.reduceat(spread[order], starts, axis=0) if order.size else np.zeros((0, 0))
+    )
+    first = order[starts]
+    classes = (
+        np.column_stack([half.ca[first], half.cb[first]])
+        if order.size
+        else np.zeros((0, 2), np.int64)
+    )
+    return order, np.column_stack([starts, stops]), least_cost, least_spread, classes, groups
+
+
+def _join(
+    one: _Half, idx_one: IntArray, two: _Half, idx_two: IntArray, lim: _Limits, parts: _Parts
+) -> tuple[IntArray, IntArray]:
+    """Exact join of side-1 records ``idx_one`` with side-2 records ``idx_two``: the pairs that
+    meet balance and gain at every vertex (and the input impedance floor at nominal values)."""
+    lam = lim.balance
+    q0 = two.low[idx_two, 0]
+    order = np.argsort(q0, kind="stable")
+    sorted_two = idx_two[order]
+    q_sorted = q0[order]
+    # Vertex 0: q ≥ P − Λ and q ≤ Q ≤ p + Λ.
+    first = np.searchsorted(q_sorted, one.high[idx_one, 0] - lam, side="left")
+    last = np.searchsorted(q_sorted, one.low[idx_one, 0] + lam, side="right")
+    count = np.maximum(last - first, 0)
+    out_a: list[IntArray] = []
+    out_b: list[IntArray] = []
+    start = 0
+    cum = np.cumsum(count)
+    while start < idx_one.size:
+        stop = int(
+            np.searchsorted(cum, (cum[start - 1] if start else 0) + _JOIN_CHUNK, side="right")
+        )
+        stop = max(stop, start + 1)
+        c = count[start:stop]
+        total = int(c.sum())
+        if total:
+            ia = np.repeat(np.arange(start, stop), c)
+            offsets = np.arange(total) - np.repeat(np.cumsum(c) - c, c)
+            ib = sorted_two[np.repeat(first[start:stop], c) + offsets]
+            a_rec = idx_one[ia]
+            ok = np.ones(total, dtype=bool)
+            p_hi, p_lo = one.high[a_rec], one.low[a_rec]
+            q_hi, q_lo = two.high[ib], two.low[ib]
+            ok &= np.all(p_hi - q_lo <= lam, axis=1) & np.all(p_lo - q_hi >= -lam, axis=1)
+            c_hi, c_lo, a_hi, a_lo = np.exp(p_hi), np.exp(p_lo), np.exp(q_hi), np.exp(q_lo)
+            for e in lim.eps:
+                ok &= np.all(_adm(a_hi, c_hi, e, 0.0) <= lim.gain_max, axis=1)
+                ok &= np.all(_adm(a_lo, c_lo, e, lim.inv_a) >= lim.gain_min, axis=1)
+            if lim.min_impedance > 0.0:
+                r1 = parts.values[one.ka[a_rec]]
+                r2 = parts.values[one.kb[a_rec]]
+                r3 = parts.values[two.ka[ib]]
+                r4 = parts.values[two.kb[ib]]
+                # Nominal values lie inside every corner range and both impedances are
+                # monotone in each resistance, so the nominal value is never below the lowest.
+                ok &= r1 + r3 >= lim.min_impedance
+                ok &= r1 * (r3 + r4 + lim.rref.min()) / (r1 + r3) >= lim.min_impedance
+                del r2
+            out_a.append(a_rec[ok])
+            out_b.append(ib[ok])
+        start = stop
+    if not out_a:
+        return np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64)
+    return np.concatenate(out_a), np.concatenate(out_b)
+
+
+def _per_line(spec: Spec) -> tuple[float, float]:
+    prefs = spec.preferences
+    penalty = prefs.stock_penalty if prefs.stock is StockPolicy.PREFER else 0.0
+    return prefs.line_cost, penalty
+
+
+def discrete_frontier(spec: Spec, catalog: Catalog, env: LinearEnvironment) -> Iterator[Design]:
+    """Four-discrete designs that meet the spec's worst-case CMRR and gain accuracy, in
+    nondecreasing exact cost (``optimizer.cost``); the other checks are left to the caller's
+    exact check. Exhaustive: when it stops, no further design passes those two."""
+    lim = _limits(spec, env)
+    if lim.balance < 0.0:
+        return
+    parts = _discrete_parts(catalog, spec, env)
+    if parts is None:
+        return
+    one = _half_records(parts, lim, 1)
+    two = _half_records(parts, lim, 2)
+    one, two = _prune(one, two, lim.balance)
+    if not (one.cost.size and two.cost.size):
+        return
+    order1, span1, cost1, spread1, cls1, _ = _group_table(one)
+    order2, span2, cost2, spread2, cls2, _ = _group_table(two)
+    line_cost, _ = _per_line(spec)
+    # Group pairs: feasible by least spreads, keyed by their least cost.
+    fits = np.all(spread1[:, None, :] + spread2[None, :, :] <= 2.0 * lim.balance, axis=2)
+    g1, g2 = np.nonzero(fits)
+    if g1.size == 0:
+        return
+    classes = np.column_stack([cls1[g1], cls2[g2]])
+    distinct = np.array([len(set(row)) for row in classes.tolist()])
+    # Lines: one per distinct electrical class at least (a part id has one class).
+    bound = cost1[g1] + cost2[g2] + line_cost * distinct
+    pair_order = np.argsort(bound, kind="stable")
+    yield from _emit(spec, catalog, parts, lim, one, two, order1, span1, order2, span2,
+                     g1[pair_order], g2[pair_order], bound[pair_order])  # fmt: skip
+
+
+def _emit(
+    spec: Spec,
+    catalog: Catalog,
+    parts: _Parts,
+    lim: _Limits,
+    one: _Half,
+    two: _Half,
+    order1: IntArray,
+    span1: IntArray,
+    order2: IntArray,
+    span2: IntArray,
+    g1: IntArray,
+    g2: IntArray,
+    bound: Array,
+) -> Iterator[Design]:
+    """Merge the group pairs (taken in order of their bound) into one stream of designs in
+    exact cost order: a heap of entries keyed by a lower bound that is replaced by the exact
+    cost before an entry is emitted."""
+    line_cost, _ = _per_line(spec)
+    part_cache: dict[int, DiscretePart] = {}
+
+    def cost_of(rows: tuple[int, ...]) -> float:
+        picked = [_cached_part(catalog, row, part_cache) for row in rows]
+        return parts_cost(picked, spec.preferences).total
+
+    heap: list[tuple[float, int, int, object]] = []
+    tick = itertools.count()
+    next_pair = 0
+    seen: set[tuple[object, ...]] = set()
+    while True:
+        top = heap[0][0] if heap else math.inf
+        top_exact = bool(heap) and heap[0][1] == _EXACT
+        if next_pair < bound.size and (
+            bound[next_pair] < top or (bound[next_pair] == top and not top_exact)
+        ):
+            a_idx = order1[span1[g1[next_pair], 0] : span1[g1[next_pair], 1]]
+            b_idx = order2[span2[g2[next_pair], 0] : span2[g2[next_pair], 1]]
+            next_pair += 1
+            ja, jb = _join(one, a_idx, two, b_idx, lim, parts)
+            if ja.size == 0:
+                continue
+            keys = np.column_stack([one.ca[ja], one.ka[ja], one.cb[ja], one.kb[ja],
+                                    two.ca[jb], two.ka[jb], two.cb[jb], two.kb[jb]])  # fmt: skip
+            lb = one.cost[ja] + two.cost[jb] + line_cost * _distinct_parts(keys)
+            sort = np.lexsort((*(keys[:, i] for i in range(7, -1, -1)), lb))
+            # The pair's combinations, in bound order, enter the heap one at a time.
+            block = (keys[sort], lb[sort])
+            heapq.heappush(heap, (float(block[1][0]), _BLOCK, next(tick), (block, 0)))
+            continue
+        if not heap:
+            return
+        key, kind, _, payload = heapq.heappop(heap)
+        if kind == _BLOCK:
+            (keys, lbs), at = cast(tuple[tuple[IntArray, Array], int], payload)
+            if at + 1 < lbs.size:
+                heapq.heappush(
+                    heap, (float(lbs[at + 1]), _BLOCK, next(tick), ((keys, lbs), at + 1))
+                )
+            k = [int(v) for v in keys[at]]
+            first = tuple((k[2 * i], k[2 * i + 1]) for i in range(4))
+            heapq.heappush(heap, (key, _BOUND, next(tick), (first, (0, 0, 0, 0))))
+            continue
+        electrical, choice = cast(tuple[tuple[tuple[int, int], ...], tuple[int, ...]], payload)
+        lists = [parts.variants(i, electrical[i]) for i in range(4)]
+        rows = tuple(lists[i][choice[i]][1] for i in range(4))
+        if kind == _BOUND:
+            exact = cost_of(rows)
+            heapq.heappush(heap, (max(exact, key), _EXACT, next(tick), (electrical, choice)))
+            continue
+        # Other parts of the same classes and values (other sizes, stock): each successor's
+        # bound is its part cost plus one line per distinct (class, value), never above its
+        # exact cost.
+        lines = line_cost * len(set(electrical))
+        for i in range(4):
+            if choice[i] + 1 < len(lists[i]):
+                nxt = tuple(c + (1 if j == i else 0) for j, c in enumerate(choice))
+                if (electrical, nxt) in seen:
+                    continue
+                seen.add((electrical, nxt))
+                bound_next = sum(lists[j][nxt[j]][0] for j in range(4)) + lines
+                heapq.heappush(heap, (bound_next, _BOUND, next(tick), (electrical, nxt)))
+        yield _discrete_design(catalog, rows, part_cache)
+
+
+def _distinct_parts(keys: IntArray) -> IntArray:
+    """Distinct (class, value) pairs among the four positions of each row of ``keys``
+    (columns: class, value for R1..R4): the least number of part ids (lines) a design needs."""
+    pairs = keys[:, 0::2] * (1 << 32) + keys[:, 1::2]
+    s = np.sort(pairs, axis=1)
+    count: IntArray = 1 + np.sum(s[:, 1:] != s[:, :-1], axis=1)
+    return count
+
+
+def _cached_part(catalog: Catalog, row: int, cache: dict[int, DiscretePart]) -> DiscretePart:
+    part = cache.get(row)
+    if part is None:
+        part = cache[row] = catalog.discrete_part(row)
+    return part
+
+
+def _discrete_design(
+    catalog: Catalog, rows: tuple[int, ...], cache: dict[int, DiscretePart]
+) -> Design:
+    placements = tuple(
+        Placement(f"R{i + 1}", _cached_part(catalog, row, cache)) for i, row in enumerate(rows)
+    )
+    return Design(placements)  # type: ignore[arg-type]
+
+
+# --------------------------------------------------------------------------------------------
+# Quad networks
+# --------------------------------------------------------------------------------------------
+
+
+def quad_frontier(spec: Spec, catalog: Catalog, env: LinearEnvironment) -> Iterator[Design]:
+    """Every quad-network design (each network, each distinct element order) in nondecreasing
+    exact cost, screened at nominal values: the nominal point lies in every variable's range, so
+    a design whose nominal CMRR or gain error already fails cannot pass the worst case."""
+    prefs = spec.preferences
+    lim = _limits(spec, env)
+    if lim.balance < 0.0:
+        return
+    low = prefs.resistance_min_ohm * (1 - 1e-9)
+    high = prefs.resistance_max_ohm * (1 + 1e-9)
+    candidates: list[tuple[float, str, tuple[int, ...], Design]] = []
+    stress = [float(s) for s in env.stress_v]
+    for network in catalog.networks:
+        if not isinstance(network, NetworkPart) or network.elements != 4:
+            continue
+        if prefs.stock is StockPolicy.ONLY and not network.in_stock:
+            continue
+        values = network.values_ohm
+        if min(values) < low or max(values) > high:
+            continue
+        if network.max_voltage_v < RATING_SCREEN * max(stress):
+            continue
+        seen: set[tuple[float, ...]] = set()
+        for order in itertools.permutations(range(4)):
+            layout = tuple(values[e] for e in order)
+            if layout in seen:
+                continue
+            seen.add(layout)
+            if any(
+                network.power_per_element_w * env.derating * r < RATING_SCREEN * s**2
+                for r, s in zip(layout, stress, strict=True)
+            ):
+                continue
+            design = Design(
+                tuple(Placement(f"R{i + 1}", network, order[i]) for i in range(4))  # type: ignore[arg-type]
+            )
+            cost = design_cost(design, prefs).total
+            candidates.append((cost, network.part_id, order, design))
+    if not candidates:
+        return
+    r = np.array([c[3].resistances_ohm for c in candidates])
+    ok = _nominal_screen(r, spec, lim)
+    kept = [c for c, good in zip(candidates, ok.tolist(), strict=True) if good]
+    kept.sort(key=lambda c: (c[0], c[1], c[2]))
+    for item in kept:
+        yield item[3]
+
+
+def _nominal_screen(r: Array, spec: Spec, lim: _Limits) -> NDArray[np.bool_]:
+    """Designs (N, 4) whose nominal values meet CMRR and gain at every environment vertex and
+    amplifier corner (a subset of the worst case's points, hence never stricter)."""
+    amp = spec.amplifier
+    req = spec.requirements
+    floor = 10.0 ** (-req.cmrr_floor_db / 20.0) * (1.0 + _SLACK)
+    ok = np.ones(r.shape[0], dtype=bool)
+    signs = (1.0, -1.0) if math.isfinite(amp.cmrr_ratio) else (1.0,)
+    gains = (amp.open_loop_gain, math.inf) if math.isfinite(amp.open_loop_gain) else (math.inf,)
+    for v in range(lim.rs1.size):
+        for sign in signs:
+            for a_ol in gains:
+                k = coefficients(
+                    r[:, 0], r[:, 1], r[:, 2], r[:, 3],
+                    lim.rs1[v], lim.rs3[v], lim.rref[v], a_ol, amp.cmrr_ratio, sign,
+                )  # fmt: skip
+                adm = differential_gain(k)
+                ok &= common_mode_error(common_mode_gain(k), adm) <= floor
+                gain = np.abs(adm)
+                ok &= (gain <= lim.gain_max) & (gain >= lim.gain_min)
+    if lim.min_impedance > 0.0:
+        ok &= r[:, 0] + r[:, 2] >= lim.min_impedance
+    return ok

@@ -1,0 +1,253 @@
+"""The exact cost-ordered search (``optimizer.solve.frontier``) against outside references.
+
+* **Top-k against the exhaustive reference** (``optimizer.solve.enumerate``, an independent code
+  path that tries every design in cost order through the exact check) on seeded random small
+  catalogs, for the two topologies the frontier serves, with dominated parts, same-lot tracking,
+  unbalanced values, source and REF impedance, noise and impedance floors, line and placement
+  costs and stock preferences: the k cheapest costs agree.
+* **The screen is a relaxation** of the exact check: on every design of random catalogs,
+  a design whose exact worst case (``optimizer.analysis.worstcase``) meets the CMRR floor and the
+  gain accuracy is emitted by the frontier; with independent parts (no same-lot tracking) every
+  emitted design meets both (the screen is exact there, as the corner theorem says).
+* **Formulas** against closed forms: the balance limit against the handbook CMRR ≈ (1 + G)/|δ|
+  regime and sympy-free algebra checked numerically.
+* **Plain specs over the whole built-in catalog** that once failed (issue text): the pick now
+  finds a design at most as dear as designs ``quartet check`` accepts.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import itertools
+import math
+import random
+
+import pytest
+from test_oracle import random_case
+
+from optimizer.analysis.worstcase import common_mode_error_worst_sign, worst_case
+from optimizer.catalog import builtin_catalog
+from optimizer.cost import design_cost
+from optimizer.design import Design, Placement, Topology
+from optimizer.solve.enumerate import reference_search
+from optimizer.solve.environment import linear_environment
+from optimizer.solve.frontier import discrete_frontier, gain_threshold, log_balance_limit
+from optimizer.solve.search import SearchStatus, pick
+from optimizer.spec import CmrrBasis, Objective, Spec, StockPolicy
+from optimizer.userdesign import design_from_parts
+from optimizer.verify import verify
+
+TOP = 5
+
+
+def _frontier_case(seed: int) -> tuple[Spec, object]:
+    """A random oracle case restricted to what the frontier serves: worst-case basis, lowest
+    cost, four discrete parts and/or quad networks; every third case with same-lot tracking."""
+    case = random_case(seed)
+    spec = case.spec
+    rng = random.Random(seed)
+    topologies = rng.choice(
+        [(Topology.DISCRETE,), (Topology.QUAD,), (Topology.DISCRETE, Topology.QUAD)]
+    )
+    prefs = dataclasses.replace(
+        spec.preferences,
+        topologies=topologies,
+        objective=Objective.COST,
+        same_lot_tracking=seed % 3 == 0,
+    )
+    req = dataclasses.replace(spec.requirements, cmrr_basis=CmrrBasis.WORST_CASE)
+    return dataclasses.replace(spec, preferences=prefs, requirements=req), case.catalog
+
+
+@pytest.mark.parametrize("seed", range(60))
+def test_top_k_costs_match_the_exhaustive_reference(seed: int) -> None:
+    spec, catalog = _frontier_case(seed)
+    ref = reference_search(spec, catalog, verify, top=TOP)  # type: ignore[arg-type]
+    result = pick(spec, catalog, verify, top=TOP, time_limit_s=60.0)  # type: ignore[arg-type]
+    want = [cost.total for cost, _, _ in ref.ranked]
+    got = [c.cost.total for c in result.ranked]
+    assert got == pytest.approx(want, rel=1e-9, abs=1e-12), (seed, got, want)
+    if want:
+        assert result.status is SearchStatus.OPTIMAL
+    else:
+        assert result.status is SearchStatus.INFEASIBLE
+    for candidate in result.ranked:
+        assert verify(candidate.design, spec).passed
+
+
+def _all_discrete_designs(catalog: object) -> list[Design]:
+    parts = [catalog.discrete_part(i) for i in range(catalog.discrete_count)]  # type: ignore[attr-defined]
+    return [
+        Design(tuple(Placement(f"R{i + 1}", p) for i, p in enumerate(combo)))  # type: ignore[arg-type]
+        for combo in itertools.product(parts, repeat=4)
+    ]
+
+
+def _meets_cmrr_and_gain(design: Design, spec: Spec) -> bool:
+    worst = worst_case(design, spec)
+    req = spec.requirements
+    return worst.cmrr_db >= req.cmrr_floor_db and worst.gain_error_worst <= req.gain_accuracy
+
+
+#: Seeds whose random catalog has at most six discrete parts (6⁴ designs to brute-force).
+SMALL_SEEDS = (1, 2, 6, 7, 8, 10, 14, 15, 19, 20, 23, 25, 26, 27)
+
+
+@pytest.mark.parametrize("seed", SMALL_SEEDS)
+def test_screen_is_a_relaxation_and_exact_for_independent_parts(seed: int) -> None:
+    spec, catalog = _frontier_case(seed)
+    spec = dataclasses.replace(
+        spec,
+        requirements=dataclasses.replace(spec.requirements, min_input_impedance_ohm=0.0),
+        preferences=dataclasses.replace(
+            spec.preferences, resistance_min_ohm=1.0, resistance_max_ohm=1e7
+        ),
+    )
+    assert catalog.discrete_count <= 6  # type: ignore[attr-defined]
+    env = linear_environment(spec)
+    emitted = list(discrete_frontier(spec, catalog, env))  # type: ignore[arg-type]
+    keys = {tuple(p.part.part_id for p in d.placements) for d in emitted}
+    costs = [design_cost(d, spec.preferences).total for d in emitted]
+    assert all(a <= b + 1e-9 for a, b in itertools.pairwise(costs))  # nondecreasing cost
+    assert len(keys) == len(emitted)  # no design twice
+    only_stock = spec.preferences.stock is StockPolicy.ONLY
+    for design in _all_discrete_designs(catalog):
+        key = tuple(p.part.part_id for p in design.placements)
+        if only_stock and not all(p.part.in_stock for p in design.placements):
+            assert key not in keys  # the spec allows house stock only
+            continue
+        meets = _meets_cmrr_and_gain(design, spec)
+        # Ratings are screened at half the estimated stress; a design the screen drops on
+        # ratings alone must also fail the exact rating check.
+        if meets and key not in keys:
+            assert not verify(design, spec).passed, key
+        if key in keys and not spec.preferences.same_lot_tracking:
+            assert meets, key
+
+
+# ---------------------------------------------------------------------------------------------
+# Formulas
+# ---------------------------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize("floor_db", [30.0, 46.0, 60.0, 80.0, 100.0])
+@pytest.mark.parametrize("amp_db", [math.inf, 90.0, 110.0])
+def test_balance_limit_inverts_the_worst_sign_error(floor_db: float, amp_db: float) -> None:
+    """At ``|ln x| = Λ`` the worst-sign error (analysis.worstcase, derived there) equals the
+    floor exactly: x = e^Λ gives 10^(−floor/20)."""
+    amp = 10.0 ** (amp_db / 20.0)
+    lam = log_balance_limit(floor_db, amp)
+    if lam < 0.0:
+        assert amp_db <= floor_db + 6.1  # only an amplifier near the floor leaves nothing
+        return
+    e = 0.0 if math.isinf(amp) else 1.0 / (2.0 * amp)
+    for x in (math.exp(lam), math.exp(-lam)):
+        assert float(common_mode_error_worst_sign(x, e)) == pytest.approx(
+            10.0 ** (-floor_db / 20.0), rel=1e-9
+        )
+
+
+@pytest.mark.parametrize("side", [1, 2])
+@pytest.mark.parametrize(
+    ("gain", "k", "eps", "inv_a"),
+    [(2.0, 1.0, 0.0, 0.0), (10.0, 0.999, 1e-5, 1e-6), (0.5, 1.001, -1e-5, 0.0)],
+)
+def test_gain_threshold_solves_the_gain_equation(
+    side: int, gain: float, k: float, eps: float, inv_a: float
+) -> None:
+    """Adm = (a(1+ε) + c(1−ε))/(2(1/A + (1−c)(1−ε))) (the closed form of analysis.transfer)
+    equals the gain at the threshold; for a balanced bridge (k = 1, ε = 0, ideal A) the
+    threshold is G/(1+G), the textbook divider ratio of a difference amplifier."""
+    t = gain_threshold(gain, k, eps, inv_a, side)
+    a, c = (k * t, t) if side == 1 else (t, k * t)
+    adm = (a * (1 + eps) + c * (1 - eps)) / (2 * (inv_a + (1 - c) * (1 - eps)))
+    assert adm == pytest.approx(gain, rel=1e-12)
+    if k == 1.0 and eps == 0.0 and inv_a == 0.0:
+        assert t == pytest.approx(gain / (1 + gain))
+
+
+# ---------------------------------------------------------------------------------------------
+# Plain specs over the whole built-in catalog (the issue's first examples)
+# ---------------------------------------------------------------------------------------------
+
+PLAIN = """quartet_spec: 1
+title: "{title}"
+amplifier: {{cmrr: ideal, open_loop_gain: ideal, gbw: 10 MHz, slew_rate: 5 V/us,
+            offset_voltage: 0 V, bias_current: 0 A, voltage_noise: 10 nV/rtHz,
+            current_noise: 0.1 pA/rtHz, input_range: {{from_negative: 0 V, from_positive: 0 V}},
+            output_swing: {{from_negative: 0 V, from_positive: 0 V}}}}
+rails: {{positive: 15 V, negative: -15 V}}
+signal: {{differential: {{min: -1 V, max: 1 V}}, common_mode: {{min: -5 V, max: 5 V}},
+          max_frequency: 1 kHz}}
+reference: {{voltage: 0 V}}
+requirements: {{gain: {gain}, gain_accuracy: 1 %, cmrr_floor: {floor} dB,
+               temperature: {{min: {tmin} °C, max: {tmax} °C}}{life}}}
+preferences: {{topologies: [{topologies}]}}
+"""
+
+
+@pytest.mark.parametrize(
+    ("gain", "floor", "temps", "life", "topologies", "known"),
+    [
+        # G = 2 at 50 dB, 25 °C: four 0.1 % 25 ppm/K 0603 parts pass check at 57.5 dB (27.2).
+        (
+            2,
+            50,
+            (25, 25),
+            "",
+            "four_discrete",
+            [
+                "Q-0603-T10-25-10K0",
+                "Q-0603-T10-25-20K0",
+                "Q-0603-T10-25-10K0",
+                "Q-0603-T10-25-20K0",
+            ],
+        ),
+        # The same with every topology: the quad QN4-G2-10K-1000 passes at about 63 dB (9.2).
+        (
+            2,
+            50,
+            (25, 25),
+            "",
+            "four_discrete, quad_network, equal_pairs, divider_pairs, pair_plus_discrete",
+            ["QN4-G2-10K-1000:1", "QN4-G2-10K-1000:2", "QN4-G2-10K-1000:3", "QN4-G2-10K-1000:4"],
+        ),
+    ],
+)
+def test_plain_specs_find_the_cheap_designs(
+    tmp_path: object,
+    gain: float,
+    floor: float,
+    temps: tuple[float, float],
+    life: str,
+    topologies: str,
+    known: list[str],
+) -> None:
+    from pathlib import Path
+
+    from optimizer.specfile import load_spec
+
+    path = Path(str(tmp_path)) / "plain.yaml"
+    path.write_text(
+        PLAIN.format(title="plain", gain=gain, floor=floor, tmin=temps[0], tmax=temps[1],
+                     life=life, topologies=topologies),
+        encoding="utf-8",
+    )  # fmt: skip
+    spec = load_spec(str(path))
+    catalog = builtin_catalog()
+    if ":" in known[0]:
+        from optimizer.userdesign import design_from_network
+
+        design = design_from_network(known[0].split(":")[0], [1, 2, 3, 4], catalog)
+    else:
+        design = design_from_parts(known, catalog)
+    assert verify(design, spec).passed
+    known_cost = design_cost(design, spec.preferences).total
+    result = pick(spec, catalog, verify, top=10, time_limit_s=60.0)
+    assert result.status is SearchStatus.OPTIMAL
+    assert len(result.ranked) == 10
+    assert result.ranked[0].cost.total <= known_cost + 1e-9
+    costs = [c.cost.total for c in result.ranked]
+    assert all(a <= b + 1e-9 for a, b in itertools.pairwise(costs))
+    for candidate in result.ranked:
+        assert verify(candidate.design, spec).passed
