@@ -42,12 +42,19 @@ TOP = 5
 
 def _frontier_case(seed: int) -> tuple[Spec, object]:
     """A random oracle case restricted to what the frontier serves: worst-case basis, lowest
-    cost, four discrete parts and/or quad networks; every third case with same-lot tracking."""
+    cost, four discrete parts, quad networks and pairs of duals (not one dual with two discrete
+    parts, which the CP-SAT streams serve); every third case with same-lot tracking."""
     case = random_case(seed)
     spec = case.spec
     rng = random.Random(seed)
     topologies = rng.choice(
-        [(Topology.DISCRETE,), (Topology.QUAD,), (Topology.DISCRETE, Topology.QUAD)]
+        [
+            (Topology.DISCRETE,),
+            (Topology.QUAD,),
+            (Topology.DISCRETE, Topology.QUAD),
+            (Topology.EQUAL_PAIRS, Topology.DIVIDER_PAIRS),
+            (Topology.DISCRETE, Topology.QUAD, Topology.EQUAL_PAIRS, Topology.DIVIDER_PAIRS),
+        ]
     )
     prefs = dataclasses.replace(
         spec.preferences,

@@ -55,28 +55,27 @@ from __future__ import annotations
 import heapq
 import itertools
 import math
-from collections.abc import Iterator
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
 from typing import cast
 
 import numpy as np
 from numpy.typing import NDArray
 
-from ..analysis.transfer import coefficients, common_mode_gain, differential_gain
-from ..analysis.worstcase import common_mode_error
 from ..catalog import Catalog
 from ..cost import design_cost, parts_cost
-from ..design import Design, Placement
+from ..design import Design, Placement, Topology
 from ..parts import DiscretePart, NetworkPart
 from ..spec import Spec, StockPolicy
 from .environment import LinearEnvironment, life_drift
 
 __all__ = [
     "RATING_SCREEN",
+    "corner_screen",
     "discrete_frontier",
     "gain_threshold",
     "log_balance_limit",
-    "quad_frontier",
+    "network_frontier",
 ]
 
 Array = NDArray[np.float64]
@@ -176,6 +175,60 @@ def _limits(spec: Spec, env: LinearEnvironment) -> _Limits:
 
 
 # --------------------------------------------------------------------------------------------
+# Least voltage across each position
+# --------------------------------------------------------------------------------------------
+
+
+def _min_abs_linear(u0: Array, u1: Array) -> Array:
+    """Least ``|u|`` of a function linear in a parameter over an interval, given its values at
+    the two ends (0 where it changes sign)."""
+    same = np.sign(u0) == np.sign(u1)
+    return np.where(same, np.minimum(np.abs(u0), np.abs(u1)), 0.0)
+
+
+def stress_floor(spec: Spec, lim: _Limits, position: int) -> float:
+    """A lower bound (volts) of the largest voltage across the resistor at ``position`` (0-based)
+    over the signal corners, for any design that meets the gain accuracy and the CMRR floor,
+    before the part's own share ``R/(R + Rs)`` (see :func:`stress_share`). From
+    ``resistor_voltages`` (``analysis.checks``, Ohm's and Kirchhoff's laws):
+    ``V_R1 = (V1 − V−)·R1/R1'``, ``V_R3 = (V2 − VREF)(1 − a)·R3/R3'``,
+    ``V_R4 = (V2 − VREF)·a·R4/R4'`` with ``V− = a·V2 + (1 − a)·VREF − Vout/A`` and ``a`` inside the
+    window the gain and balance conditions leave (:func:`_side_window`). R2 (its voltage needs
+    the output) gets 0: its rating is screened only loosely (:data:`RATING_SCREEN`)."""
+    if position == 1:
+        return 0.0
+    sig, ref = spec.signal, spec.reference
+    windows = [_side_window(lim, 2, v) for v in range(lim.rs1.size)]
+    a_hi = min(max(w[0] for w in windows), 1.0)
+    a_lo = max(min(w[1] for w in windows), 0.0)
+    if a_lo > a_hi:
+        return 0.0
+    vcm = np.array([sig.common_mode_min_v, sig.common_mode_max_v])
+    vd = np.array([sig.differential_min_v, sig.differential_max_v])
+    vref = np.array([ref.voltage_min_v, ref.voltage_max_v])
+    cm, d, rf = (g.ravel() for g in np.meshgrid(vcm, vd, vref, indexing="ij"))
+    v1, v2 = cm - d / 2.0, cm + d / 2.0
+    if position == 0:
+        out = lim.gain_max * float(np.max(np.abs(vd))) + float(np.max(np.abs(vref)))
+        out += float(np.max(np.abs(vcm)))
+        slack = out * lim.inv_a
+        u0 = v1 - a_lo * v2 - (1.0 - a_lo) * rf
+        u1 = v1 - a_hi * v2 - (1.0 - a_hi) * rf
+        return max(float(np.max(_min_abs_linear(u0, u1))) - slack, 0.0)
+    leg = np.abs(v2 - rf)
+    share = (1.0 - a_hi) if position == 2 else a_lo
+    return max(float(np.max(leg)) * share, 0.0)
+
+
+def stress_share(lim: _Limits, position: int, r_low: Array) -> Array:
+    """The part's least share ``R/(R + Rs)`` of the voltage at ``position`` (Rs: the largest
+    source or REF impedance in series with it) for resistances at their low ends ``r_low``."""
+    series = {0: lim.rs1.max(), 1: 0.0, 2: lim.rs3.max(), 3: lim.rref.max()}[position]
+    share: Array = r_low / (r_low + series)
+    return share
+
+
+# --------------------------------------------------------------------------------------------
 # Discrete parts, grouped by electrical class
 # --------------------------------------------------------------------------------------------
 
@@ -204,7 +257,9 @@ class _Parts:
         return list(zip(self.costs[position][start:stop].tolist(), rows, strict=True))
 
 
-def _discrete_parts(catalog: Catalog, spec: Spec, env: LinearEnvironment) -> _Parts | None:
+def _discrete_parts(
+    catalog: Catalog, spec: Spec, env: LinearEnvironment, lim: _Limits
+) -> _Parts | None:
     prefs = spec.preferences
     frame = catalog.discrete
     if frame.empty:
@@ -242,6 +297,12 @@ def _discrete_parts(catalog: Catalog, spec: Spec, env: LinearEnvironment) -> _Pa
     for position in range(4):
         stress = float(env.stress_v[position])
         usable = (volts >= RATING_SCREEN * stress) & (power * r >= RATING_SCREEN * stress**2)
+        floor = stress_floor(spec, lim, position)
+        if floor > 0.0:
+            # The exact rating check takes the worst corner: the voltage is at least the floor
+            # times the part's share, the power at least that squared over its highest value.
+            least = floor * stress_share(lim, position, r * lo[class_of]) * (1.0 - 1e-9)
+            usable &= (volts >= least) & (power * r * hi[class_of] >= least**2)
         sel = order[usable[order]]
         flat = class_of[sel] * values.size + value_of[sel]
         starts = np.flatnonzero(np.r_[True, flat[1:] != flat[:-1]]) if sel.size else sel
@@ -526,7 +587,7 @@ def discrete_frontier(spec: Spec, catalog: Catalog, env: LinearEnvironment) -> I
     lim = _limits(spec, env)
     if lim.balance < 0.0:
         return
-    parts = _discrete_parts(catalog, spec, env)
+    parts = _discrete_parts(catalog, spec, env, lim)
     if parts is None:
         return
     one = _half_records(parts, lim, 1)
@@ -661,78 +722,179 @@ def _discrete_design(
 
 
 # --------------------------------------------------------------------------------------------
-# Quad networks
+# Network designs: quads and pairs of duals
 # --------------------------------------------------------------------------------------------
 
 
-def quad_frontier(spec: Spec, catalog: Catalog, env: LinearEnvironment) -> Iterator[Design]:
-    """Every quad-network design (each network, each distinct element order) in nondecreasing
-    exact cost, screened at nominal values: the nominal point lies in every variable's range, so
-    a design whose nominal CMRR or gain error already fails cannot pass the worst case."""
+def corner_screen(nominal: Array, low: Array, high: Array, lim: _Limits) -> NDArray[np.bool_]:
+    """Designs (N, 4) whose positions vary independently in ``[R·low, R·high]`` and that meet
+    the balance and gain conditions of the module docstring at every environment vertex: the
+    exact worst case for independent parts. For network elements ``low``/``high`` hold the
+    element's own range only (the package's shared error at zero): a subset of the exact
+    check's variables, so the screen never rejects a design the exact check accepts."""
+    lo = nominal * low
+    hi = nominal * high
+    ok = np.ones(nominal.shape[0], dtype=bool)
+    lam = lim.balance
+    for v in range(lim.rs1.size):
+        rs1, rs3, rref = lim.rs1[v], lim.rs3[v], lim.rref[v]
+        c_hi = hi[:, 1] / (lo[:, 0] + rs1 + hi[:, 1])
+        c_lo = lo[:, 1] / (hi[:, 0] + rs1 + lo[:, 1])
+        a_hi = (hi[:, 3] + rref) / (lo[:, 2] + rs3 + hi[:, 3] + rref)
+        a_lo = (lo[:, 3] + rref) / (hi[:, 2] + rs3 + lo[:, 3] + rref)
+        ok &= np.log(c_hi / a_lo) <= lam
+        ok &= np.log(c_lo / a_hi) >= -lam
+        for e in lim.eps:
+            ok &= _adm(a_hi, c_hi, e, 0.0) <= lim.gain_max
+            ok &= _adm(a_lo, c_lo, e, lim.inv_a) >= lim.gain_min
+    if lim.min_impedance > 0.0:
+        ok &= nominal[:, 0] + nominal[:, 2] >= lim.min_impedance
+    return ok
+
+
+def _element_bounds(network: NetworkPart, env: LinearEnvironment) -> tuple[float, float]:
+    """``(low, high)`` factors of one element's own variables (ratio tolerance, tracking tempco
+    and ratio drift, each half the pair figure: ``analysis.variation``), the package at 0."""
+    t = network.ratio_tolerance / 2.0
+    tc = network.tracking_tempco_per_k / 2.0 * env.delta_t_k
+    d = float(life_drift(network.ratio_drift_1000h, env.life_h)) / 2.0
+    return (1.0 - t) * (1.0 - tc) * (1.0 - d), (1.0 + t) * (1.0 + tc) * (1.0 + d)
+
+
+def _usable_networks(
+    spec: Spec, catalog: Catalog, env: LinearEnvironment, elements: int
+) -> list[NetworkPart]:
     prefs = spec.preferences
-    lim = _limits(spec, env)
-    if lim.balance < 0.0:
-        return
     low = prefs.resistance_min_ohm * (1 - 1e-9)
     high = prefs.resistance_max_ohm * (1 + 1e-9)
-    candidates: list[tuple[float, str, tuple[int, ...], Design]] = []
-    stress = [float(s) for s in env.stress_v]
+    stress = float(np.max(env.stress_v))
+    found = []
     for network in catalog.networks:
-        if not isinstance(network, NetworkPart) or network.elements != 4:
+        if network.elements != elements:
             continue
         if prefs.stock is StockPolicy.ONLY and not network.in_stock:
             continue
         values = network.values_ohm
         if min(values) < low or max(values) > high:
             continue
-        if network.max_voltage_v < RATING_SCREEN * max(stress):
+        if network.max_voltage_v < RATING_SCREEN * stress:
             continue
-        seen: set[tuple[float, ...]] = set()
-        for order in itertools.permutations(range(4)):
-            layout = tuple(values[e] for e in order)
-            if layout in seen:
-                continue
-            seen.add(layout)
-            if any(
-                network.power_per_element_w * env.derating * r < RATING_SCREEN * s**2
-                for r, s in zip(layout, stress, strict=True)
-            ):
-                continue
-            design = Design(
-                tuple(Placement(f"R{i + 1}", network, order[i]) for i in range(4))  # type: ignore[arg-type]
-            )
-            cost = design_cost(design, prefs).total
-            candidates.append((cost, network.part_id, order, design))
-    if not candidates:
+        found.append(network)
+    return found
+
+
+def network_frontier(
+    spec: Spec, catalog: Catalog, env: LinearEnvironment, topology: Topology
+) -> Iterator[Design]:
+    """Every design of ``topology`` (a quad in each distinct element order, or two duals each in
+    either order for equal or divider pairs; the same dual twice is two packages) that passes
+    :func:`corner_screen`, in nondecreasing exact cost (ties by part ids and element order)."""
+    lim = _limits(spec, env)
+    if lim.balance < 0.0:
         return
-    r = np.array([c[3].resistances_ohm for c in candidates])
-    ok = _nominal_screen(r, spec, lim)
-    kept = [c for c, good in zip(candidates, ok.tolist(), strict=True) if good]
-    kept.sort(key=lambda c: (c[0], c[1], c[2]))
+    if topology is Topology.QUAD:
+        layouts = _quad_layouts(spec, catalog, env, lim)
+    else:
+        layouts = _pair_layouts(spec, catalog, env, topology, lim)
+    if not layouts:
+        return
+    nominal = np.array([layout[1] for layout in layouts])
+    low = np.array([layout[2] for layout in layouts])
+    high = np.array([layout[3] for layout in layouts])
+    ok = corner_screen(nominal, low, high, lim)
+    kept: list[tuple[float, tuple[str, ...], tuple[int, ...], Design]] = []
+    for layout, good in zip(layouts, ok.tolist(), strict=True):
+        if good:
+            design = layout[0]
+            ids = tuple(p.part.part_id for p in design.placements)
+            order = tuple(p.element if p.element is not None else -1 for p in design.placements)
+            kept.append((design_cost(design, spec.preferences).total, ids, order, design))
+    kept.sort(key=lambda item: (item[0], item[1], item[2]))
     for item in kept:
         yield item[3]
 
 
-def _nominal_screen(r: Array, spec: Spec, lim: _Limits) -> NDArray[np.bool_]:
-    """Designs (N, 4) whose nominal values meet CMRR and gain at every environment vertex and
-    amplifier corner (a subset of the worst case's points, hence never stricter)."""
-    amp = spec.amplifier
-    req = spec.requirements
-    floor = 10.0 ** (-req.cmrr_floor_db / 20.0) * (1.0 + _SLACK)
-    ok = np.ones(r.shape[0], dtype=bool)
-    signs = (1.0, -1.0) if math.isfinite(amp.cmrr_ratio) else (1.0,)
-    gains = (amp.open_loop_gain, math.inf) if math.isfinite(amp.open_loop_gain) else (math.inf,)
-    for v in range(lim.rs1.size):
-        for sign in signs:
-            for a_ol in gains:
-                k = coefficients(
-                    r[:, 0], r[:, 1], r[:, 2], r[:, 3],
-                    lim.rs1[v], lim.rs3[v], lim.rref[v], a_ol, amp.cmrr_ratio, sign,
-                )  # fmt: skip
-                adm = differential_gain(k)
-                ok &= common_mode_error(common_mode_gain(k), adm) <= floor
-                gain = np.abs(adm)
-                ok &= (gain <= lim.gain_max) & (gain >= lim.gain_min)
-    if lim.min_impedance > 0.0:
-        ok &= r[:, 0] + r[:, 2] >= lim.min_impedance
-    return ok
+_Layout = tuple[Design, tuple[float, ...], tuple[float, ...], tuple[float, ...]]
+
+
+def _rated(
+    network: NetworkPart,
+    values: Sequence[float],
+    positions: Sequence[int],
+    env: LinearEnvironment,
+    floors: Sequence[float],
+    lim: _Limits,
+) -> bool:
+    """The element ratings against the estimated stress (loosely, :data:`RATING_SCREEN`) and
+    against the least voltage any passing design puts across each position
+    (:func:`stress_floor` times the element's share at its lowest resistance)."""
+    power = network.power_per_element_w * env.derating
+    lo, hi = _element_bounds(network, env)
+    shared = (1.0 - network.abs_tolerance) * (1.0 - network.abs_tempco_per_k * env.delta_t_k)
+    shared *= 1.0 - float(life_drift(network.drift_1000h, env.life_h))
+    for r, p in zip(values, positions, strict=True):
+        stress = float(env.stress_v[p])
+        if power * r < RATING_SCREEN * stress**2:
+            return False
+        r_low = np.array([r * lo * shared])
+        least = floors[p] * float(stress_share(lim, p, r_low)[0]) * (1.0 - 1e-9)
+        top = r * hi * (2.0 - shared)
+        if network.max_voltage_v < least or power * top < least**2:
+            return False
+    return True
+
+
+def _quad_layouts(
+    spec: Spec, catalog: Catalog, env: LinearEnvironment, lim: _Limits
+) -> list[_Layout]:
+    floors = [stress_floor(spec, lim, p) for p in range(4)]
+    layouts: list[_Layout] = []
+    for network in _usable_networks(spec, catalog, env, 4):
+        lo, hi = _element_bounds(network, env)
+        seen: set[tuple[float, ...]] = set()
+        for order in itertools.permutations(range(4)):
+            values = tuple(network.values_ohm[e] for e in order)
+            if values in seen or not _rated(network, values, range(4), env, floors, lim):
+                continue
+            seen.add(values)
+            placements = tuple(Placement(f"R{i + 1}", network, order[i]) for i in range(4))
+            layouts.append((Design(placements), values, (lo,) * 4, (hi,) * 4))  # type: ignore[arg-type]
+    return layouts
+
+
+def _pair_layouts(
+    spec: Spec, catalog: Catalog, env: LinearEnvironment, topology: Topology, lim: _Limits
+) -> list[_Layout]:
+    """Two duals: (R1, R3) and (R2, R4) for equal pairs, (R1, R2) and (R3, R4) for divider
+    pairs; each dual in either element order (an order that repeats values is kept once)."""
+    first, second = ((0, 2), (1, 3)) if topology is Topology.EQUAL_PAIRS else ((0, 1), (2, 3))
+    duals = _usable_networks(spec, catalog, env, 2)
+    floors = [stress_floor(spec, lim, p) for p in range(4)]
+    options: list[list[tuple[NetworkPart, tuple[int, int], float, float]]] = [[], []]
+    for slot, positions in enumerate((first, second)):
+        for network in duals:
+            lo, hi = _element_bounds(network, env)
+            seen: set[tuple[float, ...]] = set()
+            for order in ((0, 1), (1, 0)):
+                values = tuple(network.values_ohm[e] for e in order)
+                if values in seen or not _rated(network, values, positions, env, floors, lim):
+                    continue
+                seen.add(values)
+                options[slot].append((network, order, lo, hi))
+    layouts: list[_Layout] = []
+    for net_a, order_a, lo_a, hi_a in options[0]:
+        for net_b, order_b, lo_b, hi_b in options[1]:
+            package_b = 1 if net_b.part_id == net_a.part_id else 0
+            slots: dict[int, Placement] = {}
+            lows = [0.0] * 4
+            highs = [0.0] * 4
+            for positions, net, order, lo, hi, package in (
+                (first, net_a, order_a, lo_a, hi_a, 0),
+                (second, net_b, order_b, lo_b, hi_b, package_b),
+            ):
+                for p, e in zip(positions, order, strict=True):
+                    slots[p] = Placement(f"R{p + 1}", net, e, package)
+                    lows[p], highs[p] = lo, hi
+            design = Design((slots[0], slots[1], slots[2], slots[3]))
+            layouts.append((design, design.resistances_ohm, tuple(lows), tuple(highs)))
+    return layouts

@@ -29,7 +29,7 @@ from ..spec import CmrrBasis, Objective, Spec
 from .amplifier import amplifier_limits
 from .discrete import DiscreteBlock, build_discrete, value_constants
 from .environment import LinearEnvironment, linear_environment
-from .frontier import discrete_frontier, quad_frontier
+from .frontier import discrete_frontier, network_frontier
 from .model import BuiltModel, Limits, ModelVariant, build_model, limits_for
 from .options import ALL_SHAPES, DIVIDER_SHAPES, EQUAL_SHAPES, OptionTable, build_options
 
@@ -267,8 +267,12 @@ class _FrontierStream:
         self.problem = problem
         self.topologies = frozenset({topology})
         self.pair_shape: int | None = None
-        make = discrete_frontier if topology is Topology.DISCRETE else quad_frontier
-        self._source = make(problem.spec, problem.catalog, problem.env)
+        spec, catalog, env = problem.spec, problem.catalog, problem.env
+        self._source = (
+            discrete_frontier(spec, catalog, env)
+            if topology is Topology.DISCRETE
+            else network_frontier(spec, catalog, env, topology)
+        )
         self.exhausted = False
         self.optimal = True
         self.timed_out = False
@@ -305,9 +309,10 @@ class _FrontierStream:
 
 def _frontier_applies(spec: Spec, topology: Topology) -> bool:
     """The exact enumeration serves the lowest-cost objective on the worst-case basis for four
-    discrete parts and for quad networks; the other cases use the CP-SAT streams."""
+    discrete parts, quad networks and pairs of duals; one dual with two discrete parts, the
+    yield basis and the other objectives use the CP-SAT streams."""
     return (
-        topology in (Topology.DISCRETE, Topology.QUAD)
+        topology is not Topology.PAIR_PLUS_DISCRETE
         and spec.preferences.objective is Objective.COST
         and spec.requirements.cmrr_basis is CmrrBasis.WORST_CASE
     )
