@@ -13,6 +13,7 @@ from enum import Enum
 from .design import Topology
 from .errors import ModelError
 from .parts import Amplifier
+from .units import exceeds
 
 __all__ = [
     "CmrrBasis",
@@ -37,7 +38,7 @@ def _finite(owner: str, name: str, value: float) -> None:
 def _ordered(owner: str, low_name: str, low: float, high_name: str, high: float) -> None:
     _finite(owner, low_name, low)
     _finite(owner, high_name, high)
-    if low > high:
+    if exceeds(low, high):  # equal within rounding counts as equal (units.NUMBER_REL_TOL)
         raise ModelError(owner, low_name, f"{low_name} {low:g} is above {high_name} {high:g}")
 
 
