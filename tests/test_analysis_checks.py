@@ -556,6 +556,33 @@ def test_full_power_bandwidth_check(fmax: float, passes: bool) -> None:
     assert r.value == pytest.approx(1e6 / (2 * math.pi * 5.0)) and r.passed is passes
 
 
+@pytest.mark.parametrize("gain", [10.0, 100.0])
+def test_full_power_bandwidth_takes_the_largest_open_loop_gain(gain: float) -> None:
+    # Issue 15, item 1. Textbook closed forms: f_FP = SR/(2π·Vpk) with Vpk = |Adm|·|Vd|; for a
+    # balanced bridge and an ideal CMRR, Adm = G/(1 + (1 + G)/A) (finite-gain feedback), which
+    # rises with A. A 40 dB amplifier (A_min = 100) may have any A ≥ 100, so the check takes
+    # the largest peak, G·|Vd| at A = ∞ (G = 100, Vd 0.1 V, 1 V/µs: 15.9 kHz), not the
+    # A_min end (31.99 kHz, twice as high: the optimistic figure the check used to give).
+    amp = amplifier(open_loop_gain_db=40.0)
+    spec = make_spec(amp=amp, diff=(-0.1, 0.1), fmax=1e3, gain=gain, gain_accuracy=0.5)
+    r = by_name(run_checks(design(1e3, gain * 1e3, 1e3, gain * 1e3), spec))["full_power_bandwidth"]
+    at_infinite_gain = 1e6 / (2 * math.pi * gain * 0.1)
+    at_minimum_gain = 1e6 / (2 * math.pi * 0.1 * gain / (1.0 + (1.0 + gain) / 100.0))
+    assert r.value == pytest.approx(at_infinite_gain, rel=1e-12)
+    assert r.value < at_minimum_gain
+    assert r.margin == pytest.approx(at_infinite_gain - 1e3, rel=1e-12)
+
+
+def test_output_swing_takes_both_ends_of_the_open_loop_gain() -> None:
+    # Same closed form: with G = 100 and A_min = 100, Vd 0.1 V gives Vout between
+    # 10 V/(1 + 101/100) = 4.975 V (A = A_min) and 10 V (A = ∞); a ±8 V window fails.
+    amp = amplifier(open_loop_gain_db=40.0, output_span=RailSpan(-8.0, 8.0, relative=False))
+    spec = make_spec(amp=amp, diff=(-0.1, 0.1), gain=100.0, gain_accuracy=0.5)
+    r = by_name(run_checks(design(1e3, 100e3, 1e3, 100e3), spec))["output_swing"]
+    assert not r.passed
+    assert r.value == pytest.approx(10.0, rel=1e-12) and r.margin == pytest.approx(-2.0)
+
+
 # ---------------------------------------------------------------------------------------------
 # Resistor power and voltage ratings
 # ---------------------------------------------------------------------------------------------

@@ -10,8 +10,11 @@ Every formula sits in one small pure function below (scalars or numpy arrays in,
 :func:`run_checks` evaluates them over the *operating corners* (:func:`operating_corners`):
 every combination of the ends of the common-mode, differential and REF voltage ranges, of the
 source and REF impedance ranges, of each resistor's value spread (initial tolerance plus
-tempco over the temperature range; drift is left to the worst-case module) and of the sign of
-the amplifier's common-mode error. The quantities checked are linear in the voltages, so the
+tempco over the temperature range; drift is left to the worst-case module), of the sign of
+the amplifier's common-mode error and of its open-loop gain ``A`` (a datasheet gives a minimum,
+so ``A ∈ {A_min, ∞}``: every closed-loop coefficient is the ideal one times the same factor
+``β(1 − ε)/(1/A + β(1 − ε))``, which rises with ``A``, so an output at the two ends bounds the
+output at every ``A ≥ A_min``). The quantities checked are linear in the voltages, so the
 voltage corners give their extremes exactly; in the resistor values they are smooth and, over
 spreads of a few percent, nearly linear, so the resistor corners give the extremes to within
 second-order terms (corner enumeration, the usual practice of tolerance analysis).
@@ -397,8 +400,9 @@ def input_peak_v(spec: Spec) -> float:
 @dataclass(frozen=True)
 class OperatingCorners:
     """Flat arrays (one entry per corner) of every quantity the checks vary: resistor values
-    (ohms), source and REF impedances (ohms), Vcm, Vd, VREF (volts) and the sign of the
-    amplifier's common-mode error (±1)."""
+    (ohms), source and REF impedances (ohms), Vcm, Vd, VREF (volts), the sign of the
+    amplifier's common-mode error (±1) and its open-loop gain (ratio: the minimum, and ``inf``;
+    only ``inf`` for an ideal amplifier)."""
 
     r1: Array
     r2: Array
@@ -411,6 +415,7 @@ class OperatingCorners:
     vd: Array
     vref: Array
     sign: Array
+    open_loop_gain: Array
 
     @property
     def v1(self) -> Array:
@@ -473,6 +478,7 @@ def operating_corners(design: Design, spec: Spec) -> OperatingCorners:
     ref = spec.reference
     sig = spec.signal
     signs = np.array([1.0]) if math.isinf(spec.amplifier.cmrr_db) else np.array([-1.0, 1.0])
+    gains = np.unique(np.array([spec.amplifier.open_loop_gain, math.inf]))
     axes = [
         *values,
         np.arange(rs1.size, dtype=float),
@@ -481,20 +487,21 @@ def operating_corners(design: Design, spec: Spec) -> OperatingCorners:
         _ends(sig.differential_min_v, sig.differential_max_v),
         _ends(ref.voltage_min_v, ref.voltage_max_v),
         signs,
+        gains,
     ]
     grid = [g.ravel() for g in np.meshgrid(*axes, indexing="ij")]
     pair = grid[4].astype(int)
     return OperatingCorners(
         r1=grid[0], r2=grid[1], r3=grid[2], r4=grid[3],
         rs1=rs1[pair], rs3=rs3[pair], rref=grid[5],
-        vcm=grid[6], vd=grid[7], vref=grid[8], sign=grid[9],
+        vcm=grid[6], vd=grid[7], vref=grid[8], sign=grid[9], open_loop_gain=grid[10],
     )  # fmt: skip
 
 
 def _vout(c: OperatingCorners, spec: Spec) -> Array:
     amp = spec.amplifier
     k = coefficients(
-        c.r1, c.r2, c.r3, c.r4, c.rs1, c.rs3, c.rref, amp.open_loop_gain, amp.cmrr_ratio, c.sign
+        c.r1, c.r2, c.r3, c.r4, c.rs1, c.rs3, c.rref, c.open_loop_gain, amp.cmrr_ratio, c.sign
     )
     return np.asarray(k.k1 * c.v1 + k.k2 * c.v2 + k.kref * c.vref, dtype=float)
 
@@ -614,8 +621,9 @@ def check_input_range(design: Design, spec: Spec) -> CheckResult:
 
 
 def check_output_swing(design: Design, spec: Spec) -> CheckResult:
-    """Vout = k1·V1 + k2·V2 + kref·VREF (exact coefficients with the amplifier's finite gain and
-    CMRR) plus the output offset bound, over the operating corners, inside the output swing."""
+    """Vout = k1·V1 + k2·V2 + kref·VREF (exact coefficients with the amplifier's CMRR and its
+    open-loop gain at both ends, ``A_min`` and ``∞``) plus the output offset bound, over the
+    operating corners, inside the output swing."""
     c = operating_corners(design, spec)
     vout = _vout(c, spec)
     off = _offset(c, spec)
@@ -653,11 +661,17 @@ def check_bandwidth(design: Design, spec: Spec) -> CheckResult:
 def check_full_power_bandwidth(design: Design, spec: Spec) -> CheckResult:
     """Slew-limited full-power bandwidth SR/(2π·Vpk), Vpk = largest |Adm·Vd| over the corners
     (the signal part of the output; the DC part from REF and common mode does not slew), against
-    the signal's ``max_frequency_hz`` (floor, Hz)."""
+    the signal's ``max_frequency_hz`` (floor, Hz).
+
+    The open-loop gain may be anything at or above its minimum, and ``|Adm|`` rises with it
+    (``Adm = (a(1+ε) + c(1−ε))/(2(1/A + β(1−ε)))``), so the largest peak, and with it the
+    conservative bandwidth that holds for every allowed ``A``, is at ``A = ∞``: for a balanced
+    bridge ``Vpk = G·|Vd|``, where ``A_min`` would give the smaller ``G·|Vd|/(1 + (1+G)/A_min)``.
+    """
     c = operating_corners(design, spec)
     amp = spec.amplifier
     k = coefficients(
-        c.r1, c.r2, c.r3, c.r4, c.rs1, c.rs3, c.rref, amp.open_loop_gain, amp.cmrr_ratio, c.sign
+        c.r1, c.r2, c.r3, c.r4, c.rs1, c.rs3, c.rref, c.open_loop_gain, amp.cmrr_ratio, c.sign
     )
     peak = float(np.max(np.abs(differential_gain(k) * c.vd)))
     fp = float(full_power_bandwidth(amp.slew_v_per_s, peak))
