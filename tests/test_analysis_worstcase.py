@@ -779,3 +779,49 @@ def test_variation_from_design_follows_the_model() -> None:
     shared = variation_from_design(lot, same_lot_tracking=True)
     assert shared.tempco_per_k == (0.0,) * 4 and shared.groups[0].tempco_per_k == 50e-6
     assert variation_from_design(lot).groups == ()
+
+
+# ---------------------------------------------------------------------------------------------
+# Nominal balance decided exactly (issue 15, item 3)
+# ---------------------------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize(
+    "values",
+    [
+        # R2/R1 = R4/R3 exactly in the float values (checked with sympy's exact rationals
+        # below); float evaluation of Acm left about 1e-16, printed as 313-315 dB.
+        (2490.0, 12450.0, 7470.0, 37350.0),
+        (83005.7, 166011.4, 65799.5, 131599.0),
+        (5397.7, 10795.4, 58870.5, 117741.0),
+        (1e3, 10e3, 2e3, 20e3),
+    ],
+)
+def test_exactly_balanced_bridge_has_infinite_nominal_cmrr(
+    values: tuple[float, float, float, float],
+) -> None:
+    r1, r2, r3, r4 = (sp.Rational(v) for v in values)  # sympy: exact rationals of the floats
+    assert r2 * r3 == r1 * r4
+    wc = worst_case(four_discrete(values, 0.001), make_spec(values[1] / values[0]))
+    assert wc.nominal_cmrr_db == math.inf
+    assert wc.budget_item("value_quantisation").cmrr_error == 0.0
+
+
+@pytest.mark.parametrize(
+    "values",
+    [
+        (1e3, 10e3, 1e3, 10.01e3),
+        (2490.0, 12450.0, 7470.0, 37350.0 * (1 + 1e-12)),
+        (4.99e3, 49.9e3, 1.37e3, 13.6e3),
+    ],
+)
+def test_nominal_cmrr_of_an_unbalanced_bridge_matches_sympy(
+    values: tuple[float, float, float, float],
+) -> None:
+    # sympy nodal solution (ideal amplifier, exact rationals): |Acm/Adm| = 2|a - c|/(a + c),
+    # a = R4/(R3 + R4), c = R2/(R1 + R2).
+    r1, r2, r3, r4 = (sp.Rational(v) for v in values)
+    a, c = r4 / (r3 + r4), r2 / (r1 + r2)
+    exact = float(-20 * sp.log(2 * abs(a - c) / (a + c), 10))
+    wc = worst_case(four_discrete(values, 0.001), make_spec(values[1] / values[0]))
+    assert wc.nominal_cmrr_db == pytest.approx(exact, rel=1e-12)

@@ -63,6 +63,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 from dataclasses import dataclass
+from fractions import Fraction
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -102,8 +103,10 @@ __all__ = [
     "common_mode_error_from_terms",
     "common_mode_error_worst_sign",
     "differential_gain_from_terms",
+    "exactly_balanced",
     "feedback_complement",
     "needs_scale_search",
+    "nominal_common_mode_error",
     "opposing_group",
     "rejection_db",
     "worst_case",
@@ -235,6 +238,30 @@ def common_mode_error_from_balance(x: ArrayLike, eps: ArrayLike) -> Array:
     y = (1.0 + e) / ((1.0 - e) * np.asarray(x, dtype=float))
     error: Array = 2.0 * np.abs(y - 1.0) / (y + 1.0)
     return error
+
+
+def exactly_balanced(r1: float, r2: float, r3: float, r4: float) -> bool:
+    """True when the bridge is balanced, ``R2/R1 = R4/R3``, decided exactly: ``R2·R3 = R1·R4``
+    in rational arithmetic of the given float values (ohms), so no rounding enters. A balanced
+    bridge with no source or REF impedance and an ideal amplifier has ``Acm = 0`` exactly
+    (:mod:`~optimizer.analysis.transfer`: ``k1 + k2 = a − c = 0`` when ``R4/(R3+R4) =
+    R2/(R1+R2)``), i.e. a nominal CMRR of ``∞``, where float arithmetic leaves about 1e-16
+    (a spurious 313–319 dB)."""
+    return Fraction(r2) * Fraction(r3) == Fraction(r1) * Fraction(r4)
+
+
+def nominal_common_mode_error(r1: float, r2: float, r3: float, r4: float) -> float:
+    """``|Acm/Adm| = 2·|R1·R4 − R2·R3| / (R4·(R1+R2) + R2·(R3+R4))`` (ohms in, ratio out) of the
+    nominal bridge with no source or REF impedance and an ideal amplifier.
+
+    From :func:`common_mode_error_from_terms` with ``ε = 0``: ``2|a − c|/(a + c)``,
+    ``a = R4/(R3+R4)``, ``c = R2/(R1+R2)``; over the common denominator ``(R1+R2)(R3+R4)``,
+    ``a − c = (R1·R4 − R2·R3)/((R1+R2)(R3+R4))``. The difference ``R1·R4 − R2·R3`` is taken in
+    exact rational arithmetic of the float values, so a balanced bridge
+    (:func:`exactly_balanced`) gives exactly 0 (CMRR ``∞``) and an unbalanced one its error to
+    full float precision."""
+    mismatch = float(abs(Fraction(r1) * Fraction(r4) - Fraction(r2) * Fraction(r3)))
+    return 2.0 * mismatch / (r4 * (r1 + r2) + r2 * (r3 + r4))
 
 
 def above_rounding(value: float) -> float:
@@ -700,6 +727,11 @@ def _extremes(variation: Variation, environment: Environment) -> _Extremes:
 # --------------------------------------------------------------------------------------------
 
 
+def _nominal_common_mode_error(variation: Variation) -> float:
+    """:func:`nominal_common_mode_error` of the nominal values (0 for a balanced bridge)."""
+    return nominal_common_mode_error(*variation.nominal_ohm)
+
+
 def _budget(
     variation: Variation, environment: Environment, target_gain: float
 ) -> tuple[BudgetItem, ...]:
@@ -712,7 +744,7 @@ def _budget(
     adm = differential_gain(k)
     errors: dict[str, tuple[float, float]] = {
         "value_quantisation": (
-            above_rounding(float(common_mode_error(common_mode_gain(k), adm))),
+            above_rounding(_nominal_common_mode_error(variation)),
             above_rounding(float(abs(_relative_gain_error(adm, target_gain)))),
         )
     }
@@ -762,8 +794,7 @@ def worst_case_from_variation(
         )
     ext = _extremes(variation, environment)
     r1, r2, r3, r4 = variation.nominal_ohm
-    k = coefficients(r1, r2, r3, r4)
-    adm = differential_gain(k)
+    adm = differential_gain(coefficients(r1, r2, r3, r4))
     return WorstCase(
         cmrr_db=float(rejection_db(ext.cm_error)),
         cmrr_resistors_db=float(rejection_db(ext.cm_error_passive)),
@@ -772,7 +803,7 @@ def worst_case_from_variation(
         gain_error_min=float(_relative_gain_error(ext.gain_min, target_gain)),
         gain_error_max=float(_relative_gain_error(ext.gain_max, target_gain)),
         nominal_gain=float(abs(adm)),
-        nominal_cmrr_db=float(rejection_db(common_mode_error(common_mode_gain(k), adm))),
+        nominal_cmrr_db=float(rejection_db(_nominal_common_mode_error(variation))),
         target_gain=float(target_gain),
         budget=_budget(variation, environment, target_gain),
         corner_count=ext.corners,
