@@ -644,6 +644,39 @@ def test_output_offset(ios: float | None, expected: float) -> None:
 
 
 # ---------------------------------------------------------------------------------------------
+# The source-impedance corners are the vertices of the region (README, issue 15 item 6)
+# ---------------------------------------------------------------------------------------------
+
+
+def test_checks_use_every_vertex_of_the_source_region() -> None:
+    # Plane geometry: {0 ≤ Rs1, Rs3 ≤ 100, |Rs1 − Rs3| ≤ 10} is a hexagon with vertices
+    # (0, 0), (0, 10), (90, 100), (100, 100), (100, 90), (10, 0); the checks see each of them,
+    # not only the pairs of leg ends, and nothing outside the region.
+    spec = make_spec(source=SourceImpedance(0.0, 100.0, 10.0))
+    corners = checks.operating_corners(design(1e3, 1e3, 1e3, 1e3), spec)
+    seen = set(zip(corners.rs1.tolist(), corners.rs3.tolist(), strict=True))
+    hexagon = {(0.0, 0.0), (0.0, 10.0), (90.0, 100.0), (100.0, 100.0), (100.0, 90.0), (10.0, 0.0)}
+    assert hexagon <= seen
+    assert all(0 <= a <= 100 and 0 <= b <= 100 and abs(a - b) <= 10 for a, b in seen)
+
+
+def test_output_swing_worst_at_the_vertex_min_and_min_plus_imbalance() -> None:
+    # Hand (textbook ideal op-amp transfer, superposition): all four 1 kΩ, both inputs at
+    # Vcm = 10 V, Rs1, Rs3 ∈ [0, 100] Ω with imbalance 30 Ω, ideal amplifier:
+    # Acm = a·(1 + R2/R1') − R2/R1', a = R4/(R3 + Rs3 + R4). At the vertex (Rs1, Rs3) =
+    # (min, min + imbalance) = (0, 30): Acm = 2·1000/2030 − 1 = −30/2030, the lowest output
+    # −300/2030 V; at (30, 0) it is +15/1030 (+0.1456 V), at the far vertices (70, 100) and
+    # (100, 70) smaller still. A ±1 V window is nearest at that first vertex.
+    amp = amplifier(output_span=RailSpan(-1.0, 1.0, relative=False))
+    spec = make_spec(
+        amp=amp, diff=(0.0, 0.0), cm=(10.0, 10.0), source=SourceImpedance(0.0, 100.0, 30.0)
+    )
+    r = by_name(run_checks(design(1e3, 1e3, 1e3, 1e3), spec))["output_swing"]
+    assert r.value == pytest.approx(-300.0 / 2030.0, rel=1e-12)
+    assert r.margin == pytest.approx(1.0 - 300.0 / 2030.0, rel=1e-12)
+
+
+# ---------------------------------------------------------------------------------------------
 # The whole run
 # ---------------------------------------------------------------------------------------------
 

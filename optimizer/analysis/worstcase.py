@@ -44,7 +44,9 @@ or a partial group whose elements carry a tracking tempco, which makes the scale
 differently on each element) the extreme can lie *inside* the range of ``Σ``
 (:func:`needs_scale_search`). The excess over the corners is second order in the span of
 ``Σ``: about 2.5·10⁻⁴ of the common-mode error for a ±2 % package with a large source
-imbalance, in the probes behind the tests. For every objective (largest and smallest ``x``,
+imbalance, but up to about 2.5·10⁻² (0.2 dB) for an extreme quad (20 % absolute tolerance,
+source and REF impedance of hundreds of ohms against 1 kΩ elements), in the probes behind the
+tests. For every objective (largest and smallest ``x``,
 largest and smallest ``Adm``) the own variables still sit at the corner that pushes each
 resistance the right way, and for a given ``Σ`` the most harmful split puts ``α_abs`` as low
 as the range allows (that widens the element tracking box); what remains is the maximum of a smooth
