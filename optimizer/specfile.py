@@ -20,7 +20,7 @@ Schema (format version 1; see the README for every key, its unit and its default
     signal:       {differential, common_mode, max_frequency, source_impedance, mains_derived}
     reference:    {voltage, impedance}
     requirements: {gain, gain_accuracy, cmrr_floor, cmrr_basis, yield, temperature,
-                   operating_life, min_input_impedance, output_noise}
+                   operating_life, drift_model, min_input_impedance, output_noise}
     preferences:  {topologies, catalogs, builtin_catalogs, stock, stock_penalty, alternatives,
                    objective, cost_cap, placement_cost, line_cost, monte_carlo, same_lot_tracking,
                    resistance_range}
@@ -47,6 +47,7 @@ from .parts import Amplifier, RailSpan
 from .spec import (
     CmrrBasis,
     Distribution,
+    DriftModel,
     Objective,
     Preferences,
     Rails,
@@ -504,6 +505,7 @@ REQUIREMENT_KEYS = (
     "yield",
     "temperature",
     "operating_life",
+    "drift_model",
     "min_input_impedance",
     "output_noise",
 )
@@ -893,6 +895,7 @@ class _Schema:
             (math.nan, math.nan),
         )
         life = m.opt("operating_life", r.quantity(parse_duration), 0.0)
+        drift_model = m.opt("drift_model", r.choice(DriftModel), DriftModel.SYMMETRIC)
         z_in = m.opt("min_input_impedance", self.impedance, 0.0)
         noise = m.opt("output_noise", self.noise, None)
         if not r.ok("requirements"):
@@ -930,6 +933,7 @@ class _Schema:
                 max_output_noise_v_rms=noise_max,
                 noise_band_low_hz=band_low,
                 noise_band_high_hz=band_high,
+                drift_model=drift_model,
             )
         except ModelError as exc:
             r.model_error(

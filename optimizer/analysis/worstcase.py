@@ -507,18 +507,22 @@ class _Problems:
 
 def _scale_bounds(variation: Variation, abs_dt: Array) -> tuple[Array, Array]:
     """Range of each group's common scale ``Σ = S·(1+u)``, ``S = (1+e_abs)(1+d_abs)``,
-    ``u = α_abs·ΔT``: ``[S−(1−U), S+(1+U)]`` with ``U = abs_tc·|ΔT|``. Shapes (P, G)."""
+    ``u = α_abs·ΔT``: ``[S−(1−U), S+(1+U)]`` with ``U = abs_tc·|ΔT|``,
+    ``S− = (1 − abs_tol)(1 + d_low)``, ``S+ = (1 + abs_tol)(1 + d_high)`` (``d_low = −D``, or 0
+    for one-sided drift). Shapes (P, G)."""
     tol = np.array([g.tolerance for g in variation.groups])
     drift = np.array([g.drift for g in variation.groups])
+    drift_low = np.array([g.drift_min for g in variation.groups])
     u = np.outer(abs_dt, np.array([g.tempco_per_k for g in variation.groups]))
-    return (1.0 - tol) * (1.0 - drift) * (1.0 - u), (1.0 + tol) * (1.0 + drift) * (1.0 + u)
+    return (1.0 - tol) * (1.0 + drift_low) * (1.0 - u), (1.0 + tol) * (1.0 + drift) * (1.0 + u)
 
 
 class _ScaleObjective:
     """Objective of the scale search, with everything that does not depend on the scales
     computed once. For own variables at ``sigma`` and group scales ``Σ`` (P, G):
     ``u = max(−U, Σ/S+ − 1)``, ``S = Σ/(1+u)``,
-    ``r_i = R0_i(1+σt_i)(1+σD_i)·S·(1 + u + σ·TC_i|ΔT|)`` (ungrouped positions: ``S = 1``,
+    ``r_i = R0_i(1+σt_i)(1+d_i(σ))·S·(1 + u + σ·TC_i|ΔT|)``, ``d_i(±1)`` the ends of the own
+    drift interval (ungrouped positions: ``S = 1``,
     ``u = 0``); value ``direction × log x`` for the first ``x_rows`` problems and
     ``direction × Adm`` for the others.
 
@@ -530,7 +534,10 @@ class _ScaleObjective:
     def __init__(self, variation: Variation, problems: _Problems, x_rows: int) -> None:
         sigma = problems.sigma
         own = variation.nominal * (1.0 + sigma * np.array(variation.tolerance))
-        own *= 1.0 + sigma * np.array(variation.drift)
+        # Own drift at the corner of sigma: d_high for +1, d_low (−D, or 0 one-sided) for −1.
+        own *= 1.0 + np.where(
+            sigma > 0.0, np.array(variation.drift), np.array(variation.own_drift_low)
+        )
         tc = 1.0 + sigma * np.outer(problems.abs_dt, np.array(variation.tempco_per_k))
         ungrouped = np.array([g < 0 for g in variation.group_of])
         own[:, ungrouped] *= tc[:, ungrouped]  # own tempco of parts that share nothing
@@ -815,9 +822,12 @@ def worst_case_from_variation(
 def worst_case(design: Design, spec: Spec) -> WorstCase:
     """Exact worst case of ``design`` under ``spec``: temperature range, life, source and REF
     impedance, the amplifier's minimum CMRR and open-loop gain, target gain
-    ``spec.requirements.gain``; same-lot tracking from ``spec.preferences``."""
+    ``spec.requirements.gain``, drift model ``spec.requirements.drift_model``; same-lot
+    tracking from ``spec.preferences``."""
     req = spec.requirements
-    variation = variation_from_design(design, req.life_s, spec.preferences.same_lot_tracking)
+    variation = variation_from_design(
+        design, req.life_s, spec.preferences.same_lot_tracking, req.drift_model
+    )
     return worst_case_from_variation(variation, environment_from_spec(spec), req.gain)
 
 
