@@ -697,7 +697,11 @@ def test_differential_input_impedance_at_end_of_life(
         "input_impedance_differential"
     ]
     assert r.value == pytest.approx(lowest, rel=1e-12) and r.passed is passes
-    where = "(end of life, drift applied)" if model is DriftModel.SYMMETRIC else "(start of life)"
+    where = (
+        "at the end of life with drift applied"
+        if model is DriftModel.SYMMETRIC
+        else "at the start of life"
+    )
     assert where in r.detail
 
 
@@ -715,7 +719,7 @@ def test_common_mode_input_impedance_at_end_of_life(model: DriftModel) -> None:
     else:
         r1, r3, r4 = 10e3, 10.1e3, 100e3
     assert r.value == pytest.approx(r1 * (r3 + r4) / (r1 + r3), rel=1e-12)
-    assert "(end of life, drift applied)" in r.detail
+    assert "at the end of life with drift applied" in r.detail
 
 
 @pytest.mark.parametrize("model", [DriftModel.SYMMETRIC, DriftModel.ONE_SIDED])
@@ -743,7 +747,7 @@ def test_output_noise_at_end_of_life(model: DriftModel) -> None:
     band = math.sqrt(10e3 - 1e-9)
     assert r.value == pytest.approx(eol * band, rel=1e-9)
     assert r.value > density(10e3, 10e3, 10e3, 10e3) * band
-    assert "(end of life, drift applied)" in r.detail
+    assert "at the end of life with drift applied" in r.detail
 
 
 # ---------------------------------------------------------------------------------------------

@@ -592,8 +592,11 @@ def _life_stages(design: Design, spec: Spec) -> tuple[tuple[str, OperatingCorner
     if spec.requirements.life_s <= 0.0:
         return (("", start),)
     return (
-        (" (start of life)", start),
-        (" (end of life, drift applied)", operating_corners(design, spec, end_of_life=True)),
+        (" at the start of life", start),
+        (
+            " at the end of life with drift applied",
+            operating_corners(design, spec, end_of_life=True),
+        ),
     )
 
 
