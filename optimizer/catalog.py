@@ -43,6 +43,7 @@ from .errors import CatalogError, DesignError, ModelError, UnitError
 from .eseries import ESeries, decade_values, series_for_name, values_in_range
 from .parts import DiscretePart, NetworkPart, Technology
 from .units import (
+    exceeds,
     parse_fraction,
     parse_power,
     parse_resistance,
@@ -580,9 +581,9 @@ class _Recipe:
             raise self.fail(key, f"expected [low, high], got {value!r}")
         low = self.parse(parse_resistance, pair[0], f"{key}[0]")
         high = self.parse(parse_resistance, pair[1], f"{key}[1]")
-        if high < low:
+        if exceeds(low, high):  # equal within rounding counts as equal (units.NUMBER_REL_TOL)
             raise self.fail(key, f"expected low <= high, got {value!r}")
-        return low, high
+        return min(low, high), high
 
 
 def _discrete_cost(grade_cost: float, size_factor: float, tempco_premium: float) -> float:

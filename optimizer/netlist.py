@@ -384,11 +384,11 @@ def design_netlist(
     Both source impedances and the REF impedance sit at the spec's maximum values. The
     amplifier is the spec's (its minimum open-loop gain and CMRR, common-mode error sign
     ``cmrr_sign``) or ideal. The operating point is V1 = Vcm - Vd/2, V2 = Vcm + Vd/2, VREF =
-    ``ref_v``, by default Vcm at the middle of the common-mode range, Vd the largest
-    differential input, VREF the middle of the REF range. The comments list the parts, the
-    conditions and the output the closed form predicts (``transfer.coefficients``), then each
-    of ``cautions`` (the caller passes ``analysis.checks.safety_cautions(spec)``) as a
-    ``* Caution:`` line.
+    ``ref_v``, by default Vcm at the middle of the common-mode range, Vd the most positive
+    differential input (the range's maximum, not its largest magnitude), VREF the middle of the
+    REF range. The comments list the parts, the conditions and the output the closed form
+    predicts (``transfer.coefficients``), then each of ``cautions`` (the caller passes
+    ``analysis.checks.safety_cautions(spec)``) as a ``* Caution:`` line.
     """
     try:
         model = AmplifierModel(amplifier_model)

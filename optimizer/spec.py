@@ -13,10 +13,12 @@ from enum import Enum
 from .design import Topology
 from .errors import ModelError
 from .parts import Amplifier
+from .units import exceeds
 
 __all__ = [
     "CmrrBasis",
     "Distribution",
+    "DriftModel",
     "Objective",
     "Preferences",
     "Rails",
@@ -37,7 +39,7 @@ def _finite(owner: str, name: str, value: float) -> None:
 def _ordered(owner: str, low_name: str, low: float, high_name: str, high: float) -> None:
     _finite(owner, low_name, low)
     _finite(owner, high_name, high)
-    if low > high:
+    if exceeds(low, high):  # equal within rounding counts as equal (units.NUMBER_REL_TOL)
         raise ModelError(owner, low_name, f"{low_name} {low:g} is above {high_name} {high:g}")
 
 
@@ -156,6 +158,21 @@ class CmrrBasis(str, Enum):
     YIELD = "yield"
 
 
+class DriftModel(str, Enum):
+    """How a part's life drift ``d`` may move it (names of our own).
+
+    ``SYMMETRIC``: ``d ∈ [−D, D]``, either way, independently for every part (a zero-mean
+    normal in the Monte Carlo). ``ONE_SIDED``: ``d ∈ [0, D]``: load-life drift of film
+    resistors is mostly one-signed and similar between parts of one kind (common practice, from
+    memory), so it moves the gain more than the balance; the Monte Carlo draws it as a
+    component shared by the parts of one kind plus an individual one
+    (:data:`optimizer.analysis.variation.DRIFT_SHARED_VARIANCE`). The ratio drift of a network's
+    elements is a mismatch and stays symmetric in both models."""
+
+    SYMMETRIC = "symmetric"
+    ONE_SIDED = "one_sided"
+
+
 @dataclass(frozen=True)
 class Requirements:
     """What the amplifier must achieve.
@@ -165,7 +182,8 @@ class Requirements:
     meet both when ``cmrr_basis`` is ``YIELD``; ``life_s`` the operating life (seconds) for
     drift; ``min_input_impedance_ohm`` a floor on the differential and common-mode input
     impedance; ``max_output_noise_v_rms`` a ceiling on the output noise in the band
-    [``noise_band_low_hz``, ``noise_band_high_hz``].
+    [``noise_band_low_hz``, ``noise_band_high_hz``]; ``drift_model`` how life drift moves the
+    parts (:class:`DriftModel`).
     """
 
     gain: float
@@ -180,9 +198,17 @@ class Requirements:
     max_output_noise_v_rms: float | None = None
     noise_band_low_hz: float = 0.1
     noise_band_high_hz: float | None = None
+    drift_model: DriftModel = DriftModel.SYMMETRIC
 
     def __post_init__(self) -> None:
         owner = "requirements"
+        if not isinstance(self.drift_model, DriftModel):
+            raise ModelError(
+                owner,
+                "drift_model",
+                f"expected one of {', '.join(m.value for m in DriftModel)}, "
+                f"got {self.drift_model!r}",
+            )
         _finite(owner, "gain", self.gain)
         if self.gain <= 0.0:
             raise ModelError(owner, "gain", f"expected a gain above zero, got {self.gain:g}")

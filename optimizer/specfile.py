@@ -20,7 +20,7 @@ Schema (format version 1; see the README for every key, its unit and its default
     signal:       {differential, common_mode, max_frequency, source_impedance, mains_derived}
     reference:    {voltage, impedance}
     requirements: {gain, gain_accuracy, cmrr_floor, cmrr_basis, yield, temperature,
-                   operating_life, min_input_impedance, output_noise}
+                   operating_life, drift_model, min_input_impedance, output_noise}
     preferences:  {topologies, catalogs, builtin_catalogs, stock, stock_penalty, alternatives,
                    objective, cost_cap, placement_cost, line_cost, monte_carlo, same_lot_tracking,
                    resistance_range}
@@ -47,6 +47,7 @@ from .parts import Amplifier, RailSpan
 from .spec import (
     CmrrBasis,
     Distribution,
+    DriftModel,
     Objective,
     Preferences,
     Rails,
@@ -58,6 +59,7 @@ from .spec import (
     StockPolicy,
 )
 from .units import (
+    exceeds,
     format_quantity,
     format_resistance,
     format_temperature,
@@ -440,12 +442,13 @@ class _Reader:
         high = m.need("max", read, expected, math.nan)
         if not self.ok(key):
             raise _Recorded
-        if low > high or (strict and low == high):
+        if exceeds(low, high) or (strict and low >= high):
             relation = "is not below" if strict else "is above"
             self.fail(
                 m.child("min"), m.line_of("min"), f"min {fmt(low)} {relation} max {fmt(high)}"
             )
-        return low, high
+        # Equal within rounding (units.NUMBER_REL_TOL) counts as equal.
+        return min(low, high), high
 
     def pair(
         self, read: Read[float], expected: str, fmt: Callable[[float], str], *, scalar: bool = False
@@ -502,6 +505,7 @@ REQUIREMENT_KEYS = (
     "yield",
     "temperature",
     "operating_life",
+    "drift_model",
     "min_input_impedance",
     "output_noise",
 )
@@ -682,13 +686,13 @@ class _Schema:
                         "expected zero or more",
                     )
         else:
-            if out.low_v < rails.negative_v:
+            if exceeds(rails.negative_v, out.low_v):
                 r.problem(
                     f"{key}.min",
                     r.lines.get(f"{key}.min", 1),
                     f"{_volts(out.low_v)} is below the negative rail {_volts(rails.negative_v)}",
                 )
-            if out.high_v > rails.positive_v:
+            if exceeds(out.high_v, rails.positive_v):
                 r.problem(
                     f"{key}.max",
                     r.lines.get(f"{key}.max", 1),
@@ -727,9 +731,12 @@ class _Schema:
         imbalance = m.opt("imbalance", self.impedance, 0.0)
         if not r.ok(key):
             raise _Recorded
-        if low > high:
+        if exceeds(low, high):
             r.fail(m.child("min"), m.line_of("min"), f"min {_ohms(low)} is above max {_ohms(high)}")
-        if imbalance > high - low:
+        low = min(low, high)  # equal within rounding counts as equal
+        # high − low rounds (0.3 − 0.1 is 0.19999999999999998): compare within
+        # units.NUMBER_REL_TOL of the numbers the span comes from.
+        if exceeds(imbalance, high - low, max(abs(low), abs(high), imbalance)):
             r.fail(
                 m.child("imbalance"),
                 m.line_of("imbalance"),
@@ -811,7 +818,7 @@ class _Schema:
         """The REF voltage must lie within the rails."""
         r = self.r
         for name, value in (("min", ref.voltage_min_v), ("max", ref.voltage_max_v)):
-            if rails.negative_v <= value <= rails.positive_v:
+            if not (exceeds(rails.negative_v, value) or exceeds(value, rails.positive_v)):
                 continue
             key = (
                 f"reference.voltage.{name}"
@@ -888,6 +895,7 @@ class _Schema:
             (math.nan, math.nan),
         )
         life = m.opt("operating_life", r.quantity(parse_duration), 0.0)
+        drift_model = m.opt("drift_model", r.choice(DriftModel), DriftModel.SYMMETRIC)
         z_in = m.opt("min_input_impedance", self.impedance, 0.0)
         noise = m.opt("output_noise", self.noise, None)
         if not r.ok("requirements"):
@@ -925,6 +933,7 @@ class _Schema:
                 max_output_noise_v_rms=noise_max,
                 noise_band_low_hz=band_low,
                 noise_band_high_hz=band_high,
+                drift_model=drift_model,
             )
         except ModelError as exc:
             r.model_error(

@@ -20,6 +20,8 @@ from typing import Final
 from .errors import UnitError
 
 __all__ = [
+    "NUMBER_REL_TOL",
+    "exceeds",
     "format_fraction",
     "format_quantity",
     "format_resistance",
@@ -56,6 +58,23 @@ PREFIXES: Final[Mapping[str, float]] = {
     "G": 1e9,
     "T": 1e12,
 }
+
+#: Relative tolerance of the comparisons between user numbers that allow equality (a limit met
+#: exactly, two legs that may differ by the whole span): a value passes when it is within
+#: 1e-9 of the limit, relative to the numbers compared. Far below any meaningful difference
+#: of engineering inputs (nine digits), far above float64 rounding of unit conversions and
+#: differences (about 1e-16 relative): ``0.3 - 0.1`` is ``0.19999999999999998``.
+NUMBER_REL_TOL: Final = 1e-9
+
+
+def exceeds(value: float, limit: float, scale: float | None = None) -> bool:
+    """True when ``value > limit + NUMBER_REL_TOL·s``: ``value`` is beyond ``limit`` by more than
+    rounding. ``s`` is ``scale`` when given (the size of the numbers a computed limit came
+    from, e.g. ``max(|low|, |high|)`` for ``limit = high − low``), else ``max(|value|,
+    |limit|)``. Use it for every check of user numbers that should allow equality."""
+    size = max(abs(value), abs(limit)) if scale is None else abs(scale)
+    return value > limit + NUMBER_REL_TOL * size
+
 
 _NUMBER = r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?"
 _NUMBER_RE: Final = re.compile(rf"^\s*({_NUMBER})\s*(.*?)\s*$")

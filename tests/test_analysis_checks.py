@@ -41,7 +41,15 @@ from optimizer.analysis.checks import (
 from optimizer.design import Design, Placement
 from optimizer.errors import ModelError
 from optimizer.parts import Amplifier, DiscretePart, NetworkPart, RailSpan
-from optimizer.spec import Rails, Reference, Requirements, Signal, SourceImpedance, Spec
+from optimizer.spec import (
+    DriftModel,
+    Rails,
+    Reference,
+    Requirements,
+    Signal,
+    SourceImpedance,
+    Spec,
+)
 
 # ---------------------------------------------------------------------------------------------
 # Builders (dataclasses constructed directly)
@@ -556,6 +564,33 @@ def test_full_power_bandwidth_check(fmax: float, passes: bool) -> None:
     assert r.value == pytest.approx(1e6 / (2 * math.pi * 5.0)) and r.passed is passes
 
 
+@pytest.mark.parametrize("gain", [10.0, 100.0])
+def test_full_power_bandwidth_takes_the_largest_open_loop_gain(gain: float) -> None:
+    # Issue 15, item 1. Textbook closed forms: f_FP = SR/(2π·Vpk) with Vpk = |Adm|·|Vd|; for a
+    # balanced bridge and an ideal CMRR, Adm = G/(1 + (1 + G)/A) (finite-gain feedback), which
+    # rises with A. A 40 dB amplifier (A_min = 100) may have any A ≥ 100, so the check takes
+    # the largest peak, G·|Vd| at A = ∞ (G = 100, Vd 0.1 V, 1 V/µs: 15.9 kHz), not the
+    # A_min end (31.99 kHz, twice as high: the optimistic figure the check used to give).
+    amp = amplifier(open_loop_gain_db=40.0)
+    spec = make_spec(amp=amp, diff=(-0.1, 0.1), fmax=1e3, gain=gain, gain_accuracy=0.5)
+    r = by_name(run_checks(design(1e3, gain * 1e3, 1e3, gain * 1e3), spec))["full_power_bandwidth"]
+    at_infinite_gain = 1e6 / (2 * math.pi * gain * 0.1)
+    at_minimum_gain = 1e6 / (2 * math.pi * 0.1 * gain / (1.0 + (1.0 + gain) / 100.0))
+    assert r.value == pytest.approx(at_infinite_gain, rel=1e-12)
+    assert r.value < at_minimum_gain
+    assert r.margin == pytest.approx(at_infinite_gain - 1e3, rel=1e-12)
+
+
+def test_output_swing_takes_both_ends_of_the_open_loop_gain() -> None:
+    # Same closed form: with G = 100 and A_min = 100, Vd 0.1 V gives Vout between
+    # 10 V/(1 + 101/100) = 4.975 V (A = A_min) and 10 V (A = ∞); a ±8 V window fails.
+    amp = amplifier(open_loop_gain_db=40.0, output_span=RailSpan(-8.0, 8.0, relative=False))
+    spec = make_spec(amp=amp, diff=(-0.1, 0.1), gain=100.0, gain_accuracy=0.5)
+    r = by_name(run_checks(design(1e3, 100e3, 1e3, 100e3), spec))["output_swing"]
+    assert not r.passed
+    assert r.value == pytest.approx(10.0, rel=1e-12) and r.margin == pytest.approx(-2.0)
+
+
 # ---------------------------------------------------------------------------------------------
 # Resistor power and voltage ratings
 # ---------------------------------------------------------------------------------------------
@@ -614,6 +649,138 @@ def test_output_offset(ios: float | None, expected: float) -> None:
     amp = amplifier(offset_v=-100e-6, bias_a=10e-9, offset_current_a=ios)
     r = by_name(run_checks(design(10e3, 100e3, 10e3, 100e3), make_spec(amp=amp)))["output_offset"]
     assert r.value == pytest.approx(expected) and r.passed and math.isnan(r.limit)
+
+
+# ---------------------------------------------------------------------------------------------
+# End of life: input impedance and noise with drift applied (issue 15, item 5)
+# ---------------------------------------------------------------------------------------------
+
+LIFE_1000_H_S = 1000.0 * 3600.0  # D = drift_1000h·√(1000 h/1000 h) = drift_1000h exactly
+
+
+def drifting(values: tuple[float, float, float, float], drift: float) -> Design:
+    def part_(i: int, ohms: float) -> DiscretePart:
+        return DiscretePart(f"X{i}", ohms, 0.0, 0.0, "0603", 0.1, 75.0, 1.0, drift_1000h=drift)
+
+    names = ("R1", "R2", "R3", "R4")
+    return Design(
+        tuple(Placement(n, part_(i, v)) for i, (n, v) in enumerate(zip(names, values, strict=True)))  # type: ignore[arg-type]
+    )
+
+
+def test_life_value_bounds_and_drift_intervals() -> None:
+    # r/R0 from (1 ± δ)·(1 + d): δ = 0.1 %, drift interval [−0.5 %, 0.5 %] or [0, 0.5 %].
+    low, high = checks.life_value_bounds(0.001, -0.005, 0.005)
+    assert (float(low), float(high)) == (pytest.approx(0.999 * 0.995), pytest.approx(1.001 * 1.005))
+    net = NetworkPart("NQ", (1e3,) * 4, 0.0, 0.0, 0.0, 0.0, 0.05, 50.0, 1.0,
+                      drift_1000h=0.001, ratio_drift_1000h=0.0005)  # fmt: skip
+    element = Placement("R1", net, element=0)
+    assert checks.placement_life_drift(element, LIFE_1000_H_S) == pytest.approx((-0.00125, 0.00125))
+    one_sided = checks.placement_life_drift(element, LIFE_1000_H_S, DriftModel.ONE_SIDED)
+    assert one_sided == pytest.approx((-0.00025, 0.00125))
+
+
+@pytest.mark.parametrize(
+    ("model", "lowest", "passes"),
+    [(DriftModel.SYMMETRIC, 2 * 10e3 * 0.99, False), (DriftModel.ONE_SIDED, 20e3, True)],
+)
+def test_differential_input_impedance_at_end_of_life(
+    model: DriftModel, lowest: float, passes: bool
+) -> None:
+    # Hand: R1 + R3 with R1 = R3 = 10 kΩ exactly (no tolerance), drift 1 % over the life:
+    # lowest at the end of life 2·10k·(1 − 1 %) = 19.8 kΩ (symmetric); one-sided drift only
+    # raises it, so the start-of-life 20 kΩ stays the lowest. Floor 19.9 kΩ.
+    spec = make_spec(
+        life_s=LIFE_1000_H_S, drift_model=model, min_input_impedance_ohm=19.9e3, gain=10.0
+    )
+    r = by_name(run_checks(drifting((10e3, 100e3, 10e3, 100e3), 0.01), spec))[
+        "input_impedance_differential"
+    ]
+    assert r.value == pytest.approx(lowest, rel=1e-12) and r.passed is passes
+    where = (
+        "at the end of life with drift applied"
+        if model is DriftModel.SYMMETRIC
+        else "at the start of life"
+    )
+    assert where in r.detail
+
+
+@pytest.mark.parametrize("model", [DriftModel.SYMMETRIC, DriftModel.ONE_SIDED])
+def test_common_mode_input_impedance_at_end_of_life(model: DriftModel) -> None:
+    # Hand: Zcm = R1·(R3 + R4)/(R1 + R3) rises with R1 and R4 and, as R1 < R4, falls with R3.
+    # R1 = R3 = 10k, R4 = 100k, drift 1 %: symmetric lowest at R1 = 9.9k, R3 = 10.1k,
+    # R4 = 99k; one-sided at R1 = 10k, R3 = 10.1k, R4 = 100k.
+    spec = make_spec(life_s=LIFE_1000_H_S, drift_model=model, gain=10.0)
+    r = by_name(run_checks(drifting((10e3, 100e3, 10e3, 100e3), 0.01), spec))[
+        "input_impedance_common_mode"
+    ]
+    if model is DriftModel.SYMMETRIC:
+        r1, r3, r4 = 9.9e3, 10.1e3, 99e3
+    else:
+        r1, r3, r4 = 10e3, 10.1e3, 100e3
+    assert r.value == pytest.approx(r1 * (r3 + r4) / (r1 + r3), rel=1e-12)
+    assert "at the end of life with drift applied" in r.detail
+
+
+@pytest.mark.parametrize("model", [DriftModel.SYMMETRIC, DriftModel.ONE_SIDED])
+def test_output_noise_at_end_of_life(model: DriftModel) -> None:
+    # Johnson noise sqrt(4kTR) (scipy.constants.k) through the textbook superposition gains,
+    # written out here: R1: R2/R1, R2: 1, R3: a·NG, R4: (1 − a)·NG, NG = 1 + R2/R1,
+    # a = R4/(R3 + R4); ideal noiseless amplifier, no source impedance. All four 10 kΩ, drift
+    # 2 % over the life: the largest of the 16 end-of-life corners (each resistor at an end
+    # of its drift interval), over a 10 kHz band, exceeds the start-of-life figure.
+    t_k = 25.0 + 273.15
+    low, high = (-0.02, 0.02) if model is DriftModel.SYMMETRIC else (0.0, 0.02)
+
+    def density(r1: float, r2: float, r3: float, r4: float) -> float:
+        ng, a = 1 + r2 / r1, r4 / (r3 + r4)
+        terms = (r1 * (r2 / r1) ** 2, r2, r3 * (a * ng) ** 2, r4 * ((1 - a) * ng) ** 2)
+        return math.sqrt(4 * constants.k * t_k * sum(terms))
+
+    ends = [10e3 * (1 + low), 10e3 * (1 + high)]
+    eol = max(density(a, b, c, d) for a in ends for b in ends for c in ends for d in ends)
+    spec = make_spec(
+        life_s=LIFE_1000_H_S, drift_model=model, fmax=10e3, noise_band_low_hz=1e-9,
+        max_output_noise_v_rms=1.0,
+    )  # fmt: skip
+    r = by_name(run_checks(drifting((10e3,) * 4, 0.02), spec))["output_noise"]
+    band = math.sqrt(10e3 - 1e-9)
+    assert r.value == pytest.approx(eol * band, rel=1e-9)
+    assert r.value > density(10e3, 10e3, 10e3, 10e3) * band
+    assert "at the end of life with drift applied" in r.detail
+
+
+# ---------------------------------------------------------------------------------------------
+# The source-impedance corners are the vertices of the region (README, issue 15 item 6)
+# ---------------------------------------------------------------------------------------------
+
+
+def test_checks_use_every_vertex_of_the_source_region() -> None:
+    # Plane geometry: {0 ≤ Rs1, Rs3 ≤ 100, |Rs1 − Rs3| ≤ 10} is a hexagon with vertices
+    # (0, 0), (0, 10), (90, 100), (100, 100), (100, 90), (10, 0); the checks see each of them,
+    # not only the pairs of leg ends, and nothing outside the region.
+    spec = make_spec(source=SourceImpedance(0.0, 100.0, 10.0))
+    corners = checks.operating_corners(design(1e3, 1e3, 1e3, 1e3), spec)
+    seen = set(zip(corners.rs1.tolist(), corners.rs3.tolist(), strict=True))
+    hexagon = {(0.0, 0.0), (0.0, 10.0), (90.0, 100.0), (100.0, 100.0), (100.0, 90.0), (10.0, 0.0)}
+    assert hexagon <= seen
+    assert all(0 <= a <= 100 and 0 <= b <= 100 and abs(a - b) <= 10 for a, b in seen)
+
+
+def test_output_swing_worst_at_the_vertex_min_and_min_plus_imbalance() -> None:
+    # Hand (textbook ideal op-amp transfer, superposition): all four 1 kΩ, both inputs at
+    # Vcm = 10 V, Rs1, Rs3 ∈ [0, 100] Ω with imbalance 30 Ω, ideal amplifier:
+    # Acm = a·(1 + R2/R1') − R2/R1', a = R4/(R3 + Rs3 + R4). At the vertex (Rs1, Rs3) =
+    # (min, min + imbalance) = (0, 30): Acm = 2·1000/2030 − 1 = −30/2030, the lowest output
+    # −300/2030 V; at (30, 0) it is +15/1030 (+0.1456 V), at the far vertices (70, 100) and
+    # (100, 70) smaller still. A ±1 V window is nearest at that first vertex.
+    amp = amplifier(output_span=RailSpan(-1.0, 1.0, relative=False))
+    spec = make_spec(
+        amp=amp, diff=(0.0, 0.0), cm=(10.0, 10.0), source=SourceImpedance(0.0, 100.0, 30.0)
+    )
+    r = by_name(run_checks(design(1e3, 1e3, 1e3, 1e3), spec))["output_swing"]
+    assert r.value == pytest.approx(-300.0 / 2030.0, rel=1e-12)
+    assert r.margin == pytest.approx(1.0 - 300.0 / 2030.0, rel=1e-12)
 
 
 # ---------------------------------------------------------------------------------------------

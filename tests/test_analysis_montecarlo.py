@@ -338,3 +338,39 @@ def test_non_physical_normal_draws_fail() -> None:
         expected_fail, abs=5 * math.sqrt(expected_fail / 20_000)
     )
     assert result.cmrr_percentile_db(0.1) == -math.inf
+
+
+# ---------------------------------------------------------------------------------------------
+# Which figure the gain-error percentiles use (README, issue 15 item 6)
+# ---------------------------------------------------------------------------------------------
+
+
+def test_gain_error_percentiles_are_of_each_builds_worst_signed_error() -> None:
+    """Only R2 varies, by its tempco α uniform on [−TC, TC] (scipy.stats.uniform quantiles),
+    over 0 °C to 125 °C (ΔT = −25 K and +100 K). Textbook ideal-amplifier transfer:
+    Adm = (a + G'·(1 + a))/2 with a = R4/(R3 + R4) = 10/11 fixed and G' = 10·(1 + α·ΔT), so
+    Adm = 10 + (105/11)·α·ΔT and the gain error is (21/22)·α·ΔT exactly: −(21/22)·25α and
+    +(21/22)·100α. A build's worst signed error (the one of larger magnitude) is
+    (21/22)·100α, uniform on ±(21/22)·100·TC. Its lowest error, min of the two, would put the
+    99.9 % point at only a quarter of that, and its highest the 0.1 % point near 0."""
+    tc = 1e-4
+    variation = Variation((1e3, 10e3, 1e3, 10e3), tempco_per_k=(0.0, tc, 0.0, 0.0))
+    env = Environment(temperatures_c=(0.0, 125.0))
+    n = 100_000
+    result = monte_carlo_from_variation(
+        variation,
+        env,
+        requirements(10.0, 40.0, accuracy=0.05),
+        samples=n,
+        seed=3,
+        distribution=Distribution.UNIFORM,
+    )
+    half = 21.0 / 22.0 * 100.0 * tc
+    dist = stats.uniform(loc=-half, scale=2 * half)
+    for percent in GAIN_PERCENTS:
+        p = percent / 100.0
+        # standard error of a sample quantile: sqrt(p(1−p)/n)/f(x), f = 1/(2·half)
+        se = math.sqrt(p * (1 - p) / n) * 2 * half
+        assert result.gain_error_percentile(percent) == pytest.approx(
+            float(dist.ppf(p)), abs=6 * se + 1e-12
+        )

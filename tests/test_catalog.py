@@ -1095,3 +1095,50 @@ def test_wheel_install_carries_the_builtin_catalog(tmp_path: Path) -> None:
     )
     assert show.returncode == 0, show.stderr
     assert "discrete parts" in show.stdout
+
+
+@pytest.mark.parametrize(
+    ("value_range", "count"),
+    [
+        # A one-value range, and one whose ends differ by float64 rounding only (IEEE 754
+        # binary64: 0.1 + 0.2 is 0.30000000000000004, scaled here to 330 Ω): both hold the one
+        # E24 value 330 Ω (IEC 60063), in each of the two tempcos (issue 15, item 2).
+        ([330, 330], 2),
+        ([(0.1 + 0.2) * 1100, 330], 2),
+    ],
+)
+def test_generate_discrete_range_low_equal_to_high(value_range: list[float], count: int) -> None:
+    recipe = {
+        "range": value_range,
+        "series_by_tolerance": [{"from": 0, "series": "E24"}],
+        "sizes": {"0805": {"power": "125mW", "max_voltage": "150V", "cost_factor": 1.0}},
+        "technologies": {"thick_film": {"code": "K", "drift": "1%"}},
+        "tempco_premium": {"200ppm/K": 0, "100ppm/K": 0.5},
+        "grades": [
+            {
+                "tolerance": "5%",
+                "technology": "thick_film",
+                "tempcos": ["200ppm/K", "100ppm/K"],
+                "cost": 2,
+            }
+        ],
+    }
+    frame = generate_discrete(recipe, source="test-recipe")
+    assert len(frame) == count
+    assert set(frame["resistance_ohm"]) == {330.0}
+
+
+def test_generate_discrete_range_low_above_high_is_refused() -> None:
+    recipe = {
+        "range": [331, 330],
+        "series_by_tolerance": [{"from": 0, "series": "E24"}],
+        "sizes": {"0805": {"power": "125mW", "max_voltage": "150V", "cost_factor": 1.0}},
+        "technologies": {"thick_film": {"code": "K", "drift": "1%"}},
+        "tempco_premium": {"200ppm/K": 0},
+        "grades": [
+            {"tolerance": "5%", "technology": "thick_film", "tempcos": ["200ppm/K"], "cost": 1}
+        ],
+    }
+    with pytest.raises(CatalogError) as info:
+        generate_discrete(recipe, source="test-recipe")
+    assert str(info.value) == ("test-recipe: column 'range': expected low <= high, got [331, 330]")

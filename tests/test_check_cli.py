@@ -622,3 +622,37 @@ def test_options_for_values_without_values_are_refused() -> None:
         build_user_design(
             networks=("QN4-G10-1K-250:1,2,3,4",), catalog=builtin_catalog(), tolerance="1%"
         )
+
+
+def test_json_nominal_gains_say_what_they_are(handbook_spec: str) -> None:
+    # README (issue 15 item 6): design.nominal_gain is R2/R1; worst_case.nominal_gain is the
+    # full differential gain of the nominal values. Textbook ideal op-amp transfer (module
+    # docstring): R4 = 10.1 kΩ against R3 = 1 kΩ gives Adm = (10.1/11.1·11 + 10)/2.
+    argv = ["check", handbook_spec, "--r1", "1k", "--r2", "10k", "--r3", "1k", "--r4", "10.1k",
+            "--tolerance", "0.1%", "--tempco", "0ppm/K", *FAST]  # fmt: skip
+    _, doc = _json(argv)
+    assert doc["design"]["nominal_gain"] == 10.0  # type: ignore[index]
+    assert doc["worst_case"]["nominal_gain"] == pytest.approx(  # type: ignore[index]
+        (10.1 / 11.1 * 11.0 + 10.0) / 2.0, rel=1e-12
+    )
+
+
+@pytest.mark.parametrize(("model", "shared"), [("symmetric", None), ("one_sided", 0.5)])
+def test_report_and_json_name_the_drift_model(
+    tmp_path: Path, model: str, shared: float | None
+) -> None:
+    # Issue 15 item 4: the check report says which drift model was used.
+    path = tmp_path / "drift.yaml"
+    text = HANDBOOK_SPEC + "  operating_life: 1000 h\n"
+    if model != "symmetric":
+        text += f"  drift_model: {model}\n"
+    path.write_text(text, encoding="utf-8")
+    argv = ["check", str(path), "--r1", "1k", "--r2", "10k", "--r3", "1k", "--r4", "10k",
+            "--tolerance", "0.1%", "--tempco", "0ppm/K", "--drift", "0.05%", *FAST]  # fmt: skip
+    _, doc = _json(argv)
+    assert doc["worst_case"]["drift_model"] == model  # type: ignore[index]
+    assert doc["statistics"]["drift_model"] == model  # type: ignore[index]
+    assert doc["statistics"]["drift_shared_variance"] == shared  # type: ignore[index]
+    _, out, _ = _run(argv)
+    line = "one-sided: each part's drift d in [0, D]" if shared else "symmetric: each part's"
+    assert line in out

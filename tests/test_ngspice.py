@@ -13,6 +13,7 @@ scale on which CMRR = |Adm/Acm| is judged.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import re
 import subprocess
@@ -420,3 +421,16 @@ def test_simulator_fallbacks_and_unknown_probes_are_errors(ngspice: str) -> None
         "i(v1)": -1.5e-3,
     }
     assert run_netlist(difference_amp_netlist(1e3, 1e4, 1e3, 1e4, v2=0.1)).returncode == 0
+
+
+def test_design_netlist_runs_at_the_most_positive_differential_input() -> None:
+    # README (issue 15 item 6): the default operating point takes Vd at the top of the
+    # differential range (here -2 V to +0.5 V: +0.5 V), not its largest magnitude (-2 V);
+    # V1 = Vcm - Vd/2, V2 = Vcm + Vd/2 with Vcm the middle of the common-mode range (2 V).
+    spec = _demo_spec()
+    spec = dataclasses.replace(
+        spec,
+        signal=dataclasses.replace(spec.signal, differential_min_v=-2.0, differential_max_v=0.5),
+    )
+    text = design_netlist(_demo_design(), spec)
+    assert "* Operating point: Vcm = 2 V, Vd = V2 - V1 = 0.5 V, VREF = 1.5 V" in text.splitlines()

@@ -966,3 +966,76 @@ def test_cli_missing_spec_file(tmp_path: Path) -> None:
     path = tmp_path / "absent.yaml"
     assert main(["spec", "validate", str(path)], console=out, err=err) == 2
     assert _text(err).splitlines() == [f"SpecError: {path}: file not found"]
+
+
+# ---------------------------------------------------------------------------------------------
+# comparisons that allow equality hold at their boundary (issue 15, item 2)
+# ---------------------------------------------------------------------------------------------
+# Float64 rounding (IEEE 754 binary64): 0.3 - 0.1 == 0.19999999999999998 and
+# 977.3 - 426.7 == 550.5999999999999, so an imbalance equal to the span, written as the user
+# wrote it, is a hair above the computed span; 233.15 K - 273.15 is -39.99999999999997 °C.
+# Each case sits exactly at its limit (accepted) and just beyond it (refused).
+
+
+@pytest.mark.parametrize(
+    ("old", "new", "check"),
+    [
+        (
+            "{min: 0, max: 10, imbalance: 1}",
+            "{min: 0.1, max: 0.3, imbalance: 0.2}",
+            lambda s: s.signal.source.imbalance_ohm == 0.2,
+        ),
+        (
+            "{min: 0, max: 10, imbalance: 1}",
+            "{min: 426.7, max: 977.3, imbalance: 550.6}",
+            lambda s: s.signal.source.imbalance_ohm == 550.6,
+        ),
+        (
+            "{min: 0, max: 10, imbalance: 1}",
+            "{min: 10, max: 10, imbalance: 0}",
+            lambda s: s.signal.source.min_ohm == s.signal.source.max_ohm == 10.0,
+        ),
+        (
+            "temperature: {min: -40 °C, max: 125 °C}",
+            "temperature: {min: 233.15 K, max: -40 °C}",
+            lambda s: s.requirements.temp_min_c == s.requirements.temp_max_c == -40.0,
+        ),
+        (
+            "output_swing: {from_negative: 50 mV, from_positive: 50 mV}",
+            "output_swing: {min: 0 V, max: 5000 mV}",
+            lambda s: s.amplifier.output_span.high_v == 5.0,
+        ),
+        (
+            "voltage: 2.5 V",
+            "voltage: 5000 mV",
+            lambda s: s.reference.voltage_max_v == 5.0,
+        ),
+    ],
+)
+def test_limits_met_exactly_are_accepted(old: str, new: str, check: Callable[[Spec], bool]) -> None:
+    assert check(parse_spec_text(edit(old, new), "t.yaml"))
+
+
+@pytest.mark.parametrize(
+    ("old", "new", "message"),
+    [
+        (
+            "{min: 0, max: 10, imbalance: 1}",
+            "{min: 0.1, max: 0.3, imbalance: 0.201}",
+            "t.yaml:21: signal.source_impedance.imbalance: 201 mΩ is more than max - min = "
+            "200 mΩ; two legs inside [min, max] cannot differ by more",
+        ),
+        (
+            "temperature: {min: -40 °C, max: 125 °C}",
+            "temperature: {min: 233.16 K, max: -40 °C}",
+            "t.yaml:31: requirements.temperature.min: min -39.99 °C is above max -40 °C",
+        ),
+        (
+            "voltage: 2.5 V",
+            "voltage: 5001 mV",
+            "t.yaml:24: reference.voltage: 5.001 V is outside the rails (0 V to 5 V)",
+        ),
+    ],
+)
+def test_limits_exceeded_beyond_rounding_are_refused(old: str, new: str, message: str) -> None:
+    assert message in refusal(edit(old, new))

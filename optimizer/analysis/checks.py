@@ -10,8 +10,13 @@ Every formula sits in one small pure function below (scalars or numpy arrays in,
 :func:`run_checks` evaluates them over the *operating corners* (:func:`operating_corners`):
 every combination of the ends of the common-mode, differential and REF voltage ranges, of the
 source and REF impedance ranges, of each resistor's value spread (initial tolerance plus
-tempco over the temperature range; drift is left to the worst-case module) and of the sign of
-the amplifier's common-mode error. The quantities checked are linear in the voltages, so the
+tempco over the temperature range; drift is left to the worst-case module, except for the
+input-impedance and noise checks, which are also evaluated at the end of the required life,
+drift applied: :func:`life_value_bounds`), of the sign of
+the amplifier's common-mode error and of its open-loop gain ``A`` (a datasheet gives a minimum,
+so ``A ∈ {A_min, ∞}``: every closed-loop coefficient is the ideal one times the same factor
+``β(1 − ε)/(1/A + β(1 − ε))``, which rises with ``A``, so an output at the two ends bounds the
+output at every ``A ≥ A_min``). The quantities checked are linear in the voltages, so the
 voltage corners give their extremes exactly; in the resistor values they are smooth and, over
 spreads of a few percent, nearly linear, so the resistor corners give the extremes to within
 second-order terms (corner enumeration, the usual practice of tolerance analysis).
@@ -35,9 +40,10 @@ from numpy.typing import ArrayLike, NDArray
 from ..design import Design, Placement
 from ..errors import ModelError
 from ..parts import NetworkPart
-from ..spec import Spec
+from ..spec import DriftModel, Spec
 from ..units import format_quantity
 from .transfer import coefficients, differential_gain, divider_ratio, feedback_factor
+from .variation import drift_bound, drift_interval
 
 __all__ = [
     "BOLTZMANN_J_PER_K",
@@ -63,6 +69,7 @@ __all__ = [
     "full_power_bandwidth",
     "input_peak_v",
     "johnson_noise_density",
+    "life_value_bounds",
     "noise_band_hz",
     "noise_gain",
     "noninverting_node_voltage",
@@ -70,6 +77,7 @@ __all__ = [
     "output_noise_terms",
     "output_offset_bound",
     "parallel",
+    "placement_life_drift",
     "required_bandwidth",
     "resistor_power",
     "resistor_voltages",
@@ -141,6 +149,23 @@ def value_spread(
     per kelvin, °C; tolerances are specified at 25 °C, tempco bounds are linear)."""
     span_k = max(abs(temp_min_c - _TEMP_REF_C), abs(temp_max_c - _TEMP_REF_C))
     return tolerance + tempco_per_k * span_k
+
+
+def life_value_bounds(
+    spread: ArrayLike, drift_low: ArrayLike, drift_high: ArrayLike
+) -> tuple[Array, Array]:
+    """Bounds ``(low, high)`` of ``r/R0`` over the whole required life:
+    ``low = (1 − δ)·(1 + d_low)``, ``high = (1 + δ)·(1 + d_high)``, with ``δ`` the value spread
+    of :func:`value_spread` (tolerance and tempco) and ``[d_low, d_high]`` the end-of-life
+    drift interval (:func:`placement_life_drift`; ``[−D, D]`` symmetric, ``[0, D]``
+    one-sided). Drift grows with time (``D·√(t/life)``) and every interval holds 0, so the
+    drift at any earlier time lies inside the end-of-life interval: these bounds hold from the
+    start to the end of life (fractions in, fractions out)."""
+    d = np.asarray(spread, dtype=float)
+    return (
+        _arr((1.0 - d) * (1.0 + np.asarray(drift_low, dtype=float))),
+        _arr((1.0 + d) * (1.0 + np.asarray(drift_high, dtype=float))),
+    )
 
 
 def differential_input_resistance(r1: ArrayLike, r3: ArrayLike) -> Array:
@@ -397,8 +422,9 @@ def input_peak_v(spec: Spec) -> float:
 @dataclass(frozen=True)
 class OperatingCorners:
     """Flat arrays (one entry per corner) of every quantity the checks vary: resistor values
-    (ohms), source and REF impedances (ohms), Vcm, Vd, VREF (volts) and the sign of the
-    amplifier's common-mode error (±1)."""
+    (ohms), source and REF impedances (ohms), Vcm, Vd, VREF (volts), the sign of the
+    amplifier's common-mode error (±1) and its open-loop gain (ratio: the minimum, and ``inf``;
+    only ``inf`` for an ideal amplifier)."""
 
     r1: Array
     r2: Array
@@ -411,6 +437,7 @@ class OperatingCorners:
     vd: Array
     vref: Array
     sign: Array
+    open_loop_gain: Array
 
     @property
     def v1(self) -> Array:
@@ -446,6 +473,22 @@ def _placement_spread(placement: Placement, spec: Spec) -> float:
     return value_spread(tol, tc, req.temp_min_c, req.temp_max_c)
 
 
+def placement_life_drift(
+    placement: Placement, life_s: float, model: DriftModel = DriftModel.SYMMETRIC
+) -> tuple[float, float]:
+    """End-of-life drift interval ``(d_low, d_high)`` (fractions) of one placement after
+    ``life_s`` seconds. A discrete part: :func:`~optimizer.analysis.variation.drift_interval`
+    of its drift bound ``D`` (``[−D, D]``, or ``[0, D]`` one-sided). A network element, the same
+    convention as :func:`_placement_spread`: the package's shared drift interval plus half
+    the ratio drift either way (a mismatch, symmetric in both models)."""
+    part = placement.part
+    if isinstance(part, NetworkPart):
+        low, high = drift_interval(drift_bound(part.drift_1000h, life_s), model)
+        half_ratio = drift_bound(part.ratio_drift_1000h, life_s) / 2.0
+        return low - half_ratio, high + half_ratio
+    return drift_interval(drift_bound(part.drift_1000h, life_s), model)
+
+
 def _ends(low: float, high: float) -> Array:
     return np.unique(np.array([low, high], dtype=float))
 
@@ -460,19 +503,27 @@ def _source_pairs(spec: Spec) -> tuple[Array, Array]:
     return g1[keep], g3[keep]
 
 
-def operating_corners(design: Design, spec: Spec) -> OperatingCorners:
-    """Every combination of the range ends listed in the module docstring, as flat arrays."""
+def operating_corners(design: Design, spec: Spec, end_of_life: bool = False) -> OperatingCorners:
+    """Every combination of the range ends listed in the module docstring, as flat arrays.
+    ``end_of_life``: the resistor ranges include the drift over the required life
+    (:func:`life_value_bounds`), so they hold for the whole life."""
     nominal = design.resistances_ohm
-    values = [
-        _ends(r * (1.0 - d), r * (1.0 + d))
-        for r, d in zip(
-            nominal, (_placement_spread(p, spec) for p in design.placements), strict=True
-        )
-    ]
+    req = spec.requirements
+    values = []
+    for r, placement in zip(nominal, design.placements, strict=True):
+        d = _placement_spread(placement, spec)
+        if end_of_life:
+            low, high = life_value_bounds(
+                d, *placement_life_drift(placement, req.life_s, req.drift_model)
+            )
+            values.append(_ends(r * float(low), r * float(high)))
+        else:
+            values.append(_ends(r * (1.0 - d), r * (1.0 + d)))
     rs1, rs3 = _source_pairs(spec)
     ref = spec.reference
     sig = spec.signal
     signs = np.array([1.0]) if math.isinf(spec.amplifier.cmrr_db) else np.array([-1.0, 1.0])
+    gains = np.unique(np.array([spec.amplifier.open_loop_gain, math.inf]))
     axes = [
         *values,
         np.arange(rs1.size, dtype=float),
@@ -481,20 +532,21 @@ def operating_corners(design: Design, spec: Spec) -> OperatingCorners:
         _ends(sig.differential_min_v, sig.differential_max_v),
         _ends(ref.voltage_min_v, ref.voltage_max_v),
         signs,
+        gains,
     ]
     grid = [g.ravel() for g in np.meshgrid(*axes, indexing="ij")]
     pair = grid[4].astype(int)
     return OperatingCorners(
         r1=grid[0], r2=grid[1], r3=grid[2], r4=grid[3],
         rs1=rs1[pair], rs3=rs3[pair], rref=grid[5],
-        vcm=grid[6], vd=grid[7], vref=grid[8], sign=grid[9],
+        vcm=grid[6], vd=grid[7], vref=grid[8], sign=grid[9], open_loop_gain=grid[10],
     )  # fmt: skip
 
 
 def _vout(c: OperatingCorners, spec: Spec) -> Array:
     amp = spec.amplifier
     k = coefficients(
-        c.r1, c.r2, c.r3, c.r4, c.rs1, c.rs3, c.rref, amp.open_loop_gain, amp.cmrr_ratio, c.sign
+        c.r1, c.r2, c.r3, c.r4, c.rs1, c.rs3, c.rref, c.open_loop_gain, amp.cmrr_ratio, c.sign
     )
     return np.asarray(k.k1 * c.v1 + k.k2 * c.v2 + k.kref * c.vref, dtype=float)
 
@@ -533,20 +585,49 @@ def _window(
 # --------------------------------------------------------------------------------------------
 
 
+def _life_stages(design: Design, spec: Spec) -> tuple[tuple[str, OperatingCorners], ...]:
+    """The operating corners at the start of life and, when the spec asks for a life, over
+    the whole life (drift applied), each with the words that say so."""
+    start = operating_corners(design, spec)
+    if spec.requirements.life_s <= 0.0:
+        return (("", start),)
+    return (
+        (" at the start of life", start),
+        (
+            " at the end of life with drift applied",
+            operating_corners(design, spec, end_of_life=True),
+        ),
+    )
+
+
 def check_input_impedance(design: Design, spec: Spec) -> tuple[CheckResult, CheckResult]:
     """Differential (floating source) and common-mode input impedance, lowest over the
-    operating corners, against ``min_input_impedance_ohm`` (floor; 0 = not required)."""
-    c = operating_corners(design, spec)
+    operating corners at the start and at the end of the required life (drift applied, so the
+    floor holds for the whole life), against ``min_input_impedance_ohm`` (floor; 0 = not
+    required).
+
+    At the end of life the lowest differential resistance ``R1 + R3`` has R1 and R3 at the low
+    end of their drift (``−D``; ``0`` one-sided); the common-mode resistance rises with R1 and
+    R4 (low end of their drift) and with R3 when ``R1 > R4'`` (falls otherwise), so R3 sits at
+    the matching end. Both are taken over every corner."""
+    stages = _life_stages(design, spec)
     floor = spec.requirements.min_input_impedance_ohm
     results = []
-    for name, label, z in (
-        ("input_impedance_differential", "differential input resistance R1 + R3",
-         differential_input_resistance(c.r1, c.r3)),
+
+    def differential(c: OperatingCorners) -> Array:
+        return differential_input_resistance(c.r1, c.r3)
+
+    def common_mode(c: OperatingCorners) -> Array:
+        return common_mode_input_resistance(c.r1, c.r3, c.r4_eff)
+
+    for name, label, formula in (
+        ("input_impedance_differential", "differential input resistance R1 + R3", differential),
         ("input_impedance_common_mode", "common-mode input resistance R1·(R3 + R4')/(R1 + R3)",
-         common_mode_input_resistance(c.r1, c.r3, c.r4_eff)),
+         common_mode),
     ):  # fmt: skip
-        value = float(np.min(z))
-        detail = f"lowest {label} {_q(value, 'Ω')}"
+        lows = [(float(np.min(formula(c))), when) for when, c in stages]
+        value, when = min(lows, key=lambda pair: pair[0])
+        detail = f"lowest {label} {_q(value, 'Ω')}{when}"
         if floor <= 0.0:
             results.append(_no_requirement(name, value, "Ω", detail))
         else:
@@ -566,25 +647,36 @@ def check_input_impedance(design: Design, spec: Spec) -> tuple[CheckResult, Chec
 
 
 def check_output_noise(design: Design, spec: Spec) -> CheckResult:
-    """Output noise RMS over the noise band (brick-wall), worst over the operating corners, at
-    the hottest temperature, white noise only (1/f noise is not modelled), against
-    ``max_output_noise_v_rms`` (ceiling; none = informational)."""
-    c = operating_corners(design, spec)
+    """Output noise RMS over the noise band (brick-wall), worst over the operating corners at
+    the start and at the end of the required life (drift applied: the ceiling holds for the
+    whole life), at the hottest temperature, white noise only (1/f noise is not modelled),
+    against ``max_output_noise_v_rms`` (ceiling; none = informational).
+
+    The noise is not monotone in every resistor (R1's own noise rises with R1, its gain
+    ``R2/R1'`` falls), so every corner of the end-of-life ranges is evaluated; the largest
+    terms usually rise with R2 (its noise, the noise gain ``1 + R2/R1'``, ``in·R2``) and fall
+    with R1, i.e. R2 at the high end of its drift and R1 at the low end."""
     amp = spec.amplifier
     hot = spec.requirements.temp_max_c
-    terms = output_noise_terms(
-        c.r1, c.r2, c.r3, c.r4, c.rs1, c.rs3, c.rref,
-        amp.voltage_noise_v_rthz, amp.current_noise_a_rthz, hot,
-    )  # fmt: skip
-    terms = {k: np.broadcast_to(v, c.r1.shape) for k, v in terms.items()}
-    density = rss(terms)
-    worst = int(np.argmax(density))
+    best: tuple[float, str, dict[str, Array], int] | None = None
+    for when, c in _life_stages(design, spec):
+        stage_terms = output_noise_terms(
+            c.r1, c.r2, c.r3, c.r4, c.rs1, c.rs3, c.rref,
+            amp.voltage_noise_v_rthz, amp.current_noise_a_rthz, hot,
+        )  # fmt: skip
+        stage_terms = {k: np.broadcast_to(v, c.r1.shape) for k, v in stage_terms.items()}
+        stage_density = rss(stage_terms)
+        index = int(np.argmax(stage_density))
+        if best is None or float(stage_density[index]) > best[0]:
+            best = (float(stage_density[index]), when, stage_terms, index)
+    assert best is not None
+    peak, when, terms, worst = best
     f_low, f_high = noise_band_hz(spec)
-    rms = float(rms_over_band(density[worst], f_low, f_high))
+    rms = float(rms_over_band(peak, f_low, f_high))
     top = max(terms, key=lambda name: float(terms[name][worst]))
     detail = (
-        f"{_q(float(density[worst]), 'V/√Hz')} white noise at the output at {hot:g} °C "
-        f"(largest part: {top}, {_q(float(terms[top][worst]), 'V/√Hz')}) over "
+        f"{_q(peak, 'V/√Hz')} white noise at the output at {hot:g} °C"
+        f"{when} (largest part: {top}, {_q(float(terms[top][worst]), 'V/√Hz')}) over "
         f"{_q(f_low, 'Hz')} to {_q(f_high, 'Hz')} (brick-wall band, 1/f noise not modelled) "
         f"gives {_q(rms, 'V')} rms"
     )
@@ -614,8 +706,9 @@ def check_input_range(design: Design, spec: Spec) -> CheckResult:
 
 
 def check_output_swing(design: Design, spec: Spec) -> CheckResult:
-    """Vout = k1·V1 + k2·V2 + kref·VREF (exact coefficients with the amplifier's finite gain and
-    CMRR) plus the output offset bound, over the operating corners, inside the output swing."""
+    """Vout = k1·V1 + k2·V2 + kref·VREF (exact coefficients with the amplifier's CMRR and its
+    open-loop gain at both ends, ``A_min`` and ``∞``) plus the output offset bound, over the
+    operating corners, inside the output swing."""
     c = operating_corners(design, spec)
     vout = _vout(c, spec)
     off = _offset(c, spec)
@@ -653,11 +746,17 @@ def check_bandwidth(design: Design, spec: Spec) -> CheckResult:
 def check_full_power_bandwidth(design: Design, spec: Spec) -> CheckResult:
     """Slew-limited full-power bandwidth SR/(2π·Vpk), Vpk = largest |Adm·Vd| over the corners
     (the signal part of the output; the DC part from REF and common mode does not slew), against
-    the signal's ``max_frequency_hz`` (floor, Hz)."""
+    the signal's ``max_frequency_hz`` (floor, Hz).
+
+    The open-loop gain may be anything at or above its minimum, and ``|Adm|`` rises with it
+    (``Adm = (a(1+ε) + c(1−ε))/(2(1/A + β(1−ε)))``), so the largest peak, and with it the
+    conservative bandwidth that holds for every allowed ``A``, is at ``A = ∞``: for a balanced
+    bridge ``Vpk = G·|Vd|``, where ``A_min`` would give the smaller ``G·|Vd|/(1 + (1+G)/A_min)``.
+    """
     c = operating_corners(design, spec)
     amp = spec.amplifier
     k = coefficients(
-        c.r1, c.r2, c.r3, c.r4, c.rs1, c.rs3, c.rref, amp.open_loop_gain, amp.cmrr_ratio, c.sign
+        c.r1, c.r2, c.r3, c.r4, c.rs1, c.rs3, c.rref, c.open_loop_gain, amp.cmrr_ratio, c.sign
     )
     peak = float(np.max(np.abs(differential_gain(k) * c.vd)))
     fp = float(full_power_bandwidth(amp.slew_v_per_s, peak))

@@ -8,7 +8,10 @@ Method
   :mod:`~optimizer.analysis.variation` (own initial error, tempco and drift of each part or
   network element; shared initial error, tempco and drift of each network package or
   same-lot reel) is drawn independently: uniform within its bound, or normal with the bound
-  at ``k·σ`` (``k = Preferences.sigma_k``, default 3; the normal is not truncated).
+  at ``k·σ`` (``k = Preferences.sigma_k``, default 3; the normal is not truncated). With the
+  one-sided drift model (``Requirements.drift_model``) each drift lies on ``[0, D]`` and is a
+  component shared by the parts of one kind plus its own
+  (:func:`~optimizer.analysis.variation.one_sided_drift_draw`).
 * Each build is judged at its worst environment corner: both ends of the temperature range,
   the vertices of the source-impedance polygon, both ends of the REF impedance range, the
   amplifier's minimum CMRR at the worse sign; for the gain the open-loop gain at its minimum
@@ -418,7 +421,7 @@ def monte_carlo(
     ``spec.preferences.samples`` and ``spec.preferences.seed``."""
     prefs = spec.preferences
     req = spec.requirements
-    variation = variation_from_design(design, req.life_s, prefs.same_lot_tracking)
+    variation = variation_from_design(design, req.life_s, prefs.same_lot_tracking, req.drift_model)
     return monte_carlo_from_variation(
         variation,
         environment_from_spec(spec),

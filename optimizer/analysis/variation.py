@@ -8,8 +8,9 @@ A **discrete part** at temperature ``T`` (°C) and end of life has the resistanc
     r = R0·(1 + e)·(1 + α·ΔT)·(1 + d),      ΔT = T − 25 °C
 
 with ``e ∈ [−t, t]`` (initial tolerance at 25 °C), ``α ∈ [−TC, TC]`` (tempco bound, per K)
-and ``d ∈ [−D, D]`` (life drift). ``D = drift_1000h·√(life_h/1000)``: the square-root-of-time
-growth of resistor drift (common practice, from memory). Each discrete part is independent.
+and ``d ∈ [−D, D]`` (life drift; ``d ∈ [0, D]`` with the one-sided drift model, below).
+``D = drift_1000h·√(life_h/1000)``: the square-root-of-time growth of resistor drift (common
+practice, from memory). Each discrete part is independent.
 With same-lot tracking (``Preferences.same_lot_tracking``, off by default) discrete parts that
 have the same ``part_id`` share one ``α`` (same reel/lot) but keep their own ``e`` and ``d``.
 
@@ -23,6 +24,17 @@ package by ``e_i ∈ [−ratio_tol/2, ratio_tol/2]``, ``τ_i ∈ [−track/2, tr
 so every element ratio stays within the ratio tolerance (to first order) and tracks within the
 tracking tempco. ``D_abs`` and ``D_ratio`` follow the same square-root-of-time law from the
 part's ``drift_1000h`` and ``ratio_drift_1000h``.
+
+**Drift model** (``Requirements.drift_model``, :func:`drift_interval`). ``symmetric`` (the
+default): every drift variable lies in ``[−D, D]``. ``one_sided``: a discrete part's ``d`` and
+a package's shared ``d_abs`` lie in ``[0, D]`` (load-life drift of film resistors is mostly
+one-signed, common practice, from memory); a network element's ``δ_i`` is a mismatch inside
+the package and stays in ``[−D_ratio/2, D_ratio/2]``. The worst case takes every one-sided
+drift anywhere in ``[0, D]``, independently (a bound holds for any correlation). The Monte
+Carlo draws each one-sided drift as a component shared by every part of the same kind (same
+``part_id``: the discrete parts of one kind, the packages of one network kind) plus an
+individual one, with :data:`DRIFT_SHARED_VARIANCE` of the variance shared
+(:func:`one_sided_drift_draw`).
 
 In code every design reduces to a :class:`Variation`: per position (R1..R4) the bounds of its
 *own* variables ``(e, α, d)`` and, for positions that share variables (one network package or
@@ -42,7 +54,7 @@ minimum).
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -50,9 +62,10 @@ from numpy.typing import ArrayLike, NDArray
 from ..design import Design
 from ..errors import ModelError
 from ..parts import NetworkPart
-from ..spec import Distribution, SourceImpedance, Spec
+from ..spec import Distribution, DriftModel, SourceImpedance, Spec
 
 __all__ = [
+    "DRIFT_SHARED_VARIANCE",
     "IDEAL_ENVIRONMENT",
     "REFERENCE_TEMPERATURE_C",
     "AmplifierCorners",
@@ -65,7 +78,11 @@ __all__ = [
     "discrete_factor_bounds",
     "dominant_vertices",
     "drift_bound",
+    "drift_factor_bounds",
+    "drift_interval",
+    "drift_model_summary",
     "environment_from_spec",
+    "one_sided_drift_draw",
     "passive_corners",
     "resistances",
     "sample_values",
@@ -88,6 +105,12 @@ _HOURS_PER_SECOND = 1.0 / 3600.0
 _DRIFT_REFERENCE_H = 1000.0
 #: Builds drawn per block in :func:`sample_values` (a block of draws stays in cache).
 _DRAW_BLOCK = 8192
+#: One-sided drift model, Monte Carlo only: the fraction ρ of each part's drift variance that
+#: is shared by all parts of the same kind (same ``part_id``), the rest being the part's own.
+#: It is the correlation between the drifts of two parts of one kind. Our assumption, stated:
+#: "similar between parts of one kind" (common practice, from memory) gives no number, and an
+#: even split is the middle ground between independent (0) and identical (1) drift.
+DRIFT_SHARED_VARIANCE = 0.5
 
 
 # --------------------------------------------------------------------------------------------
@@ -114,6 +137,75 @@ def drift_bound(drift_1000h: float, life_s: float) -> float:
             f"expected finite values of zero or more, got {drift_1000h!r}, {life_s!r}",
         )
     return drift_1000h * math.sqrt(life_s * _HOURS_PER_SECOND / _DRIFT_REFERENCE_H)
+
+
+def drift_interval(bound: float, model: DriftModel) -> tuple[float, float]:
+    """The interval ``(low, high)`` of a drift variable with bound ``D = bound`` (fraction):
+    ``(−D, D)`` for :attr:`DriftModel.SYMMETRIC`, ``(0, D)`` for :attr:`DriftModel.ONE_SIDED`
+    (module docstring, "Drift model")."""
+    if model is DriftModel.ONE_SIDED:
+        return 0.0, float(bound)
+    return -float(bound), float(bound)
+
+
+def drift_model_summary(model: DriftModel, monte_carlo: bool = False) -> str:
+    """One line (for reports) saying how life drift is modelled: the interval of ``d`` in the
+    worst case and, with ``monte_carlo``, how it is drawn."""
+    if model is DriftModel.ONE_SIDED:
+        text = "one-sided: each part's drift d in [0, D] (a network's ratio drift stays ±D_ratio/2)"
+        if monte_carlo:
+            text += (
+                f"; drawn with {DRIFT_SHARED_VARIANCE:.0%} of its variance shared by the parts "
+                "of one kind (same part id) and the rest their own (assumed)"
+            )
+        return text
+    text = "symmetric: each part's drift d in [-D, D]"
+    if monte_carlo:
+        text += ", drawn independently, centred on zero"
+    return text
+
+
+def drift_factor_bounds(drift: ArrayLike, model: DriftModel) -> tuple[Array, Array]:
+    """Bounds ``(low, high)`` of the drift factor ``1 + d`` of parts with drift bounds ``D``
+    (fractions, array): ``(1 − D, 1 + D)`` symmetric, ``(1, 1 + D)`` one-sided
+    (:func:`drift_interval`). The end-of-life resistance of a part lies in
+    ``R·(1 + e)(1 + α·ΔT)·[low, high]``."""
+    d = np.asarray(drift, dtype=float)
+    low = np.ones_like(d) if model is DriftModel.ONE_SIDED else 1.0 - d
+    return low, 1.0 + d
+
+
+def one_sided_drift_draw(
+    shared: ArrayLike,
+    own: ArrayLike,
+    bound: float,
+    distribution: Distribution,
+    sigma_k: float,
+    shared_variance: float = DRIFT_SHARED_VARIANCE,
+) -> Array:
+    """One-sided drift values (fractions) from standard draws of a kind's shared component and
+    a part's own component, bound ``D = bound``, shared fraction ``ρ = shared_variance``.
+
+    Normal (``shared``, ``own`` standard normal): ``d = D/2 + (D/(2k))·(√ρ·z_s + √(1−ρ)·z_o)``,
+    i.e. ``d ~ N(D/2, (D/(2k))²)`` with the interval ``[0, D]`` at ``±k·σ`` (as the symmetric
+    model puts ``±D`` at ``±k·σ``, ``k = sigma_k``) and correlation ``ρ`` between two parts of
+    one kind. Uniform (``shared``, ``own`` on ``[0, 1)``): ``d = D·(w·u_s + (1 − w)·u_o)``
+    with ``w = √ρ/(√ρ + √(1−ρ))``, which stays in ``[0, D]``, has mean ``D/2``, variance
+    ``D²·(w² + (1 − w)²)/12`` and correlation ``w²/(w² + (1 − w)²) = ρ`` (sums of independent
+    variables; for ρ = 1/2 the marginal is triangular, variance ``D²/24``)."""
+    rho = float(shared_variance)
+    if not 0.0 <= rho <= 1.0:
+        raise ModelError(
+            "monte carlo", "drift shared variance", f"expected 0 to 1, got {shared_variance!r}"
+        )
+    z_s = np.asarray(shared, dtype=float)
+    z_o = np.asarray(own, dtype=float)
+    if distribution is Distribution.NORMAL:
+        half = float(bound) / 2.0
+        mixed = math.sqrt(rho) * z_s + math.sqrt(1.0 - rho) * z_o
+        return np.asarray(half + half / sigma_k * mixed, dtype=float)
+    w = math.sqrt(rho) / (math.sqrt(rho) + math.sqrt(1.0 - rho))
+    return np.asarray(float(bound) * (w * z_s + (1.0 - w) * z_o), dtype=float)
 
 
 def temperature_offset_k(temperature_c: ArrayLike) -> Array:
@@ -188,16 +280,25 @@ def dominant_vertices(
 
 
 def discrete_factor_bounds(
-    tolerance: ArrayLike, tempco_per_k: ArrayLike, drift: ArrayLike, max_abs_delta_t_k: float
+    tolerance: ArrayLike,
+    tempco_per_k: ArrayLike,
+    drift: ArrayLike,
+    max_abs_delta_t_k: float,
+    drift_model: DriftModel = DriftModel.SYMMETRIC,
 ) -> tuple[Array, Array]:
     """Bounds ``(low, high)`` of ``r/R0`` for independent discrete parts over a temperature
     range whose largest ``|ΔT|`` is ``max_abs_delta_t_k``:
-    ``low = (1 − t)(1 − TC·|ΔT|)(1 − D)``, ``high = (1 + t)(1 + TC·|ΔT|)(1 + D)`` (the ends of
-    ``r = R0·(1+e)(1+α·ΔT)(1+d)``; the range of ``α·ΔT`` only widens with ``|ΔT|``)."""
+    ``low = (1 − t)(1 − TC·|ΔT|)·d_low``, ``high = (1 + t)(1 + TC·|ΔT|)·d_high`` with
+    ``(d_low, d_high)`` from :func:`drift_factor_bounds` (``(1 − D, 1 + D)`` symmetric,
+    ``(1, 1 + D)`` one-sided): the ends of ``r = R0·(1+e)(1+α·ΔT)(1+d)``; the range of
+    ``α·ΔT`` only widens with ``|ΔT|``."""
     t = np.asarray(tolerance, dtype=float)
     tc = np.asarray(tempco_per_k, dtype=float) * abs(float(max_abs_delta_t_k))
-    d = np.asarray(drift, dtype=float)
-    return (1.0 - t) * (1.0 - tc) * (1.0 - d), (1.0 + t) * (1.0 + tc) * (1.0 + d)
+    if drift_model is DriftModel.SYMMETRIC:  # the original expression, bit for bit
+        d = np.asarray(drift, dtype=float)
+        return (1.0 - t) * (1.0 - tc) * (1.0 - d), (1.0 + t) * (1.0 + tc) * (1.0 + d)
+    d_low, d_high = drift_factor_bounds(drift, drift_model)
+    return (1.0 - t) * (1.0 - tc) * d_low, (1.0 + t) * (1.0 + tc) * d_high
 
 
 def sign_matrix(count: int) -> Array:
@@ -230,16 +331,30 @@ class SharedGroup:
     """Variables shared by the positions of one network package or one same-lot reel.
 
     ``tolerance`` bounds the shared initial error (fraction), ``tempco_per_k`` the shared
-    tempco (per K), ``drift`` the shared end-of-life drift (fraction)."""
+    tempco (per K), ``drift`` the shared end-of-life drift (fraction): it lies in
+    ``[drift_low, drift]``, ``drift_low = −drift`` unless given (``0`` for one-sided drift).
+    ``drift_kind`` (Monte Carlo, one-sided drift): the index of the part kind whose shared
+    drift component the group's drift draws, ``−1`` for none."""
 
     label: str
     positions: tuple[int, ...]
     tolerance: float
     tempco_per_k: float
     drift: float
+    drift_low: float | None = None
+    drift_kind: int = -1
+
+    @property
+    def drift_min(self) -> float:
+        """Lower end of the shared drift (fraction): ``drift_low``, or ``−drift``."""
+        return -self.drift if self.drift_low is None else self.drift_low
 
     def __post_init__(self) -> None:
         owner = f"shared group {self.label}"
+        if self.drift_low is not None and not -self.drift <= self.drift_low <= self.drift:
+            raise ModelError(
+                owner, "drift_low", f"expected −drift to drift, got {self.drift_low!r}"
+            )
         if not self.positions or any(p not in (0, 1, 2, 3) for p in self.positions):
             raise ModelError(
                 owner, "positions", f"expected position indices 0..3, got {self.positions!r}"
@@ -262,7 +377,10 @@ class Variation:
     ``nominal_ohm``: nominal values; ``tolerance``, ``tempco_per_k``, ``drift``: bounds of each
     position's *own* variables (for a network element: half the ratio tolerance, half the
     tracking tempco, half the ratio drift); ``groups``: the shared variables (at most one group
-    per position).
+    per position). Own drift ``i`` lies in ``[drift_low[i], drift[i]]``, ``drift_low = −drift``
+    unless given (``0`` for one-sided drift, :func:`drift_interval`). ``drift_kind`` (Monte
+    Carlo, one-sided drift): per position the index of the part kind whose shared drift
+    component its own drift draws (:func:`one_sided_drift_draw`), ``−1`` for none.
     """
 
     nominal_ohm: Quad
@@ -270,6 +388,16 @@ class Variation:
     tempco_per_k: Quad = (0.0, 0.0, 0.0, 0.0)
     drift: Quad = (0.0, 0.0, 0.0, 0.0)
     groups: tuple[SharedGroup, ...] = ()
+    drift_low: Quad | None = None
+    drift_kind: tuple[int, int, int, int] = (-1, -1, -1, -1)
+
+    @property
+    def own_drift_low(self) -> Quad:
+        """Lower ends of the own drifts (fractions): ``drift_low``, or ``−drift``."""
+        if self.drift_low is None:
+            d = self.drift
+            return -d[0], -d[1], -d[2], -d[3]
+        return self.drift_low
 
     def __post_init__(self) -> None:
         for field in ("nominal_ohm", "tolerance", "tempco_per_k", "drift"):
@@ -283,6 +411,13 @@ class Variation:
         if any(v >= 0.5 for v in self.tolerance + self.drift):
             raise ModelError(
                 "variation", "tolerance", "expected tolerance and drift bounds below 0.5"
+            )
+        if self.drift_low is not None and (
+            len(self.drift_low) != 4
+            or not all(-d <= lo <= d for lo, d in zip(self.drift_low, self.drift, strict=True))
+        ):
+            raise ModelError(
+                "variation", "drift_low", "expected four values, each from −drift to drift"
             )
         seen: set[int] = set()
         for group in self.groups:
@@ -316,7 +451,7 @@ class Variation:
 
     def with_nominal(self, nominal_ohm: Quad) -> Variation:
         """The same variation around other nominal values."""
-        return Variation(nominal_ohm, self.tolerance, self.tempco_per_k, self.drift, self.groups)
+        return replace(self, nominal_ohm=nominal_ohm)
 
     def only(
         self, *, tolerance: bool = False, tempco: bool = False, drift: bool = False
@@ -333,6 +468,8 @@ class Variation:
                 g.tolerance if tolerance else 0.0,
                 g.tempco_per_k if tempco else 0.0,
                 g.drift if drift else 0.0,
+                g.drift_low if drift else None,
+                g.drift_kind,
             )
             for g in self.groups
         )
@@ -342,19 +479,35 @@ class Variation:
             keep(self.tempco_per_k, tempco),
             keep(self.drift, drift),
             groups,
+            self.drift_low if drift else None,
+            self.drift_kind,
         )
 
 
 def variation_from_design(
-    design: Design, life_s: float = 0.0, same_lot_tracking: bool = False
+    design: Design,
+    life_s: float = 0.0,
+    same_lot_tracking: bool = False,
+    drift_model: DriftModel = DriftModel.SYMMETRIC,
 ) -> Variation:
     """The :class:`Variation` of a design at the end of ``life_s`` seconds (module docstring
     for the model). Network packages become shared groups; with ``same_lot_tracking`` so do
-    discrete parts used more than once under the same ``part_id`` (shared tempco only)."""
+    discrete parts used more than once under the same ``part_id`` (shared tempco only). With
+    the one-sided ``drift_model`` a discrete part's drift and a package's shared drift lie in
+    ``[0, D]`` and carry the index of their part kind (same ``part_id``) for the Monte Carlo;
+    a network element's ratio drift stays symmetric."""
+    one_sided = drift_model is DriftModel.ONE_SIDED
+    kinds: dict[str, int] = {}
+
+    def kind_of(part_id: str) -> int:
+        return kinds.setdefault(part_id, len(kinds)) if one_sided else -1
+
     nominal: list[float] = []
     tolerance: list[float] = []
     tempco: list[float] = []
     drift: list[float] = []
+    drift_low: list[float] = []
+    drift_kind: list[int] = []
     packages: dict[tuple[str, int], list[int]] = {}
     package_parts: dict[tuple[str, int], NetworkPart] = {}
     lots: dict[str, list[int]] = {}
@@ -369,21 +522,28 @@ def variation_from_design(
             tolerance.append(part.ratio_tolerance / 2.0)
             tempco.append(part.tracking_tempco_per_k / 2.0)
             drift.append(drift_bound(part.ratio_drift_1000h, life_s) / 2.0)
+            drift_low.append(-drift[-1])  # a mismatch: symmetric in both models
+            drift_kind.append(-1)
         else:
             lots.setdefault(part.part_id, []).append(index)
             tolerance.append(part.tolerance)
             tempco.append(part.tempco_per_k)
             drift.append(drift_bound(part.drift_1000h, life_s))
+            drift_low.append(drift_interval(drift[-1], drift_model)[0])
+            drift_kind.append(kind_of(part.part_id))
     groups: list[SharedGroup] = []
     for key, positions in packages.items():
         part = package_parts[key]
+        package_drift = drift_bound(part.drift_1000h, life_s)
         groups.append(
             SharedGroup(
                 f"{key[0]} package {key[1] + 1}",
                 tuple(positions),
                 part.abs_tolerance,
                 part.abs_tempco_per_k,
-                drift_bound(part.drift_1000h, life_s),
+                package_drift,
+                drift_interval(package_drift, drift_model)[0] if one_sided else None,
+                kind_of(part.part_id),
             )
         )
     if same_lot_tracking:
@@ -398,7 +558,15 @@ def variation_from_design(
     def quad(values: list[float]) -> Quad:
         return values[0], values[1], values[2], values[3]
 
-    return Variation(quad(nominal), quad(tolerance), quad(tempco), quad(drift), tuple(groups))
+    return Variation(
+        quad(nominal),
+        quad(tolerance),
+        quad(tempco),
+        quad(drift),
+        tuple(groups),
+        quad(drift_low) if one_sided else None,
+        (drift_kind[0], drift_kind[1], drift_kind[2], drift_kind[3]),
+    )
 
 
 @dataclass(frozen=True)
@@ -461,6 +629,14 @@ def _empty_values(count: int, groups: int) -> VariableValues:
     return VariableValues(own(), own(), own(), shared(), shared(), shared())
 
 
+def _drift_end(sign: Array, low: float, high: float) -> Array:
+    """The drift at the corner of sign ``±1``: ``high`` for +1, ``low`` for −1 (``sign·high``
+    when the interval is symmetric, the original expression)."""
+    if low == -high:
+        return sign * high
+    return np.where(sign > 0.0, high, low)
+
+
 def vertex_values(variation: Variation, delta_t_k: float) -> VariableValues:
     """The corners of the part variables at one temperature offset ``ΔT`` (kelvin).
 
@@ -490,11 +666,14 @@ def vertex_values(variation: Variation, delta_t_k: float) -> VariableValues:
         s = signs[:, column]
         if kind == "own":
             values.own_error[:, index] = s * variation.tolerance[index]
-            values.own_drift[:, index] = s * variation.drift[index]
+            values.own_drift[:, index] = _drift_end(
+                s, variation.own_drift_low[index], variation.drift[index]
+            )
             values.own_tempco[:, index] = s * (tc_sign * variation.tempco_per_k[index])
         elif kind == "scale":
             values.shared_error[:, index] = s * variation.groups[index].tolerance
-            values.shared_drift[:, index] = s * variation.groups[index].drift
+            group = variation.groups[index]
+            values.shared_drift[:, index] = _drift_end(s, group.drift_min, group.drift)
         else:
             values.shared_tempco[:, index] = s * variation.groups[index].tempco_per_k
     return values
@@ -517,32 +696,42 @@ def sample_values(
     independently, uniform on ``[−b, b]`` or normal with standard deviation ``σ = b/k``
     (``k = sigma_k``; the bound is the ``k·σ`` point; the normal is *not* truncated).
 
+    A drift whose interval ``[low, high]`` is not symmetric (the one-sided model) is
+    ``low + d`` with ``d`` from :func:`one_sided_drift_draw` on ``[0, high − low]``: its
+    shared component is the draw of its part kind (``Variation.drift_kind``,
+    ``SharedGroup.drift_kind``; one draw per kind and build), or none (``ρ = 0``) when it has no
+    kind.
+
     Draws are made one row per build in a fixed variable order (own e, α, d of R1..R4, then
-    e, α, d of each group), so a seed gives the same builds whatever the chunking."""
+    e, α, d of each group, then one column per part kind of one-sided drift), so a seed gives
+    the same builds whatever the chunking."""
     normal, inv_k = _spread(distribution, sigma_k)
     bounds: list[float] = []
     slots: list[tuple[str, int]] = []
+    # One-sided slots: slot column -> (low, span, kind).
+    skewed: dict[int, tuple[float, float, int]] = {}
+
+    def add(kind: str, index: int, bound: float, low: float | None = None, part: int = -1) -> None:
+        if bound <= 0.0:
+            return
+        if low is not None and low != -bound:
+            skewed[len(slots)] = (low, bound - low, part)
+        bounds.append(bound)
+        slots.append((kind, index))
+
     for i in range(4):
-        for kind, bound in (
-            ("own_error", variation.tolerance[i]),
-            ("own_tempco", variation.tempco_per_k[i]),
-            ("own_drift", variation.drift[i]),
-        ):
-            if bound > 0.0:
-                bounds.append(bound)
-                slots.append((kind, i))
+        add("own_error", i, variation.tolerance[i])
+        add("own_tempco", i, variation.tempco_per_k[i])
+        add("own_drift", i, variation.drift[i], variation.own_drift_low[i], variation.drift_kind[i])
     for g, group in enumerate(variation.groups):
-        for kind, bound in (
-            ("shared_error", group.tolerance),
-            ("shared_tempco", group.tempco_per_k),
-            ("shared_drift", group.drift),
-        ):
-            if bound > 0.0:
-                bounds.append(bound)
-                slots.append((kind, g))
+        add("shared_error", g, group.tolerance)
+        add("shared_tempco", g, group.tempco_per_k)
+        add("shared_drift", g, group.drift, group.drift_min, group.drift_kind)
     values = _empty_values(count, len(variation.groups))
     if not slots:
         return values
+    kinds = sorted({part for _, _, part in skewed.values() if part >= 0})
+    kind_column = {part: len(slots) + j for j, part in enumerate(kinds)}
     targets = [getattr(values, kind)[:, index] for kind, index in slots]
     # Normal: σ = b/k; uniform on [0, 1) mapped to [−b, b) as u·2b − b.
     factors = [b * inv_k if normal else 2.0 * b for b in bounds]
@@ -550,10 +739,19 @@ def sample_values(
     # generator fills row by row, so the builds are the same as from one bulk draw.
     for start in range(0, count, _DRAW_BLOCK):
         stop = min(count, start + _DRAW_BLOCK)
-        shape = (stop - start, len(slots))
+        shape = (stop - start, len(slots) + len(kinds))
         draws = rng.standard_normal(shape) if normal else rng.random(shape)
         for column, target in enumerate(targets):
             out = target[start:stop]
+            if column in skewed:
+                low, span, part = skewed[column]
+                own = draws[:, column]
+                if part >= 0:
+                    shared, rho = draws[:, kind_column[part]], DRIFT_SHARED_VARIANCE
+                else:
+                    shared, rho = own, 0.0
+                out[:] = low + one_sided_drift_draw(shared, own, span, distribution, sigma_k, rho)
+                continue
             np.multiply(draws[:, column], factors[column], out=out)
             if not normal:
                 out -= bounds[column]

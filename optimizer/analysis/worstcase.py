@@ -44,7 +44,9 @@ or a partial group whose elements carry a tracking tempco, which makes the scale
 differently on each element) the extreme can lie *inside* the range of ``Σ``
 (:func:`needs_scale_search`). The excess over the corners is second order in the span of
 ``Σ``: about 2.5·10⁻⁴ of the common-mode error for a ±2 % package with a large source
-imbalance, in the probes behind the tests. For every objective (largest and smallest ``x``,
+imbalance, but up to about 2.5·10⁻² (0.2 dB) for an extreme quad (20 % absolute tolerance,
+source and REF impedance of hundreds of ohms against 1 kΩ elements), in the probes behind the
+tests. For every objective (largest and smallest ``x``,
 largest and smallest ``Adm``) the own variables still sit at the corner that pushes each
 resistance the right way, and for a given ``Σ`` the most harmful split puts ``α_abs`` as low
 as the range allows (that widens the element tracking box); what remains is the maximum of a smooth
@@ -63,6 +65,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 from dataclasses import dataclass
+from fractions import Fraction
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -102,8 +105,10 @@ __all__ = [
     "common_mode_error_from_terms",
     "common_mode_error_worst_sign",
     "differential_gain_from_terms",
+    "exactly_balanced",
     "feedback_complement",
     "needs_scale_search",
+    "nominal_common_mode_error",
     "opposing_group",
     "rejection_db",
     "worst_case",
@@ -235,6 +240,30 @@ def common_mode_error_from_balance(x: ArrayLike, eps: ArrayLike) -> Array:
     y = (1.0 + e) / ((1.0 - e) * np.asarray(x, dtype=float))
     error: Array = 2.0 * np.abs(y - 1.0) / (y + 1.0)
     return error
+
+
+def exactly_balanced(r1: float, r2: float, r3: float, r4: float) -> bool:
+    """True when the bridge is balanced, ``R2/R1 = R4/R3``, decided exactly: ``R2·R3 = R1·R4``
+    in rational arithmetic of the given float values (ohms), so no rounding enters. A balanced
+    bridge with no source or REF impedance and an ideal amplifier has ``Acm = 0`` exactly
+    (:mod:`~optimizer.analysis.transfer`: ``k1 + k2 = a − c = 0`` when ``R4/(R3+R4) =
+    R2/(R1+R2)``), i.e. a nominal CMRR of ``∞``, where float arithmetic leaves about 1e-16
+    (a spurious 313–319 dB)."""
+    return Fraction(r2) * Fraction(r3) == Fraction(r1) * Fraction(r4)
+
+
+def nominal_common_mode_error(r1: float, r2: float, r3: float, r4: float) -> float:
+    """``|Acm/Adm| = 2·|R1·R4 − R2·R3| / (R4·(R1+R2) + R2·(R3+R4))`` (ohms in, ratio out) of the
+    nominal bridge with no source or REF impedance and an ideal amplifier.
+
+    From :func:`common_mode_error_from_terms` with ``ε = 0``: ``2|a − c|/(a + c)``,
+    ``a = R4/(R3+R4)``, ``c = R2/(R1+R2)``; over the common denominator ``(R1+R2)(R3+R4)``,
+    ``a − c = (R1·R4 − R2·R3)/((R1+R2)(R3+R4))``. The difference ``R1·R4 − R2·R3`` is taken in
+    exact rational arithmetic of the float values, so a balanced bridge
+    (:func:`exactly_balanced`) gives exactly 0 (CMRR ``∞``) and an unbalanced one its error to
+    full float precision."""
+    mismatch = float(abs(Fraction(r1) * Fraction(r4) - Fraction(r2) * Fraction(r3)))
+    return 2.0 * mismatch / (r4 * (r1 + r2) + r2 * (r3 + r4))
 
 
 def above_rounding(value: float) -> float:
@@ -478,18 +507,22 @@ class _Problems:
 
 def _scale_bounds(variation: Variation, abs_dt: Array) -> tuple[Array, Array]:
     """Range of each group's common scale ``Σ = S·(1+u)``, ``S = (1+e_abs)(1+d_abs)``,
-    ``u = α_abs·ΔT``: ``[S−(1−U), S+(1+U)]`` with ``U = abs_tc·|ΔT|``. Shapes (P, G)."""
+    ``u = α_abs·ΔT``: ``[S−(1−U), S+(1+U)]`` with ``U = abs_tc·|ΔT|``,
+    ``S− = (1 − abs_tol)(1 + d_low)``, ``S+ = (1 + abs_tol)(1 + d_high)`` (``d_low = −D``, or 0
+    for one-sided drift). Shapes (P, G)."""
     tol = np.array([g.tolerance for g in variation.groups])
     drift = np.array([g.drift for g in variation.groups])
+    drift_low = np.array([g.drift_min for g in variation.groups])
     u = np.outer(abs_dt, np.array([g.tempco_per_k for g in variation.groups]))
-    return (1.0 - tol) * (1.0 - drift) * (1.0 - u), (1.0 + tol) * (1.0 + drift) * (1.0 + u)
+    return (1.0 - tol) * (1.0 + drift_low) * (1.0 - u), (1.0 + tol) * (1.0 + drift) * (1.0 + u)
 
 
 class _ScaleObjective:
     """Objective of the scale search, with everything that does not depend on the scales
     computed once. For own variables at ``sigma`` and group scales ``Σ`` (P, G):
     ``u = max(−U, Σ/S+ − 1)``, ``S = Σ/(1+u)``,
-    ``r_i = R0_i(1+σt_i)(1+σD_i)·S·(1 + u + σ·TC_i|ΔT|)`` (ungrouped positions: ``S = 1``,
+    ``r_i = R0_i(1+σt_i)(1+d_i(σ))·S·(1 + u + σ·TC_i|ΔT|)``, ``d_i(±1)`` the ends of the own
+    drift interval (ungrouped positions: ``S = 1``,
     ``u = 0``); value ``direction × log x`` for the first ``x_rows`` problems and
     ``direction × Adm`` for the others.
 
@@ -501,7 +534,10 @@ class _ScaleObjective:
     def __init__(self, variation: Variation, problems: _Problems, x_rows: int) -> None:
         sigma = problems.sigma
         own = variation.nominal * (1.0 + sigma * np.array(variation.tolerance))
-        own *= 1.0 + sigma * np.array(variation.drift)
+        # Own drift at the corner of sigma: d_high for +1, d_low (−D, or 0 one-sided) for −1.
+        own *= 1.0 + np.where(
+            sigma > 0.0, np.array(variation.drift), np.array(variation.own_drift_low)
+        )
         tc = 1.0 + sigma * np.outer(problems.abs_dt, np.array(variation.tempco_per_k))
         ungrouped = np.array([g < 0 for g in variation.group_of])
         own[:, ungrouped] *= tc[:, ungrouped]  # own tempco of parts that share nothing
@@ -700,6 +736,11 @@ def _extremes(variation: Variation, environment: Environment) -> _Extremes:
 # --------------------------------------------------------------------------------------------
 
 
+def _nominal_common_mode_error(variation: Variation) -> float:
+    """:func:`nominal_common_mode_error` of the nominal values (0 for a balanced bridge)."""
+    return nominal_common_mode_error(*variation.nominal_ohm)
+
+
 def _budget(
     variation: Variation, environment: Environment, target_gain: float
 ) -> tuple[BudgetItem, ...]:
@@ -712,7 +753,7 @@ def _budget(
     adm = differential_gain(k)
     errors: dict[str, tuple[float, float]] = {
         "value_quantisation": (
-            above_rounding(float(common_mode_error(common_mode_gain(k), adm))),
+            above_rounding(_nominal_common_mode_error(variation)),
             above_rounding(float(abs(_relative_gain_error(adm, target_gain)))),
         )
     }
@@ -762,8 +803,7 @@ def worst_case_from_variation(
         )
     ext = _extremes(variation, environment)
     r1, r2, r3, r4 = variation.nominal_ohm
-    k = coefficients(r1, r2, r3, r4)
-    adm = differential_gain(k)
+    adm = differential_gain(coefficients(r1, r2, r3, r4))
     return WorstCase(
         cmrr_db=float(rejection_db(ext.cm_error)),
         cmrr_resistors_db=float(rejection_db(ext.cm_error_passive)),
@@ -772,7 +812,7 @@ def worst_case_from_variation(
         gain_error_min=float(_relative_gain_error(ext.gain_min, target_gain)),
         gain_error_max=float(_relative_gain_error(ext.gain_max, target_gain)),
         nominal_gain=float(abs(adm)),
-        nominal_cmrr_db=float(rejection_db(common_mode_error(common_mode_gain(k), adm))),
+        nominal_cmrr_db=float(rejection_db(_nominal_common_mode_error(variation))),
         target_gain=float(target_gain),
         budget=_budget(variation, environment, target_gain),
         corner_count=ext.corners,
@@ -782,9 +822,12 @@ def worst_case_from_variation(
 def worst_case(design: Design, spec: Spec) -> WorstCase:
     """Exact worst case of ``design`` under ``spec``: temperature range, life, source and REF
     impedance, the amplifier's minimum CMRR and open-loop gain, target gain
-    ``spec.requirements.gain``; same-lot tracking from ``spec.preferences``."""
+    ``spec.requirements.gain``, drift model ``spec.requirements.drift_model``; same-lot
+    tracking from ``spec.preferences``."""
     req = spec.requirements
-    variation = variation_from_design(design, req.life_s, spec.preferences.same_lot_tracking)
+    variation = variation_from_design(
+        design, req.life_s, spec.preferences.same_lot_tracking, req.drift_model
+    )
     return worst_case_from_variation(variation, environment_from_spec(spec), req.gain)
 
 

@@ -19,13 +19,14 @@ unit in the key name; fractions are plain fractions, 0.001 = 0.1 %)::
     requirements        [{name, met, value, limit, margin, unit}]  (unit "fraction", "dB", ...)
     worst_case          {cmrr_db, cmrr_resistors_only_db, gain_min, gain_max, gain_error_min,
                          gain_error_max, gain_error_worst, nominal_gain, nominal_cmrr_db,
-                         target_gain, corners_evaluated}
+                         target_gain, corners_evaluated, drift_model}
     error_budget        [{contributor, cmrr_error, cmrr_db, cmrr_share, gain_error,
                          gain_share}]  (each contributor alone; shares are fractions)
     statistics          null when not run, else {builds, seed, distribution, sigma_k,
                          yield, yield_target, cmrr_pass_fraction, gain_pass_fraction,
                          cmrr_floor_db, cmrr_at_yield_db, cmrr_percentiles_db: [{percent, value}],
-                         gain_error_percentiles: [{percent, value}]}
+                         gain_error_percentiles: [{percent, value}], drift_model,
+                         drift_shared_variance (one-sided drift; else null)}
     checks              [{name, met, value, limit, margin, unit, has_requirement, detail}]
     safety_cautions     [text]  (empty when none apply)
     non_finite          [{key, was}]: every figure written as null because it was not a
@@ -51,10 +52,11 @@ from rich.text import Text
 from .._version import __version__
 from ..analysis.checks import CheckResult
 from ..analysis.montecarlo import MonteCarloResult
+from ..analysis.variation import DRIFT_SHARED_VARIANCE, drift_model_summary
 from ..analysis.worstcase import BudgetItem, WorstCase
 from ..design import Design, Placement
 from ..parts import NetworkPart
-from ..spec import CmrrBasis, Spec
+from ..spec import CmrrBasis, DriftModel, Spec
 from ..units import format_fraction, format_quantity, format_resistance, format_tempco
 from ..verify import Margin, Verification
 
@@ -243,7 +245,7 @@ def _requirements_table(requirements: Sequence[Margin]) -> Table:
     return table
 
 
-def _worst_case_table(worst: WorstCase) -> Table:
+def _worst_case_table(worst: WorstCase, spec: Spec) -> Table:
     table = Table(
         title="Worst case (every bound at once)", title_justify="left", header_style="bold"
     )
@@ -263,6 +265,7 @@ def _worst_case_table(worst: WorstCase) -> Table:
         ("nominal gain", f"{worst.nominal_gain:.6g}"),
         ("nominal CMRR (ideal amplifier, no source impedance)", _db(worst.nominal_cmrr_db)),
         ("corners evaluated", f"{worst.corner_count:,}"),
+        ("life drift model", drift_model_summary(spec.requirements.drift_model)),
     ]
     for name, value in rows:
         table.add_row(Text(name), Text(value))
@@ -291,7 +294,7 @@ def _budget_table(budget: Sequence[BudgetItem]) -> Table:
     return table
 
 
-def _statistics_table(result: MonteCarloResult) -> Table:
+def _statistics_table(result: MonteCarloResult, spec: Spec) -> Table:
     table = Table(title="Statistics (Monte Carlo)", title_justify="left", header_style="bold")
     table.add_column("figure")
     table.add_column("value", justify="right")
@@ -308,6 +311,7 @@ def _statistics_table(result: MonteCarloResult) -> Table:
         (f"builds within the gain accuracy (±{_pct(result.gain_accuracy)})",
          _pct(result.gain_pass_fraction)),
         (f"CMRR reached by {target} of builds", _db(result.cmrr_at_yield_db)),
+        ("life drift model", drift_model_summary(spec.requirements.drift_model, True)),
     ]  # fmt: skip
     for percent, level in result.cmrr_percentiles_db:
         rows.append((f"CMRR exceeded by {100 - percent:g} % of builds", _db(level)))
@@ -389,11 +393,11 @@ def render_check(
         _design_table(design, origins),
         _design_lines(design, spec, assumptions),
         _requirements_table(verification.requirements),
-        _worst_case_table(verification.worst_case),
+        _worst_case_table(verification.worst_case, spec),
         _budget_table(verification.worst_case.budget),
     ]
     if verification.monte_carlo is not None:
-        parts.append(_statistics_table(verification.monte_carlo))
+        parts.append(_statistics_table(verification.monte_carlo, spec))
     else:
         parts.append(Text("Statistics: not run."))
     parts.append(_checks_table(verification.checks))
@@ -445,9 +449,10 @@ def _position_json(placement: Placement, given_as: str | None) -> dict[str, Any]
     return entry
 
 
-def _statistics_json(result: MonteCarloResult | None) -> dict[str, Any] | None:
+def _statistics_json(result: MonteCarloResult | None, spec: Spec) -> dict[str, Any] | None:
     if result is None:
         return None
+    model = spec.requirements.drift_model
     return {
         "builds": result.samples,
         "seed": result.seed,
@@ -463,6 +468,8 @@ def _statistics_json(result: MonteCarloResult | None) -> dict[str, Any] | None:
         "gain_error_percentiles": [
             {"percent": p, "value": v} for p, v in result.gain_error_percentiles
         ],
+        "drift_model": model.value,
+        "drift_shared_variance": (DRIFT_SHARED_VARIANCE if model is DriftModel.ONE_SIDED else None),
     }
 
 
@@ -536,6 +543,7 @@ def check_to_json(
             "nominal_cmrr_db": worst.nominal_cmrr_db,
             "target_gain": worst.target_gain,
             "corners_evaluated": worst.corner_count,
+            "drift_model": spec.requirements.drift_model.value,
         },
         "error_budget": [
             {
@@ -548,7 +556,7 @@ def check_to_json(
             }
             for item in worst.budget
         ],
-        "statistics": _statistics_json(verification.monte_carlo),
+        "statistics": _statistics_json(verification.monte_carlo, spec),
         "checks": [
             {
                 "name": c.name,

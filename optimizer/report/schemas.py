@@ -97,6 +97,7 @@ CHECK_SCHEMA: Final[dict[str, Any]] = {
                     "nominal_cmrr_db": _NUM_N,
                     "target_gain": _NUM,
                     "corners_evaluated": _INT,
+                    "drift_model": {"enum": ["symmetric", "one_sided"]},
                 }
             ),
             "error_budget": _arr(
@@ -125,6 +126,8 @@ CHECK_SCHEMA: Final[dict[str, Any]] = {
                     "cmrr_at_yield_db": _NUM_N,
                     "cmrr_percentiles_db": _PERCENTILES,
                     "gain_error_percentiles": _PERCENTILES,
+                    "drift_model": {"enum": ["symmetric", "one_sided"]},
+                    "drift_shared_variance": _NUM_N,
                 },
                 nullable=True,
             ),

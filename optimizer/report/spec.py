@@ -166,6 +166,7 @@ def spec_rows(spec: Spec) -> list[Row]:
             ),
         ),
         ("", "operating life", _duration(req.life_s)),
+        ("", "drift model", req.drift_model.value),
         (
             "",
             "min input impedance",
