@@ -6,7 +6,8 @@ With independent parts the exact worst case of CMRR and gain has a closed form a
 per extreme (``analysis.worstcase``): ``x = c/a`` is largest with R1 low, R2 high, R3 high and
 R4 low, and the differential gain is largest with R1 low, R2 high, R3 low, R4 high. Write, for
 one environment vertex ``(Rs1, Rs3, Rref)`` and each position's factor bounds
-``[lo, hi] = [(1 − t)(1 − TC·|ΔT|)(1 − D), (1 + t)(1 + TC·|ΔT|)(1 + D)]``::
+``[lo, hi] = [(1 − t)(1 − TC·|ΔT|)·d_lo, (1 + t)(1 + TC·|ΔT|)·d_hi]`` with the drift factor
+``[d_lo, d_hi] = [1 − D, 1 + D]`` (symmetric drift model) or ``[1, 1 + D]`` (one-sided)::
 
     c_hi = R2·hi2 / (R1·lo1 + Rs1 + R2·hi2)         c_lo = R2·lo2 / (R1·hi1 + Rs1 + R2·lo2)
     a_hi = (R4·hi4 + Rref) / (R3·lo3 + Rs3 + R4·hi4 + Rref)
@@ -62,6 +63,7 @@ from typing import cast
 import numpy as np
 from numpy.typing import NDArray
 
+from ..analysis.variation import drift_factor_bounds
 from ..catalog import Catalog
 from ..cost import design_cost, parts_cost
 from ..design import Design, Placement, Topology
@@ -285,8 +287,9 @@ def _discrete_parts(
     values, value_of = np.unique(r, return_inverse=True)
     value_of = value_of.reshape(-1).astype(np.int64)
     swing = classes[:, 1] * env.delta_t_k
-    lo = (1.0 - classes[:, 0]) * (1.0 - swing) * (1.0 - classes[:, 2])
-    hi = (1.0 + classes[:, 0]) * (1.0 + swing) * (1.0 + classes[:, 2])
+    drift_low, drift_high = drift_factor_bounds(classes[:, 2], spec.requirements.drift_model)
+    lo = (1.0 - classes[:, 0]) * (1.0 - swing) * drift_low
+    hi = (1.0 + classes[:, 0]) * (1.0 + swing) * drift_high
     cost = frame["unit_cost"].to_numpy(float)[rows] + prefs.placement_cost
     power = frame["power_w"].to_numpy(float)[rows] * env.derating
     volts = frame["max_voltage_v"].to_numpy(float)[rows]
