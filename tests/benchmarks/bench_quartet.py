@@ -400,7 +400,7 @@ def write_csv(frame: pd.DataFrame, path: str) -> None:
 # ---------------------------------------------------------------------------------------------
 
 
-def bench_examples(runs: int, names: Sequence[str] | None) -> list[dict[str, Any]]:
+def bench_examples(runs: int, paths: Sequence[str]) -> list[dict[str, Any]]:
     """``pick`` (top 10, default time limit) on every bundled example, on the catalogs the
     example names (the built-in catalog; the ``_stock`` variants add the house stock). Each
     run's status is checked against :data:`EXPECTED_EXAMPLE_STATUS`."""
@@ -408,7 +408,7 @@ def bench_examples(runs: int, names: Sequence[str] | None) -> list[dict[str, Any
     from optimizer.verify import verify
 
     rows = []
-    for path in example_paths(names):
+    for path in paths:
         name = os.path.basename(path)[:-5]
         expected = EXPECTED_EXAMPLE_STATUS.get(name, (PROVEN,))
         row: dict[str, Any] = {"example": name, "expected": " or ".join(expected)}
@@ -455,7 +455,7 @@ def bench_examples(runs: int, names: Sequence[str] | None) -> list[dict[str, Any
 
 def example_paths(names: Sequence[str] | None) -> list[str]:
     """The bundled example specs (every ``examples/*.yaml`` but the network catalogs), or those
-    of ``names``; an unknown name raises :class:`SystemExit` listing the known ones."""
+    of ``names``; an unknown name exits (code 2) with a message listing the known ones."""
     paths = [
         p
         for p in sorted(glob.glob(os.path.join(REPO, "examples", "*.yaml")))
@@ -467,9 +467,9 @@ def example_paths(names: Sequence[str] | None) -> list[str]:
     unknown = [n for n in names if n not in known]
     if unknown:
         listed = ", ".join(known)
-        raise SystemExit(
-            f"bench_quartet.py: unknown example(s) {', '.join(unknown)}; known: {listed}"
-        )
+        print(f"bench_quartet.py: unknown example(s) {', '.join(unknown)}; known: {listed}",
+              file=sys.stderr)  # fmt: skip
+        raise SystemExit(2)
     return [known[n] for n in names]
 
 
@@ -998,6 +998,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     runs = args.runs or (1 if quick else 5)
     sections = set(args.sections.split(","))
     names = args.examples.split(",") if args.examples else None
+    paths = example_paths(names) if "examples" in sections else []  # unknown names: exit 2
     if args.scale_sizes:
         scale_sizes = [int(s) for s in args.scale_sizes.split(",")]
     else:
@@ -1027,10 +1028,10 @@ def main(argv: Sequence[str] | None = None) -> int:
     print(header(result), flush=True)
     with tempfile.TemporaryDirectory(prefix="quartet-bench-") as tmp:
         if "examples" in sections:
-            result["examples"] = bench_examples(runs, names)
+            result["examples"] = bench_examples(runs, paths)
             print(section("\npick on the bundled examples (top 10; catalogs as each example names)",
                           result["examples"],
-                          ["example", "runs", "status", "ranked", "pick_s", "cp_sat_s",
+                          ["example", "expected", "runs", "status", "ranked", "pick_s", "cp_sat_s",
                            "build_s", "verify_s"], "example"), flush=True)  # fmt: skip
         if "cli" in sections:
             result["cli"] = bench_cli(runs, os.path.abspath(args.cli_spec), tmp)
