@@ -1,7 +1,7 @@
 """Quartet benchmark: solve time, CLI wall time, CP-SAT against the exhaustive enumerator,
 scaling with catalog size, peak memory and Monte-Carlo throughput.
 
-Run from the repository root::
+Run (from the repository root, or from anywhere with the script's path)::
 
     python tests/benchmarks/bench_quartet.py --json bench.json     # full run, under 10 minutes
     python tests/benchmarks/bench_quartet.py --quick               # smoke run, 1 run, small sizes
@@ -603,7 +603,7 @@ def bench_oracle(runs: int, sizes: Sequence[int], stop_s: float, tmp: str) -> li
                     )
                 picks.append(wall)
         except Exception as exc:  # a failed run: shown, never measured
-            rows.append(failed_row({"parts": n}, exc))
+            rows.append(failed_row({"parts": n, "pick_status": "FAILED"}, exc))
             break
         pick_s = median(picks)
         rows.append(
@@ -712,7 +712,7 @@ def bench_scaling(
     env = child_env()
     ours = os.path.realpath(str(optimizer.__file__))
     for n in sizes:
-        if rows and "timeout_s" in rows[-1]:
+        if any("timeout_s" in r for r in rows):
             rows.append(failed_row({"parts": n}, RunFailed("skipped (a smaller size timed out)")))
             continue
         path = os.path.join(tmp, f"scale_{n}.csv")
