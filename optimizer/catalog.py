@@ -52,7 +52,14 @@ from .units import (
 )
 
 if TYPE_CHECKING:  # pandas is imported where a table is built (it takes a third of a second)
+    import sys
+
     import pandas as pd
+
+    if sys.version_info >= (3, 11):
+        from importlib.resources.abc import Traversable
+    else:
+        from importlib.abc import Traversable
 
 __all__ = [
     "BUILTIN_DISCRETE_SOURCE",
@@ -65,6 +72,7 @@ __all__ = [
     "STOCK_UNCOUNTED",
     "Catalog",
     "builtin_catalog",
+    "builtin_data_folder",
     "catalog_from_parts",
     "empty_discrete_frame",
     "generate_discrete",
@@ -932,8 +940,39 @@ _FAST_SAFE_LOADER: Final[type[yaml.SafeLoader] | type[yaml.CSafeLoader]] = getat
 )
 
 
+#: The built-in catalog data's package (pyproject's package-dir maps the top-level
+#: ``catalogs/`` folder to it) and that folder's name in a source tree.
+_BUILTIN_PACKAGE: Final = "optimizer.catalogs"
+_SOURCE_TREE_FOLDER: Final = "catalogs"
+
+
+def builtin_data_folder() -> Traversable:
+    """The folder holding the built-in catalog data (``discrete_recipe.yaml``,
+    ``networks.yaml``).
+
+    The package ``optimizer.catalogs`` when the import system finds it: a plain install (the
+    wheel carries it as ``optimizer/catalogs/``) or an editable one (which maps it to the
+    checkout's ``catalogs/``). A source tree used without installing has no such package (its
+    ``catalogs/`` sits beside ``optimizer/``, not inside it), so the folder is then that
+    ``catalogs/``, found from this module's own location. Raises :class:`CatalogError` when
+    neither exists."""
+    try:
+        return resources.files(_BUILTIN_PACKAGE)
+    except ModuleNotFoundError as exc:
+        if exc.name not in (_BUILTIN_PACKAGE, None):
+            raise
+    folder = Path(__file__).resolve().parent.parent / _SOURCE_TREE_FOLDER
+    if not (folder / "discrete_recipe.yaml").is_file():
+        raise CatalogError(
+            f"built-in catalog data not found: no package {_BUILTIN_PACKAGE} and no source "
+            "tree folder with discrete_recipe.yaml; reinstall Quartet (pip install .)",
+            path=str(folder),
+        )
+    return folder
+
+
 def _read_builtin(name: str) -> object:
-    text = resources.files("optimizer.catalogs").joinpath(name).read_text(encoding="utf-8")
+    text = builtin_data_folder().joinpath(name).read_text(encoding="utf-8")
     return yaml.load(text, Loader=_FAST_SAFE_LOADER)
 
 

@@ -1,11 +1,21 @@
-"""Shared fixtures."""
+"""Shared fixtures, and the ``optimizer`` package for a source tree used without installing."""
 
 from __future__ import annotations
 
+import importlib.util
 import os
 import shutil
+import sys
+from pathlib import Path
 
 import pytest
+
+# The tests import whatever ``import optimizer`` resolves to (an install, plain or editable).
+# In a checkout with only the dependencies installed, plain ``pytest`` (unlike
+# ``python -m pytest`` run from the root) has no path to the source tree: add it last, so an
+# installed package still comes first.
+if importlib.util.find_spec("optimizer") is None:
+    sys.path.append(str(Path(__file__).resolve().parent.parent))
 
 
 @pytest.fixture(scope="session")

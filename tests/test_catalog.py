@@ -987,17 +987,41 @@ def test_cli_catalog_validate_reports_a_broken_file(tmp_path: Path) -> None:
 # ---------------------------------------------------------------------------------------------
 
 _WHEEL_CHECK = """\
-import json, optimizer
+import json, sys, optimizer
 from importlib import resources
-from optimizer.catalog import builtin_catalog
+from optimizer.catalog import builtin_catalog, builtin_data_folder
 catalog = builtin_catalog()
 print(json.dumps({
     "module": optimizer.__file__,
     "data": str(resources.files("optimizer.catalogs").joinpath("discrete_recipe.yaml")),
+    "folder": str(builtin_data_folder()),
+    "package_loaded": "optimizer.catalogs" in sys.modules,
     "discrete": catalog.discrete_count,
     "networks": catalog.network_count,
 }))
 """
+
+_SOURCE_TREE_CHECK = """\
+import json, sys, optimizer
+from optimizer.catalog import builtin_catalog, builtin_data_folder
+catalog = builtin_catalog()
+print(json.dumps({
+    "module": optimizer.__file__,
+    "folder": str(builtin_data_folder()),
+    "package_loaded": "optimizer.catalogs" in sys.modules,
+    "discrete": catalog.discrete_count,
+    "networks": catalog.network_count,
+}))
+"""
+
+
+def _dependency_folders() -> str:
+    """The folders holding the runtime dependencies (numpy, pandas, ...) of the test runner,
+    joined as ``PYTHONPATH`` wants them."""
+    folders = {
+        str(Path(str(m.__file__)).resolve().parent.parent) for m in (np, pd, ortools, rich, yaml)
+    }
+    return os.pathsep.join(sorted(folders))
 
 
 def test_wheel_install_carries_the_builtin_catalog(tmp_path: Path) -> None:
@@ -1085,6 +1109,9 @@ def test_wheel_install_carries_the_builtin_catalog(tmp_path: Path) -> None:
     report = json.loads(result.stdout)
     assert Path(report["module"]).resolve().is_relative_to(site.resolve())  # not the source tree
     assert Path(report["data"]).resolve().is_relative_to(site.resolve())
+    # builtin_data_folder takes the installed package's resource (importlib.resources).
+    assert Path(report["folder"]).resolve() == Path(report["data"]).resolve().parent
+    assert report["package_loaded"] is True
     assert report["discrete"] >= 20_000 and report["networks"] > 0
     show = subprocess.run(
         [str(python.parent / "quartet"), "catalog", "show"],
@@ -1142,3 +1169,66 @@ def test_generate_discrete_range_low_above_high_is_refused() -> None:
     with pytest.raises(CatalogError) as info:
         generate_discrete(recipe, source="test-recipe")
     assert str(info.value) == ("test-recipe: column 'range': expected low <= high, got [331, 330]")
+
+
+def test_source_tree_without_install_reads_the_top_level_catalogs(tmp_path: Path) -> None:
+    """A checkout used without installing (only the dependencies on the path) has no package
+    ``optimizer.catalogs``: the built-in catalog comes from the tree's top-level ``catalogs/``
+    (``python -S`` keeps out every installed copy of Quartet, editable ones included; the
+    interpreter's working folder is the tree, as for ``python -m optimizer`` run there)."""
+    tree = tmp_path / "checkout"
+    ignore = shutil.ignore_patterns("__pycache__", "*.pyc")
+    for name in ("optimizer", "catalogs"):
+        shutil.copytree(ROOT / name, tree / name, ignore=ignore)
+    env = {
+        **{k: v for k, v in os.environ.items() if k not in ("PYTHONHOME", "PYTHONPATH")},
+        "PYTHONPATH": _dependency_folders(),
+    }
+    result = subprocess.run(
+        [sys.executable, "-S", "-c", _SOURCE_TREE_CHECK],
+        check=True,
+        capture_output=True,
+        text=True,
+        cwd=tree,
+        env=env,
+    )
+    report = json.loads(result.stdout)
+    assert Path(report["module"]).resolve() == (tree / "optimizer" / "__init__.py").resolve()
+    assert Path(report["folder"]).resolve() == (tree / "catalogs").resolve()
+    assert report["package_loaded"] is False
+    assert report["discrete"] >= 20_000 and report["networks"] > 0
+    show = subprocess.run(
+        [sys.executable, "-S", "-m", "optimizer", "catalog", "show"],
+        capture_output=True,
+        text=True,
+        cwd=tree,
+        env=env,
+    )
+    assert show.returncode == 0, show.stderr
+    assert "discrete parts" in show.stdout
+
+
+def test_missing_builtin_data_is_a_located_error(tmp_path: Path) -> None:
+    """A source tree whose ``catalogs/`` is gone: a CatalogError naming the folder, exit 2."""
+    tree = tmp_path / "checkout"
+    shutil.copytree(
+        ROOT / "optimizer", tree / "optimizer", ignore=shutil.ignore_patterns("__pycache__")
+    )
+    env = {
+        **{k: v for k, v in os.environ.items() if k not in ("PYTHONHOME", "PYTHONPATH")},
+        "PYTHONPATH": _dependency_folders(),
+    }
+    show = subprocess.run(
+        [sys.executable, "-S", "-m", "optimizer", "catalog", "show"],
+        capture_output=True,
+        text=True,
+        cwd=tree,
+        env=env,
+    )
+    assert show.returncode == 2
+    assert "Traceback" not in show.stderr
+    assert " ".join(show.stderr.split()) == (
+        f"CatalogError: {tree / 'catalogs'}: built-in catalog data not found: no package "
+        "optimizer.catalogs and no source tree folder with discrete_recipe.yaml; reinstall "
+        "Quartet (pip install .)"
+    )

@@ -21,6 +21,7 @@ combinations (written out beside the test). Catalogs and specs are generated fro
 from __future__ import annotations
 
 import dataclasses
+import functools
 import itertools
 import math
 import random
@@ -346,9 +347,13 @@ def report(seed: object, case: Case, ref: ReferenceResult, result: PickResult, w
     return "\n".join(lines)
 
 
-def compare(seed: object, case: Case) -> tuple[ReferenceResult, PickResult]:
-    """Run both searches and assert they agree (module docstring); return both results."""
-    ref = reference_search(case.spec, case.catalog, verify, top=1)
+def compare(
+    seed: object, case: Case, ref: ReferenceResult | None = None
+) -> tuple[ReferenceResult, PickResult]:
+    """Run both searches (the reference's only when ``ref`` is not given) and assert they agree
+    (module docstring); return both results."""
+    if ref is None:
+        ref = reference_search(case.spec, case.catalog, verify, top=1)
     result = pick(case.spec, case.catalog, verify, top=1, time_limit_s=PICK_TIME_LIMIT_S)
     if result.status is SearchStatus.TIME_LIMIT:
         why = (
@@ -535,24 +540,28 @@ def test_screens_do_not_change_the_answer(seed: int) -> None:
 # The oracle: random cases
 # ---------------------------------------------------------------------------------------------
 
-#: seed -> (feasible, yield basis), filled by the sweep for the share check at the end.
-SWEEP: dict[int, tuple[bool, bool]] = {}
+
+@functools.cache
+def sweep_case(seed: int) -> tuple[Case, ReferenceResult]:
+    """The random case of ``seed`` and the reference's answer on it, computed once per session:
+    the sweep and the share check below both read them, in whichever order they run."""
+    case = random_case(seed)
+    return case, reference_search(case.spec, case.catalog, verify, top=1)
 
 
 @pytest.mark.parametrize("seed", [*range(CASES), *FOUND_BEYOND_SWEEP])
 def test_pick_matches_reference(seed: int) -> None:
-    case = random_case(seed)
-    ref, _ = compare(seed, case)
-    if seed < CASES:
-        SWEEP[seed] = (bool(ref.ranked), case.spec.requirements.cmrr_basis is CmrrBasis.YIELD)
+    case, ref = sweep_case(seed)
+    compare(seed, case, ref)
 
 
 def test_sweep_mix() -> None:
-    """The sweep exercises both outcomes: at least 40 % feasible, at least 10 yield cases."""
-    if len(SWEEP) < CASES:  # a case that failed records nothing
-        pytest.skip("needs the whole random sweep in this session")
-    feasible = sum(f for f, _ in SWEEP.values())
-    yields = sum(y for _, y in SWEEP.values())
+    """The sweep exercises both outcomes: at least 40 % feasible, at least 10 yield cases.
+    Self-contained: it takes the reference's answers from :func:`sweep_case` (computing those
+    the sweep has not run yet), so it holds alone, first or last."""
+    outcomes = [sweep_case(seed) for seed in range(CASES)]
+    feasible = sum(bool(ref.ranked) for _, ref in outcomes)
+    yields = sum(case.spec.requirements.cmrr_basis is CmrrBasis.YIELD for case, _ in outcomes)
     assert feasible >= 0.4 * CASES, f"only {feasible} of {CASES} cases feasible"
     assert CASES - feasible >= 0.1 * CASES, f"only {CASES - feasible} of {CASES} cases infeasible"
     assert yields >= 10

@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import itertools
 from functools import cache
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -31,11 +32,13 @@ from optimizer.specfile import load_spec
 from optimizer.verify import verify
 
 EXAMPLES = ("motor_shunt", "mains_monitor", "bridge_front_end", "industrial_input_stock")
+#: The bundled examples, found from this file (tests run from any folder).
+EXAMPLE_DIR = Path(__file__).resolve().parent.parent / "examples"
 
 
 @cache
 def _example(name: str) -> tuple[Spec, Catalog]:
-    spec = load_spec(f"examples/{name}.yaml")
+    spec = load_spec(EXAMPLE_DIR / f"{name}.yaml")
     catalog = load_catalogs(
         list(spec.preferences.catalogs), include_builtin=spec.preferences.use_builtin_catalogs
     )

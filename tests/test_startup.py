@@ -14,9 +14,9 @@ Sources named beside the checks:
 from __future__ import annotations
 
 import json
+import os
 import subprocess
 import sys
-from importlib import resources
 from pathlib import Path
 
 import numpy as np
@@ -24,7 +24,8 @@ import pandas as pd
 import pytest
 import yaml
 
-from optimizer.catalog import DISCRETE_COLUMNS, generate_discrete
+import optimizer
+from optimizer.catalog import DISCRETE_COLUMNS, builtin_data_folder, generate_discrete
 
 ROOT = Path(__file__).resolve().parent.parent
 SPEC = ROOT / "examples" / "motor_shunt.yaml"
@@ -33,17 +34,25 @@ HEAVY = ("pandas", "ortools")
 
 def _loaded_after(code: str, tmp: Path) -> list[str]:
     """Run ``code`` in a fresh interpreter; the heavy top-level packages it left loaded. The
-    interpreter starts in an empty directory, so ``import optimizer`` finds the installed
-    package (as a user's would), not the source tree (whose ``optimizer.catalogs`` exists only
-    once installed)."""
+    interpreter starts in an empty directory with ``PYTHONPATH`` leading to the folder that
+    holds the ``optimizer`` these tests import (an install, or the source tree when nothing is
+    installed), and the probe checks that it imported that same package."""
+    home = str(Path(str(optimizer.__file__)).resolve().parent.parent)
+    env = {
+        **os.environ,
+        "PYTHONPATH": os.pathsep.join(filter(None, (home, os.environ.get("PYTHONPATH")))),
+    }
     probe = (
-        f"{code}\nimport json, sys\n"
+        f"{code}\nimport json, sys, optimizer\n"
+        "print(json.dumps(optimizer.__file__))\n"
         f"print(json.dumps(sorted({{m.split('.')[0] for m in sys.modules}} & {set(HEAVY)!r})))"
     )
     done = subprocess.run(
-        [sys.executable, "-c", probe], cwd=tmp, capture_output=True, text=True, check=True
+        [sys.executable, "-c", probe], cwd=tmp, env=env, capture_output=True, text=True, check=True
     )
-    loaded: list[str] = json.loads(done.stdout.strip().splitlines()[-1])
+    *_, imported, last = done.stdout.strip().splitlines()
+    assert Path(json.loads(imported)).resolve() == Path(str(optimizer.__file__)).resolve()
+    loaded: list[str] = json.loads(last)
     return loaded
 
 
@@ -85,7 +94,7 @@ def test_builtin_recipes_read_alike_by_libyaml_and_pure_python(name: str) -> Non
     """The catalog's reader gives what PyYAML's pure-Python safe loader gives."""
     from optimizer.catalog import _read_builtin
 
-    text = resources.files("optimizer.catalogs").joinpath(name).read_text(encoding="utf-8")
+    text = builtin_data_folder().joinpath(name).read_text(encoding="utf-8")
     reference = yaml.load(text, Loader=yaml.SafeLoader)
     assert _read_builtin(name) == reference
     if hasattr(yaml, "CSafeLoader"):
