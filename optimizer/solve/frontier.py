@@ -191,35 +191,50 @@ def _min_abs_linear(u0: Array, u1: Array) -> Array:
 def stress_floor(spec: Spec, lim: _Limits, position: int) -> float:
     """A lower bound (volts) of the largest voltage across the resistor at ``position`` (0-based)
     over the signal corners, for any design that meets the gain accuracy and the CMRR floor,
-    before the part's own share ``R/(R + Rs)`` (see :func:`stress_share`). From
-    ``resistor_voltages`` (``analysis.checks``, Ohm's and Kirchhoff's laws):
-    ``V_R1 = (V1 − V−)·R1/R1'``, ``V_R3 = (V2 − VREF)(1 − a)·R3/R3'``,
-    ``V_R4 = (V2 − VREF)·a·R4/R4'`` with ``V− = a·V2 + (1 − a)·VREF − Vout/A`` and ``a`` inside the
-    window the gain and balance conditions leave (:func:`_side_window`). R2 (its voltage needs
-    the output) gets 0: its rating is screened only loosely (:data:`RATING_SCREEN`)."""
-    if position == 1:
-        return 0.0
+    before the part's own share ``R/(R + Rs)`` (:func:`stress_share`). From
+    ``resistor_voltages`` (``analysis.checks``, Ohm's and Kirchhoff's laws): one current flows
+    through R1' and R2, so ``V_R1 = (V1 − V−)·R1/R1'`` and ``V_R2 = (V1 − V−)·R2/R1'`` with
+    ``R2/R1' = c/(1 − c)``; the R3–R4 leg gives ``V_R3 = (V2 − VREF)(1 − a)·R3/R3'`` and
+    ``V_R4 = (V2 − VREF)·a·R4/R4'``; ``V− = a·V2 + (1 − a)·VREF − Vout/A``. The terms ``a`` and
+    ``c`` lie inside the windows the gain and balance conditions leave (:func:`_side_window`)."""
     sig, ref = spec.signal, spec.reference
-    windows = [_side_window(lim, 2, v) for v in range(lim.rs1.size)]
-    a_hi = min(max(w[0] for w in windows), 1.0)
-    a_lo = max(min(w[1] for w in windows), 0.0)
+    vertices = range(lim.rs1.size)
+    a_windows = [_side_window(lim, 2, v) for v in vertices]
+    a_hi = min(max(w[0] for w in a_windows), 1.0)
+    a_lo = max(min(w[1] for w in a_windows), 0.0)
+    c_lo = max(min(_side_window(lim, 1, v)[1] for v in vertices), 0.0)
     if a_lo > a_hi:
         return 0.0
     vcm = np.array([sig.common_mode_min_v, sig.common_mode_max_v])
     vd = np.array([sig.differential_min_v, sig.differential_max_v])
     vref = np.array([ref.voltage_min_v, ref.voltage_max_v])
     cm, d, rf = (g.ravel() for g in np.meshgrid(vcm, vd, vref, indexing="ij"))
-    v1, v2 = cm - d / 2.0, cm + d / 2.0
-    if position == 0:
-        out = lim.gain_max * float(np.max(np.abs(vd))) + float(np.max(np.abs(vref)))
-        out += float(np.max(np.abs(vcm)))
-        slack = out * lim.inv_a
-        u0 = v1 - a_lo * v2 - (1.0 - a_lo) * rf
-        u1 = v1 - a_hi * v2 - (1.0 - a_hi) * rf
-        return max(float(np.max(_min_abs_linear(u0, u1))) - slack, 0.0)
+    v2 = cm + d / 2.0
+    if position in (0, 1):
+        across = inverting_floor(spec, lim, a_lo, a_hi)
+        if position == 0:
+            return across
+        return across * c_lo / (1.0 - c_lo) if c_lo < 1.0 else across
     leg = np.abs(v2 - rf)
     share = (1.0 - a_hi) if position == 2 else a_lo
     return max(float(np.max(leg)) * share, 0.0)
+
+
+def inverting_floor(spec: Spec, lim: _Limits, a_lo: float, a_hi: float) -> float:
+    """Least over ``a ∈ [a_lo, a_hi]`` of ``|V1 − V−|``, largest over the signal corners (volts),
+    with ``V− = a·V2 + (1 − a)·VREF − Vout/A`` and ``|Vout| ≤ G_max·|Vd| + |VREF| + |Vcm|`` (the
+    amplifier's input difference ``Vout/A`` taken against the bound)."""
+    sig, ref = spec.signal, spec.reference
+    vcm = np.array([sig.common_mode_min_v, sig.common_mode_max_v])
+    vd = np.array([sig.differential_min_v, sig.differential_max_v])
+    vref = np.array([ref.voltage_min_v, ref.voltage_max_v])
+    cm, d, rf = (g.ravel() for g in np.meshgrid(vcm, vd, vref, indexing="ij"))
+    v1, v2 = cm - d / 2.0, cm + d / 2.0
+    out = lim.gain_max * float(np.max(np.abs(vd))) + float(np.max(np.abs(vref)))
+    out += float(np.max(np.abs(vcm)))
+    u0 = v1 - a_lo * v2 - (1.0 - a_lo) * rf
+    u1 = v1 - a_hi * v2 - (1.0 - a_hi) * rf
+    return max(float(np.max(_min_abs_linear(u0, u1))) - out * lim.inv_a, 0.0)
 
 
 def stress_share(lim: _Limits, position: int, r_low: Array) -> Array:
@@ -251,12 +266,22 @@ class _Parts:
     rows: tuple[IntArray, ...]
     costs: tuple[Array, ...]
     span: tuple[IntArray, ...]
+    spread: Array  # per class: the exact check's corner deviation δ (analysis.checks)
+    power_w: Array  # per catalog row: power rating derated to the hottest temperature
+    volts: Array  # per catalog row: limiting voltage
 
     def variants(self, position: int, key: tuple[int, int]) -> list[tuple[float, int]]:
         """(cost, catalog row) of every usable part of class and value ``key``, cheapest first."""
         start, stop = self.span[position][key]
         rows = self.rows[position][start:stop].tolist()
         return list(zip(self.costs[position][start:stop].tolist(), rows, strict=True))
+
+
+def _temperature_span(spec: Spec) -> float:
+    """``max(|Tmin − 25 °C|, |Tmax − 25 °C|)`` in kelvin: the tempco term of
+    ``analysis.checks.value_spread`` (δ = tolerance + tempco·span)."""
+    req = spec.requirements
+    return max(abs(req.temp_min_c - 25.0), abs(req.temp_max_c - 25.0))
 
 
 def _discrete_parts(
@@ -325,7 +350,9 @@ def _discrete_parts(
         spans.append(span)
     return _Parts(
         values, lo, hi, tuple(best), tuple(best_cost), tuple(kept_rows), tuple(kept_costs),
-        tuple(spans),
+        tuple(spans), classes[:, 0] + classes[:, 1] * _temperature_span(spec),
+        frame["power_w"].to_numpy(float) * env.derating,
+        frame["max_voltage_v"].to_numpy(float),
     )  # fmt: skip
 
 
@@ -640,6 +667,30 @@ def _emit(
         picked = [_cached_part(catalog, row, part_cache) for row in rows]
         return parts_cost(picked, spec.preferences).total
 
+    across = stress_floor(spec, lim, 0)  # least |V1 − V−| over the signal corners
+
+    def feedback_rated(electrical: tuple[tuple[int, int], ...], row: int) -> bool:
+        """R2 carries R1's current ``I = (V1 − V−)/R1'`` (``analysis.checks.resistor_voltages``),
+        which does not depend on R2: at the corner with R1 low and R2 high the part at R2 sees
+        ``I·R2`` and dissipates ``I²·R2`` (at the check's own corner values, with the
+        spread of ``analysis.checks.value_spread``), with ``|V1 − V−|`` at least its least over this
+        design's own range of ``a`` (:func:`inverting_floor`). A part that cannot bear that
+        fails the exact rating check, which takes the worst corner."""
+        if across <= 0.0:
+            return True
+        (c1, k1), (c2, k2), (c3, k3), (c4, k4) = electrical
+        # A corner of the exact check: R1·(1 − δ1) and R2·(1 + δ2) (``value_spread``).
+        r1_lo = parts.values[k1] * (1.0 - parts.spread[c1]) + float(lim.rs1.min())
+        r2_hi = parts.values[k2] * (1.0 + parts.spread[c2])
+        r3_lo, r3_hi = parts.values[k3] * parts.lo[c3], parts.values[k3] * parts.hi[c3]
+        r4_lo, r4_hi = parts.values[k4] * parts.lo[c4], parts.values[k4] * parts.hi[c4]
+        a_lo = float(np.min((r4_lo + lim.rref) / (r3_hi + lim.rs3 + r4_lo + lim.rref)))
+        a_hi = float(np.max((r4_hi + lim.rref) / (r3_lo + lim.rs3 + r4_hi + lim.rref)))
+        current = max(inverting_floor(spec, lim, a_lo, a_hi), across) / r1_lo * (1.0 - 1e-9)
+        return bool(
+            parts.volts[row] >= current * r2_hi and parts.power_w[row] >= current**2 * r2_hi
+        )
+
     heap: list[tuple[float, int, int, object]] = []
     tick = itertools.count()
     next_pair = 0
@@ -696,7 +747,8 @@ def _emit(
                 seen.add((electrical, nxt))
                 bound_next = sum(lists[j][nxt[j]][0] for j in range(4)) + lines
                 heapq.heappush(heap, (bound_next, _BOUND, next(tick), (electrical, nxt)))
-        yield _discrete_design(catalog, rows, part_cache)
+        if feedback_rated(electrical, rows[1]):
+            yield _discrete_design(catalog, rows, part_cache)
 
 
 def _distinct_parts(keys: IntArray) -> IntArray:
