@@ -2,7 +2,8 @@
 prints through Rich. It is the only module that talks to the terminal.
 
 Exit codes: 0 success; 1 a requirement not met or nothing feasible; 2 bad input; 3 the time
-limit ended the search with a best design found (not proven optimal).
+limit ended the search with a best design found (not proven optimal); 130 / 143 interrupted by
+SIGINT / SIGTERM (128 + the signal number).
 """
 
 from __future__ import annotations
@@ -16,6 +17,7 @@ from typing import TYPE_CHECKING
 from rich.console import Console
 from rich.markup import escape
 
+from . import interrupt
 from ._version import __version__
 from .errors import QuartetError
 
@@ -197,8 +199,9 @@ def _check(args: argparse.Namespace, console: Console) -> int:
     from .userdesign import build_user_design
     from .verify import verify
 
-    _refuse_existing_outputs(args)
+    _check_outputs(args)
     spec = load_spec(args.spec)
+    _check_outputs(args, spec)
     if args.seed is not None:
         spec = dataclasses.replace(
             spec, preferences=dataclasses.replace(spec.preferences, seed=args.seed)
@@ -282,6 +285,10 @@ def _add_pick_command(commands: argparse._SubParsersAction[_Parser]) -> None:
     )  # fmt: skip
     pick.add_argument("--json", action="store_true", help="write the result as JSON")
     _add_export_options(pick, "the best design (rank 1)")
+    pick.add_argument(
+        "--write-partial", action="store_true",
+        help="when interrupted, still write the files for the best design found so far",
+    )  # fmt: skip
     pick.set_defaults(handler=_pick)
 
 
@@ -295,8 +302,9 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
     from .specfile import load_spec
     from .verify import verify
 
-    _refuse_existing_outputs(args)
+    _check_outputs(args)
     spec = load_spec(args.spec)
+    _check_outputs(args, spec)
     if args.stock_only:
         spec = dataclasses.replace(
             spec, preferences=dataclasses.replace(spec.preferences, stock=StockPolicy.ONLY)
@@ -305,13 +313,18 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
         spec = with_objective(spec, Objective(args.objective))
     catalog = _spec_catalogs(spec, args.catalog)
     top = args.top if args.top is not None else spec.preferences.alternatives
-    result = pick(spec, catalog, verify, top=top, time_limit_s=args.time_limit)
+    # A signal during the search stops it; the search then returns what it found so far.
+    with interrupt.winding_down():
+        result = pick(spec, catalog, verify, top=top, time_limit_s=args.time_limit)
+    stopped = interrupt.cancelled()
     diagnosis = None
-    if result.status is SearchStatus.INFEASIBLE:
+    if result.status is SearchStatus.INFEASIBLE and not stopped:
         from .solve.diagnose import diagnose
 
         limit = min(DIAGNOSIS_TIME_LIMIT_S, args.time_limit)
-        diagnosis = diagnose(spec, catalog, verify, time_limit_s=limit)
+        with interrupt.winding_down():
+            diagnosis = diagnose(spec, catalog, verify, time_limit_s=limit)
+        interrupt.check()
     report = build_pick_report(
         spec,
         result,
@@ -319,6 +332,7 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
         time_limit_s=args.time_limit,
         cautions=safety_cautions(spec),
         diagnosis=diagnosis,
+        interrupted=stopped,
     )
     json_text = pick_json_text(pick_to_json(report))
     if args.json:
@@ -326,18 +340,33 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
     else:
         console.print(render_pick(report))
     winner = report.winner
+    if stopped and not args.write_partial:
+        count = len(report.ranked)
+        found = f"the {count} design(s) above are" if count else "no design was"
+        raise interrupt.Interrupted(
+            interrupt.signal_number(),
+            f"the search was stopped; {found} found so far (not proven best); no file was "
+            "written (--write-partial writes the files of the best design found so far)",
+        )
     if winner is not None:
         _write_exports(
             args, console, spec, winner.design, winner.verification, json_text, pick_report=report
         )
-        _verify_spice(args, console, spec, winner.design)
+        if not stopped:
+            _verify_spice(args, console, spec, winner.design)
     elif args.json_out is not None:
-        _write_file(args, console, args.json_out, json_text + "\n")
+        _write_outputs(args, console, [(args.json_out, json_text + "\n")])
     if winner is None and (args.bom or args.netlist or args.report or args.verify_spice):
         _notes(args, console).print(
             "[yellow]warning[/yellow]: no design was found, so no BOM, netlist or report was "
             "written and nothing was simulated",
             highlight=False,
+        )
+    if stopped:
+        raise interrupt.Interrupted(
+            interrupt.signal_number(),
+            "the search was stopped; the files above hold the best design found so far "
+            "(not proven best)",
         )
     if result.status is SearchStatus.OPTIMAL:
         return EXIT_OK
@@ -371,47 +400,60 @@ def _add_export_options(parser: argparse.ArgumentParser, what: str) -> None:
 
 
 def _export_paths(args: argparse.Namespace) -> list[str]:
-    return [p for p in (args.bom, args.json_out, args.netlist, args.report) if p is not None]
+    names = ("bom", "json_out", "netlist", "report")
+    return [p for p in (getattr(args, n, None) for n in names) if p is not None]
 
 
-def _refuse_existing_outputs(args: argparse.Namespace) -> None:
-    """Fail before any work when an output file exists without --force, its folder is missing,
-    one file is named for two outputs, or a report has an extension other than .md or .html."""
-    import os
+def _check_outputs(args: argparse.Namespace, spec: Spec | None = None) -> None:
+    """Fail before any work when an output path may not be written: not a regular file (a
+    device, FIFO, folder or a symlink to one), exists without --force, folder missing or not
+    writable, one file named for two outputs, an input of the run (the spec, a catalog), a
+    report with an extension other than .md or .html, or standard output asked twice or beside
+    --json."""
+    from .safewrite import STDOUT, OutputError, check_outputs
 
-    from .safewrite import OutputError
-
-    if args.report is not None:
+    if args.report is not None and args.report != STDOUT:
         from .report.exports import report_format
 
         if report_format(args.report) is None:
             raise OutputError(f"{args.report}: a report file must end in .md or .html")
-    seen: dict[str, str] = {}
-    for path in _export_paths(args):
-        real = os.path.realpath(path)
-        if real in seen:
-            raise OutputError(f"{path}: named for two outputs; give each output its own file")
-        seen[real] = path
-        folder = os.path.dirname(path) or "."
-        if not os.path.isdir(folder):
-            raise OutputError(f"{path}: folder {folder} does not exist")
-        if os.path.exists(path) and not args.force:
-            raise OutputError(f"{path}: already exists; give --force to replace it")
+    paths = _export_paths(args)
+    if STDOUT in paths and getattr(args, "json", False):
+        raise OutputError(
+            f"{STDOUT}: --json already prints its document on standard output; send the "
+            "export to a file"
+        )
+    inputs = [args.spec, *getattr(args, "catalog", [])]
+    if spec is not None:
+        inputs += list(spec.preferences.catalogs)
+    check_outputs(paths, force=args.force, inputs=inputs)
 
 
 def _notes(args: argparse.Namespace, console: Console) -> Console:
-    """Where side notes go: standard error when --json puts a document on standard output."""
+    """Where side notes go: standard error when --json or an export to standard output
+    (``-``) puts a document on standard output."""
+    from .safewrite import STDOUT
+
     note_console: Console | None = getattr(args, "note_console", None)
-    if getattr(args, "json", False):
+    if getattr(args, "json", False) or STDOUT in _export_paths(args):
         return note_console if note_console is not None else Console(stderr=True)
     return console
 
 
-def _write_file(args: argparse.Namespace, console: Console, path: str, text: str) -> None:
-    from .safewrite import write_text
+def _write_outputs(
+    args: argparse.Namespace, console: Console, outputs: Sequence[tuple[str, str]]
+) -> None:
+    """Write ``(path, text)`` outputs as one step (safewrite.write_all: all or none), then the
+    one meant for standard output (``-``), if any."""
+    from .safewrite import STDOUT, write_all
 
-    written = write_text(path, text, force=args.force)
-    _notes(args, console).print(f"wrote {escape(str(written))}", highlight=False)
+    files = [(path, text.encode("utf-8")) for path, text in outputs if path != STDOUT]
+    for written in write_all(files, force=args.force):
+        _notes(args, console).print(f"wrote {escape(str(written))}", highlight=False)
+    for path, text in outputs:
+        if path == STDOUT:
+            sys.stdout.write(text)
+            sys.stdout.flush()
 
 
 def _write_exports(
@@ -425,23 +467,26 @@ def _write_exports(
     pick_report: PickReport | None,
 ) -> None:
     """Write the files asked for (all through safewrite; --force replaces existing ones)."""
+    from .safewrite import STDOUT
+
+    outputs: list[tuple[str, str]] = []
     if args.bom is not None:
         from .report.exports import bom_csv_text
 
-        _write_file(args, console, args.bom, bom_csv_text(design))
+        outputs.append((args.bom, bom_csv_text(design)))
     if args.json_out is not None:
-        _write_file(args, console, args.json_out, json_text + "\n")
+        outputs.append((args.json_out, json_text + "\n"))
     if args.netlist is not None:
         from .analysis.checks import safety_cautions
         from .netlist import design_netlist
 
         netlist = design_netlist(design, spec, cautions=safety_cautions(spec))
-        _write_file(args, console, args.netlist, netlist)
+        outputs.append((args.netlist, netlist))
     if args.report is not None:
         from .report.exports import check_blocks, pick_blocks, render_report, report_format
 
-        fmt = report_format(args.report)
-        assert fmt is not None  # checked by _refuse_existing_outputs
+        fmt = "md" if args.report == STDOUT else report_format(args.report)
+        assert fmt is not None  # checked by _check_outputs
         title = f"Quartet {'pick' if pick_report else 'check'}: {spec.title or spec.source_path}"
         blocks = []
         if pick_report is not None:
@@ -450,7 +495,8 @@ def _write_exports(
             ]
             blocks += pick_blocks(rows, spec, pick_report.result.status.value.replace("_", " "))
         blocks += check_blocks(design, spec, verification)
-        _write_file(args, console, args.report, render_report(title, blocks, fmt))
+        outputs.append((args.report, render_report(title, blocks, fmt)))
+    _write_outputs(args, console, outputs)
 
 
 def _verify_spice(args: argparse.Namespace, console: Console, spec: Spec, design: Design) -> None:
@@ -517,12 +563,10 @@ def _add_sweep_command(commands: argparse._SubParsersAction[_Parser]) -> None:
 
 
 def _sweep(args: argparse.Namespace, console: Console) -> int:
-    import os
-
     from rich.progress import Progress
 
     from .report.sweep import render_sweep_table, sweep_plot, sweep_text_chart
-    from .safewrite import OutputError, write_bytes
+    from .safewrite import OutputError, check_outputs, write_bytes
     from .specfile import load_spec
     from .sweep import parse_range, sweep
 
@@ -532,8 +576,7 @@ def _sweep(args: argparse.Namespace, console: Console) -> int:
         fmt = "png" if lower.endswith(".png") else "svg" if lower.endswith(".svg") else None
         if fmt is None:
             raise OutputError(f"{args.plot}: a plot file must end in .png or .svg")
-        if os.path.exists(args.plot) and not args.force:
-            raise OutputError(f"{args.plot}: already exists; give --force to replace it")
+        check_outputs([args.plot], force=args.force, inputs=[args.spec, *args.catalog])
     if args.cmrr is not None:
         floors = parse_range(args.cmrr, "--cmrr")
     else:
@@ -597,13 +640,23 @@ def main(
     handler: Handler = args.handler
     # Side notes (files written, the simulator cross-check) go here when stdout carries JSON.
     args.note_console = errors
+    from .safewrite import STDOUT
+
+    if console is None and STDOUT in _export_paths(args):
+        out = errors  # standard output carries the export
+    interrupt.reset()
     try:
-        return handler(args, out)
+        with interrupt.armed():
+            return handler(args, out)
     except QuartetError as exc:
         # escape: messages quote the user's own text, which may contain [markup].
         name = type(exc).__name__
         errors.print(f"[bold red]{name}[/bold red]: {escape(str(exc))}", highlight=False)
         return EXIT_BAD_INPUT
+    except interrupt.Interrupted as exc:
+        detail = f": {exc.detail}" if exc.detail else ""
+        errors.print(f"interrupted{escape(detail)}", highlight=False)
+        return exc.exit_code
     except KeyboardInterrupt:
         errors.print("interrupted")
         return 130

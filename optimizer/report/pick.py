@@ -153,6 +153,8 @@ class PickReport:
     time_limit_s: float
     statistics_seconds: float
     cautions: tuple[str, ...]
+    #: A signal (SIGINT, SIGTERM) stopped the search: the designs are those found so far.
+    interrupted: bool = False
 
     @property
     def winner(self) -> Shown | None:
@@ -181,6 +183,7 @@ def build_pick_report(
     time_limit_s: float,
     cautions: Sequence[str],
     diagnosis: Diagnosis | None = None,
+    interrupted: bool = False,
 ) -> PickReport:
     """The report of one pick: runs the Monte Carlo (``spec.preferences`` samples and seed)
     for every displayed design that has none yet."""
@@ -210,6 +213,7 @@ def build_pick_report(
         time_limit_s=time_limit_s,
         statistics_seconds=time.perf_counter() - started,
         cautions=tuple(cautions),
+        interrupted=interrupted,
     )
 
 
@@ -344,20 +348,22 @@ def render_status(report: PickReport) -> Text:
         else:
             text.append(f": the {found} best design(s) by {_objective_words(report.spec)}")
     elif r.status is SearchStatus.TIME_LIMIT:
-        stopped = (
-            f"the search stopped after {r.cuts} rejected candidates"
-            if r.cuts >= MAX_CUTS
-            else f"the time limit ({report.time_limit_s:g} s) ran out"
-        )
+        if report.interrupted:
+            stopped = "the search was interrupted"
+        elif r.cuts >= MAX_CUTS:
+            stopped = f"the search stopped after {r.cuts} rejected candidates"
+        else:
+            stopped = f"the time limit ({report.time_limit_s:g} s) ran out"
         gap = "gap unknown" if r.gap is None else f"gap {r.gap * 100:.2f} %"
         if found:
             text.append("best found, NOT proven optimal", style="bold yellow")
             text.append(f": {stopped}; {gap}")
         else:
             text.append("no design found", style="bold yellow")
+            hint = "" if report.interrupted else " (a longer --time-limit may find one)"
             text.append(
                 f": {stopped} before any design passed the exact check; this does not prove "
-                "that none exists (a longer --time-limit may find one)"
+                f"that none exists{hint}"
             )
     else:
         text.append("nothing meets the spec", style="bold red")
