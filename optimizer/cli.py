@@ -35,6 +35,16 @@ EXIT_TIME_LIMIT = 3
 
 Handler = Callable[[argparse.Namespace, Console], int]
 
+#: Longest piece of the user's own text quoted back in a message (longer text is cut).
+QUOTE_CHARS = 60
+
+
+def _short(text: str) -> str:
+    """``repr`` of the user's text, cut to QUOTE_CHARS characters and one line."""
+    line = text.splitlines()[0] if text.splitlines() else text
+    cut = line if len(line) <= QUOTE_CHARS else line[: QUOTE_CHARS - 1] + "…"
+    return repr(cut) + ("" if cut == text else f" ({len(text):,} characters)")
+
 
 class _Parser(argparse.ArgumentParser):
     """argparse that raises instead of exiting, so ``main`` controls output and exit codes."""
@@ -123,20 +133,25 @@ def _spec_validate(args: argparse.Namespace, console: Console) -> int:
 # ---------------------------------------------------------------------------------------------
 
 
-def _whole_number(minimum: int) -> Callable[[str], int]:
+def _whole_number(minimum: int, maximum: int | None = None) -> Callable[[str], int]:
     def parse(text: str) -> int:
+        shown = _short(text)
         try:
             value = int(text.replace("_", "").replace(",", ""))
         except ValueError:
-            raise argparse.ArgumentTypeError(f"expected a whole number, got {text!r}") from None
+            raise argparse.ArgumentTypeError(f"expected a whole number, got {shown}") from None
         if value < minimum:
-            raise argparse.ArgumentTypeError(f"expected {minimum} or more, got {text!r}")
+            raise argparse.ArgumentTypeError(f"expected {minimum} or more, got {shown}")
+        if maximum is not None and value > maximum:
+            raise argparse.ArgumentTypeError(f"expected at most {maximum:,}, got {shown}")
         return value
 
     return parse
 
 
 def _add_check_command(commands: argparse._SubParsersAction[_Parser]) -> None:
+    from .spec import MAX_SAMPLES
+
     check = commands.add_parser(
         "check",
         help="verify a design of your own against a spec",
@@ -171,7 +186,10 @@ def _add_check_command(commands: argparse._SubParsersAction[_Parser]) -> None:
         "--catalog", action="append", default=[], metavar="PATH",
         help="extra catalog file for the ids (repeatable); the spec's catalogs are always read",
     )  # fmt: skip
-    check.add_argument("--samples", type=_whole_number(1), metavar="N", help="Monte-Carlo builds")
+    check.add_argument(
+        "--samples", type=_whole_number(1, MAX_SAMPLES), metavar="N",
+        help=f"Monte-Carlo builds (at most {MAX_SAMPLES:,})",
+    )  # fmt: skip
     check.add_argument("--seed", type=_whole_number(0), metavar="S", help="Monte-Carlo seed")
     check.add_argument("--json", action="store_true", help="write the result as JSON")
     _add_export_options(check, "the checked design")
@@ -200,6 +218,7 @@ def _check(args: argparse.Namespace, console: Console) -> int:
     from .verify import verify
 
     _check_outputs(args)
+    _stage("spec")
     spec = load_spec(args.spec)
     _check_outputs(args, spec)
     if args.seed is not None:
@@ -208,6 +227,7 @@ def _check(args: argparse.Namespace, console: Console) -> int:
         )
     catalog = None
     if args.parts is not None or args.network:
+        _stage("catalog")
         catalog = _spec_catalogs(spec, args.catalog)
     user = build_user_design(
         values=(args.r1, args.r2, args.r3, args.r4),
@@ -220,6 +240,7 @@ def _check(args: argparse.Namespace, console: Console) -> int:
         power=args.power,
         max_voltage=args.max_voltage,
     )
+    _stage("monte-carlo")
     result = verify(user.design, spec, statistics=True, samples=args.samples)
     extra = {"origins": user.origins, "assumptions": user.assumptions}
     json_text = check_json_text(check_to_json(user.design, spec, result, **extra))
@@ -303,6 +324,7 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
     from .verify import verify
 
     _check_outputs(args)
+    _stage("spec")
     spec = load_spec(args.spec)
     _check_outputs(args, spec)
     if args.stock_only:
@@ -311,8 +333,10 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
         )
     if args.objective is not None:
         spec = with_objective(spec, Objective(args.objective))
+    _stage("catalog")
     catalog = _spec_catalogs(spec, args.catalog)
     top = args.top if args.top is not None else spec.preferences.alternatives
+    _stage("search")
     # A signal during the search stops it; the search then returns what it found so far.
     with interrupt.winding_down():
         result = pick(spec, catalog, verify, top=top, time_limit_s=args.time_limit)
@@ -325,6 +349,7 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
         with interrupt.winding_down():
             diagnosis = diagnose(spec, catalog, verify, time_limit_s=limit)
         interrupt.check()
+    _stage("statistics")
     report = build_pick_report(
         spec,
         result,
@@ -340,11 +365,14 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
     else:
         console.print(render_pick(report))
     winner = report.winner
+    signum = interrupt.signal_number()
+    if stopped and args.write_partial:
+        interrupt.reset()  # write what was found; a second signal stops the writing
     if stopped and not args.write_partial:
         count = len(report.ranked)
         found = f"the {count} design(s) above are" if count else "no design was"
         raise interrupt.Interrupted(
-            interrupt.signal_number(),
+            signum,
             f"the search was stopped; {found} found so far (not proven best); no file was "
             "written (--write-partial writes the files of the best design found so far)",
         )
@@ -364,7 +392,7 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
         )
     if stopped:
         raise interrupt.Interrupted(
-            interrupt.signal_number(),
+            signum,
             "the search was stopped; the files above hold the best design found so far "
             "(not proven best)",
         )
@@ -429,6 +457,25 @@ def _check_outputs(args: argparse.Namespace, spec: Spec | None = None) -> None:
     check_outputs(paths, force=args.force, inputs=inputs)
 
 
+#: Environment variable: a debugging aid the interrupt tests use. When set, each stage of a run
+#: prints ``quartet-stage: NAME`` to standard error; when it names a stage, the run also waits
+#: there for STAGE_PAUSE_S seconds (a signal ends the wait).
+STAGES_VARIABLE = "QUARTET_STAGES"
+STAGE_PAUSE_S = 5.0
+
+
+def _stage(name: str) -> None:
+    wanted = os.environ.get(STAGES_VARIABLE)
+    if not wanted:
+        return
+    sys.stderr.write(f"quartet-stage: {name}\n")
+    sys.stderr.flush()
+    if wanted == name:
+        import time
+
+        time.sleep(STAGE_PAUSE_S)
+
+
 def _notes(args: argparse.Namespace, console: Console) -> Console:
     """Where side notes go: standard error when --json or an export to standard output
     (``-``) puts a document on standard output."""
@@ -448,8 +495,9 @@ def _write_outputs(
     from .safewrite import STDOUT, write_all
 
     files = [(path, text.encode("utf-8")) for path, text in outputs if path != STDOUT]
-    for written in write_all(files, force=args.force):
-        _notes(args, console).print(f"wrote {escape(str(written))}", highlight=False)
+    if files:
+        for written in write_all(files, force=args.force, staged=lambda: _stage("writing")):
+            _notes(args, console).print(f"wrote {escape(str(written))}", highlight=False)
     for path, text in outputs:
         if path == STDOUT:
             sys.stdout.write(text)

@@ -15,7 +15,7 @@ from __future__ import annotations
 import os
 import stat
 import tempfile
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from pathlib import Path
 
 from . import interrupt
@@ -217,24 +217,30 @@ class _Staged:
 
 
 def write_all(
-    outputs: Sequence[tuple[str | os.PathLike[str], bytes]], *, force: bool = False
+    outputs: Sequence[tuple[str | os.PathLike[str], bytes]],
+    *,
+    force: bool = False,
+    staged: Callable[[], None] | None = None,
 ) -> list[Path]:
     """Write every ``(path, data)`` as one step: each into a temporary file beside its target
     first; only when all are written are they renamed into place (an interrupt does not cut the
     renames in two). A failure or an interrupt before the renames leaves every target as it was
-    and no temporary file behind. Returns the paths as given."""
-    staged: list[_Staged] = []
+    and no temporary file behind. ``staged`` is called between the two steps. Returns the paths
+    as given."""
+    pending: list[_Staged] = []
     try:
         for path, data in outputs:
             interrupt.check()
-            staged.append(_Staged(path, data, force))
+            pending.append(_Staged(path, data, force))
+        if staged is not None:
+            staged()
         interrupt.check()
         with interrupt.deferred():
-            for item in staged:
+            for item in pending:
                 item.commit()
-        staged = []
+        pending = []
     finally:
-        for item in staged:
+        for item in pending:
             item.discard()
     return [Path(path) for path, _ in outputs]
 

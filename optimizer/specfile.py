@@ -45,6 +45,7 @@ from .design import Topology
 from .errors import ModelError, SpecError, UnitError
 from .parts import Amplifier, RailSpan
 from .spec import (
+    MAX_SAMPLES,
     CmrrBasis,
     Distribution,
     Objective,
@@ -1057,7 +1058,7 @@ class _Schema:
         mc = r.section(m, "monte_carlo", MONTE_CARLO_KEYS)
         if mc is not None:
             samples = mc.opt(
-                "samples", r.integer("a whole number from 100 to 100,000,000"), samples
+                "samples", r.integer(f"a whole number from 100 to {MAX_SAMPLES:,}"), samples
             )
             seed = mc.opt("seed", r.integer("a whole number of zero or more"), seed)
             distribution = mc.opt("distribution", r.choice(Distribution), distribution)
