@@ -87,6 +87,11 @@ def _add_catalog_commands(commands: argparse._SubParsersAction[_Parser]) -> None
     show.set_defaults(handler=_catalog_show)
     validate = sub.add_parser("validate", help="check a catalog file row by row")
     validate.add_argument("paths", nargs="+", metavar="PATH")
+    validate.add_argument(
+        "--alone", action="store_true",
+        help="do not compare ids with the built-in catalog (for specs with builtin_catalogs: "
+        "false)",
+    )  # fmt: skip
     validate.set_defaults(handler=_catalog_validate)
 
 
@@ -99,11 +104,38 @@ def _add_spec_commands(commands: argparse._SubParsersAction[_Parser]) -> None:
     validate.set_defaults(handler=_spec_validate)
 
 
+def _catalog_notes(args: argparse.Namespace, console: Console, catalog: Catalog) -> None:
+    """The notes on how catalog files were read (encoding, separator, ignored columns), once
+    each."""
+    for note in dict.fromkeys(catalog.notes):
+        _notes(args, console).print(f"note: {escape(note)}", highlight=False)
+
+
+def _once(args: argparse.Namespace, console: Console, paths: Sequence[str]) -> list[str]:
+    """``paths`` with a file named twice (by any name) kept once, and a note saying so."""
+    import os
+
+    kept: dict[str, str] = {}
+    for path in paths:
+        real = os.path.realpath(path)
+        if real not in kept:
+            kept[real] = path
+            continue
+        first = kept[real]
+        shown = path if first == path else f"{path} (the same file as {first})"
+        _notes(args, console).print(
+            f"note: {escape(shown)}: named more than once; read once", highlight=False
+        )
+    return list(kept.values())
+
+
 def _catalog_show(args: argparse.Namespace, console: Console) -> int:
     from .catalog import load_catalogs
     from .report.catalog import render_catalog_summary
 
-    catalog = load_catalogs(args.paths, include_builtin=not args.paths)
+    paths = _once(args, console, args.paths)
+    catalog = load_catalogs(paths, include_builtin=not paths)
+    _catalog_notes(args, console, catalog)
     console.print(render_catalog_summary(catalog))
     return EXIT_OK
 
@@ -112,9 +144,12 @@ def _catalog_validate(args: argparse.Namespace, console: Console) -> int:
     from .catalog import load_catalogs
     from .report.catalog import render_catalog_summary
 
-    catalog = load_catalogs(args.paths, include_builtin=False)
+    paths = _once(args, console, args.paths)
+    catalog = load_catalogs(paths, include_builtin=False, check_builtin=not args.alone)
+    _catalog_notes(args, console, catalog)
     console.print(render_catalog_summary(catalog))
-    console.print(f"[green]valid[/green]: {', '.join(args.paths)}")
+    checked = "" if args.alone else " (ids checked against the built-in catalog)"
+    console.print(f"[green]valid[/green]: {escape(', '.join(paths))}{checked}")
     return EXIT_OK
 
 
@@ -196,9 +231,10 @@ def _add_check_command(commands: argparse._SubParsersAction[_Parser]) -> None:
     check.set_defaults(handler=_check)
 
 
-def _spec_catalogs(spec: Spec, extra: Sequence[str]) -> Catalog:
+def _spec_catalogs(spec: Spec, extra: Sequence[str], notes: Console | None = None) -> Catalog:
     """The spec's catalogs, then ``extra`` files (a file named twice is read once), plus the
-    built-in catalogs unless the spec says ``builtin_catalogs: false``."""
+    built-in catalogs unless the spec says ``builtin_catalogs: false``; the reading notes go
+    to ``notes``."""
     import os
 
     from .catalog import load_catalogs
@@ -206,7 +242,11 @@ def _spec_catalogs(spec: Spec, extra: Sequence[str]) -> Catalog:
     paths: dict[str, str] = {}
     for path in (*spec.preferences.catalogs, *extra):
         paths.setdefault(os.path.realpath(path), path)
-    return load_catalogs(list(paths.values()), spec.preferences.use_builtin_catalogs)
+    catalog = load_catalogs(list(paths.values()), spec.preferences.use_builtin_catalogs)
+    if notes is not None:
+        for note in dict.fromkeys(catalog.notes):
+            notes.print(f"note: {escape(note)}", highlight=False)
+    return catalog
 
 
 def _check(args: argparse.Namespace, console: Console) -> int:
@@ -228,7 +268,7 @@ def _check(args: argparse.Namespace, console: Console) -> int:
     catalog = None
     if args.parts is not None or args.network:
         _stage("catalog")
-        catalog = _spec_catalogs(spec, args.catalog)
+        catalog = _spec_catalogs(spec, args.catalog, _notes(args, console))
     user = build_user_design(
         values=(args.r1, args.r2, args.r3, args.r4),
         parts=args.parts,
@@ -334,7 +374,7 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
     if args.objective is not None:
         spec = with_objective(spec, Objective(args.objective))
     _stage("catalog")
-    catalog = _spec_catalogs(spec, args.catalog)
+    catalog = _spec_catalogs(spec, args.catalog, _notes(args, console))
     top = args.top if args.top is not None else spec.preferences.alternatives
     _stage("search")
     # A signal during the search stops it; the search then returns what it found so far.
@@ -630,7 +670,7 @@ def _sweep(args: argparse.Namespace, console: Console) -> int:
     else:
         floors = tuple(p / 100.0 for p in parse_range(args.gain_accuracy, "--gain-accuracy"))
     spec = load_spec(args.spec)
-    catalog = _spec_catalogs(spec, args.catalog)
+    catalog = _spec_catalogs(spec, args.catalog, _notes(args, console))
     with Progress(console=console, transient=True) as progress:
         what = "CMRR floor" if args.cmrr is not None else "gain accuracy"
         task = progress.add_task(f"sweeping the {what}", total=len(floors))

@@ -43,6 +43,7 @@ from yaml.nodes import MappingNode, Node, ScalarNode, SequenceNode
 
 from .design import Topology
 from .errors import ModelError, SpecError, UnitError
+from .inputs import MAX_DEPTH, SPEC_MAX_BYTES, read_bounded, yaml_too_deep
 from .parts import Amplifier, RailSpan
 from .spec import (
     MAX_SAMPLES,
@@ -1218,6 +1219,13 @@ def _yaml_error(path: str, exc: yaml.YAMLError) -> SpecError:
 def parse_spec_text(text: str, path: str) -> Spec:
     """Read a spec from YAML ``text``; ``path`` names the file in messages and is the base for
     relative catalog paths. Raises :class:`SpecError` listing every problem found."""
+    deep = yaml_too_deep(text)
+    if deep is not None:
+        raise SpecError(
+            f"mappings and lists nest deeper than {MAX_DEPTH} levels; a spec needs 4",
+            path=path,
+            line=deep,
+        )
     try:
         root = yaml.compose(text, Loader=yaml.SafeLoader)
     except yaml.YAMLError as exc:
@@ -1244,14 +1252,14 @@ def load_spec(path: str | os.PathLike[str]) -> Spec:
     """Read and check the spec file at ``path``. Raises :class:`SpecError` (located by file, line
     and key path) for a missing or unreadable file, bad YAML, or any problem in the content."""
     name = os.fspath(path)
-    try:
-        data = Path(name).read_bytes()
-    except FileNotFoundError:
-        raise SpecError("file not found", path=name) from None
-    except IsADirectoryError:
-        raise SpecError("is a folder, not a spec file", path=name) from None
-    except OSError as exc:
-        raise SpecError(f"cannot read the file: {exc.strerror or exc}", path=name) from None
+    data = read_bounded(
+        name,
+        SPEC_MAX_BYTES,
+        lambda message: SpecError(message, path=name),
+        "spec",
+        missing="file not found",
+        folder="is a folder, not a spec file",
+    )
     try:
         text = data.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
