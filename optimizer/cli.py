@@ -11,6 +11,7 @@ from __future__ import annotations
 import argparse
 import os
 import sys
+import warnings
 from collections.abc import Callable, Sequence
 from typing import TYPE_CHECKING
 
@@ -19,7 +20,7 @@ from rich.markup import escape
 
 from . import interrupt
 from ._version import __version__
-from .errors import QuartetError
+from .errors import QuartetError, quote
 
 if TYPE_CHECKING:
     from .catalog import Catalog
@@ -34,16 +35,6 @@ EXIT_BAD_INPUT = 2
 EXIT_TIME_LIMIT = 3
 
 Handler = Callable[[argparse.Namespace, Console], int]
-
-#: Longest piece of the user's own text quoted back in a message (longer text is cut).
-QUOTE_CHARS = 60
-
-
-def _short(text: str) -> str:
-    """``repr`` of the user's text, cut to QUOTE_CHARS characters and one line."""
-    line = text.splitlines()[0] if text.splitlines() else text
-    cut = line if len(line) <= QUOTE_CHARS else line[: QUOTE_CHARS - 1] + "…"
-    return repr(cut) + ("" if cut == text else f" ({len(text):,} characters)")
 
 
 class _Parser(argparse.ArgumentParser):
@@ -170,7 +161,7 @@ def _spec_validate(args: argparse.Namespace, console: Console) -> int:
 
 def _whole_number(minimum: int, maximum: int | None = None) -> Callable[[str], int]:
     def parse(text: str) -> int:
-        shown = _short(text)
+        shown = quote(text)
         try:
             value = int(text.replace("_", "").replace(",", ""))
         except ValueError:
@@ -734,8 +725,18 @@ def main(
         out = errors  # standard output carries the export
     interrupt.reset()
     try:
-        with interrupt.armed():
+        # No Python warning reaches the user: the analysis treats overflowing figures itself
+        # (an infinite error is a failed check), so numpy's RuntimeWarnings are noise here.
+        with interrupt.armed(), warnings.catch_warnings():
+            warnings.simplefilter("ignore")
             return handler(args, out)
+    except (RecursionError, MemoryError) as exc:
+        errors.print(
+            f"[bold red]{type(exc).__name__}[/bold red]: the input is too large or too deeply "
+            "nested to process",
+            highlight=False,
+        )
+        return EXIT_BAD_INPUT
     except QuartetError as exc:
         # escape: messages quote the user's own text, which may contain [markup].
         name = type(exc).__name__

@@ -14,6 +14,8 @@ from collections.abc import Callable
 
 import yaml
 
+from .errors import QUOTE_CHARS, quote
+
 __all__ = [
     "CATALOG_MAX_BYTES",
     "MAX_DEPTH",
@@ -30,8 +32,6 @@ SPEC_MAX_BYTES = 10 * 1024 * 1024
 CATALOG_MAX_BYTES = 200 * 1024 * 1024
 #: Deepest nesting of YAML mappings and lists (a spec needs 4 levels, a catalog 3).
 MAX_DEPTH = 32
-#: Longest piece of the user's own text quoted in a message.
-QUOTE_CHARS = 60
 
 
 def _kind(mode: int) -> str:
@@ -93,12 +93,12 @@ def read_bounded(
 
 def yaml_too_deep(text: str, limit: int = MAX_DEPTH) -> int | None:
     """The 1-based line where mappings and lists in ``text`` first nest deeper than ``limit``,
-    or None. Reads YAML events only (no recursion, whatever the depth); a syntax error is left
-    for the real reader to report."""
-    loader = getattr(yaml, "CSafeLoader", yaml.SafeLoader)
+    or None. Reads YAML events only (no recursion, whatever the depth); a syntax error after
+    the limit is not reached is left for the real reader to report."""
+    # The pure-Python parser yields events lazily (libyaml scans far ahead first).
     depth = 0
     try:
-        for event in yaml.parse(text, Loader=loader):
+        for event in yaml.parse(text, Loader=yaml.SafeLoader):
             if isinstance(event, yaml.CollectionStartEvent):
                 depth += 1
                 if depth > limit:
@@ -109,15 +109,3 @@ def yaml_too_deep(text: str, limit: int = MAX_DEPTH) -> int | None:
     except yaml.YAMLError:
         return None
     return None
-
-
-def quote(text: object) -> str:
-    """``repr`` of the user's ``text``, cut to its first line and QUOTE_CHARS characters (the
-    full length is named when it was cut)."""
-    whole = str(text)
-    lines = whole.splitlines()
-    line = lines[0] if lines else whole
-    cut = line if len(line) <= QUOTE_CHARS else line[: QUOTE_CHARS - 1] + "…"
-    if cut == whole:
-        return repr(text) if not isinstance(text, str) else repr(whole)
-    return f"{cut!r} (cut; {len(whole):,} characters in all)"

@@ -78,6 +78,9 @@ from .units import (
 
 __all__ = ["FORMAT_VERSION", "load_spec", "parse_spec_text"]
 
+#: Longest free text (title, labels) a spec may hold: it is shown on one line of the reports.
+MAX_TEXT_CHARS = 200
+
 #: The spec-file format version this module reads (the ``quartet_spec`` key).
 FORMAT_VERSION = 1
 
@@ -331,6 +334,18 @@ class _Reader:
         text = str(node.value).strip()
         if not text:
             self.fail(key, _line(node), "expected text, got an empty value")
+        return text
+
+    def line_text(self, node: Node, key: str) -> str:
+        """Free text shown in reports: one line of at most MAX_TEXT_CHARS characters."""
+        text = self.text(node, key)
+        if len(text) > MAX_TEXT_CHARS or "\n" in text:
+            self.fail(
+                key,
+                _line(node),
+                f"expected one line of at most {MAX_TEXT_CHARS} characters, got "
+                f"{len(text):,} characters" + (" on several lines" if "\n" in text else ""),
+            )
         return text
 
     def choice(self, enum: type[E]) -> Read[E]:
@@ -592,7 +607,7 @@ class _Schema:
 
     def amplifier(self, m: _Map) -> Amplifier | None:
         r = self.r
-        label = m.opt("label", r.text, DEFAULT_AMPLIFIER_LABEL)
+        label = m.opt("label", r.line_text, DEFAULT_AMPLIFIER_LABEL)
         cmrr = m.need("cmrr", self.level, "a level in decibels such as 100 dB, or ideal", math.nan)
         aol = m.need(
             "open_loop_gain", self.level, "a level in decibels such as 120 dB, or ideal", math.nan
@@ -1140,7 +1155,7 @@ class _Schema:
             )
         top = r.mapping(root, "", TOP_KEYS, line=_line(root))
         top.need("quartet_spec", self.version, f"the format version, {FORMAT_VERSION}", 0)
-        title = top.opt("title", r.text, None)
+        title = top.opt("title", r.line_text, None)
         sections = {
             "amplifier": AMPLIFIER_KEYS,
             "rails": RAILS_KEYS,
