@@ -124,6 +124,7 @@ def _catalog_show(args: argparse.Namespace, console: Console) -> int:
     from .catalog import load_catalogs
     from .report.catalog import render_catalog_summary
 
+    _warn(args, console)
     paths = _once(args, console, args.paths)
     catalog = load_catalogs(paths, include_builtin=not paths)
     _catalog_notes(args, console, catalog)
@@ -135,6 +136,7 @@ def _catalog_validate(args: argparse.Namespace, console: Console) -> int:
     from .catalog import load_catalogs
     from .report.catalog import render_catalog_summary
 
+    _warn(args, console)
     paths = _once(args, console, args.paths)
     catalog = load_catalogs(paths, include_builtin=False, check_builtin=not args.alone)
     _catalog_notes(args, console, catalog)
@@ -149,6 +151,7 @@ def _spec_validate(args: argparse.Namespace, console: Console) -> int:
     from .specfile import load_spec
 
     spec = load_spec(args.path)
+    _warn(args, console, spec)
     console.print(render_spec_summary(spec))
     console.print(f"[green]valid[/green]: {args.path}")
     return EXIT_OK
@@ -252,6 +255,7 @@ def _check(args: argparse.Namespace, console: Console) -> int:
     _stage("spec")
     spec = load_spec(args.spec)
     _check_outputs(args, spec)
+    _warn(args, console, spec)
     if args.seed is not None:
         spec = dataclasses.replace(
             spec, preferences=dataclasses.replace(spec.preferences, seed=args.seed)
@@ -274,7 +278,8 @@ def _check(args: argparse.Namespace, console: Console) -> int:
     _stage("monte-carlo")
     result = verify(user.design, spec, statistics=True, samples=args.samples)
     extra = {"origins": user.origins, "assumptions": user.assumptions}
-    json_text = check_json_text(check_to_json(user.design, spec, result, **extra))
+    document = check_to_json(user.design, spec, result, **extra, warnings=_all_warnings(args))
+    json_text = check_json_text(document)
     if args.json:
         console.print(json_text, markup=False, highlight=False, emoji=False, soft_wrap=True)
     else:
@@ -358,6 +363,7 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
     _stage("spec")
     spec = load_spec(args.spec)
     _check_outputs(args, spec)
+    _warn(args, console, spec)
     if args.stock_only:
         spec = dataclasses.replace(
             spec, preferences=dataclasses.replace(spec.preferences, stock=StockPolicy.ONLY)
@@ -390,7 +396,7 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
         diagnosis=diagnosis,
         interrupted=stopped,
     )
-    json_text = pick_json_text(pick_to_json(report))
+    json_text = pick_json_text(pick_to_json(report, _all_warnings(args)))
     if args.json:
         console.print(json_text, markup=False, highlight=False, emoji=False, soft_wrap=True)
     else:
@@ -486,6 +492,63 @@ def _check_outputs(args: argparse.Namespace, spec: Spec | None = None) -> None:
     if spec is not None:
         inputs += list(spec.preferences.catalogs)
     check_outputs(paths, force=args.force, inputs=inputs)
+
+
+def _bare_fraction(option: str, text: str | None) -> str | None:
+    """A warning for a fraction option written as a bare number of 0.05 or more."""
+    from .specfile import BARE_FRACTION_WARNING
+
+    if text is None:
+        return None
+    try:
+        value = float(text.strip())
+    except ValueError:
+        return None
+    if value < BARE_FRACTION_WARNING:
+        return None
+    return f"{option} {text}: means ±{value * 100:g} %; write {text}% for {text} percent"
+
+
+def _option_warnings(args: argparse.Namespace, argv: Sequence[str]) -> list[str]:
+    """Plausibility warnings on the command line: an option given twice (the last is used)
+    and a tolerance or drift written as a bare number of 0.05 or more."""
+    repeatable = {"--catalog", "--network"}
+    counts: dict[str, int] = {}
+    for token in argv:
+        if token == "--":
+            break
+        if token.startswith("--"):
+            name = token.split("=", 1)[0]
+            counts[name] = counts.get(name, 0) + 1
+    found = [
+        f"{name} given {count} times; the last one is used"
+        for name, count in counts.items()
+        if count > 1 and name not in repeatable
+    ]
+    for option in ("tolerance", "drift"):
+        warning = _bare_fraction(f"--{option}", getattr(args, option, None))
+        if warning:
+            found.append(warning)
+    for position in ("r1", "r2", "r3", "r4"):
+        part = getattr(args, position, None)
+        fields = part.split("/") if part else []
+        if len(fields) > 1:
+            warning = _bare_fraction(f"--{position}", fields[1])
+            if warning:
+                found.append(warning.replace(f" {fields[1]}:", f" {part}: tolerance {fields[1]}"))
+    return found
+
+
+def _all_warnings(args: argparse.Namespace) -> list[str]:
+    return [*getattr(args, "spec_warnings", ()), *getattr(args, "option_warnings", ())]
+
+
+def _warn(args: argparse.Namespace, console: Console, spec: Spec | None = None) -> None:
+    """Print the plausibility warnings once (spec and options); kept for the JSON document."""
+    if spec is not None:
+        args.spec_warnings = list(spec.warnings)
+    for text in _all_warnings(args):
+        _notes(args, console).print(f"[yellow]warning[/yellow]: {escape(text)}", highlight=False)
 
 
 #: Environment variable: a debugging aid the interrupt tests use. When set, each stage of a run
@@ -661,6 +724,7 @@ def _sweep(args: argparse.Namespace, console: Console) -> int:
     else:
         floors = tuple(p / 100.0 for p in parse_range(args.gain_accuracy, "--gain-accuracy"))
     spec = load_spec(args.spec)
+    _warn(args, console, spec)
     catalog = _spec_catalogs(spec, args.catalog, _notes(args, console))
     with Progress(console=console, transient=True) as progress:
         what = "CMRR floor" if args.cmrr is not None else "gain accuracy"
@@ -717,6 +781,7 @@ def main(
     except SystemExit as exc:  # --version and --help
         return int(exc.code or 0)
     handler: Handler = args.handler
+    args.option_warnings = _option_warnings(args, list(sys.argv[1:] if argv is None else argv))
     # Side notes (files written, the simulator cross-check) go here when stdout carries JSON.
     args.note_console = errors
     from .safewrite import STDOUT

@@ -346,3 +346,5 @@ class Spec:
     preferences: Preferences = field(default_factory=Preferences)
     source_path: str | None = None
     title: str | None = None
+    #: Located plausibility warnings from the spec file (a run goes on; shown once).
+    warnings: tuple[str, ...] = ()

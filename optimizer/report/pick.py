@@ -22,6 +22,7 @@ unit in the key name; fractions are plain fractions, 0.001 = 0.1 %)::
     diagnosis           null unless infeasible: {binding: [requirement names],
                          best_reachable: [{requirement, asked, reachable, note}], text}
     safety_cautions     [text]  (empty when none apply)
+    warnings            [text]  plausibility warnings on the spec and options (usually empty)
     timing              {build_s, solve_s, verify_s, statistics_s}: wall-clock seconds; the
                          only part that differs between two runs on the same input
     non_finite          [{key, was}]: every figure written as null because it was not a
@@ -472,7 +473,7 @@ def _design_json(shown: Shown) -> dict[str, Any]:
     }
 
 
-def pick_to_json(report: PickReport) -> dict[str, Any]:
+def pick_to_json(report: PickReport, warnings: Sequence[str] = ()) -> dict[str, Any]:
     """The JSON document of schema :data:`SCHEMA` (module docstring): plain dicts, lists,
     strings, bools, ints and finite floats (non-finite figures become ``None`` and are listed
     under ``non_finite``). Everything except ``timing`` is the same on every run with the
@@ -515,6 +516,7 @@ def pick_to_json(report: PickReport) -> dict[str, Any]:
             "text": diagnosis.text,
         },
         "safety_cautions": list(report.cautions),
+        "warnings": list(warnings),
         "timing": {
             "build_s": r.build_seconds,
             "solve_s": r.solve_seconds,
