@@ -989,6 +989,12 @@ class _Problem:
     line: int | None = None  # when the cell's own line is not the column's (list elements)
 
 
+_Problems = _Problem | list[_Problem] | None
+
+#: Rows examined per column for problems (the count of problems stops there).
+ROWS_EXAMINED: Final = 10_000
+
+
 class _ProblemList:
     """Collects the problems of each column; raises them all together."""
 
@@ -996,12 +1002,11 @@ class _ProblemList:
         self.table = table
         self.found: list[tuple[int, int, str, str]] = []
 
-    def add(self, column: str, problem: _Problem | None, order: int) -> None:
-        if problem is not None:
-            line = (
-                problem.line if problem.line is not None else self.table.line(column, problem.row)
-            )
-            self.found.append((line, order, column, problem.message))
+    def add(self, column: str, problem: _Problems, order: int) -> None:
+        problems = problem if isinstance(problem, list) else [] if problem is None else [problem]
+        for item in problems:
+            line = item.line if item.line is not None else self.table.line(column, item.row)
+            self.found.append((line, order, column, item.message))
 
     def raise_first(self) -> None:
         """Raise every problem found (file order), or nothing."""
@@ -1174,7 +1179,7 @@ _QUANTITIES: Final[Mapping[str, _Quantity]] = {
 
 def _read_quantity(
     table: _Table, column: str, quantity: _Quantity, default: float | None
-) -> tuple[FloatArray, _Problem | None]:
+) -> tuple[FloatArray, _Problems]:
     """Read one numeric column: plain numbers vectorised, engineering notation through the
     units parser (once per distinct cell text), then the range check vectorised.
 
@@ -1203,9 +1208,9 @@ def _read_quantity(
         if failed:
             mask = np.zeros(len(values_u), dtype=bool)
             mask[list(failed)] = True
-            row = factor.first_row(mask)
-            assert row is not None
-            return values_u[factor.codes], _Problem(row, failed[int(factor.codes[row])])
+            rows = np.flatnonzero(mask[factor.codes])[:ROWS_EXAMINED]
+            listed = [_Problem(int(r), failed[int(factor.codes[r])]) for r in rows]
+            return values_u[factor.codes], listed
         values = values_u[factor.codes]
         empty = empty_u[factor.codes]
     problem: _Problem | None = None
@@ -1215,16 +1220,16 @@ def _read_quantity(
             return values, _Problem(row, f"no value: expected {quantity.expected}")
         values[empty] = default
     bad = ~quantity.valid(values) & ~empty if n else np.zeros(0, dtype=bool)
-    if bad.any():
-        row = int(np.flatnonzero(bad)[0])
-        token = _cell_token(cells, row)
+    invalid: list[_Problem] = []
+    for row in np.flatnonzero(bad)[:ROWS_EXAMINED]:
+        token = _cell_token(cells, int(row))
         try:
             quantity.parse(token)
         except UnitError as exc:
-            problem = _Problem(row, str(exc))
+            invalid.append(_Problem(int(row), str(exc)))
         else:
-            problem = _Problem(row, f"found {token!r}: expected {quantity.refused}")
-    return values, problem
+            invalid.append(_Problem(int(row), f"found {token!r}: expected {quantity.refused}"))
+    return values, invalid or problem
 
 
 def _read_ids(
@@ -1310,7 +1315,7 @@ def _read_technology(
     return _categorical(factor.codes, names), None
 
 
-def _read_stock(table: _Table, column: str = "stock") -> tuple[IntArray, _Problem | None]:
+def _read_stock(table: _Table, column: str = "stock") -> tuple[IntArray, _Problems]:
     """Stock: a whole number of zero or more, or yes/no (yes = :data:`STOCK_UNCOUNTED`)."""
     import pandas as pd
 
@@ -1334,12 +1339,13 @@ def _read_stock(table: _Table, column: str = "stock") -> tuple[IntArray, _Proble
         )
         values_u[np.isin(lowered, list(_STOCK_YES))] = STOCK_UNCOUNTED
         values_u[np.isin(lowered, list(_STOCK_NO))] = 0
-        row = factor.first_row(np.isnan(values_u) & ~empty_u)
-        if row is not None:
-            token = factor.uniques[factor.codes[row]]
-            return np.zeros(n, dtype=np.int64), _Problem(
-                row, f"found {token!r}: expected {expected}"
-            )
+        unread = (np.isnan(values_u) & ~empty_u)[factor.codes]
+        if unread.any():
+            listed = [
+                _Problem(int(r), f"found {factor.uniques[factor.codes[r]]!r}: expected {expected}")
+                for r in np.flatnonzero(unread)[:ROWS_EXAMINED]
+            ]
+            return np.zeros(n, dtype=np.int64), listed
         values = values_u[factor.codes]
         empty = empty_u[factor.codes]
     if empty.any():
@@ -1362,6 +1368,7 @@ def _read_stock(table: _Table, column: str = "stock") -> tuple[IntArray, _Proble
 def _discrete_from_table(table: _Table) -> pd.DataFrame:
     """Validate every cell of a discrete table and build the discrete frame."""
     problems = _ProblemList(table)
+    problem: _Problems
     order = {name: i for i, name in enumerate((*CSV_REQUIRED, *CSV_OPTIONAL))}
     ids, problem = _read_ids(table)
     problems.add("part_id", problem, order["part_id"])
@@ -1836,6 +1843,7 @@ def _yaml_table(
 def _networks_from_table(table: _Table) -> tuple[NetworkPart, ...]:
     """Validate every network entry (column by column, as for discrete parts) and build them."""
     problems = _ProblemList(table)
+    problem: _Problems
     order = {name: i for i, name in enumerate((*NETWORK_REQUIRED, *NETWORK_OPTIONAL))}
     ids, problem = _read_ids(table)
     problems.add("part_id", problem, order["part_id"])
