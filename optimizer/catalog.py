@@ -27,6 +27,7 @@ from __future__ import annotations
 import csv
 import difflib
 import functools
+import io
 import math
 import re
 from collections.abc import Callable, Iterable, Mapping, Sequence
@@ -240,6 +241,8 @@ class Catalog:
     networks: tuple[NetworkPart, ...] = ()
     sources: tuple[str, ...] = ()
     network_sources: tuple[str, ...] = ()
+    #: Notes on how the files were read (encoding, separator, ignored columns), for the user.
+    notes: tuple[str, ...] = ()
 
     def __post_init__(self) -> None:
         if tuple(self.discrete.columns) != DISCRETE_COLUMNS:
@@ -1026,24 +1029,34 @@ class _Problem:
     line: int | None = None  # when the cell's own line is not the column's (list elements)
 
 
+_Problems = _Problem | list[_Problem] | None
+
+#: Rows examined per column for problems (the count of problems stops there).
+ROWS_EXAMINED: Final = 10_000
+
+
 class _ProblemList:
-    """Collects the first problem of each column; raises the one earliest in the file."""
+    """Collects the problems of each column; raises them all together."""
 
     def __init__(self, table: _Table) -> None:
         self.table = table
         self.found: list[tuple[int, int, str, str]] = []
 
-    def add(self, column: str, problem: _Problem | None, order: int) -> None:
-        if problem is not None:
-            line = (
-                problem.line if problem.line is not None else self.table.line(column, problem.row)
-            )
-            self.found.append((line, order, column, problem.message))
+    def add(self, column: str, problem: _Problems, order: int) -> None:
+        problems = problem if isinstance(problem, list) else [] if problem is None else [problem]
+        for item in problems:
+            line = item.line if item.line is not None else self.table.line(column, item.row)
+            self.found.append((line, order, column, item.message))
 
     def raise_first(self) -> None:
+        """Raise every problem found (file order), or nothing."""
         if self.found:
-            line, _, column, message = min(self.found)
-            raise CatalogError(message, path=self.table.path, row=line, column=column)
+            path = self.table.path
+            errors = [
+                CatalogError(message, path=path, row=line, column=column)
+                for line, _, column, message in sorted(self.found)
+            ]
+            raise _combined(path, errors)
 
 
 def _is_numeric(cells: pd.Series) -> bool:
@@ -1206,7 +1219,7 @@ _QUANTITIES: Final[Mapping[str, _Quantity]] = {
 
 def _read_quantity(
     table: _Table, column: str, quantity: _Quantity, default: float | None
-) -> tuple[FloatArray, _Problem | None]:
+) -> tuple[FloatArray, _Problems]:
     """Read one numeric column: plain numbers vectorised, engineering notation through the
     units parser (once per distinct cell text), then the range check vectorised.
 
@@ -1235,9 +1248,9 @@ def _read_quantity(
         if failed:
             mask = np.zeros(len(values_u), dtype=bool)
             mask[list(failed)] = True
-            row = factor.first_row(mask)
-            assert row is not None
-            return values_u[factor.codes], _Problem(row, failed[int(factor.codes[row])])
+            rows = np.flatnonzero(mask[factor.codes])[:ROWS_EXAMINED]
+            listed = [_Problem(int(r), failed[int(factor.codes[r])]) for r in rows]
+            return values_u[factor.codes], listed
         values = values_u[factor.codes]
         empty = empty_u[factor.codes]
     problem: _Problem | None = None
@@ -1247,16 +1260,16 @@ def _read_quantity(
             return values, _Problem(row, f"no value: expected {quantity.expected}")
         values[empty] = default
     bad = ~quantity.valid(values) & ~empty if n else np.zeros(0, dtype=bool)
-    if bad.any():
-        row = int(np.flatnonzero(bad)[0])
-        token = _cell_token(cells, row)
+    invalid: list[_Problem] = []
+    for row in np.flatnonzero(bad)[:ROWS_EXAMINED]:
+        token = _cell_token(cells, int(row))
         try:
             quantity.parse(token)
         except UnitError as exc:
-            problem = _Problem(row, str(exc))
+            invalid.append(_Problem(int(row), str(exc)))
         else:
-            problem = _Problem(row, f"found {token!r}: expected {quantity.refused}")
-    return values, problem
+            invalid.append(_Problem(int(row), f"found {token!r}: expected {quantity.refused}"))
+    return values, invalid or problem
 
 
 def _read_ids(
@@ -1342,7 +1355,7 @@ def _read_technology(
     return _categorical(factor.codes, names), None
 
 
-def _read_stock(table: _Table, column: str = "stock") -> tuple[IntArray, _Problem | None]:
+def _read_stock(table: _Table, column: str = "stock") -> tuple[IntArray, _Problems]:
     """Stock: a whole number of zero or more, or yes/no (yes = :data:`STOCK_UNCOUNTED`)."""
     import pandas as pd
 
@@ -1366,12 +1379,13 @@ def _read_stock(table: _Table, column: str = "stock") -> tuple[IntArray, _Proble
         )
         values_u[np.isin(lowered, list(_STOCK_YES))] = STOCK_UNCOUNTED
         values_u[np.isin(lowered, list(_STOCK_NO))] = 0
-        row = factor.first_row(np.isnan(values_u) & ~empty_u)
-        if row is not None:
-            token = factor.uniques[factor.codes[row]]
-            return np.zeros(n, dtype=np.int64), _Problem(
-                row, f"found {token!r}: expected {expected}"
-            )
+        unread = (np.isnan(values_u) & ~empty_u)[factor.codes]
+        if unread.any():
+            listed = [
+                _Problem(int(r), f"found {factor.uniques[factor.codes[r]]!r}: expected {expected}")
+                for r in np.flatnonzero(unread)[:ROWS_EXAMINED]
+            ]
+            return np.zeros(n, dtype=np.int64), listed
         values = values_u[factor.codes]
         empty = empty_u[factor.codes]
     if empty.any():
@@ -1394,6 +1408,7 @@ def _read_stock(table: _Table, column: str = "stock") -> tuple[IntArray, _Proble
 def _discrete_from_table(table: _Table) -> pd.DataFrame:
     """Validate every cell of a discrete table and build the discrete frame."""
     problems = _ProblemList(table)
+    problem: _Problems
     order = {name: i for i, name in enumerate((*CSV_REQUIRED, *CSV_OPTIONAL))}
     ids, problem = _read_ids(table)
     problems.add("part_id", problem, order["part_id"])
@@ -1449,24 +1464,156 @@ _NETWORK_ONLY_COLUMNS: Final = frozenset({"values", "ratio_tolerance", "tracking
 _PARSER_LINE_RE: Final = re.compile(r"Expected (\d+) fields in line (\d+), saw (\d+)")
 
 
-def _find_header(path: str) -> tuple[int, list[str]]:
-    """The 0-based index of the header line (first line that is neither blank nor a ``#``
-    comment) and its cells."""
+#: Most problems listed for one catalog file (the count of the rest follows).
+MAX_PROBLEMS: Final = 50
+#: Column separators recognised in a CSV header line, in order of preference on a tie.
+_DELIMITERS: Final = (",", ";", "\t", "|")
+_DELIMITER_NAMES: Final = {",": "commas", ";": "semicolons", "\t": "tabs", "|": "bars"}
+#: Suffix of the optional file beside a CSV catalog that maps its headers to Quartet's columns.
+COLUMNS_SUFFIX: Final = ".columns.yaml"
+
+
+def _combined(path: str, problems: Sequence[CatalogError]) -> CatalogError:
+    """One error listing ``problems`` in file order, at most MAX_PROBLEMS of them; its fields
+    locate the first."""
+    ordered = sorted(problems, key=lambda e: (e.row or 0, e.column))
+    if len(ordered) == 1:
+        return ordered[0]
+    lines = [str(e) for e in ordered[:MAX_PROBLEMS]]
+    if len(ordered) > MAX_PROBLEMS:
+        lines.append(f"{path}: {len(ordered) - MAX_PROBLEMS} more problem(s) not listed")
+    error = CatalogError(f"{path}: {len(ordered)} problems:\n" + "\n".join(lines))
+    first = ordered[0]
+    error.path, error.row, error.column = path, first.row, first.column
+    return error
+
+
+def _decode(path: str, data: bytes) -> tuple[str, str | None]:
+    """The text of a catalog file and a note on how it was read: UTF-8 with or without a
+    byte-order mark, UTF-16 with one, or else Latin-1 (ISO 8859-1, every byte a character) with
+    a note. Bytes that no text file holds (NUL and other control characters) are refused."""
+    import codecs
+
+    if data.startswith((codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE)):
+        try:
+            return data.decode("utf-16"), None
+        except UnicodeDecodeError as exc:
+            raise CatalogError(
+                f"cannot read the file as UTF-16 text ({exc.reason} at byte {exc.start})",
+                path=path,
+            ) from None
     try:
-        with open(path, encoding="utf-8-sig", newline="") as handle:
-            for index, line in enumerate(handle):
-                stripped = line.strip()
-                if not stripped or stripped.startswith("#"):
-                    continue
-                return index, next(csv.reader([line]))
+        text = data.decode("utf-8-sig")
+        note = None
     except UnicodeDecodeError as exc:
+        text = data.decode("latin-1")
+        note = (
+            f"{path}: not UTF-8 text (byte 0x{data[exc.start]:02x} at byte {exc.start}); "
+            "read as Latin-1 (ISO 8859-1)"
+        )
+    control = re.search(r"[\x00-\x08\x0b\x0c\x0e-\x1f\x7f]", text)
+    if control is not None:
+        line = text[: control.start()].count("\n") + 1
         raise CatalogError(
-            f"cannot read the file as UTF-8 text ({exc.reason} at byte {exc.start})", path=path
-        ) from None
+            f"not a text file: character 0x{ord(control.group()):02x} found; expected "
+            "UTF-8, UTF-16 (with a byte-order mark) or Latin-1 text, as a spreadsheet saves "
+            "a CSV file",
+            path=path,
+            row=line,
+        )
+    return text, note
+
+
+def _find_header(path: str, text: str) -> tuple[int, str]:
+    """The 0-based index of the header line (first line that is neither blank nor a ``#``
+    comment) and the line."""
+    for index, line in enumerate(text.splitlines()):
+        stripped = line.strip()
+        if not stripped or stripped.startswith("#"):
+            continue
+        return index, line
     raise CatalogError(
         f"the file is empty: expected a header line with the columns {', '.join(CSV_REQUIRED)}",
         path=path,
     )
+
+
+def _column_map(path: str) -> tuple[dict[str, str], str | None]:
+    """The header mapping of the file ``<name>.columns.yaml`` beside a CSV catalog (``columns:``
+    the file's own header -> a Quartet column), lower-cased; empty when there is no such file."""
+    from .inputs import MAX_DEPTH, read_bounded, yaml_too_deep
+
+    side = str(Path(path).with_suffix("")) + COLUMNS_SUFFIX
+    if not Path(side).exists():
+        return {}, None
+
+    def fail(message: str, line: int | None = None) -> CatalogError:
+        return CatalogError(message, path=side, row=line)
+
+    text = read_bounded(side, 1024 * 1024, fail, "column mapping").decode("utf-8-sig", "replace")
+    if yaml_too_deep(text) is not None:
+        raise fail(f"mappings nest deeper than {MAX_DEPTH} levels; expected columns: {{...}}")
+    try:
+        root = yaml.compose(text, Loader=yaml.SafeLoader)
+    except yaml.YAMLError as exc:
+        mark = getattr(exc, "problem_mark", None)
+        raise fail("not valid YAML", None if mark is None else mark.line + 1) from None
+    expected = "a mapping columns: {their header: one of Quartet's columns}"
+    known = (*CSV_REQUIRED, *CSV_OPTIONAL)
+    if not isinstance(root, yaml.MappingNode):
+        raise fail(f"expected {expected}", 1)
+    mapping: dict[str, str] = {}
+    problems: list[CatalogError] = []
+    for key, value in root.value:
+        if not isinstance(key, yaml.ScalarNode) or key.value != "columns":
+            problems.append(fail(f"unknown key: expected {expected}", key.start_mark.line + 1))
+            continue
+        if not isinstance(value, yaml.MappingNode):
+            problems.append(fail(f"expected {expected}", value.start_mark.line + 1))
+            continue
+        for theirs, ours in value.value:
+            line = theirs.start_mark.line + 1
+            name = _scalar_text(theirs)
+            target = _scalar_text(ours)
+            if name is None or target is None:
+                problems.append(fail(f"expected {expected}", line))
+                continue
+            target = target.strip().lower()
+            if target not in known:
+                problems.append(fail(f"{name!r}: {_did_you_mean(target, known, 'column')}", line))
+                continue
+            mapping[name.strip().lower()] = target
+    if problems:
+        raise _combined(side, problems)
+    return mapping, f"{path}: columns named by {side}"
+
+
+def _split_header(
+    path: str, line: str, mapping: Mapping[str, str], note: str | None
+) -> tuple[str, list[str]]:
+    """The separator of the header line (the one that gives the most known columns) and the
+    header cells, lower-cased and mapped by ``mapping``."""
+    known = {*CSV_REQUIRED, *CSV_OPTIONAL}
+    best: tuple[int, str, list[str]] | None = None
+    for delimiter in _DELIMITERS:
+        cells = [c.strip().lower() for c in next(csv.reader([line], delimiter=delimiter))]
+        names = [mapping.get(c, c) for c in cells]
+        score = sum(1 for n in names if n in known)
+        if best is None or score > best[0]:
+            best = (score, delimiter, names)
+    assert best is not None
+    score, delimiter, names = best
+    if score == 0:
+        from .inputs import quote
+
+        raise CatalogError(
+            f"no known column in the header line (found {quote(line)}): expected the columns "
+            f"{', '.join(CSV_REQUIRED)} separated by commas, semicolons or tabs (or a "
+            f"{Path(path).stem}{COLUMNS_SUFFIX} file beside it that maps the headers)"
+            + (f"; {note.removeprefix(path + ': ')}" if note else ""),
+            path=path,
+        )
+    return delimiter, names
 
 
 def _check_columns(
@@ -1476,13 +1623,19 @@ def _check_columns(
     optional: Sequence[str],
     line_of: Callable[[str], int],
     what: str,
-) -> None:
+    *,
+    extra_allowed: bool = False,
+) -> list[str]:
+    """Check the column (or key) names; returns the names that are ignored (``extra_allowed``:
+    unknown names are ignored rather than refused)."""
     known = (*required, *optional)
     seen: set[str] = set()
+    ignored: list[str] = []
+    problems: list[CatalogError] = []
     for name in names:
-        if name in seen:
-            raise CatalogError(
-                f"the {what} appears twice", path=path, row=line_of(name), column=name
+        if name in seen and name in known:
+            problems.append(
+                CatalogError(f"the {what} appears twice", path=path, row=line_of(name), column=name)
             )
         seen.add(name)
         if name not in known:
@@ -1491,39 +1644,107 @@ def _check_columns(
                     "unknown column: a CSV catalog lists discrete parts only; "
                     "list networks in a YAML catalog under networks:"
                 )
+            elif extra_allowed:
+                if name and name not in ignored:
+                    ignored.append(name)
+                continue
             else:
                 message = _did_you_mean(name, known, what)
-            raise CatalogError(message, path=path, row=line_of(name), column=name)
-    for name in required:
-        if name not in seen:
-            have = ", ".join(names) if names else "none"
-            raise CatalogError(
-                f"missing required {what} (found: {have})",
+            problems.append(CatalogError(message, path=path, row=line_of(name), column=name))
+    missing = [name for name in required if name not in seen]
+    if missing:
+        have = ", ".join(n for n in names if n) or "none"
+        hints = []
+        for name in missing:
+            close = difflib.get_close_matches(name, ignored, n=1, cutoff=0.6)
+            if close:
+                hints.append(f"is {close[0]!r} meant to be {name!r}?")
+        which = f"s {', '.join(missing)}" if len(missing) > 1 else ""
+        problems.append(
+            CatalogError(
+                f"missing required {what}{which} (found: {have})"
+                + ("; " + " ".join(hints) if hints else ""),
                 path=path,
-                row=line_of(name),
-                column=name,
+                row=line_of(missing[0]),
+                column=missing[0] if len(missing) == 1 else "",
             )
+        )
+    if problems:
+        raise _combined(path, problems)
+    return ignored
 
 
-def _load_csv(path: str) -> tuple[pd.DataFrame, IntArray]:
+def _row_lengths(
+    path: str, body: str, delimiter: str, width: int, first_line: int
+) -> list[CatalogError]:
+    """A problem for each data row with more or fewer cells than the header (blank lines
+    aside)."""
+    problems: list[CatalogError] = []
+    reader = csv.reader(io.StringIO(body), delimiter=delimiter)
+    start = 1
+    for cells in reader:
+        line = first_line + start - 1
+        start = reader.line_num + 1
+        if not cells or len(cells) == width or not any(c.strip() for c in cells):
+            continue
+        problems.append(
+            CatalogError(
+                f"found {len(cells)} cells: expected {width} as in the header line "
+                f"{first_line - 1}",
+                path=path,
+                row=line,
+            )
+        )
+        if len(problems) > MAX_PROBLEMS:
+            break
+    return problems
+
+
+def _load_csv(path: str, data: bytes) -> tuple[pd.DataFrame, IntArray, tuple[str, ...]]:
     import pandas as pd
 
-    header_index, header = _find_header(path)
-    names = [h.strip().lower() for h in header]
+    text, encoding_note = _decode(path, data)
+    notes = [encoding_note] if encoding_note else []
+    mapping, mapping_note = _column_map(path)
+    if mapping_note:
+        notes.append(mapping_note)
+    header_index, header = _find_header(path, text)
+    delimiter, names = _split_header(path, header, mapping, encoding_note)
+    if delimiter != ",":
+        notes.append(f"{path}: columns separated by {_DELIMITER_NAMES[delimiter]}")
     header_line = header_index + 1
-    _check_columns(path, names, CSV_REQUIRED, CSV_OPTIONAL, lambda _: header_line, "column")
+    ignored = _check_columns(
+        path,
+        names,
+        CSV_REQUIRED,
+        CSV_OPTIONAL,
+        lambda _: header_line,
+        "column",
+        extra_allowed=True,
+    )
+    if ignored:
+        shown = ", ".join(repr(n) for n in ignored[:20])
+        more = f" and {len(ignored) - 20} more" if len(ignored) > 20 else ""
+        notes.append(f"{path}: columns ignored (not used by Quartet): {shown}{more}")
+    known = {*CSV_REQUIRED, *CSV_OPTIONAL}
+    used = [i for i, n in enumerate(names) if n in known]
+    body = "\n".join(text.splitlines()[header_index + 1 :])
+    problems = _row_lengths(path, body, delimiter, len(names), header_line + 1)
+    if problems:
+        raise _combined(path, problems)
     text_columns = {"part_id": str, "size": str}
+    column_names = [n if i in used else f"\x00ignored{i}" for i, n in enumerate(names)]
     try:
         raw = pd.read_csv(
-            path,
+            io.StringIO(body),
             header=None,
-            names=names,
-            skiprows=header_index + 1,
+            names=column_names,
+            usecols=[column_names[i] for i in used],
+            sep=delimiter,
             dtype={k: v for k, v in text_columns.items() if k in names},
             keep_default_na=False,
             na_values=[""],
             skip_blank_lines=False,
-            encoding="utf-8-sig",
             low_memory=False,
             engine="c",
         )
@@ -1534,15 +1755,11 @@ def _load_csv(path: str) -> tuple[pd.DataFrame, IntArray]:
                 f"found {match.group(3)} cells: expected {match.group(1)} "
                 f"as in the header line {header_line}",
                 path=path,
-                row=int(match.group(2)),
+                row=int(match.group(2)) + header_line,
             ) from None
         raise CatalogError(f"cannot read as CSV: {exc}", path=path) from None
-    except UnicodeDecodeError as exc:
-        raise CatalogError(
-            f"cannot read the file as UTF-8 text ({exc.reason} at byte {exc.start})", path=path
-        ) from None
     except pd.errors.EmptyDataError:
-        raw = pd.DataFrame({name: pd.Series([], dtype=object) for name in names})
+        raw = pd.DataFrame({names[i]: pd.Series([], dtype=object) for i in used})
     lines = np.arange(len(raw), dtype=np.int64) + header_line + 1
     # blank lines (and lines of bare commas): every cell missing; only rows without a part id
     # can be blank, so test the other columns only on those
@@ -1556,9 +1773,9 @@ def _load_csv(path: str) -> tuple[pd.DataFrame, IntArray]:
         raise CatalogError(
             f"no parts: expected data rows below the header line {header_line}", path=path
         )
-    table = _Table(path, {name: raw[name] for name in names}, lines)
+    table = _Table(path, {names[i]: raw[names[i]] for i in used}, lines)
     frame = _discrete_from_table(table)
-    return frame, lines
+    return frame, lines, tuple(notes)
 
 
 # ---------------------------------------------------------------------------------------------
@@ -1666,6 +1883,7 @@ def _yaml_table(
 def _networks_from_table(table: _Table) -> tuple[NetworkPart, ...]:
     """Validate every network entry (column by column, as for discrete parts) and build them."""
     problems = _ProblemList(table)
+    problem: _Problems
     order = {name: i for i, name in enumerate((*NETWORK_REQUIRED, *NETWORK_OPTIONAL))}
     ids, problem = _read_ids(table)
     problems.add("part_id", problem, order["part_id"])
@@ -1742,13 +1960,24 @@ def _networks_from_table(table: _Table) -> tuple[NetworkPart, ...]:
 _YAML_SECTIONS: Final = ("discrete", "networks")
 
 
-def _load_yaml(path: str) -> tuple[pd.DataFrame, IntArray, tuple[NetworkPart, ...], IntArray]:
+def _load_yaml(
+    path: str, data: bytes
+) -> tuple[pd.DataFrame, IntArray, tuple[NetworkPart, ...], IntArray]:
+    from .inputs import MAX_DEPTH, yaml_too_deep
+
     try:
-        text = Path(path).read_text(encoding="utf-8-sig")
+        text = data.decode("utf-16" if data[:2] in (b"\xff\xfe", b"\xfe\xff") else "utf-8-sig")
     except UnicodeDecodeError as exc:
         raise CatalogError(
             f"cannot read the file as UTF-8 text ({exc.reason} at byte {exc.start})", path=path
         ) from None
+    deep = yaml_too_deep(text)
+    if deep is not None:
+        raise CatalogError(
+            f"mappings and lists nest deeper than {MAX_DEPTH} levels; a catalog needs 3",
+            path=path,
+            row=deep,
+        )
     try:
         root = yaml.compose(text, Loader=yaml.SafeLoader)
     except yaml.MarkedYAMLError as exc:
@@ -1832,17 +2061,25 @@ class _Located:
 def _load_located(path: str) -> _Located:
     import pandas as pd
 
+    from .inputs import CATALOG_MAX_BYTES, read_bounded
+
     file = Path(path)
-    if not file.exists():
-        raise CatalogError("cannot open the file: no such file", path=path)
-    if file.is_dir():
-        raise CatalogError("cannot open the file: it is a folder", path=path)
     suffix = file.suffix.lower()
+    if suffix not in (".csv", *_YAML_SUFFIXES):
+        raise CatalogError(
+            f"unknown catalog type {suffix or '(no extension)'!r}: expected a .csv, .yaml or "
+            ".yml file",
+            path=path,
+        )
+    data = read_bounded(
+        path, CATALOG_MAX_BYTES, lambda message: CatalogError(message, path=path), "catalog"
+    )
     if suffix == ".csv":
-        discrete, lines = _load_csv(path)
-        return _Located(Catalog(discrete, (), (path,)), lines, np.zeros(0, dtype=np.int64))
+        discrete, lines, notes = _load_csv(path, data)
+        catalog = Catalog(discrete, (), (path,), notes=notes)
+        return _Located(catalog, lines, np.zeros(0, dtype=np.int64))
     if suffix in _YAML_SUFFIXES:
-        discrete, discrete_lines, networks, network_lines = _load_yaml(path)
+        discrete, discrete_lines, networks, network_lines = _load_yaml(path, data)
         ids = pd.Series(
             np.concatenate(
                 [
@@ -1875,12 +2112,15 @@ def load_catalog(path: str) -> Catalog:
     return _load_located(path).catalog
 
 
-def load_catalogs(paths: Sequence[str], include_builtin: bool = True) -> Catalog:
+def load_catalogs(
+    paths: Sequence[str], include_builtin: bool = True, *, check_builtin: bool = False
+) -> Catalog:
     """The built-in catalog (unless ``include_builtin`` is False) and every file of ``paths``,
     combined in order. A part id that appears in two places raises :class:`CatalogError`
-    naming both (file and line)."""
+    naming both (file and line); ``check_builtin`` compares the ids with the built-in
+    catalog's even when it is not included."""
     located: list[_Located] = []
-    if include_builtin:
+    if include_builtin or check_builtin:
         builtin = builtin_catalog()
         none = np.full(builtin.discrete_count, -1, dtype=np.int64)
         located.append(_Located(builtin, none, np.full(builtin.network_count, -1, dtype=np.int64)))
@@ -1901,6 +2141,8 @@ def load_catalogs(paths: Sequence[str], include_builtin: bool = True) -> Catalog
                 column="part_id",
             )
         located.append(current)
+    if check_builtin and not include_builtin:
+        located = located[1:]
     if not located:
         return Catalog(empty_discrete_frame())
     combined = located[0].catalog
@@ -1931,6 +2173,7 @@ def _concat(first: Catalog, second: Catalog) -> Catalog:
         networks=first.networks + second.networks,
         sources=first.sources + tuple(s for s in second.sources if s not in first.sources),
         network_sources=first.network_sources + second.network_sources,
+        notes=first.notes + second.notes,
     )
 
 

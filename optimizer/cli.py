@@ -2,7 +2,8 @@
 prints through Rich. It is the only module that talks to the terminal.
 
 Exit codes: 0 success; 1 a requirement not met or nothing feasible; 2 bad input; 3 the time
-limit ended the search with a best design found (not proven optimal).
+limit ended the search with a best design found (not proven optimal); 130 / 143 interrupted by
+SIGINT / SIGTERM (128 + the signal number).
 """
 
 from __future__ import annotations
@@ -10,14 +11,16 @@ from __future__ import annotations
 import argparse
 import os
 import sys
+import warnings
 from collections.abc import Callable, Sequence
 from typing import TYPE_CHECKING
 
 from rich.console import Console
 from rich.markup import escape
 
+from . import interrupt
 from ._version import __version__
-from .errors import QuartetError
+from .errors import QuartetError, quote
 
 if TYPE_CHECKING:
     from .catalog import Catalog
@@ -75,6 +78,11 @@ def _add_catalog_commands(commands: argparse._SubParsersAction[_Parser]) -> None
     show.set_defaults(handler=_catalog_show)
     validate = sub.add_parser("validate", help="check a catalog file row by row")
     validate.add_argument("paths", nargs="+", metavar="PATH")
+    validate.add_argument(
+        "--alone", action="store_true",
+        help="do not compare ids with the built-in catalog (for specs with builtin_catalogs: "
+        "false)",
+    )  # fmt: skip
     validate.set_defaults(handler=_catalog_validate)
 
 
@@ -87,11 +95,39 @@ def _add_spec_commands(commands: argparse._SubParsersAction[_Parser]) -> None:
     validate.set_defaults(handler=_spec_validate)
 
 
+def _catalog_notes(args: argparse.Namespace, console: Console, catalog: Catalog) -> None:
+    """The notes on how catalog files were read (encoding, separator, ignored columns), once
+    each."""
+    for note in dict.fromkeys(catalog.notes):
+        _notes(args, console).print(f"note: {escape(note)}", highlight=False)
+
+
+def _once(args: argparse.Namespace, console: Console, paths: Sequence[str]) -> list[str]:
+    """``paths`` with a file named twice (by any name) kept once, and a note saying so."""
+    import os
+
+    kept: dict[str, str] = {}
+    for path in paths:
+        real = os.path.realpath(path)
+        if real not in kept:
+            kept[real] = path
+            continue
+        first = kept[real]
+        shown = path if first == path else f"{path} (the same file as {first})"
+        _notes(args, console).print(
+            f"note: {escape(shown)}: named more than once; read once", highlight=False
+        )
+    return list(kept.values())
+
+
 def _catalog_show(args: argparse.Namespace, console: Console) -> int:
     from .catalog import load_catalogs
     from .report.catalog import render_catalog_summary
 
-    catalog = load_catalogs(args.paths, include_builtin=not args.paths)
+    _warn(args, console)
+    paths = _once(args, console, args.paths)
+    catalog = load_catalogs(paths, include_builtin=not paths)
+    _catalog_notes(args, console, catalog)
     console.print(render_catalog_summary(catalog))
     return EXIT_OK
 
@@ -100,9 +136,13 @@ def _catalog_validate(args: argparse.Namespace, console: Console) -> int:
     from .catalog import load_catalogs
     from .report.catalog import render_catalog_summary
 
-    catalog = load_catalogs(args.paths, include_builtin=False)
+    _warn(args, console)
+    paths = _once(args, console, args.paths)
+    catalog = load_catalogs(paths, include_builtin=False, check_builtin=not args.alone)
+    _catalog_notes(args, console, catalog)
     console.print(render_catalog_summary(catalog))
-    console.print(f"[green]valid[/green]: {', '.join(args.paths)}")
+    checked = "" if args.alone else " (ids checked against the built-in catalog)"
+    console.print(f"[green]valid[/green]: {escape(', '.join(paths))}{checked}")
     return EXIT_OK
 
 
@@ -111,6 +151,7 @@ def _spec_validate(args: argparse.Namespace, console: Console) -> int:
     from .specfile import load_spec
 
     spec = load_spec(args.path)
+    _warn(args, console, spec)
     console.print(render_spec_summary(spec))
     console.print(f"[green]valid[/green]: {args.path}")
     return EXIT_OK
@@ -121,20 +162,25 @@ def _spec_validate(args: argparse.Namespace, console: Console) -> int:
 # ---------------------------------------------------------------------------------------------
 
 
-def _whole_number(minimum: int) -> Callable[[str], int]:
+def _whole_number(minimum: int, maximum: int | None = None) -> Callable[[str], int]:
     def parse(text: str) -> int:
+        shown = quote(text)
         try:
             value = int(text.replace("_", "").replace(",", ""))
         except ValueError:
-            raise argparse.ArgumentTypeError(f"expected a whole number, got {text!r}") from None
+            raise argparse.ArgumentTypeError(f"expected a whole number, got {shown}") from None
         if value < minimum:
-            raise argparse.ArgumentTypeError(f"expected {minimum} or more, got {text!r}")
+            raise argparse.ArgumentTypeError(f"expected {minimum} or more, got {shown}")
+        if maximum is not None and value > maximum:
+            raise argparse.ArgumentTypeError(f"expected at most {maximum:,}, got {shown}")
         return value
 
     return parse
 
 
 def _add_check_command(commands: argparse._SubParsersAction[_Parser]) -> None:
+    from .spec import MAX_SAMPLES
+
     check = commands.add_parser(
         "check",
         help="verify a design of your own against a spec",
@@ -169,16 +215,20 @@ def _add_check_command(commands: argparse._SubParsersAction[_Parser]) -> None:
         "--catalog", action="append", default=[], metavar="PATH",
         help="extra catalog file for the ids (repeatable); the spec's catalogs are always read",
     )  # fmt: skip
-    check.add_argument("--samples", type=_whole_number(1), metavar="N", help="Monte-Carlo builds")
+    check.add_argument(
+        "--samples", type=_whole_number(1, MAX_SAMPLES), metavar="N",
+        help=f"Monte-Carlo builds (at most {MAX_SAMPLES:,})",
+    )  # fmt: skip
     check.add_argument("--seed", type=_whole_number(0), metavar="S", help="Monte-Carlo seed")
     check.add_argument("--json", action="store_true", help="write the result as JSON")
     _add_export_options(check, "the checked design")
     check.set_defaults(handler=_check)
 
 
-def _spec_catalogs(spec: Spec, extra: Sequence[str]) -> Catalog:
+def _spec_catalogs(spec: Spec, extra: Sequence[str], notes: Console | None = None) -> Catalog:
     """The spec's catalogs, then ``extra`` files (a file named twice is read once), plus the
-    built-in catalogs unless the spec says ``builtin_catalogs: false``."""
+    built-in catalogs unless the spec says ``builtin_catalogs: false``; the reading notes go
+    to ``notes``."""
     import os
 
     from .catalog import load_catalogs
@@ -186,7 +236,11 @@ def _spec_catalogs(spec: Spec, extra: Sequence[str]) -> Catalog:
     paths: dict[str, str] = {}
     for path in (*spec.preferences.catalogs, *extra):
         paths.setdefault(os.path.realpath(path), path)
-    return load_catalogs(list(paths.values()), spec.preferences.use_builtin_catalogs)
+    catalog = load_catalogs(list(paths.values()), spec.preferences.use_builtin_catalogs)
+    if notes is not None:
+        for note in dict.fromkeys(catalog.notes):
+            notes.print(f"note: {escape(note)}", highlight=False)
+    return catalog
 
 
 def _check(args: argparse.Namespace, console: Console) -> int:
@@ -197,15 +251,19 @@ def _check(args: argparse.Namespace, console: Console) -> int:
     from .userdesign import build_user_design
     from .verify import verify
 
-    _refuse_existing_outputs(args)
+    _check_outputs(args)
+    _stage("spec")
     spec = load_spec(args.spec)
+    _check_outputs(args, spec)
+    _warn(args, console, spec)
     if args.seed is not None:
         spec = dataclasses.replace(
             spec, preferences=dataclasses.replace(spec.preferences, seed=args.seed)
         )
     catalog = None
     if args.parts is not None or args.network:
-        catalog = _spec_catalogs(spec, args.catalog)
+        _stage("catalog")
+        catalog = _spec_catalogs(spec, args.catalog, _notes(args, console))
     user = build_user_design(
         values=(args.r1, args.r2, args.r3, args.r4),
         parts=args.parts,
@@ -217,9 +275,11 @@ def _check(args: argparse.Namespace, console: Console) -> int:
         power=args.power,
         max_voltage=args.max_voltage,
     )
+    _stage("monte-carlo")
     result = verify(user.design, spec, statistics=True, samples=args.samples)
     extra = {"origins": user.origins, "assumptions": user.assumptions}
-    json_text = check_json_text(check_to_json(user.design, spec, result, **extra))
+    document = check_to_json(user.design, spec, result, **extra, warnings=_all_warnings(args))
+    json_text = check_json_text(document)
     if args.json:
         console.print(json_text, markup=False, highlight=False, emoji=False, soft_wrap=True)
     else:
@@ -282,6 +342,10 @@ def _add_pick_command(commands: argparse._SubParsersAction[_Parser]) -> None:
     )  # fmt: skip
     pick.add_argument("--json", action="store_true", help="write the result as JSON")
     _add_export_options(pick, "the best design (rank 1)")
+    pick.add_argument(
+        "--write-partial", action="store_true",
+        help="when interrupted, still write the files for the best design found so far",
+    )  # fmt: skip
     pick.set_defaults(handler=_pick)
 
 
@@ -295,23 +359,34 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
     from .specfile import load_spec
     from .verify import verify
 
-    _refuse_existing_outputs(args)
+    _check_outputs(args)
+    _stage("spec")
     spec = load_spec(args.spec)
+    _check_outputs(args, spec)
+    _warn(args, console, spec)
     if args.stock_only:
         spec = dataclasses.replace(
             spec, preferences=dataclasses.replace(spec.preferences, stock=StockPolicy.ONLY)
         )
     if args.objective is not None:
         spec = with_objective(spec, Objective(args.objective))
-    catalog = _spec_catalogs(spec, args.catalog)
+    _stage("catalog")
+    catalog = _spec_catalogs(spec, args.catalog, _notes(args, console))
     top = args.top if args.top is not None else spec.preferences.alternatives
-    result = pick(spec, catalog, verify, top=top, time_limit_s=args.time_limit)
+    _stage("search")
+    # A signal during the search stops it; the search then returns what it found so far.
+    with interrupt.winding_down():
+        result = pick(spec, catalog, verify, top=top, time_limit_s=args.time_limit)
+    stopped = interrupt.cancelled()
     diagnosis = None
-    if result.status is SearchStatus.INFEASIBLE:
+    if result.status is SearchStatus.INFEASIBLE and not stopped:
         from .solve.diagnose import diagnose
 
         limit = min(DIAGNOSIS_TIME_LIMIT_S, args.time_limit)
-        diagnosis = diagnose(spec, catalog, verify, time_limit_s=limit)
+        with interrupt.winding_down():
+            diagnosis = diagnose(spec, catalog, verify, time_limit_s=limit)
+        interrupt.check()
+    _stage("statistics")
     report = build_pick_report(
         spec,
         result,
@@ -319,25 +394,44 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
         time_limit_s=args.time_limit,
         cautions=safety_cautions(spec),
         diagnosis=diagnosis,
+        interrupted=stopped,
     )
-    json_text = pick_json_text(pick_to_json(report))
+    json_text = pick_json_text(pick_to_json(report, _all_warnings(args)))
     if args.json:
         console.print(json_text, markup=False, highlight=False, emoji=False, soft_wrap=True)
     else:
         console.print(render_pick(report))
     winner = report.winner
+    signum = interrupt.signal_number()
+    if stopped and args.write_partial:
+        interrupt.reset()  # write what was found; a second signal stops the writing
+    if stopped and not args.write_partial:
+        count = len(report.ranked)
+        found = f"the {count} design(s) above are" if count else "no design was"
+        raise interrupt.Interrupted(
+            signum,
+            f"the search was stopped; {found} found so far (not proven best); no file was "
+            "written (--write-partial writes the files of the best design found so far)",
+        )
     if winner is not None:
         _write_exports(
             args, console, spec, winner.design, winner.verification, json_text, pick_report=report
         )
-        _verify_spice(args, console, spec, winner.design)
+        if not stopped:
+            _verify_spice(args, console, spec, winner.design)
     elif args.json_out is not None:
-        _write_file(args, console, args.json_out, json_text + "\n")
+        _write_outputs(args, console, [(args.json_out, json_text + "\n")])
     if winner is None and (args.bom or args.netlist or args.report or args.verify_spice):
         _notes(args, console).print(
             "[yellow]warning[/yellow]: no design was found, so no BOM, netlist or report was "
             "written and nothing was simulated",
             highlight=False,
+        )
+    if stopped:
+        raise interrupt.Interrupted(
+            signum,
+            "the search was stopped; the files above hold the best design found so far "
+            "(not proven best)",
         )
     if result.status is SearchStatus.OPTIMAL:
         return EXIT_OK
@@ -371,47 +465,137 @@ def _add_export_options(parser: argparse.ArgumentParser, what: str) -> None:
 
 
 def _export_paths(args: argparse.Namespace) -> list[str]:
-    return [p for p in (args.bom, args.json_out, args.netlist, args.report) if p is not None]
+    names = ("bom", "json_out", "netlist", "report")
+    return [p for p in (getattr(args, n, None) for n in names) if p is not None]
 
 
-def _refuse_existing_outputs(args: argparse.Namespace) -> None:
-    """Fail before any work when an output file exists without --force, its folder is missing,
-    one file is named for two outputs, or a report has an extension other than .md or .html."""
-    import os
+def _check_outputs(args: argparse.Namespace, spec: Spec | None = None) -> None:
+    """Fail before any work when an output path may not be written: not a regular file (a
+    device, FIFO, folder or a symlink to one), exists without --force, folder missing or not
+    writable, one file named for two outputs, an input of the run (the spec, a catalog), a
+    report with an extension other than .md or .html, or standard output asked twice or beside
+    --json."""
+    from .safewrite import STDOUT, OutputError, check_outputs
 
-    from .safewrite import OutputError
-
-    if args.report is not None:
+    if args.report is not None and args.report != STDOUT:
         from .report.exports import report_format
 
         if report_format(args.report) is None:
             raise OutputError(f"{args.report}: a report file must end in .md or .html")
-    seen: dict[str, str] = {}
-    for path in _export_paths(args):
-        real = os.path.realpath(path)
-        if real in seen:
-            raise OutputError(f"{path}: named for two outputs; give each output its own file")
-        seen[real] = path
-        folder = os.path.dirname(path) or "."
-        if not os.path.isdir(folder):
-            raise OutputError(f"{path}: folder {folder} does not exist")
-        if os.path.exists(path) and not args.force:
-            raise OutputError(f"{path}: already exists; give --force to replace it")
+    paths = _export_paths(args)
+    if STDOUT in paths and getattr(args, "json", False):
+        raise OutputError(
+            f"{STDOUT}: --json already prints its document on standard output; send the "
+            "export to a file"
+        )
+    inputs = [args.spec, *getattr(args, "catalog", [])]
+    if spec is not None:
+        inputs += list(spec.preferences.catalogs)
+    check_outputs(paths, force=args.force, inputs=inputs)
+
+
+def _bare_fraction(option: str, text: str | None) -> str | None:
+    """A warning for a fraction option written as a bare number of 0.05 or more."""
+    from .specfile import BARE_FRACTION_WARNING
+
+    if text is None:
+        return None
+    try:
+        value = float(text.strip())
+    except ValueError:
+        return None
+    if value < BARE_FRACTION_WARNING:
+        return None
+    return f"{option} {text}: means ±{value * 100:g} %; write {text}% for {text} percent"
+
+
+def _option_warnings(args: argparse.Namespace, argv: Sequence[str]) -> list[str]:
+    """Plausibility warnings on the command line: an option given twice (the last is used)
+    and a tolerance or drift written as a bare number of 0.05 or more."""
+    repeatable = {"--catalog", "--network"}
+    counts: dict[str, int] = {}
+    for token in argv:
+        if token == "--":
+            break
+        if token.startswith("--"):
+            name = token.split("=", 1)[0]
+            counts[name] = counts.get(name, 0) + 1
+    found = [
+        f"{name} given {count} times; the last one is used"
+        for name, count in counts.items()
+        if count > 1 and name not in repeatable
+    ]
+    for option in ("tolerance", "drift"):
+        warning = _bare_fraction(f"--{option}", getattr(args, option, None))
+        if warning:
+            found.append(warning)
+    for position in ("r1", "r2", "r3", "r4"):
+        part = getattr(args, position, None)
+        fields = part.split("/") if part else []
+        if len(fields) > 1:
+            warning = _bare_fraction(f"--{position}", fields[1])
+            if warning:
+                found.append(warning.replace(f" {fields[1]}:", f" {part}: tolerance {fields[1]}"))
+    return found
+
+
+def _all_warnings(args: argparse.Namespace) -> list[str]:
+    return [*getattr(args, "spec_warnings", ()), *getattr(args, "option_warnings", ())]
+
+
+def _warn(args: argparse.Namespace, console: Console, spec: Spec | None = None) -> None:
+    """Print the plausibility warnings once (spec and options); kept for the JSON document."""
+    if spec is not None:
+        args.spec_warnings = list(spec.warnings)
+    for text in _all_warnings(args):
+        _notes(args, console).print(f"[yellow]warning[/yellow]: {escape(text)}", highlight=False)
+
+
+#: Environment variable: a debugging aid the interrupt tests use. When set, each stage of a run
+#: prints ``quartet-stage: NAME`` to standard error; when it names a stage, the run also waits
+#: there for STAGE_PAUSE_S seconds (a signal ends the wait).
+STAGES_VARIABLE = "QUARTET_STAGES"
+STAGE_PAUSE_S = 5.0
+
+
+def _stage(name: str) -> None:
+    wanted = os.environ.get(STAGES_VARIABLE)
+    if not wanted:
+        return
+    sys.stderr.write(f"quartet-stage: {name}\n")
+    sys.stderr.flush()
+    if wanted == name:
+        import time
+
+        time.sleep(STAGE_PAUSE_S)
 
 
 def _notes(args: argparse.Namespace, console: Console) -> Console:
-    """Where side notes go: standard error when --json puts a document on standard output."""
+    """Where side notes go: standard error when --json or an export to standard output
+    (``-``) puts a document on standard output."""
+    from .safewrite import STDOUT
+
     note_console: Console | None = getattr(args, "note_console", None)
-    if getattr(args, "json", False):
+    if getattr(args, "json", False) or STDOUT in _export_paths(args):
         return note_console if note_console is not None else Console(stderr=True)
     return console
 
 
-def _write_file(args: argparse.Namespace, console: Console, path: str, text: str) -> None:
-    from .safewrite import write_text
+def _write_outputs(
+    args: argparse.Namespace, console: Console, outputs: Sequence[tuple[str, str]]
+) -> None:
+    """Write ``(path, text)`` outputs as one step (safewrite.write_all: all or none), then the
+    one meant for standard output (``-``), if any."""
+    from .safewrite import STDOUT, write_all
 
-    written = write_text(path, text, force=args.force)
-    _notes(args, console).print(f"wrote {escape(str(written))}", highlight=False)
+    files = [(path, text.encode("utf-8")) for path, text in outputs if path != STDOUT]
+    if files:
+        for written in write_all(files, force=args.force, staged=lambda: _stage("writing")):
+            _notes(args, console).print(f"wrote {escape(str(written))}", highlight=False)
+    for path, text in outputs:
+        if path == STDOUT:
+            sys.stdout.write(text)
+            sys.stdout.flush()
 
 
 def _write_exports(
@@ -425,23 +609,26 @@ def _write_exports(
     pick_report: PickReport | None,
 ) -> None:
     """Write the files asked for (all through safewrite; --force replaces existing ones)."""
+    from .safewrite import STDOUT
+
+    outputs: list[tuple[str, str]] = []
     if args.bom is not None:
         from .report.exports import bom_csv_text
 
-        _write_file(args, console, args.bom, bom_csv_text(design))
+        outputs.append((args.bom, bom_csv_text(design)))
     if args.json_out is not None:
-        _write_file(args, console, args.json_out, json_text + "\n")
+        outputs.append((args.json_out, json_text + "\n"))
     if args.netlist is not None:
         from .analysis.checks import safety_cautions
         from .netlist import design_netlist
 
         netlist = design_netlist(design, spec, cautions=safety_cautions(spec))
-        _write_file(args, console, args.netlist, netlist)
+        outputs.append((args.netlist, netlist))
     if args.report is not None:
         from .report.exports import check_blocks, pick_blocks, render_report, report_format
 
-        fmt = report_format(args.report)
-        assert fmt is not None  # checked by _refuse_existing_outputs
+        fmt = "md" if args.report == STDOUT else report_format(args.report)
+        assert fmt is not None  # checked by _check_outputs
         title = f"Quartet {'pick' if pick_report else 'check'}: {spec.title or spec.source_path}"
         blocks = []
         if pick_report is not None:
@@ -450,7 +637,8 @@ def _write_exports(
             ]
             blocks += pick_blocks(rows, spec, pick_report.result.status.value.replace("_", " "))
         blocks += check_blocks(design, spec, verification)
-        _write_file(args, console, args.report, render_report(title, blocks, fmt))
+        outputs.append((args.report, render_report(title, blocks, fmt)))
+    _write_outputs(args, console, outputs)
 
 
 def _verify_spice(args: argparse.Namespace, console: Console, spec: Spec, design: Design) -> None:
@@ -517,12 +705,10 @@ def _add_sweep_command(commands: argparse._SubParsersAction[_Parser]) -> None:
 
 
 def _sweep(args: argparse.Namespace, console: Console) -> int:
-    import os
-
     from rich.progress import Progress
 
     from .report.sweep import render_sweep_table, sweep_plot, sweep_text_chart
-    from .safewrite import OutputError, write_bytes
+    from .safewrite import OutputError, check_outputs, write_bytes
     from .specfile import load_spec
     from .sweep import parse_range, sweep
 
@@ -532,14 +718,14 @@ def _sweep(args: argparse.Namespace, console: Console) -> int:
         fmt = "png" if lower.endswith(".png") else "svg" if lower.endswith(".svg") else None
         if fmt is None:
             raise OutputError(f"{args.plot}: a plot file must end in .png or .svg")
-        if os.path.exists(args.plot) and not args.force:
-            raise OutputError(f"{args.plot}: already exists; give --force to replace it")
+        check_outputs([args.plot], force=args.force, inputs=[args.spec, *args.catalog])
     if args.cmrr is not None:
         floors = parse_range(args.cmrr, "--cmrr")
     else:
         floors = tuple(p / 100.0 for p in parse_range(args.gain_accuracy, "--gain-accuracy"))
     spec = load_spec(args.spec)
-    catalog = _spec_catalogs(spec, args.catalog)
+    _warn(args, console, spec)
+    catalog = _spec_catalogs(spec, args.catalog, _notes(args, console))
     with Progress(console=console, transient=True) as progress:
         what = "CMRR floor" if args.cmrr is not None else "gain accuracy"
         task = progress.add_task(f"sweeping the {what}", total=len(floors))
@@ -595,15 +781,36 @@ def main(
     except SystemExit as exc:  # --version and --help
         return int(exc.code or 0)
     handler: Handler = args.handler
+    args.option_warnings = _option_warnings(args, list(sys.argv[1:] if argv is None else argv))
     # Side notes (files written, the simulator cross-check) go here when stdout carries JSON.
     args.note_console = errors
+    from .safewrite import STDOUT
+
+    if console is None and STDOUT in _export_paths(args):
+        out = errors  # standard output carries the export
+    interrupt.reset()
     try:
-        return handler(args, out)
+        # No Python warning reaches the user: the analysis treats overflowing figures itself
+        # (an infinite error is a failed check), so numpy's RuntimeWarnings are noise here.
+        with interrupt.armed(), warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            return handler(args, out)
+    except (RecursionError, MemoryError) as exc:
+        errors.print(
+            f"[bold red]{type(exc).__name__}[/bold red]: the input is too large or too deeply "
+            "nested to process",
+            highlight=False,
+        )
+        return EXIT_BAD_INPUT
     except QuartetError as exc:
         # escape: messages quote the user's own text, which may contain [markup].
         name = type(exc).__name__
         errors.print(f"[bold red]{name}[/bold red]: {escape(str(exc))}", highlight=False)
         return EXIT_BAD_INPUT
+    except interrupt.Interrupted as exc:
+        detail = f": {exc.detail}" if exc.detail else ""
+        errors.print(f"interrupted{escape(detail)}", highlight=False)
+        return exc.exit_code
     except KeyboardInterrupt:
         errors.print("interrupted")
         return 130

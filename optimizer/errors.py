@@ -19,6 +19,21 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+#: Longest piece of the user's own text quoted in a message.
+QUOTE_CHARS = 60
+
+
+def quote(text: object) -> str:
+    """``repr`` of the user's ``text``, cut to its first line and QUOTE_CHARS characters (the
+    full length is named when it was cut), so a message stays one readable line."""
+    whole = str(text)
+    lines = whole.splitlines()
+    line = lines[0] if lines else whole
+    cut = line if len(line) <= QUOTE_CHARS else line[: QUOTE_CHARS - 1] + "…"
+    if cut == whole:
+        return repr(text)
+    return f"{cut!r} (cut; {len(whole):,} characters in all)"
+
 
 class QuartetError(Exception):
     """Base class of every error raised by Quartet."""
@@ -32,7 +47,7 @@ class UnitError(QuartetError, ValueError):
         self.expected = expected
         self.reason = reason
         detail = f" ({reason})" if reason else ""
-        super().__init__(f"cannot read {token!r}{detail}: expected {expected}")
+        super().__init__(f"cannot read {quote(token)}{detail}: expected {expected}")
 
 
 class ModelError(QuartetError, ValueError):

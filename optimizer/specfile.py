@@ -42,9 +42,11 @@ from yaml.constructor import SafeConstructor
 from yaml.nodes import MappingNode, Node, ScalarNode, SequenceNode
 
 from .design import Topology
-from .errors import ModelError, SpecError, UnitError
+from .errors import ModelError, SpecError, UnitError, quote
+from .inputs import MAX_DEPTH, SPEC_MAX_BYTES, read_bounded, yaml_too_deep
 from .parts import Amplifier, RailSpan
 from .spec import (
+    MAX_SAMPLES,
     CmrrBasis,
     Distribution,
     DriftModel,
@@ -77,6 +79,42 @@ from .units import (
 )
 
 __all__ = ["FORMAT_VERSION", "load_spec", "parse_spec_text"]
+
+#: Longest free text (title, labels) a spec may hold: it is shown on one line of the reports.
+MAX_TEXT_CHARS = 200
+
+#: A fraction written as a bare number this large or larger gets a warning (0.05 = 5 %): a
+#: gain accuracy or tolerance that loose is rare, "0.5" meant as 0.5 % is common.
+BARE_FRACTION_WARNING = 0.05
+
+#: Ranges op-amps are made in (key: Amplifier field, unit, low, high), common practice: GBW
+#: from micropower parts (~1 kHz) to the fastest (~100 GHz), slew rate from 1 V/ms to
+#: 100 V/ns, offset up to 100 mV, bias current up to 10 µA, voltage noise 0.1 nV/√Hz to
+#: 10 µV/√Hz, current noise up to 100 pA/√Hz; CMRR and open-loop gain at least 40 dB.
+PLAUSIBLE_AMPLIFIER: dict[str, tuple[str, str, float, float]] = {
+    "cmrr": ("cmrr_db", "dB", 40.0, math.inf),
+    "open_loop_gain": ("open_loop_gain_db", "dB", 40.0, math.inf),
+    "gbw": ("gbw_hz", "Hz", 1e3, 1e11),
+    "slew_rate": ("slew_v_per_s", "V/s", 1e3, 1e11),
+    "offset_voltage": ("offset_v", "V", 0.0, 0.1),
+    "bias_current": ("bias_a", "A", 0.0, 1e-5),
+    "voltage_noise": ("voltage_noise_v_rthz", "V/√Hz", 1e-10, 1e-5),
+    "current_noise": ("current_noise_a_rthz", "A/√Hz", 0.0, 1e-10),
+}
+
+#: Operating temperatures outside this range (°C) get a warning: resistor and op-amp data
+#: cover about -55 °C to +200 °C (common practice); beyond is likely a unit mistake.
+PLAUSIBLE_TEMPERATURE_C = (-200.0, 300.0)
+
+
+def _is_bare_number(text: object) -> bool:
+    """True for a plain number such as ``0.5`` or ``1e-3`` (no unit, no % or ppm)."""
+    try:
+        float(str(text).strip())
+    except ValueError:
+        return False
+    return True
+
 
 #: The spec-file format version this module reads (the ``quartet_spec`` key).
 FORMAT_VERSION = 1
@@ -195,6 +233,7 @@ class _Reader:
         self.path = path
         self.folder = Path(path).parent
         self.problems: list[SpecError] = []
+        self.warnings: list[tuple[int, str]] = []
         self.bad: set[str] = set()
         self.lines: dict[str, int] = {}
         self._constructor = SafeConstructor()
@@ -208,6 +247,10 @@ class _Reader:
     def fail(self, key: str, line: int, message: str) -> NoReturn:
         self.problem(key, line, message)
         raise _Recorded
+
+    def warn(self, key: str, line: int, message: str) -> None:
+        """A plausibility warning: the value is read, the run goes on."""
+        self.warnings.append((line, str(SpecError(message, path=self.path, key=key, line=line))))
 
     def ok(self, *keys: str) -> bool:
         """True when no problem was recorded at, above or below any of ``keys``."""
@@ -291,8 +334,14 @@ class _Reader:
     def number(self, expected: str) -> Read[float]:
         def read(node: Node, key: str) -> float:
             value = self.scalar(node, key, expected)
+            if isinstance(value, str):
+                # YAML 1.1 reads 1e2 (no dot) and quoted numbers as text: read them as numbers.
+                try:
+                    value = float(value.strip().replace("_", ""))
+                except ValueError:
+                    self.fail(key, _line(node), f"expected {expected}, got {quote(node.value)}")
             if isinstance(value, bool) or not isinstance(value, (int, float)):
-                self.fail(key, _line(node), f"expected {expected}, got {node.value!r}")
+                self.fail(key, _line(node), f"expected {expected}, got {quote(node.value)}")
             try:
                 number = float(value)
             except OverflowError:  # an int beyond the float range (found by tests/test_fuzz.py)
@@ -331,6 +380,18 @@ class _Reader:
         text = str(node.value).strip()
         if not text:
             self.fail(key, _line(node), "expected text, got an empty value")
+        return text
+
+    def line_text(self, node: Node, key: str) -> str:
+        """Free text shown in reports: one line of at most MAX_TEXT_CHARS characters."""
+        text = self.text(node, key)
+        if len(text) > MAX_TEXT_CHARS or "\n" in text:
+            self.fail(
+                key,
+                _line(node),
+                f"expected one line of at most {MAX_TEXT_CHARS} characters, got "
+                f"{len(text):,} characters" + (" on several lines" if "\n" in text else ""),
+            )
         return text
 
     def choice(self, enum: type[E]) -> Read[E]:
@@ -594,7 +655,7 @@ class _Schema:
 
     def amplifier(self, m: _Map) -> Amplifier | None:
         r = self.r
-        label = m.opt("label", r.text, DEFAULT_AMPLIFIER_LABEL)
+        label = m.opt("label", r.line_text, DEFAULT_AMPLIFIER_LABEL)
         cmrr = m.need("cmrr", self.level, "a level in decibels such as 100 dB, or ideal", math.nan)
         aol = m.need(
             "open_loop_gain", self.level, "a level in decibels such as 120 dB, or ideal", math.nan
@@ -662,6 +723,35 @@ class _Schema:
             return value
 
         return inner
+
+    def bare_fraction(self, m: _Map, name: str, value: float) -> None:
+        """Warn when a fraction is written as a bare number of BARE_FRACTION_WARNING or more
+        (``0.5`` is ±50 %, often meant as 0.5 %)."""
+        node = m.entries.get(name)
+        if node is None or not isinstance(node, ScalarNode) or not math.isfinite(value):
+            return
+        if value < BARE_FRACTION_WARNING or not _is_bare_number(node.value):
+            return
+        self.r.warn(
+            m.child(name),
+            m.line_of(name),
+            f"{node.value} means ±{value * 100:g} %; write {node.value} % for {node.value} percent",
+        )
+
+    def check_amplifier(self, m: _Map, amp: Amplifier) -> None:
+        """Warn about amplifier figures outside the ranges op-amps are made in
+        (PLAUSIBLE_AMPLIFIER)."""
+        for name, (field_name, unit, low, high) in PLAUSIBLE_AMPLIFIER.items():
+            value = getattr(amp, field_name)
+            if value is None or not math.isfinite(value) or low <= value <= high:
+                continue
+            self.r.warn(
+                m.child(name),
+                m.line_of(name),
+                f"{format_quantity(value, unit, 4)} lies outside "
+                f"{format_quantity(low, unit, 4)} to {format_quantity(high, unit, 4)}, the range "
+                "op-amps are made in; check the value and its unit",
+            )
 
     def check_spans(self, amp: Amplifier, rails: Rails) -> None:
         """The input range must be non-empty and the output swing inside the rails."""
@@ -865,6 +955,7 @@ class _Schema:
             math.nan,
         )
         accuracy = m.need("gain_accuracy", self.fraction, _expected(parse_fraction), math.nan)
+        self.bare_fraction(m, "gain_accuracy", accuracy)
         floor = m.need("cmrr_floor", self.db, _expected(parse_db), math.nan)
         if r.ok("requirements.cmrr_floor") and floor <= 0.0:
             r.problem(
@@ -894,6 +985,15 @@ class _Schema:
             "min and max such as {min: -40 °C, max: 125 °C}",
             (math.nan, math.nan),
         )
+        low_c, high_c = PLAUSIBLE_TEMPERATURE_C
+        if r.ok("requirements.temperature") and (temps[0] < low_c or temps[1] > high_c):
+            r.warn(
+                "requirements.temperature",
+                m.line_of("temperature"),
+                f"{format_temperature(temps[0], 4)} to {format_temperature(temps[1], 4)} lies "
+                f"outside {low_c:g} °C to {high_c:g} °C, where resistor and amplifier data "
+                "end; check the unit",
+            )
         life = m.opt("operating_life", r.quantity(parse_duration), 0.0)
         drift_model = m.opt("drift_model", r.choice(DriftModel), DriftModel.SYMMETRIC)
         z_in = m.opt("min_input_impedance", self.impedance, 0.0)
@@ -1066,7 +1166,7 @@ class _Schema:
         mc = r.section(m, "monte_carlo", MONTE_CARLO_KEYS)
         if mc is not None:
             samples = mc.opt(
-                "samples", r.integer("a whole number from 100 to 100,000,000"), samples
+                "samples", r.integer(f"a whole number from 100 to {MAX_SAMPLES:,}"), samples
             )
             seed = mc.opt("seed", r.integer("a whole number of zero or more"), seed)
             distribution = mc.opt("distribution", r.choice(Distribution), distribution)
@@ -1147,7 +1247,7 @@ class _Schema:
             )
         top = r.mapping(root, "", TOP_KEYS, line=_line(root))
         top.need("quartet_spec", self.version, f"the format version, {FORMAT_VERSION}", 0)
-        title = top.opt("title", r.text, None)
+        title = top.opt("title", r.line_text, None)
         sections = {
             "amplifier": AMPLIFIER_KEYS,
             "rails": RAILS_KEYS,
@@ -1178,6 +1278,8 @@ class _Schema:
         preferences = self.preferences(r.section(top, "preferences", PREFERENCE_KEYS))
         if rails is not None and amplifier is not None:
             self.check_spans(amplifier, rails)
+        if amplifier is not None and amplifier_map is not None:
+            self.check_amplifier(amplifier_map, amplifier)
         if rails is not None and reference is not None:
             self.check_reference(reference, rails)
         if r.problems:
@@ -1193,6 +1295,7 @@ class _Schema:
             preferences=preferences,
             source_path=r.path,
             title=title,
+            warnings=tuple(text for _, text in sorted(r.warnings)),
         )
 
 
@@ -1226,6 +1329,13 @@ def _yaml_error(path: str, exc: yaml.YAMLError) -> SpecError:
 def parse_spec_text(text: str, path: str) -> Spec:
     """Read a spec from YAML ``text``; ``path`` names the file in messages and is the base for
     relative catalog paths. Raises :class:`SpecError` listing every problem found."""
+    deep = yaml_too_deep(text)
+    if deep is not None:
+        raise SpecError(
+            f"mappings and lists nest deeper than {MAX_DEPTH} levels; a spec needs 4",
+            path=path,
+            line=deep,
+        )
     try:
         root = yaml.compose(text, Loader=yaml.SafeLoader)
     except yaml.YAMLError as exc:
@@ -1252,14 +1362,14 @@ def load_spec(path: str | os.PathLike[str]) -> Spec:
     """Read and check the spec file at ``path``. Raises :class:`SpecError` (located by file, line
     and key path) for a missing or unreadable file, bad YAML, or any problem in the content."""
     name = os.fspath(path)
-    try:
-        data = Path(name).read_bytes()
-    except FileNotFoundError:
-        raise SpecError("file not found", path=name) from None
-    except IsADirectoryError:
-        raise SpecError("is a folder, not a spec file", path=name) from None
-    except OSError as exc:
-        raise SpecError(f"cannot read the file: {exc.strerror or exc}", path=name) from None
+    data = read_bounded(
+        name,
+        SPEC_MAX_BYTES,
+        lambda message: SpecError(message, path=name),
+        "spec",
+        missing="file not found",
+        folder="is a folder, not a spec file",
+    )
     try:
         text = data.decode("utf-8-sig")
     except UnicodeDecodeError as exc:

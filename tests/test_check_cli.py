@@ -455,7 +455,7 @@ R_OK = ["--r2", "10k", "--r3", "100k", "--r4", "10k"]
             "a tolerance with % (0.1%) or a tempco with ppm/K (25ppm/K)",
         ),
         (
-            ["--r1", "100k", *R_OK, "--tolerance", "0.1", "--tempco", "25"],
+            ["--r1", "100k", *R_OK, "--tolerance", "0.1%", "--tempco", "25"],
             "DesignError: --tempco '25': cannot read '25' (larger than 10,000 ppm/K; did you "
             "mean ppm/K?): expected a tempco such as 25 ppm/K, 25ppm/°C or 25e-6",
         ),

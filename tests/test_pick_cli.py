@@ -392,6 +392,7 @@ TOP_KEYS = [
     "other_kind",
     "diagnosis",
     "safety_cautions",
+    "warnings",
     "timing",
     "non_finite",
 ]

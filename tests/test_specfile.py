@@ -604,7 +604,7 @@ REFUSALS = [
         "samples: 1000",
         "samples: 10",
         "t.yaml:43: preferences.monte_carlo.samples: "
-        "expected a whole number from 100 to 100,000,000, got 10",
+        "expected a whole number from 100 to 10,000,000, got 10",
     ),
     (
         "negative line cost",

@@ -29,6 +29,7 @@ unit in the key name; fractions are plain fractions, 0.001 = 0.1 %)::
                          drift_shared_variance (one-sided drift; else null)}
     checks              [{name, met, value, limit, margin, unit, has_requirement, detail}]
     safety_cautions     [text]  (empty when none apply)
+    warnings            [text]  plausibility warnings on the spec and options (usually empty)
     non_finite          [{key, was}]: every figure written as null because it was not a
                          finite number ("inf", "-inf" or "nan"), e.g. the CMRR of a perfectly
                          balanced bridge (inf) or the limit of a figure with no requirement (nan)
@@ -496,6 +497,7 @@ def check_to_json(
     *,
     origins: Sequence[str] | None = None,
     assumptions: Sequence[str] = (),
+    warnings: Sequence[str] = (),
 ) -> dict[str, Any]:
     """The JSON document of schema :data:`SCHEMA` (module docstring): plain dicts, lists,
     strings, bools, ints and finite floats (non-finite figures become ``None`` and are listed
@@ -571,6 +573,7 @@ def check_to_json(
             for c in verification.checks
         ],
         "safety_cautions": list(verification.cautions),
+        "warnings": list(warnings),
     }
     found: list[dict[str, str]] = []
     document: dict[str, Any] = _finite_only(raw, "", found)

@@ -22,6 +22,7 @@ unit in the key name; fractions are plain fractions, 0.001 = 0.1 %)::
     diagnosis           null unless infeasible: {binding: [requirement names],
                          best_reachable: [{requirement, asked, reachable, note}], text}
     safety_cautions     [text]  (empty when none apply)
+    warnings            [text]  plausibility warnings on the spec and options (usually empty)
     timing              {build_s, solve_s, verify_s, statistics_s}: wall-clock seconds; the
                          only part that differs between two runs on the same input
     non_finite          [{key, was}]: every figure written as null because it was not a
@@ -153,6 +154,8 @@ class PickReport:
     time_limit_s: float
     statistics_seconds: float
     cautions: tuple[str, ...]
+    #: A signal (SIGINT, SIGTERM) stopped the search: the designs are those found so far.
+    interrupted: bool = False
 
     @property
     def winner(self) -> Shown | None:
@@ -181,6 +184,7 @@ def build_pick_report(
     time_limit_s: float,
     cautions: Sequence[str],
     diagnosis: Diagnosis | None = None,
+    interrupted: bool = False,
 ) -> PickReport:
     """The report of one pick: runs the Monte Carlo (``spec.preferences`` samples and seed)
     for every displayed design that has none yet."""
@@ -210,6 +214,7 @@ def build_pick_report(
         time_limit_s=time_limit_s,
         statistics_seconds=time.perf_counter() - started,
         cautions=tuple(cautions),
+        interrupted=interrupted,
     )
 
 
@@ -344,20 +349,22 @@ def render_status(report: PickReport) -> Text:
         else:
             text.append(f": the {found} best design(s) by {_objective_words(report.spec)}")
     elif r.status is SearchStatus.TIME_LIMIT:
-        stopped = (
-            f"the search stopped after {r.cuts} rejected candidates"
-            if r.cuts >= MAX_CUTS
-            else f"the time limit ({report.time_limit_s:g} s) ran out"
-        )
+        if report.interrupted:
+            stopped = "the search was interrupted"
+        elif r.cuts >= MAX_CUTS:
+            stopped = f"the search stopped after {r.cuts} rejected candidates"
+        else:
+            stopped = f"the time limit ({report.time_limit_s:g} s) ran out"
         gap = "gap unknown" if r.gap is None else f"gap {r.gap * 100:.2f} %"
         if found:
             text.append("best found, NOT proven optimal", style="bold yellow")
             text.append(f": {stopped}; {gap}")
         else:
             text.append("no design found", style="bold yellow")
+            hint = "" if report.interrupted else " (a longer --time-limit may find one)"
             text.append(
                 f": {stopped} before any design passed the exact check; this does not prove "
-                "that none exists (a longer --time-limit may find one)"
+                f"that none exists{hint}"
             )
     else:
         text.append("nothing meets the spec", style="bold red")
@@ -466,7 +473,7 @@ def _design_json(shown: Shown) -> dict[str, Any]:
     }
 
 
-def pick_to_json(report: PickReport) -> dict[str, Any]:
+def pick_to_json(report: PickReport, warnings: Sequence[str] = ()) -> dict[str, Any]:
     """The JSON document of schema :data:`SCHEMA` (module docstring): plain dicts, lists,
     strings, bools, ints and finite floats (non-finite figures become ``None`` and are listed
     under ``non_finite``). Everything except ``timing`` is the same on every run with the
@@ -509,6 +516,7 @@ def pick_to_json(report: PickReport) -> dict[str, Any]:
             "text": diagnosis.text,
         },
         "safety_cautions": list(report.cautions),
+        "warnings": list(warnings),
         "timing": {
             "build_s": r.build_seconds,
             "solve_s": r.solve_seconds,

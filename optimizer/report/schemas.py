@@ -143,6 +143,7 @@ CHECK_SCHEMA: Final[dict[str, Any]] = {
                 )
             ),
             "safety_cautions": _arr(_STR),
+            "warnings": _arr(_STR),
             "non_finite": _NON_FINITE,
         }
     ),
@@ -229,6 +230,7 @@ PICK_SCHEMA: Final[dict[str, Any]] = {
                 nullable=True,
             ),
             "safety_cautions": _arr(_STR),
+            "warnings": _arr(_STR),
             "timing": _obj(
                 {"build_s": _NUM, "solve_s": _NUM, "verify_s": _NUM, "statistics_s": _NUM}
             ),

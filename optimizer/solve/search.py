@@ -22,6 +22,7 @@ import numpy as np
 from numpy.typing import NDArray
 from ortools.sat.python import cp_model
 
+from .. import interrupt
 from ..catalog import Catalog
 from ..cost import CostBreakdown, design_cost
 from ..design import Design, Placement, Topology
@@ -100,6 +101,7 @@ def solver_parameters(time_limit_s: float, workers: int = 1, seed: int = 0) -> c
     solver.parameters.log_search_progress = False
     # Probing in presolve costs more than it saves on these models (measured on the examples).
     solver.parameters.cp_model_probing_level = 0
+    interrupt.watch(solver)  # SIGINT/SIGTERM stop the solve (and CP-SAT leaves SIGINT alone)
     return solver
 
 
@@ -111,7 +113,7 @@ class _Clock:
     build: float = 0.0
 
     def remaining(self) -> float:
-        return self.deadline - time.perf_counter()
+        return 0.0 if interrupt.cancelled() else self.deadline - time.perf_counter()
 
 
 @dataclass(frozen=True)
