@@ -56,7 +56,7 @@ from __future__ import annotations
 import heapq
 import itertools
 import math
-from collections.abc import Iterator, Sequence
+from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
 from typing import cast
 
@@ -610,10 +610,16 @@ def _per_line(spec: Spec) -> tuple[float, float]:
     return prefs.line_cost, penalty
 
 
-def discrete_frontier(spec: Spec, catalog: Catalog, env: LinearEnvironment) -> Iterator[Design]:
+def discrete_frontier(
+    spec: Spec,
+    catalog: Catalog,
+    env: LinearEnvironment,
+    should_stop: Callable[[], bool] = lambda: False,
+) -> Iterator[Design]:
     """Four-discrete designs that meet the spec's worst-case CMRR and gain accuracy, in
     nondecreasing exact cost (``optimizer.cost``); the other checks are left to the caller's
-    exact check. Exhaustive: when it stops, no further design passes those two."""
+    exact check. Exhaustive: when it ends, no further design passes those two — unless
+    ``should_stop`` (asked between steps: a clock, an interrupt) ended it early."""
     lim = _limits(spec, env)
     if lim.balance < 0.0:
         return
@@ -639,7 +645,7 @@ def discrete_frontier(spec: Spec, catalog: Catalog, env: LinearEnvironment) -> I
     bound = cost1[g1] + cost2[g2] + line_cost * distinct
     pair_order = np.argsort(bound, kind="stable")
     yield from _emit(spec, catalog, parts, lim, one, two, order1, span1, order2, span2,
-                     g1[pair_order], g2[pair_order], bound[pair_order])  # fmt: skip
+                     g1[pair_order], g2[pair_order], bound[pair_order], should_stop)  # fmt: skip
 
 
 def _emit(
@@ -656,6 +662,7 @@ def _emit(
     g1: IntArray,
     g2: IntArray,
     bound: Array,
+    should_stop: Callable[[], bool],
 ) -> Iterator[Design]:
     """Merge the group pairs (taken in order of their bound) into one stream of designs in
     exact cost order: a heap of entries keyed by a lower bound that is replaced by the exact
@@ -695,7 +702,7 @@ def _emit(
     tick = itertools.count()
     next_pair = 0
     seen: set[tuple[object, ...]] = set()
-    while True:
+    while not should_stop():
         top = heap[0][0] if heap else math.inf
         top_exact = bool(heap) and heap[0][1] == _EXACT
         if next_pair < bound.size and (

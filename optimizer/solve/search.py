@@ -270,17 +270,25 @@ class _FrontierStream:
         self.topologies = frozenset({topology})
         self.pair_shape: int | None = None
         spec, catalog, env = problem.spec, problem.catalog, problem.env
+        self._out_of_time = False
         self._source = (
-            discrete_frontier(spec, catalog, env)
+            discrete_frontier(spec, catalog, env, self._stop)
             if topology is Topology.DISCRETE
             else network_frontier(spec, catalog, env, topology)
         )
+        self._clock: _Clock | None = None
         self.exhausted = False
         self.optimal = True
         self.timed_out = False
         self.gap: float | None = None
         self.solves = 0
         self.rejected: list[tuple[Design, Verdict]] = []
+
+    def _stop(self) -> bool:
+        """Asked by the enumeration between steps: the clock ran out or the run was cancelled."""
+        if self._clock is not None and self._clock.remaining() <= 0.0:
+            self._out_of_time = True
+        return self._out_of_time
 
     def next(
         self, verifier: Verifier, clock: _Clock, workers: int
@@ -292,9 +300,12 @@ class _FrontierStream:
                 self.timed_out, self.optimal, self.exhausted = True, False, True
                 return None
             started = time.perf_counter()
+            self._clock = clock
             design = next(self._source, None)
             clock.build += time.perf_counter() - started
             if design is None:
+                if self._out_of_time:  # ended early: nothing is proven
+                    self.timed_out, self.optimal = True, False
                 self.exhausted = True
                 return None
             self.solves += 1
