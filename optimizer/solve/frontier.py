@@ -823,6 +823,20 @@ def _element_bounds(network: NetworkPart, env: LinearEnvironment) -> tuple[float
     return (1.0 - t) * (1.0 - tc) * (1.0 - d), (1.0 + t) * (1.0 + tc) * (1.0 + d)
 
 
+def _package_extremes(network: NetworkPart, spec: Spec, env: LinearEnvironment) -> tuple[
+    float, float
+]:  # fmt: skip
+    """The package's shared factor ``(1 + e_abs)(1 + α_abs·ΔT)(1 + d_abs)`` at its two ends
+    (``analysis.variation``): points of the exact check's range, so a design must pass the
+    screen at each."""
+    swing = network.abs_tempco_per_k * env.delta_t_k
+    d_lo, d_hi = drift_factor_bounds(
+        float(life_drift(network.drift_1000h, env.life_h)), spec.requirements.drift_model
+    )
+    t = network.abs_tolerance
+    return (1.0 - t) * (1.0 - swing) * float(d_lo), (1.0 + t) * (1.0 + swing) * float(d_hi)
+
+
 def _usable_networks(
     spec: Spec, catalog: Catalog, env: LinearEnvironment, elements: int
 ) -> list[NetworkPart]:
@@ -854,16 +868,18 @@ def network_frontier(
     lim = _limits(spec, env)
     if lim.balance < 0.0:
         return
-    if topology is Topology.QUAD:
-        layouts = _quad_layouts(spec, catalog, env, lim)
-    else:
-        layouts = _pair_layouts(spec, catalog, env, topology, lim)
+    if topology is not Topology.QUAD:
+        yield from _pair_frontier(spec, catalog, env, topology, lim)
+        return
+    layouts = _quad_layouts(spec, catalog, env, lim)
     if not layouts:
         return
     nominal = np.array([layout[1] for layout in layouts])
     low = np.array([layout[2] for layout in layouts])
     high = np.array([layout[3] for layout in layouts])
-    ok = corner_screen(nominal, low, high, lim)
+    ends = np.array([_package_extremes(_network_of(layout[0]), spec, env) for layout in layouts])
+    ok = corner_screen(nominal * ends[:, :1], low, high, lim)
+    ok &= corner_screen(nominal * ends[:, 1:], low, high, lim)
     kept: list[tuple[float, tuple[str, ...], tuple[int, ...], Design]] = []
     for layout, good in zip(layouts, ok.tolist(), strict=True):
         if good:
@@ -874,6 +890,12 @@ def network_frontier(
     kept.sort(key=lambda item: (item[0], item[1], item[2]))
     for item in kept:
         yield item[3]
+
+
+def _network_of(design: Design) -> NetworkPart:
+    part = design.placements[0].part
+    assert isinstance(part, NetworkPart)
+    return part
 
 
 _Layout = tuple[Design, tuple[float, ...], tuple[float, ...], tuple[float, ...]]
@@ -924,15 +946,17 @@ def _quad_layouts(
     return layouts
 
 
-def _pair_layouts(
+def _pair_frontier(
     spec: Spec, catalog: Catalog, env: LinearEnvironment, topology: Topology, lim: _Limits
-) -> list[_Layout]:
+) -> Iterator[Design]:
     """Two duals: (R1, R3) and (R2, R4) for equal pairs, (R1, R2) and (R3, R4) for divider
-    pairs; each dual in either element order (an order that repeats values is kept once)."""
+    pairs; each dual in either element order (an order that repeats values is kept once). Every
+    combination is screened at once (:func:`corner_screen`, in chunks); the survivors are sorted
+    by exact cost (``optimizer.cost``, one evaluation per pair of part ids), then ids and orders."""
     first, second = ((0, 2), (1, 3)) if topology is Topology.EQUAL_PAIRS else ((0, 1), (2, 3))
     duals = _usable_networks(spec, catalog, env, 2)
     floors = [stress_floor(spec, lim, p) for p in range(4)]
-    options: list[list[tuple[NetworkPart, tuple[int, int], float, float]]] = [[], []]
+    slots: list[list[tuple[NetworkPart, tuple[int, int], float, float]]] = [[], []]
     for slot, positions in enumerate((first, second)):
         for network in duals:
             lo, hi = _element_bounds(network, env)
@@ -942,21 +966,64 @@ def _pair_layouts(
                 if values in seen or not _rated(network, values, positions, env, floors, lim):
                     continue
                 seen.add(values)
-                options[slot].append((network, order, lo, hi))
-    layouts: list[_Layout] = []
-    for net_a, order_a, lo_a, hi_a in options[0]:
-        for net_b, order_b, lo_b, hi_b in options[1]:
-            package_b = 1 if net_b.part_id == net_a.part_id else 0
-            slots: dict[int, Placement] = {}
-            lows = [0.0] * 4
-            highs = [0.0] * 4
-            for positions, net, order, lo, hi, package in (
-                (first, net_a, order_a, lo_a, hi_a, 0),
-                (second, net_b, order_b, lo_b, hi_b, package_b),
-            ):
-                for p, e in zip(positions, order, strict=True):
-                    slots[p] = Placement(f"R{p + 1}", net, e, package)
-                    lows[p], highs[p] = lo, hi
-            design = Design((slots[0], slots[1], slots[2], slots[3]))
-            layouts.append((design, design.resistances_ohm, tuple(lows), tuple(highs)))
-    return layouts
+                slots[slot].append((network, (order[0], order[1]), lo, hi))
+    if not (slots[0] and slots[1]):
+        return
+
+    def arrays(options: list[tuple[NetworkPart, tuple[int, int], float, float]]) -> tuple[
+        Array, Array, Array
+    ]:  # fmt: skip
+        values = np.array([[n.values_ohm[o[0]], n.values_ohm[o[1]]] for n, o, _, _ in options])
+        return values, np.array([lo for *_, lo, _ in options]), np.array([h for *_, h in options])
+
+    va, la, ha = arrays(slots[0])
+    vb, lb, hb = arrays(slots[1])
+    sa = np.array([_package_extremes(n, spec, env) for n, *_ in slots[0]])
+    sb = np.array([_package_extremes(n, spec, env) for n, *_ in slots[1]])
+    nb = len(slots[1])
+    survivors: list[IntArray] = []
+    total = len(slots[0]) * nb
+    step = max(1, _JOIN_CHUNK)
+    for start in range(0, total, step):
+        flat = np.arange(start, min(total, start + step))
+        ia, ib = flat // nb, flat % nb
+        nominal = np.empty((flat.size, 4))
+        low = np.empty((flat.size, 4))
+        high = np.empty((flat.size, 4))
+        for k, p in enumerate(first):
+            nominal[:, p], low[:, p], high[:, p] = va[ia, k], la[ia], ha[ia]
+        for k, p in enumerate(second):
+            nominal[:, p], low[:, p], high[:, p] = vb[ib, k], lb[ib], hb[ib]
+        ok = np.ones(flat.size, dtype=bool)
+        # Each package's shared factor at either end: four sets of points of the exact range.
+        for end_a in (0, 1):
+            for end_b in (0, 1):
+                scaled = nominal.copy()
+                scaled[:, list(first)] *= sa[ia, end_a][:, None]
+                scaled[:, list(second)] *= sb[ib, end_b][:, None]
+                ok &= corner_screen(scaled, low, high, lim)
+        survivors.append(flat[ok])
+    kept = np.concatenate(survivors)
+    costs: dict[tuple[str, str], float] = {}
+    keyed: list[tuple[float, str, str, tuple[int, int], tuple[int, int], int, int]] = []
+    for flat_index in kept.tolist():
+        a, b = divmod(flat_index, nb)
+        net_a, order_a, _, _ = slots[0][a]
+        net_b, order_b, _, _ = slots[1][b]
+        pair = (net_a.part_id, net_b.part_id)
+        if pair not in costs:
+            costs[pair] = parts_cost([net_a, net_b], spec.preferences).total
+        keyed.append((costs[pair], pair[0], pair[1], order_a, order_b, a, b))
+    keyed.sort()
+    for *_, a, b in keyed:
+        net_a, order_a, _, _ = slots[0][a]
+        net_b, order_b, _, _ = slots[1][b]
+        package_b = 1 if net_b.part_id == net_a.part_id else 0
+        placed: dict[int, Placement] = {}
+        for positions, net, order, package in (
+            (first, net_a, order_a, 0),
+            (second, net_b, order_b, package_b),
+        ):
+            for p, e in zip(positions, order, strict=True):
+                placed[p] = Placement(f"R{p + 1}", net, e, package)
+        yield Design((placed[0], placed[1], placed[2], placed[3]))

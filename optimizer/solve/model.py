@@ -186,6 +186,14 @@ class BuiltModel:
         else:
             self.model.add(self.goal <= round(optimum))
 
+    def at_most(self, cost: float) -> None:
+        """Bound a lowest-cost objective from above by ``cost`` (relative units), widened by the
+        rounding of every cost term to integer units so no design of that cost is removed."""
+        if self.goal is None or self.sense <= 0:
+            return
+        slack = 4 * len(self.literals()) + 1  # each term rounds by at most half a unit
+        self.model.add(self.goal <= math.ceil(cost * COST_SCALE) + slack)
+
     def exclude(self, chosen: list[cp_model.IntVar]) -> None:
         """No-good cut: forbid this exact set of decisions from appearing together again."""
         self.model.add_bool_or([lit.Not() for lit in chosen])

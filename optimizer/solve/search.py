@@ -12,6 +12,7 @@ by default, so the same inputs give the same designs in the same order on every 
 
 from __future__ import annotations
 
+import math
 import time
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
@@ -26,7 +27,7 @@ from .. import interrupt
 from ..catalog import Catalog
 from ..cost import CostBreakdown, design_cost
 from ..design import Design, Placement, Topology
-from ..spec import CmrrBasis, Objective, Spec
+from ..spec import CmrrBasis, Objective, Spec, StockPolicy
 from .amplifier import amplifier_limits
 from .discrete import DiscreteBlock, build_discrete, value_constants
 from .environment import LinearEnvironment, linear_environment
@@ -182,6 +183,7 @@ class _Stream:
         self.objective = objective
         self.pair_shape = pair_shape
         self._built: BuiltModel | None = None
+        self.cost_ceiling = math.inf  # set by the merge: designs dearer cannot be ranked
         self.exhausted = False
         self.optimal = True
         self.timed_out = False
@@ -197,6 +199,8 @@ class _Stream:
                     objective=self.objective, topologies=self.topologies, pair_shape=self.pair_shape
                 )
             )
+            if math.isfinite(self.cost_ceiling) and not self._built.infeasible:
+                self._built.at_most(self.cost_ceiling)
             clock.build += time.perf_counter() - started
         return self._built
 
@@ -370,9 +374,15 @@ def pick(
     streams = _streams(problem, spec)
     if problem.size == 0 or problem.limits.cmrr_budget <= 0.0 or amplifier_limits(spec):
         streams = []  # nothing can pass: leave the reasons to the diagnosis
-    heads: list[tuple[float, Candidate] | None] = [
-        s.next(verifier, clock, workers) for s in streams
-    ]
+    replay: list[list[tuple[float, Candidate]]] = [[] for _ in streams]
+
+    def advance(i: int) -> tuple[float, Candidate] | None:
+        if replay[i]:
+            return replay[i].pop(0)
+        return streams[i].next(verifier, clock, workers)
+
+    _bound_cp_sat_streams(streams, replay, wanted, spec, verifier, clock, workers)
+    heads: list[tuple[float, Candidate] | None] = [advance(i) for i in range(len(streams))]
     found: list[Candidate] = []
     while len(found) < wanted:
         live = [(head[0], i) for i, head in enumerate(heads) if head is not None]
@@ -384,7 +394,7 @@ def pick(
         found.append(head[1])
         # The stream's next design is needed only if more are wanted (not for the extras, which
         # come from streams of the other kind).
-        heads[best] = streams[best].next(verifier, clock, workers) if len(found) < wanted else None
+        heads[best] = advance(best) if len(found) < wanted else None
     extras = _best_of_each_kind(found, streams, heads)
     timed_out = any(s.timed_out for s in streams)
     rejected = [r for s in streams for r in s.rejected]
@@ -411,6 +421,50 @@ def pick(
         option_count=problem.size,
         rejected=tuple(rejected),
     )
+
+
+def _bound_cp_sat_streams(
+    streams: list[_Stream | _FrontierStream],
+    replay: list[list[tuple[float, Candidate]]],
+    wanted: int,
+    spec: Spec,
+    verifier: Verifier,
+    clock: _Clock,
+    workers: int,
+) -> None:
+    """Take the wanted number of designs from the exact enumerations first (kept in ``replay``
+    for the merge); the cost of the last of them bounds every CP-SAT stream's objective from
+    above: a design dearer than it cannot enter the ranking, so the bound removes nothing the
+    ranking needs and gives CP-SAT a tight bound from its first solve. Only where the model's
+    objective is the exact cost (lowest cost; no per-line stock penalty, which the model
+    charges per placement)."""
+    prefs = spec.preferences
+    cp_sat = [s for s in streams if isinstance(s, _Stream)]
+    fronts = [i for i, s in enumerate(streams) if isinstance(s, _FrontierStream)]
+    if not cp_sat or not fronts or prefs.objective is not Objective.COST:
+        return
+    if prefs.stock is StockPolicy.PREFER and prefs.stock_penalty > 0.0:
+        return
+    heads = {i: streams[i].next(verifier, clock, workers) for i in fronts}
+    taken = 0
+    last = math.inf
+    while taken < wanted:
+        live = [(head[0], i) for i, head in heads.items() if head is not None]
+        if not live:
+            break
+        last, best = min(live)
+        head = heads[best]
+        assert head is not None
+        replay[best].append(head)
+        taken += 1
+        heads[best] = streams[best].next(verifier, clock, workers) if taken < wanted else None
+    for i, head in heads.items():
+        if head is not None:
+            replay[i].append(head)
+    if taken < wanted:
+        return
+    for stream in cp_sat:
+        stream.cost_ceiling = last
 
 
 def _streams(problem: Problem, spec: Spec) -> list[_Stream | _FrontierStream]:
