@@ -738,13 +738,16 @@ def _emit(
         electrical, choice = cast(tuple[tuple[tuple[int, int], ...], tuple[int, ...]], payload)
         lists = [parts.variants(i, electrical[i]) for i in range(4)]
         rows = tuple(lists[i][choice[i]][1] for i in range(4))
-        if kind == _BOUND:
-            exact = cost_of(rows)
-            heapq.heappush(heap, (max(exact, key), _EXACT, next(tick), (electrical, choice)))
+        if kind == _EXACT:
+            if feedback_rated(electrical, rows[1]):
+                yield _discrete_design(catalog, rows, part_cache)
             continue
-        # Other parts of the same classes and values (other sizes, stock): each successor's
-        # bound is its part cost plus one line per distinct (class, value), never above its
-        # exact cost.
+        # A bound entry: its exact cost goes back into the heap, and so do the other parts of
+        # the same classes and values (other sizes, stock). Each successor's bound is its part
+        # cost plus one line per distinct (class, value): never above its exact cost, and never
+        # below this entry's bound, so taking successors now keeps the order exact (a
+        # successor can cost less than this design itself, when it shares a line).
+        heapq.heappush(heap, (max(cost_of(rows), key), _EXACT, next(tick), (electrical, choice)))
         lines = line_cost * len(set(electrical))
         for i in range(4):
             if choice[i] + 1 < len(lists[i]):
@@ -754,8 +757,6 @@ def _emit(
                 seen.add((electrical, nxt))
                 bound_next = sum(lists[j][nxt[j]][0] for j in range(4)) + lines
                 heapq.heappush(heap, (bound_next, _BOUND, next(tick), (electrical, nxt)))
-        if feedback_rated(electrical, rows[1]):
-            yield _discrete_design(catalog, rows, part_cache)
 
 
 def _distinct_parts(keys: IntArray) -> IntArray:
