@@ -453,6 +453,52 @@ def bench_examples(runs: int, paths: Sequence[str]) -> list[dict[str, Any]]:
     return rows
 
 
+def bench_battery(runs: int, tmp: str) -> list[dict[str, Any]]:
+    """``pick`` (top 10) on every plain spec of the battery in ``tests/test_frontier.py`` over
+    the whole built-in catalog: each must end proven (optimal, or nothing meets it). "search"
+    is the pick's own time (enumeration and model building, CP-SAT, exact checks), without
+    the Monte Carlo of the shown designs."""
+    from optimizer.solve.search import pick
+    from optimizer.verify import verify
+
+    tests_dir = os.path.join(os.path.dirname(os.path.abspath(__file__)), os.pardir)
+    if tests_dir not in sys.path:
+        sys.path.insert(0, tests_dir)
+    from test_frontier import BATTERY, battery_text  # the battery's one definition
+
+    from optimizer.catalog import builtin_catalog
+
+    catalog = builtin_catalog()
+    rows = []
+    for purpose, fields in BATTERY:
+        row: dict[str, Any] = {"spec": purpose}
+        searches: list[float] = []
+        try:
+            path = os.path.join(tmp, "battery.yaml")
+            with open(path, "w", encoding="utf-8") as handle:
+                handle.write(battery_text(fields))
+            spec = load_spec(path)
+            for _ in range(runs):
+                _, result = timed(pick, spec, catalog, verify, top=10, time_limit_s=60.0)
+                status = status_name(result.status)
+                check_status(status, len(result.ranked), (PROVEN, INFEASIBLE))
+                searches.append(result.solve_seconds + result.build_seconds + result.verify_seconds)
+        except Exception as exc:  # a failed run: shown, never measured
+            rows.append(failed_row({**row, "runs": len(searches)}, exc))
+            continue
+        rows.append(
+            {
+                **row,
+                "runs": len(searches),
+                "status": status,
+                "ranked": len(result.ranked),
+                "optimum": result.ranked[0].cost.total if result.ranked else None,
+                "search_s": median(searches),
+            }
+        )
+    return rows
+
+
 def example_paths(names: Sequence[str] | None) -> list[str]:
     """The bundled example specs (every ``examples/*.yaml`` but the network catalogs), or those
     of ``names``; an unknown name exits (code 2) with a message listing the known ones."""
@@ -858,6 +904,12 @@ def targets(result: dict[str, Any]) -> list[dict[str, Any]]:
         ok = [r for r in examples if "failed" not in r]
         add("worst example pick (s) <= 0.5", max((r["pick_s"] for r in ok), default=None),
             TARGET_SOLVE_S, False, [r["example"] for r in examples if "failed" in r])  # fmt: skip
+    battery = result.get("battery", [])
+    if battery:
+        ok = [r["search_s"] for r in battery if "failed" not in r]
+        failed = [r["spec"] for r in battery if "failed" in r]
+        add("battery median search (s) <= 0.3", median(ok) if ok else None, 0.3, False, failed)
+        add("battery largest search (s) <= 2", max(ok) if ok else None, 2.0, False, failed)
     for row in result.get("cli", []):
         add(f"CLI wall (s) <= 1.5: {row['command'].split(' ', 3)[3]}", row.get("wall_s"),
             TARGET_CLI_S, False, [row["failed"]] if "failed" in row else [])  # fmt: skip
@@ -896,7 +948,8 @@ def targets(result: dict[str, Any]) -> list[dict[str, Any]]:
 def failures(result: dict[str, Any]) -> list[str]:
     """Every failed row of every section, as "section key: message"."""
     out = []
-    for section, key in (("examples", "example"), ("cli", "command"), ("oracle", "parts"),
+    for section, key in (("examples", "example"), ("battery", "spec"), ("cli", "command"),
+                         ("oracle", "parts"),
                          ("scaling", "parts")):  # fmt: skip
         out += [f"{section} {r[key]}: {r['failed']}" for r in result.get(section, [])
                 if "failed" in r]  # fmt: skip
@@ -941,7 +994,7 @@ def parse_args(argv: Sequence[str] | None) -> argparse.Namespace:
     parser.add_argument("--runs", type=int, default=None, help="runs per figure (default 5)")
     parser.add_argument("--json", metavar="OUT", help="write the figures as JSON to OUT")
     parser.add_argument(
-        "--sections", default="examples,cli,oracle,scaling,montecarlo",
+        "--sections", default="examples,battery,cli,oracle,scaling,montecarlo",
         help="comma-separated sections to run",
     )  # fmt: skip
     parser.add_argument("--examples", help="comma-separated example names (default: all)")
@@ -1033,6 +1086,11 @@ def main(argv: Sequence[str] | None = None) -> int:
                           result["examples"],
                           ["example", "expected", "runs", "status", "ranked", "pick_s", "cp_sat_s",
                            "build_s", "verify_s"], "example"), flush=True)  # fmt: skip
+        if "battery" in sections:
+            result["battery"] = bench_battery(runs, tmp)
+            print(section("\nplain-spec battery over the built-in catalog (top 10)",
+                          result["battery"], ["spec", "runs", "status", "ranked", "optimum",
+                                              "search_s"], "spec"), flush=True)  # fmt: skip
         if "cli" in sections:
             result["cli"] = bench_cli(runs, os.path.abspath(args.cli_spec), tmp)
             print(section("\nCLI wall time (new interpreter, imports included)",
