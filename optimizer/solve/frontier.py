@@ -504,14 +504,36 @@ def _keep(half: _Half, mask: NDArray[np.bool_]) -> _Half:
     )  # fmt: skip
 
 
-def _prune(one: _Half, two: _Half, balance: float) -> tuple[_Half, _Half]:
-    """Drop records whose spread plus the least spread of any partner exceeds ``2Λ`` at some
-    vertex (the partner interval must fit inside this record's window), until nothing moves."""
+def _vertex_groups(keys: Array) -> list[IntArray]:
+    """Vertices (indices) grouped by equal rows of ``keys`` (V, n)."""
+    _, inverse = np.unique(keys, axis=0, return_inverse=True)
+    inverse = inverse.reshape(-1)
+    return [np.flatnonzero(inverse == g) for g in range(int(inverse.max()) + 1)]
+
+
+def _spans(half: _Half, groups: list[IntArray]) -> Array:
+    """Per record and vertex group: the width of the union of its intervals over the group,
+    ``max high − min low`` (N, len(groups))."""
+    return np.column_stack(
+        [half.high[:, g].max(axis=1) - half.low[:, g].min(axis=1) for g in groups]
+    )
+
+
+def _prune(one: _Half, two: _Half, lim: _Limits) -> tuple[_Half, _Half]:
+    """Drop records that no partner can fit, until nothing moves. The partner's interval must
+    lie inside this record's window ``[high_v − Λ, low_v + Λ]`` at every vertex ``v``; the
+    partner's term does not depend on this side's source impedance (``a`` on Rs3 and Rref
+    only, ``c`` on Rs1 only), so over the vertices that share the partner's impedances its one
+    interval must fit inside the intersection of the windows: the width of the union of this
+    record's intervals there plus the partner's least spread must stay within ``2Λ``."""
+    balance = lim.balance
+    by_two = _vertex_groups(np.column_stack([lim.rs3, lim.rref]))  # a is the same within
+    by_one = _vertex_groups(lim.rs1[:, None])  # c is the same within
     while one.cost.size and two.cost.size:
-        least_one = np.min(one.high - one.low, axis=0)
-        least_two = np.min(two.high - two.low, axis=0)
-        keep_one = np.all(one.high - one.low + least_two <= 2.0 * balance, axis=1)
-        keep_two = np.all(two.high - two.low + least_one <= 2.0 * balance, axis=1)
+        least_two = np.array([np.min(two.high[:, g[0]] - two.low[:, g[0]]) for g in by_two])
+        least_one = np.array([np.min(one.high[:, g[0]] - one.low[:, g[0]]) for g in by_one])
+        keep_one = np.all(_spans(one, by_two) + least_two <= 2.0 * balance, axis=1)
+        keep_two = np.all(_spans(two, by_one) + least_one <= 2.0 * balance, axis=1)
         if keep_one.all() and keep_two.all():
             break
         one, two = _keep(one, keep_one), _keep(two, keep_two)
@@ -558,9 +580,11 @@ def _join(
     order = np.argsort(q0, kind="stable")
     sorted_two = idx_two[order]
     q_sorted = q0[order]
-    # Vertex 0: q ≥ P − Λ and q ≤ Q ≤ p + Λ.
-    first = np.searchsorted(q_sorted, one.high[idx_one, 0] - lam, side="left")
-    last = np.searchsorted(q_sorted, one.low[idx_one, 0] + lam, side="right")
+    # The vertices where a is the same as at vertex 0 (same Rs3 and Rref): there the partner's
+    # one interval [q, Q] must satisfy q ≥ high_v − Λ and Q ≤ low_v + Λ at each of them.
+    same = np.flatnonzero((lim.rs3 == lim.rs3[0]) & (lim.rref == lim.rref[0]))
+    first = np.searchsorted(q_sorted, one.high[idx_one][:, same].max(axis=1) - lam, side="left")
+    last = np.searchsorted(q_sorted, one.low[idx_one][:, same].min(axis=1) + lam, side="right")
     count = np.maximum(last - first, 0)
     out_a: list[IntArray] = []
     out_b: list[IntArray] = []
@@ -628,14 +652,25 @@ def discrete_frontier(
         return
     one = _half_records(parts, lim, 1)
     two = _half_records(parts, lim, 2)
-    one, two = _prune(one, two, lim.balance)
+    one, two = _prune(one, two, lim)
     if not (one.cost.size and two.cost.size):
         return
     order1, span1, cost1, spread1, cls1, _ = _group_table(one)
     order2, span2, cost2, spread2, cls2, _ = _group_table(two)
     line_cost, _ = _per_line(spec)
-    # Group pairs: feasible by least spreads, keyed by their least cost.
-    fits = np.all(spread1[:, None, :] + spread2[None, :, :] <= 2.0 * lim.balance, axis=2)
+    # Group pairs: feasible by least spreads (over the vertices that share the partner's term,
+    # as in ``_prune``), keyed by their least cost.
+    fits = np.ones((spread1.shape[0], spread2.shape[0]), dtype=bool)
+    for one_side, other, groups, other_spread in (
+        (one, order1, _vertex_groups(np.column_stack([lim.rs3, lim.rref])), spread2),
+        (two, order2, _vertex_groups(lim.rs1[:, None]), spread1),
+    ):
+        span = _spans(one_side, groups)[other]
+        starts = (span1 if one_side is one else span2)[:, 0]
+        least = np.minimum.reduceat(span, starts, axis=0)  # (groups of records, vertex groups)
+        partner = other_spread[:, [g[0] for g in groups]]
+        pair = least[:, None, :] + partner[None, :, :] <= 2.0 * lim.balance
+        fits &= np.all(pair, axis=2) if one_side is one else np.all(pair, axis=2).T
     g1, g2 = np.nonzero(fits)
     if g1.size == 0:
         return
