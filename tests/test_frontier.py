@@ -33,7 +33,7 @@ from optimizer.solve.enumerate import reference_search
 from optimizer.solve.environment import linear_environment
 from optimizer.solve.frontier import discrete_frontier, gain_threshold, log_balance_limit
 from optimizer.solve.search import SearchStatus, pick
-from optimizer.spec import CmrrBasis, Objective, Spec, StockPolicy
+from optimizer.spec import CmrrBasis, DriftModel, Objective, Spec, StockPolicy
 from optimizer.userdesign import design_from_parts
 from optimizer.verify import verify
 
@@ -43,7 +43,8 @@ TOP = 8
 def _frontier_case(seed: int) -> tuple[Spec, object]:
     """A random oracle case restricted to what the frontier serves: worst-case basis, lowest
     cost, four discrete parts, quad networks and pairs of duals (not one dual with two discrete
-    parts, which the CP-SAT streams serve); every third case with same-lot tracking."""
+    parts, which the CP-SAT streams serve); every third case with same-lot tracking, every
+    fourth with one-sided drift."""
     case = random_case(seed)
     spec = case.spec
     rng = random.Random(seed)
@@ -67,7 +68,8 @@ def _frontier_case(seed: int) -> tuple[Spec, object]:
         objective=Objective.COST,
         same_lot_tracking=seed % 3 == 0,
     )
-    req = dataclasses.replace(spec.requirements, cmrr_basis=CmrrBasis.WORST_CASE)
+    drift = DriftModel.ONE_SIDED if seed % 4 == 1 else DriftModel.SYMMETRIC
+    req = dataclasses.replace(spec.requirements, cmrr_basis=CmrrBasis.WORST_CASE, drift_model=drift)
     return dataclasses.replace(spec, preferences=prefs, requirements=req), case.catalog
 
 

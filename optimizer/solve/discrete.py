@@ -22,7 +22,7 @@ import pandas as pd
 from numpy.typing import NDArray
 
 from ..catalog import Catalog
-from ..spec import CmrrBasis, Spec, StockPolicy
+from ..spec import CmrrBasis, DriftModel, Spec, StockPolicy
 from .environment import LinearEnvironment, life_drift, series_impedance
 from .options import RATING_RELAXATION, log_deviation, position_noise, variance
 
@@ -101,7 +101,10 @@ def build_discrete(catalog: Catalog, spec: Spec, env: LinearEnvironment) -> Disc
             + np.where(stock[rows], 0.0, penalty),
             "t": frame["tolerance"].to_numpy(float)[rows],
             "tc": frame["tempco_per_k"].to_numpy(float)[rows],
-            "d": life_drift(frame["drift_1000h"].to_numpy(float)[rows], env.life_h),
+            # One-sided drift (d in [0, D]) is taken as none here: a subset of its range, so the
+            # model stays a relaxation of the exact check (which takes the whole range).
+            "d": life_drift(frame["drift_1000h"].to_numpy(float)[rows], env.life_h)
+            * (0.0 if spec.requirements.drift_model is DriftModel.ONE_SIDED else 1.0),
             "p": frame["power_w"].to_numpy(float)[rows] * env.derating,
             "v": frame["max_voltage_v"].to_numpy(float)[rows],
             "stock": stock[rows],

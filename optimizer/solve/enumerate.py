@@ -337,7 +337,9 @@ def _option_corners(option: _Option, spec: Spec, delta_t_k: float) -> NDArray[np
         for position, element in zip(fill, option.elements, strict=True):
             placements[position] = Placement(f"R{position + 1}", option.part, element, 0)
     design = Design((placements[0], placements[1], placements[2], placements[3]))
-    variation = variation_from_design(design, spec.requirements.life_s, False)
+    variation = variation_from_design(
+        design, spec.requirements.life_s, False, spec.requirements.drift_model
+    )
     r = resistances(variation, vertex_values(variation, delta_t_k), delta_t_k)
     return np.unique(r[:, fill], axis=0)
 

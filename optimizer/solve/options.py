@@ -29,7 +29,7 @@ from numpy.typing import NDArray
 from ..analysis.checks import BOLTZMANN_J_PER_K as BOLTZMANN
 from ..catalog import Catalog
 from ..design import Topology
-from ..spec import Distribution, Spec, StockPolicy
+from ..spec import Distribution, DriftModel, Spec, StockPolicy
 from .environment import LinearEnvironment, life_drift, series_impedance
 
 #: A rating must cover this fraction of the estimated stress (a relaxation: the exact check
@@ -183,7 +183,9 @@ def _network_rows(
     absolute = (
         column("abs_tolerance"),
         column("abs_tempco_per_k") * env.delta_t_k,
-        life_drift(column("drift_1000h"), env.life_h),
+        # One-sided package drift taken as none: a subset of its range (a relaxation).
+        life_drift(column("drift_1000h"), env.life_h)
+        * (0.0 if spec.requirements.drift_model is DriftModel.ONE_SIDED else 1.0),
     )
     in_stock = np.array([n.in_stock for n in networks], dtype=bool)
     costs = _effective_cost(column("unit_cost"), in_stock, spec).tolist()
