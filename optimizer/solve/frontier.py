@@ -335,9 +335,9 @@ def _discrete_parts(
         flat = class_of[sel] * values.size + value_of[sel]
         starts = np.flatnonzero(np.r_[True, flat[1:] != flat[:-1]]) if sel.size else sel
         stops = np.r_[starts[1:], sel.size].astype(np.int64)
-        table = np.full(shape, -1, dtype=np.int64)
+        table = np.full(shape, -1, dtype=np.int64 if rows.size >= 2**31 else np.int32)
         table_cost = np.full(shape, np.inf)
-        span = np.zeros((*shape, 2), dtype=np.int64)
+        span = np.zeros((*shape, 2), dtype=np.int32 if sel.size < 2**31 else np.int64)
         heads = sel[starts]
         table[class_of[heads], value_of[heads]] = rows[heads]
         table_cost[class_of[heads], value_of[heads]] = cost[heads]
@@ -1030,15 +1030,16 @@ def _pair_frontier(
             nominal[:, p], low[:, p], high[:, p] = va[ia, k], la[ia], ha[ia]
         for k, p in enumerate(second):
             nominal[:, p], low[:, p], high[:, p] = vb[ib, k], lb[ib], hb[ib]
-        ok = np.ones(flat.size, dtype=bool)
-        # Each package's shared factor at either end: four sets of points of the exact range.
+        alive = np.arange(flat.size)
+        # Each package's shared factor at either end: four sets of points of the exact range
+        # (each set screens only what the sets before it kept).
         for end_a in (0, 1):
             for end_b in (0, 1):
-                scaled = nominal.copy()
-                scaled[:, list(first)] *= sa[ia, end_a][:, None]
-                scaled[:, list(second)] *= sb[ib, end_b][:, None]
-                ok &= corner_screen(scaled, low, high, lim)
-        survivors.append(flat[ok])
+                scaled = nominal[alive].copy()
+                scaled[:, list(first)] *= sa[ia[alive], end_a][:, None]
+                scaled[:, list(second)] *= sb[ib[alive], end_b][:, None]
+                alive = alive[corner_screen(scaled, low[alive], high[alive], lim)]
+        survivors.append(flat[alive])
     kept = np.concatenate(survivors)
     costs: dict[tuple[str, str], float] = {}
     keyed: list[tuple[float, str, str, tuple[int, int], tuple[int, int], int, int]] = []
