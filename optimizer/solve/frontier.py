@@ -61,6 +61,7 @@ from dataclasses import dataclass
 from typing import cast
 
 import numpy as np
+import pandas as pd
 from numpy.typing import NDArray
 
 from ..analysis.variation import drift_factor_bounds
@@ -318,8 +319,9 @@ def _discrete_parts(
     cost = frame["unit_cost"].to_numpy(float)[rows] + prefs.placement_cost
     power = frame["power_w"].to_numpy(float)[rows] * env.derating
     volts = frame["max_voltage_v"].to_numpy(float)[rows]
-    ids = frame["part_id"].to_numpy()[rows].astype(str)
-    order = np.lexsort((ids, cost, value_of, class_of))
+    # Ties in cost go by part id: its rank in sorted order (integer codes, no string copies).
+    id_rank, _ = pd.factorize(frame["part_id"].to_numpy()[rows], sort=True)
+    order = np.lexsort((id_rank, cost, value_of, class_of))
     shape = (len(classes), values.size)
     best, best_cost, kept_rows, kept_costs, spans = [], [], [], [], []
     for position in range(4):
