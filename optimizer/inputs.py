@@ -21,6 +21,7 @@ __all__ = [
     "MAX_DEPTH",
     "QUOTE_CHARS",
     "SPEC_MAX_BYTES",
+    "file_kind",
     "quote",
     "read_bounded",
     "yaml_too_deep",
@@ -34,7 +35,8 @@ CATALOG_MAX_BYTES = 200 * 1024 * 1024
 MAX_DEPTH = 32
 
 
-def _kind(mode: int) -> str:
+def file_kind(mode: int) -> str:
+    """What a file of ``st_mode`` ``mode`` is, in words (for messages that refuse it)."""
     if stat.S_ISDIR(mode):
         return "a folder"
     if stat.S_ISFIFO(mode):
@@ -73,7 +75,7 @@ def read_bounded(
     try:
         mode = os.fstat(handle).st_mode
         if not stat.S_ISREG(mode):
-            raise fail(f"cannot read the file: it is {_kind(mode)}; expected a regular file")
+            raise fail(f"cannot read the file: it is {file_kind(mode)}; expected a regular file")
         chunks: list[bytes] = []
         size = 0
         while size <= limit:

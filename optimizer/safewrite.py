@@ -20,6 +20,7 @@ from pathlib import Path
 
 from . import interrupt
 from .errors import QuartetError
+from .inputs import file_kind
 
 __all__ = [
     "STDOUT",
@@ -51,20 +52,6 @@ def escape_csv_cell(text: str) -> str:
     return "'" + text if text.startswith(FORMULA_STARTS) else text
 
 
-def _kind(mode: int) -> str:
-    if stat.S_ISDIR(mode):
-        return "a folder"
-    if stat.S_ISFIFO(mode):
-        return "a FIFO (named pipe)"
-    if stat.S_ISCHR(mode):
-        return "a character device"
-    if stat.S_ISBLK(mode):
-        return "a block device"
-    if stat.S_ISSOCK(mode):
-        return "a socket"
-    return "not a regular file"
-
-
 def _not_regular(path: Path, what: str) -> OutputError:
     return OutputError(
         f"{path}: is {what}, not a regular file; outputs go to regular files "
@@ -83,14 +70,14 @@ def _existing(path: Path) -> os.stat_result | None:
         raise OutputError(f"{path}: cannot be examined ({exc.strerror or exc})") from None
     if not stat.S_ISLNK(link.st_mode):
         if not stat.S_ISREG(link.st_mode):
-            raise _not_regular(path, _kind(link.st_mode))
+            raise _not_regular(path, file_kind(link.st_mode))
         return link
     try:
         target = path.stat()
     except OSError:
         raise OutputError(f"{path}: is a symlink to a missing file; name the file itself") from None
     if not stat.S_ISREG(target.st_mode):
-        raise _not_regular(path, f"a symlink to {_kind(target.st_mode)}")
+        raise _not_regular(path, f"a symlink to {file_kind(target.st_mode)}")
     return target
 
 

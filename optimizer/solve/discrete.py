@@ -26,7 +26,7 @@ from ..spec import CmrrBasis, DriftModel, Spec, StockPolicy
 from .environment import LinearEnvironment, life_drift, series_impedance
 from .options import RATING_RELAXATION, log_deviation, position_noise, variance
 
-__all__ = ["DiscreteBlock", "build_discrete"]
+__all__ = ["DiscreteBlock", "allowed_rows", "build_discrete"]
 
 #: Ratings this far above the estimated stress count as equally good when comparing classes.
 SAFE_RATING = 1.5
@@ -77,6 +77,21 @@ def _empty() -> DiscreteBlock:
     )  # fmt: skip
 
 
+def allowed_rows(frame: pd.DataFrame, spec: Spec) -> NDArray[np.int64]:
+    """Rows of a catalog's discrete table that the spec allows: inside the resistance window
+    (relative allowance 1e-9 for values written in engineering notation) and, with stock
+    policy ``only``, in house stock."""
+    prefs = spec.preferences
+    r = frame["resistance_ohm"].to_numpy(float)
+    keep = (r >= prefs.resistance_min_ohm * (1 - 1e-9)) & (
+        r <= prefs.resistance_max_ohm * (1 + 1e-9)
+    )
+    if prefs.stock is StockPolicy.ONLY:
+        keep &= frame["stock_qty"].to_numpy() > 0
+    rows: NDArray[np.int64] = np.flatnonzero(keep)
+    return rows
+
+
 def build_discrete(catalog: Catalog, spec: Spec, env: LinearEnvironment) -> DiscreteBlock:
     """Factor the catalog's discrete parts into values and classes for ``spec``."""
     prefs = spec.preferences
@@ -85,12 +100,7 @@ def build_discrete(catalog: Catalog, spec: Spec, env: LinearEnvironment) -> Disc
         return _empty()
     r = frame["resistance_ohm"].to_numpy(float)
     stock = frame["stock_qty"].to_numpy() > 0
-    keep = (r >= prefs.resistance_min_ohm * (1 - 1e-9)) & (
-        r <= prefs.resistance_max_ohm * (1 + 1e-9)
-    )
-    if prefs.stock is StockPolicy.ONLY:
-        keep &= stock
-    rows = np.flatnonzero(keep)
+    rows = allowed_rows(frame, spec)
     if rows.size == 0:
         return _empty()
     penalty = prefs.stock_penalty if prefs.stock is StockPolicy.PREFER else 0.0

@@ -70,6 +70,7 @@ from ..cost import design_cost, parts_cost
 from ..design import Design, Placement, Topology
 from ..parts import DiscretePart, NetworkPart
 from ..spec import Spec, StockPolicy
+from .discrete import allowed_rows
 from .environment import LinearEnvironment, life_drift
 
 __all__ = [
@@ -292,17 +293,10 @@ def _discrete_parts(
     frame = catalog.discrete
     if frame.empty:
         return None
-    r_all = frame["resistance_ohm"].to_numpy(float)
-    stock = frame["stock_qty"].to_numpy() > 0
-    keep = (r_all >= prefs.resistance_min_ohm * (1 - 1e-9)) & (
-        r_all <= prefs.resistance_max_ohm * (1 + 1e-9)
-    )
-    if prefs.stock is StockPolicy.ONLY:
-        keep &= stock
-    rows = np.flatnonzero(keep)
+    rows = allowed_rows(frame, spec)
     if rows.size == 0:
         return None
-    r = r_all[rows]
+    r = frame["resistance_ohm"].to_numpy(float)[rows]
     t = frame["tolerance"].to_numpy(float)[rows]
     tc = frame["tempco_per_k"].to_numpy(float)[rows]
     if prefs.same_lot_tracking:
