@@ -167,7 +167,20 @@ class Problem:
         return chosen, design
 
 
-class _Stream:
+class _Progress:
+    """How far a stream has got: exhausted, proven optimal so far, stopped by the clock, the gap
+    of a time-limited solve, the solves made and the designs the exact check rejected."""
+
+    def __init__(self) -> None:
+        self.exhausted = False
+        self.optimal = True
+        self.timed_out = False
+        self.gap: float | None = None
+        self.solves = 0
+        self.rejected: list[tuple[Design, Verdict]] = []
+
+
+class _Stream(_Progress):
     """Verified designs of one topology, best first, one solve at a time: each solve is cut by
     the designs already seen, so each new optimum is the next best."""
 
@@ -184,12 +197,7 @@ class _Stream:
         self.pair_shape = pair_shape
         self._built: BuiltModel | None = None
         self.cost_ceiling = math.inf  # set by the merge: designs dearer cannot be ranked
-        self.exhausted = False
-        self.optimal = True
-        self.timed_out = False
-        self.gap: float | None = None
-        self.solves = 0
-        self.rejected: list[tuple[Design, Verdict]] = []
+        _Progress.__init__(self)
 
     def _model(self, clock: _Clock) -> BuiltModel:
         if self._built is None:
@@ -264,7 +272,7 @@ class _Stream:
         return None
 
 
-class _FrontierStream:
+class _FrontierStream(_Progress):
     """Verified designs of one topology from an exact cost-ordered enumeration
     (``optimizer.solve.frontier``): each design it yields is the cheapest not yet seen that can
     meet CMRR and gain, so the k-th that passes the exact check is the k-th cheapest overall."""
@@ -281,12 +289,7 @@ class _FrontierStream:
             else network_frontier(spec, catalog, env, topology)
         )
         self._clock: _Clock | None = None
-        self.exhausted = False
-        self.optimal = True
-        self.timed_out = False
-        self.gap: float | None = None
-        self.solves = 0
-        self.rejected: list[tuple[Design, Verdict]] = []
+        _Progress.__init__(self)
 
     def _stop(self) -> bool:
         """Asked by the enumeration between steps: the clock ran out or the run was cancelled."""
