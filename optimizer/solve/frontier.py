@@ -200,11 +200,9 @@ def stress_floor(spec: Spec, lim: _Limits, position: int) -> float:
     ``V_R4 = (V2 − VREF)·a·R4/R4'``; ``V− = a·V2 + (1 − a)·VREF − Vout/A``. The terms ``a`` and
     ``c`` lie inside the windows the gain and balance conditions leave (:func:`_side_window`)."""
     sig, ref = spec.signal, spec.reference
-    vertices = range(lim.rs1.size)
-    a_windows = [_side_window(lim, 2, v) for v in vertices]
-    a_hi = min(max(w[0] for w in a_windows), 1.0)
-    a_lo = max(min(w[1] for w in a_windows), 0.0)
-    c_lo = max(min(_side_window(lim, 1, v)[1] for v in vertices), 0.0)
+    a_top, a_bottom = _side_window(lim, 2)
+    a_hi, a_lo = min(a_top, 1.0), max(a_bottom, 0.0)
+    c_lo = max(_side_window(lim, 1)[1], 0.0)
     if a_lo > a_hi:
         return 0.0
     vcm = np.array([sig.common_mode_min_v, sig.common_mode_max_v])
@@ -372,10 +370,11 @@ class _Half:
     high: Array
 
 
-def _side_window(lim: _Limits, side: int, vertex: int) -> tuple[float, float]:
+def _side_window(lim: _Limits, side: int) -> tuple[float, float]:
     """``(t_hi, t_lo)``: the side's bridge term must satisfy ``term_hi ≤ t_hi`` and
     ``term_lo ≥ t_lo`` for a partner to exist (gain and balance together, see
-    :func:`gain_threshold`): the partner term lies within ``e^{±Λ}`` of this one."""
+    :func:`gain_threshold`): the partner term lies within ``e^{±Λ}`` of this one. The window is
+    the same at every environment vertex (the impedances enter the terms, not the window)."""
     k_down = math.exp(-lim.balance) if math.isfinite(lim.balance) else 0.0
     k_up = math.exp(lim.balance) if math.isfinite(lim.balance) else math.inf
     upper = min(gain_threshold(lim.gain_max, k_down, e, 0.0, side) for e in lim.eps)
@@ -387,11 +386,9 @@ def _side_window(lim: _Limits, side: int, vertex: int) -> tuple[float, float]:
 
 
 def _half_records(parts: _Parts, lim: _Limits, side: int) -> _Half:
-    """Every (class, value, class, value) of one side inside the window of every vertex."""
+    """Every (class, value, class, value) of one side inside the gain and balance window."""
     pa, pb = (0, 1) if side == 1 else (2, 3)
-    windows = [_side_window(lim, side, v) for v in range(lim.rs1.size)]
-    t_hi = min(w[0] for w in windows)
-    t_lo = max(w[1] for w in windows)
+    t_hi, t_lo = _side_window(lim, side)
     if side == 1:
         series_a = lim.rs1
         series_b = np.zeros_like(lim.rs1)
@@ -624,12 +621,6 @@ def _join(
     return np.concatenate(out_a), np.concatenate(out_b)
 
 
-def _per_line(spec: Spec) -> tuple[float, float]:
-    prefs = spec.preferences
-    penalty = prefs.stock_penalty if prefs.stock is StockPolicy.PREFER else 0.0
-    return prefs.line_cost, penalty
-
-
 def discrete_frontier(
     spec: Spec,
     catalog: Catalog,
@@ -653,7 +644,7 @@ def discrete_frontier(
         return
     order1, span1, cost1, spread1, cls1, _ = _group_table(one)
     order2, span2, cost2, spread2, cls2, _ = _group_table(two)
-    line_cost, _ = _per_line(spec)
+    line_cost = spec.preferences.line_cost
     # Group pairs: feasible by least spreads (over the vertices that share the partner's term,
     # as in ``_prune``), keyed by their least cost.
     fits = np.ones((spread1.shape[0], spread2.shape[0]), dtype=bool)
@@ -698,7 +689,7 @@ def _emit(
     """Merge the group pairs (taken in order of their bound) into one stream of designs in
     exact cost order: a heap of entries keyed by a lower bound that is replaced by the exact
     cost before an entry is emitted."""
-    line_cost, _ = _per_line(spec)
+    line_cost = spec.preferences.line_cost
     part_cache: dict[int, DiscretePart] = {}
 
     def cost_of(rows: tuple[int, ...]) -> float:
