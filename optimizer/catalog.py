@@ -1485,6 +1485,7 @@ def _combined(path: str, problems: Sequence[CatalogError]) -> CatalogError:
     error = CatalogError(f"{path}: {len(ordered)} problems:\n" + "\n".join(lines))
     first = ordered[0]
     error.path, error.row, error.column = path, first.row, first.column
+    error.problems = tuple(ordered)
     return error
 
 
@@ -1676,14 +1677,16 @@ def _check_columns(
 
 def _row_lengths(
     path: str, body: str, delimiter: str, width: int, first_line: int
-) -> list[CatalogError]:
+) -> tuple[list[CatalogError], list[tuple[int, int]]]:
     """A problem for each data row with more or fewer cells than the header (blank lines
-    aside)."""
+    aside), and the span of body lines (0-based, end exclusive) each such row occupies."""
     problems: list[CatalogError] = []
+    spans: list[tuple[int, int]] = []
     reader = csv.reader(io.StringIO(body), delimiter=delimiter)
     start = 1
     for cells in reader:
         line = first_line + start - 1
+        span = (start - 1, reader.line_num)
         start = reader.line_num + 1
         if not cells or len(cells) == width or not any(c.strip() for c in cells):
             continue
@@ -1695,14 +1698,22 @@ def _row_lengths(
                 row=line,
             )
         )
-        if len(problems) > MAX_PROBLEMS:
-            break
-    return problems
+        spans.append(span)
+    return problems, spans
+
+
+def _blank_rows(body: str, spans: Sequence[tuple[int, int]], delimiter: str, width: int) -> str:
+    """``body`` with the lines of each span replaced by rows of empty cells (one per line, so
+    later lines keep their numbers); the reader drops such rows as blank."""
+    lines = body.split("\n")
+    empty = delimiter * (width - 1)
+    for first, end in spans:
+        for i in range(first, min(end, len(lines))):
+            lines[i] = empty
+    return "\n".join(lines)
 
 
 def _load_csv(path: str, data: bytes) -> tuple[pd.DataFrame, IntArray, tuple[str, ...]]:
-    import pandas as pd
-
     text, encoding_note = _decode(path, data)
     notes = [encoding_note] if encoding_note else []
     mapping, mapping_note = _column_map(path)
@@ -1729,9 +1740,33 @@ def _load_csv(path: str, data: bytes) -> tuple[pd.DataFrame, IntArray, tuple[str
     known = {*CSV_REQUIRED, *CSV_OPTIONAL}
     used = [i for i, n in enumerate(names) if n in known]
     body = "\n".join(text.splitlines()[header_index + 1 :])
-    problems = _row_lengths(path, body, delimiter, len(names), header_line + 1)
-    if problems:
-        raise _combined(path, problems)
+    row_problems, spans = _row_lengths(path, body, delimiter, len(names), header_line + 1)
+    if not row_problems:
+        return _read_rows(path, body, names, used, delimiter, header_line, notes)
+    # rows of the wrong width are reported together with the problems of every other row
+    body = _blank_rows(body, spans, delimiter, len(names))
+    try:
+        _read_rows(path, body, names, used, delimiter, header_line, notes, require_rows=False)
+    except CatalogError as exc:
+        raise _combined(path, [*row_problems, *exc.problems]) from None
+    raise _combined(path, row_problems)
+
+
+def _read_rows(
+    path: str,
+    body: str,
+    names: Sequence[str],
+    used: Sequence[int],
+    delimiter: str,
+    header_line: int,
+    notes: list[str],
+    *,
+    require_rows: bool = True,
+) -> tuple[pd.DataFrame, IntArray, tuple[str, ...]]:
+    """The discrete parts of a CSV catalog's data rows (``body``, below the header line);
+    with ``require_rows`` a file without data rows is refused."""
+    import pandas as pd
+
     text_columns = {"part_id": str, "size": str}
     column_names = [n if i in used else f"\x00ignored{i}" for i, n in enumerate(names)]
     try:
@@ -1770,6 +1805,8 @@ def _load_csv(path: str, data: bytes) -> tuple[pd.DataFrame, IntArray, tuple[str
         raw = raw.loc[~blank].reset_index(drop=True)
         lines = lines[~blank]
     if len(raw) == 0:
+        if not require_rows:
+            return raw, lines, tuple(notes)
         raise CatalogError(
             f"no parts: expected data rows below the header line {header_line}", path=path
         )

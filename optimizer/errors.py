@@ -98,6 +98,8 @@ class CatalogError(QuartetError, ValueError):
         self.row = row
         self.column = column
         self.message = message
+        #: The separate problems this error lists (itself alone unless it combines several).
+        self.problems: tuple[CatalogError, ...] = (self,)
         loc = _where(path, row)
         at = f"column '{column}': " if column else ""
         super().__init__(f"{loc}{at}{message}")
