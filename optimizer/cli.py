@@ -726,6 +726,7 @@ def _sweep(args: argparse.Namespace, console: Console) -> int:
     spec = load_spec(args.spec)
     _warn(args, console, spec)
     catalog = _spec_catalogs(spec, args.catalog, _notes(args, console))
+    _stage("search")
     with Progress(console=console, transient=True) as progress:
         what = "CMRR floor" if args.cmrr is not None else "gain accuracy"
         task = progress.add_task(f"sweeping the {what}", total=len(floors))
@@ -747,6 +748,7 @@ def _sweep(args: argparse.Namespace, console: Console) -> int:
     if fmt is not None:
         image = sweep_plot(result, "png" if fmt == "png" else "svg", title)
         if image is not None:
+            _stage("writing")
             written = write_bytes(args.plot, image, force=args.force)
             console.print(f"wrote {escape(str(written))}", highlight=False)
     if image is None:
