@@ -435,13 +435,6 @@ def _members_of(series: ESeries, mantissa: FloatArray, valid: BoolArray, rel: fl
     return valid & close & table[np.clip(rounded, 0, 10**figures).astype(np.int64)]
 
 
-def _members(series: ESeries, values: FloatArray, rel: float = 1e-9) -> BoolArray:
-    """Vectorised IEC 60063 membership: ``value = s * 10^k`` with ``s`` one of the series'
-    significands, within relative ``rel``."""
-    mantissa, valid = _decade_mantissa(values)
-    return _members_of(series, mantissa, valid, rel)
-
-
 def _grade_series_code(tolerance: FloatArray) -> npt.NDArray[np.int8]:
     """The series a tolerance grade is usually sold in (common practice), as a code: 1 = E24
     for 2 % and looser, 2 = E96 for 1 % up to 2 %, 3 = E192 below 1 %."""

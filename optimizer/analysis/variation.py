@@ -825,10 +825,6 @@ class Environment:
     def delta_t_k(self) -> tuple[float, ...]:
         return tuple(float(temperature_offset_k(t)) for t in self.temperatures_c)
 
-    def amplifier_only(self) -> Environment:
-        """This environment with the amplifier made ideal."""
-        return Environment(self.temperatures_c, self.source_ohm, self.ref_ohm)
-
 
 #: 25 °C only, no source or REF impedance, ideal amplifier.
 IDEAL_ENVIRONMENT = Environment()
