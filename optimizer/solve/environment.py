@@ -12,7 +12,8 @@ import numpy as np
 from numpy.typing import NDArray
 
 from ..analysis.checks import derated_power
-from ..analysis.variation import drift_bound, source_vertices
+from ..analysis.environment import source_vertices
+from ..analysis.variation import drift_bound
 from ..spec import Spec
 
 __all__ = [
