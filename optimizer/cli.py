@@ -352,7 +352,7 @@ def _add_pick_command(commands: argparse._SubParsersAction[_Parser]) -> None:
 def _pick(args: argparse.Namespace, console: Console) -> int:
     import dataclasses
 
-    from .analysis.checks import safety_cautions
+    from .analysis.safety import safety_cautions
     from .report.pick import build_pick_report, pick_json_text, pick_to_json, render_pick
     from .solve.search import SearchStatus, pick, with_objective
     from .spec import Objective, StockPolicy
@@ -619,7 +619,7 @@ def _write_exports(
     if args.json_out is not None:
         outputs.append((args.json_out, json_text + "\n"))
     if args.netlist is not None:
-        from .analysis.checks import safety_cautions
+        from .analysis.safety import safety_cautions
         from .netlist import design_netlist
 
         netlist = design_netlist(design, spec, cautions=safety_cautions(spec))

@@ -26,7 +26,7 @@ from pathlib import Path
 import pytest
 from rich.console import Console
 
-from optimizer.analysis.checks import safety_cautions
+from optimizer.analysis.safety import safety_cautions
 from optimizer.catalog import builtin_catalog
 from optimizer.cli import main
 from optimizer.errors import DesignError

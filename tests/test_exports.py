@@ -287,9 +287,9 @@ def test_html_report_without_plots_keeps_the_text_histogram() -> None:
 
 
 def test_mains_exports_carry_the_safety_cautions(tmp_path: Path) -> None:
-    # Source: the cautions the analysis gives for this spec (analysis.checks.safety_cautions);
+    # Source: the cautions the analysis gives for this spec (analysis.safety.safety_cautions);
     # the exports must repeat them, not drop them.
-    from optimizer.analysis.checks import safety_cautions
+    from optimizer.analysis.safety import safety_cautions
 
     mains = str(EXAMPLES / "mains_monitor.yaml")
     cautions = safety_cautions(load_spec(mains))
