@@ -226,17 +226,10 @@ def _add_check_command(commands: argparse._SubParsersAction[_Parser]) -> None:
 
 
 def _spec_catalogs(spec: Spec, extra: Sequence[str], notes: Console | None = None) -> Catalog:
-    """The spec's catalogs, then ``extra`` files (a file named twice is read once), plus the
-    built-in catalogs unless the spec says ``builtin_catalogs: false``; the reading notes go
-    to ``notes``."""
-    import os
+    """:func:`optimizer.api.spec_catalogs`, with the reading notes printed to ``notes``."""
+    from .api import spec_catalogs
 
-    from .catalog import load_catalogs
-
-    paths: dict[str, str] = {}
-    for path in (*spec.preferences.catalogs, *extra):
-        paths.setdefault(os.path.realpath(path), path)
-    catalog = load_catalogs(list(paths.values()), spec.preferences.use_builtin_catalogs)
+    catalog = spec_catalogs(spec, extra)
     if notes is not None:
         for note in dict.fromkeys(catalog.notes):
             notes.print(f"note: {escape(note)}", highlight=False)

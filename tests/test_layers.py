@@ -47,6 +47,7 @@ LAYERS: dict[str, int] = {
     "optimizer.sweep": 6,
     "optimizer.board": 6,
     "optimizer.report": 7,
+    "optimizer.api": 7,
     "optimizer.cli": 8,
     "optimizer.__main__": 8,
     "optimizer": 8,  # the package itself re-exports the public API

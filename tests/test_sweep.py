@@ -18,7 +18,8 @@ from pathlib import Path
 import pytest
 from rich.console import Console
 
-from optimizer.cli import _spec_catalogs, main
+from optimizer.api import spec_catalogs
+from optimizer.cli import main
 from optimizer.errors import SpecError
 from optimizer.report.sweep import last_feasible, render_sweep_table, sweep_plot, sweep_text_chart
 from optimizer.solve.search import SearchStatus
@@ -42,7 +43,7 @@ def _run(argv: list[str]) -> tuple[int, str, str]:
 @pytest.fixture(scope="module")
 def industrial_sweep() -> SweepResult:
     spec = load_spec(INDUSTRIAL)
-    catalog = _spec_catalogs(spec, [])
+    catalog = spec_catalogs(spec)
     seen: list[float] = []
     result = sweep_cmrr(
         spec,
@@ -158,7 +159,7 @@ def test_gain_accuracy_sweep() -> None:
     # proven cheapest cost never rises as the accuracy loosens.
     spec = load_spec(INDUSTRIAL)
     result = sweep(
-        spec, _spec_catalogs(spec, []), "gain_accuracy", (0.0005, 0.001, 0.002), time_limit_s=10
+        spec, spec_catalogs(spec), "gain_accuracy", (0.0005, 0.001, 0.002), time_limit_s=10
     )
     assert result.axis == "gain_accuracy"
     costs = [p.network.cost for p in result.points if p.network.status is SearchStatus.OPTIMAL]
