@@ -11,12 +11,12 @@ import sys
 from pathlib import Path
 
 import pytest
+from helpers import ROOT
 from rich.console import Console
 
 import optimizer
 from optimizer.cli import main
 
-ROOT = Path(__file__).resolve().parent.parent
 MOTOR = ROOT / "examples" / "motor_shunt.yaml"
 
 #: The public names, pinned: adding or removing one is a decision, made here on purpose.

@@ -35,6 +35,7 @@ import pandas as pd
 import pytest
 import rich
 import yaml
+from helpers import EXAMPLES, ROOT
 from rich.console import Console
 
 from optimizer.catalog import (
@@ -56,8 +57,6 @@ from optimizer.parts import DiscretePart, NetworkPart, Technology
 from optimizer.report.catalog import catalog_counts, render_catalog_summary
 from optimizer.units import parse_resistance
 
-ROOT = Path(__file__).resolve().parent.parent
-EXAMPLES = ROOT / "examples"
 HOUSE_CSV = EXAMPLES / "house_stock.csv"
 HOUSE_NETWORKS = EXAMPLES / "house_stock_networks.yaml"
 

@@ -17,7 +17,6 @@ Sources of the expected values:
 from __future__ import annotations
 
 import base64
-import io
 import json
 import re
 import subprocess
@@ -25,27 +24,19 @@ from pathlib import Path
 
 import pandas as pd
 import pytest
-from rich.console import Console
+from helpers import EXAMPLES, run_cli
 
 from optimizer.analysis.transfer import coefficients
-from optimizer.cli import main
 from optimizer.report.exports import BOM_COLUMNS
 from optimizer.report.schemas import CHECK_SCHEMA, PICK_SCHEMA, schema_errors
 from optimizer.specfile import load_spec
 
-EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 MOTOR = str(EXAMPLES / "motor_shunt.yaml")
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"  # PNG specification (ISO/IEC 15948), section 5.2
 
 
 def _run(argv: list[str], width: int = 200) -> tuple[int, str, str]:
-    out = Console(file=io.StringIO(), width=width, color_system=None)
-    err = Console(file=io.StringIO(), width=width, color_system=None)
-    code = main(argv, console=out, err=err)
-    text_out = out.file.getvalue()  # type: ignore[attr-defined]
-    text_err = err.file.getvalue()  # type: ignore[attr-defined]
-    assert "Traceback" not in text_out + text_err
-    return code, text_out, text_err
+    return run_cli(argv, width)
 
 
 # Demo catalog (invented ids and costs); two ids start with formula characters on purpose.

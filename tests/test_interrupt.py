@@ -19,8 +19,8 @@ import time
 from pathlib import Path
 
 import pytest
+from helpers import ROOT
 
-ROOT = Path(__file__).resolve().parent.parent
 ADC = str(ROOT / "examples" / "adc_driver.yaml")
 MOTOR = str(ROOT / "examples" / "motor_shunt.yaml")
 CHECK = ["check", MOTOR, "--r1", "1k", "--r2", "20k", "--r3", "1k", "--r4", "20k"]

@@ -23,11 +23,11 @@ import numpy as np
 import pandas as pd
 import pytest
 import yaml
+from helpers import ROOT
 
 import optimizer
 from optimizer.catalog import DISCRETE_COLUMNS, builtin_data_folder, generate_discrete
 
-ROOT = Path(__file__).resolve().parent.parent
 SPEC = ROOT / "examples" / "motor_shunt.yaml"
 HEAVY = ("pandas", "ortools")
 

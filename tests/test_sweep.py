@@ -16,6 +16,7 @@ import xml.etree.ElementTree as ET
 from pathlib import Path
 
 import pytest
+from helpers import EXAMPLES
 from rich.console import Console
 
 from optimizer.api import spec_catalogs
@@ -26,7 +27,6 @@ from optimizer.solve.search import SearchStatus
 from optimizer.specfile import load_spec
 from optimizer.sweep import SweepResult, parse_range, sweep, sweep_cmrr
 
-EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 INDUSTRIAL = str(EXAMPLES / "industrial_input.yaml")
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
 
