@@ -70,14 +70,27 @@ def _decode(path: str, data: bytes) -> tuple[str, str | None]:
     return text, note
 
 
-def _find_header(path: str, text: str) -> tuple[int, str]:
+def _lines_as_newlines(text: str) -> str:
+    """``text`` with CR LF and lone CR line ends written as LF (a copy only when needed)."""
+    if "\r" not in text:
+        return text
+    return text.replace("\r\n", "\n").replace("\r", "\n")
+
+
+def _find_header(path: str, text: str) -> tuple[int, str, int]:
     """The 0-based index of the header line (first line that is neither blank nor a ``#``
-    comment) and the line."""
-    for index, line in enumerate(text.splitlines()):
+    comment), the line, and the offset in ``text`` where the line after it starts. ``text``
+    has LF line ends; only the lines up to the header are looked at (a large file is not
+    split into lines)."""
+    start = index = 0
+    while start < len(text):
+        end = text.find("\n", start)
+        end = len(text) if end < 0 else end
+        line = text[start:end]
         stripped = line.strip()
-        if not stripped or stripped.startswith("#"):
-            continue
-        return index, line
+        if stripped and not stripped.startswith("#"):
+            return index, line, min(end + 1, len(text))
+        start, index = end + 1, index + 1
     raise CatalogError(
         f"the file is empty: expected a header line with the columns {', '.join(CSV_REQUIRED)}",
         path=path,
@@ -260,11 +273,12 @@ def _blank_rows(body: str, spans: Sequence[tuple[int, int]], delimiter: str, wid
 
 def _load_csv(path: str, data: bytes) -> tuple[pd.DataFrame, IntArray, tuple[str, ...]]:
     text, encoding_note = _decode(path, data)
+    text = _lines_as_newlines(text)
     notes = [encoding_note] if encoding_note else []
     mapping, mapping_note = _column_map(path)
     if mapping_note:
         notes.append(mapping_note)
-    header_index, header = _find_header(path, text)
+    header_index, header, body_start = _find_header(path, text)
     delimiter, names = _split_header(path, header, mapping, encoding_note)
     if delimiter != ",":
         notes.append(f"{path}: columns separated by {_DELIMITER_NAMES[delimiter]}")
@@ -284,7 +298,8 @@ def _load_csv(path: str, data: bytes) -> tuple[pd.DataFrame, IntArray, tuple[str
         notes.append(f"{path}: columns ignored (not used by Quartet): {shown}{more}")
     known = {*CSV_REQUIRED, *CSV_OPTIONAL}
     used = [i for i, n in enumerate(names) if n in known]
-    body = "\n".join(text.splitlines()[header_index + 1 :])
+    body = text[body_start:]
+    del text
     row_problems, spans = _row_lengths(path, body, delimiter, len(names), header_line + 1)
     if not row_problems:
         return _read_rows(path, body, names, used, delimiter, header_line, notes)
