@@ -27,6 +27,7 @@ LAYERS: dict[str, int] = {
     "optimizer.errors": 0,
     "optimizer.interrupt": 0,
     "optimizer.units": 1,
+    "optimizer.bounds": 1,
     "optimizer.eseries": 1,
     "optimizer.inputs": 1,
     "optimizer.safewrite": 1,

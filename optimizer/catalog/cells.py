@@ -12,6 +12,7 @@ from typing import TYPE_CHECKING, Final
 import numpy as np
 import numpy.typing as npt
 
+from ..bounds import PART_FIELDS
 from ..errors import CatalogError, ModelError, UnitError
 from ..parts import Technology
 from ..units import (
@@ -171,69 +172,65 @@ def _parse_cost(token: object) -> float:
     return value
 
 
-def _finite(values: FloatArray) -> BoolArray:
-    return np.isfinite(values)
-
-
 _QUANTITIES: Final[Mapping[str, _Quantity]] = {
     "resistance": _Quantity(
         parse_resistance,
         "a resistance above zero such as 4.99k, 4k99, 100R, 0R1 or 2.2 MΩ",
-        lambda v: _finite(v) & (v > 0.0),
+        PART_FIELDS["resistance"].holds_all,
         "a resistance above zero",
     ),
     "tolerance": _Quantity(
         parse_fraction,
         "a tolerance such as 1%, 0.1% or 0.001",
-        lambda v: _finite(v) & (v >= 0.0) & (v < 0.5),
+        PART_FIELDS["tolerance"].holds_all,
         "a tolerance below 50 %",
     ),
     "ratio_tolerance": _Quantity(
         parse_fraction,
         "a ratio tolerance such as 0.05% or 0.0005",
-        lambda v: _finite(v) & (v >= 0.0) & (v < 0.5),
+        PART_FIELDS["ratio_tolerance"].holds_all,
         "a ratio tolerance below 50 %",
     ),
     "tempco": _Quantity(
         parse_tempco,
         "a tempco such as 25 ppm/K, 25ppm/°C or 25e-6",
-        lambda v: _finite(v) & (v >= 0.0) & (v <= 0.01),
+        PART_FIELDS["tempco"].holds_all,
         "a tempco of 0 to 10,000 ppm/K",
     ),
     "tracking": _Quantity(
         parse_tempco,
         "a tracking tempco such as 2 ppm/K or 2e-6",
-        lambda v: _finite(v) & (v >= 0.0) & (v <= 0.01),
+        PART_FIELDS["tracking"].holds_all,
         "a tracking tempco of 0 to 10,000 ppm/K",
     ),
     "power": _Quantity(
         parse_power,
         "a power above zero such as 0.1 W or 63 mW",
-        lambda v: _finite(v) & (v > 0.0),
+        PART_FIELDS["power"].holds_all,
         "a power above zero",
     ),
     "max_voltage": _Quantity(
         parse_voltage,
         "a limiting voltage above zero such as 75 V",
-        lambda v: _finite(v) & (v > 0.0),
+        PART_FIELDS["max_voltage"].holds_all,
         "a limiting voltage above zero such as 75 V",
     ),
     "cost": _Quantity(
         _parse_cost,
         "a relative cost of zero or more such as 1.5",
-        lambda v: _finite(v) & (v >= 0.0),
+        PART_FIELDS["cost"].holds_all,
         "a relative cost of zero or more",
     ),
     "drift": _Quantity(
         parse_fraction,
         "a drift bound over 1000 h such as 0.1% or 0.001",
-        lambda v: _finite(v) & (v >= 0.0) & (v < 0.5),
+        PART_FIELDS["drift"].holds_all,
         "a drift bound below 50 %",
     ),
     "ratio_drift": _Quantity(
         parse_fraction,
         "a ratio drift bound over 1000 h such as 0.02% or 0.0002",
-        lambda v: _finite(v) & (v >= 0.0) & (v < 0.5),
+        PART_FIELDS["ratio_drift"].holds_all,
         "a ratio drift bound below 50 %",
     ),
 }

@@ -29,7 +29,11 @@ def _decade_mantissa(values: FloatArray) -> tuple[FloatArray, BoolArray]:
     (finite and above zero)."""
     valid = np.isfinite(values) & (values > 0.0)
     safe = np.where(valid, values, 1.0)
-    return safe / 10.0 ** np.floor(np.log10(safe)), valid
+    scale = 10.0 ** np.floor(np.log10(safe))
+    # a subnormal value (below about 1e-308) has a decade that underflows to zero: it is
+    # above zero, so a valid resistance, but no E-series value
+    valid &= scale > 0.0
+    return safe / np.where(scale > 0.0, scale, 1.0), valid
 
 
 def _members_of(series: ESeries, mantissa: FloatArray, valid: BoolArray, rel: float) -> BoolArray:
