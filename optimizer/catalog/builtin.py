@@ -121,22 +121,38 @@ def _network_cost(grade_cost: float, kind_factor: float, shape_factor: float) ->
     return round(grade_cost * kind_factor * shape_factor, 4)
 
 
-def generate_discrete(
-    recipe: Mapping[str, Any], source: str = BUILTIN_DISCRETE_SOURCE
-) -> pd.DataFrame:
-    """Expand a discrete recipe (the mapping of ``catalogs/discrete_recipe.yaml``) into the
-    discrete table: for each grade, every IEC 60063 value of its series in its range * every
-    tempco class * every size. Costs follow the recipe's illustrative model::
+@dataclass(frozen=True)
+class _Grade:
+    """One grade of a discrete recipe, read and checked: its tolerance, technology (name,
+    id code and drift), grade cost, tempco classes, value range and sizes."""
 
-        unit_cost = grade cost * size cost factor + tempco premium
-    """
-    r = _Recipe(recipe, source)
-    data = r.data
-    low, high = r.value_range(r.get(data, "range", "range"), "range")
+    key: str
+    tolerance: float
+    technology: str
+    tech_code: str
+    drift: float
+    cost: float
+    tempcos: tuple[float, ...]
+    value_range: tuple[float, float]
+    sizes: tuple[str, ...]
+    series: ESeries
 
+
+@dataclass(frozen=True)
+class _DiscreteRecipe:
+    """A discrete recipe read and checked (every problem raised, located by key), before any
+    part is made: sizes as (power, max voltage, cost factor), tempco premiums, grades."""
+
+    sizes: Mapping[str, tuple[float, float, float]]
+    premium: Mapping[float, float]
+    grades: tuple[_Grade, ...]
+
+
+def _series_rules(r: _Recipe) -> list[tuple[float, ESeries]]:
+    """``series_by_tolerance``: (lowest tolerance, series) in the recipe's order."""
     rules: list[tuple[float, ESeries]] = []
     for i, rule in enumerate(
-        r.items(r.get(data, "series_by_tolerance", ""), "series_by_tolerance")
+        r.items(r.get(r.data, "series_by_tolerance", ""), "series_by_tolerance")
     ):
         key = f"series_by_tolerance[{i}]"
         rule = r.mapping(rule, key)
@@ -146,9 +162,13 @@ def generate_discrete(
         except UnitError as exc:
             raise r.fail(f"{key}.series", str(exc)) from None
         rules.append((start, rule_series))
+    return rules
 
+
+def _sizes(r: _Recipe) -> dict[str, tuple[float, float, float]]:
+    """``sizes``: size code → (power at 70 °C in W, limiting voltage in V, cost factor)."""
     sizes: dict[str, tuple[float, float, float]] = {}
-    for name, spec in r.mapping(r.get(data, "sizes", ""), "sizes").items():
+    for name, spec in r.mapping(r.get(r.data, "sizes", ""), "sizes").items():
         key = f"sizes.{name}"
         if not isinstance(name, str):
             raise r.fail(key, f'expected a size code as text (quote it: "{name}")')
@@ -158,9 +178,13 @@ def generate_discrete(
             r.parse(parse_voltage, r.get(spec, "max_voltage", key), f"{key}.max_voltage"),
             r.number(r.get(spec, "cost_factor", key), f"{key}.cost_factor", positive=True),
         )
+    return sizes
 
+
+def _technologies(r: _Recipe) -> dict[str, tuple[str, float]]:
+    """``technologies``: technology name → (id code, drift over 1000 h as a fraction)."""
     technologies: dict[str, tuple[str, float]] = {}
-    for name, spec in r.mapping(r.get(data, "technologies", ""), "technologies").items():
+    for name, spec in r.mapping(r.get(r.data, "technologies", ""), "technologies").items():
         key = f"technologies.{name}"
         try:
             technology = Technology.from_text(str(name))
@@ -171,87 +195,154 @@ def generate_discrete(
             str(r.get(spec, "code", key)),
             r.parse(parse_fraction, r.get(spec, "drift", key), f"{key}.drift"),
         )
+    return technologies
 
+
+def _premiums(r: _Recipe) -> dict[float, float]:
+    """``tempco_premium``: tempco bound (per K) → the cost added for it."""
     premium: dict[float, float] = {}
-    for name, cost in r.mapping(r.get(data, "tempco_premium", ""), "tempco_premium").items():
+    for name, cost in r.mapping(r.get(r.data, "tempco_premium", ""), "tempco_premium").items():
         key = f"tempco_premium.{name}"
         premium[r.parse(parse_tempco, name, key)] = r.number(cost, key)
+    return premium
 
+
+def _grade(
+    r: _Recipe,
+    index: int,
+    raw: object,
+    known: tuple[Mapping[str, tuple[str, float]], Mapping[float, float], Sequence[str]],
+    rules: Sequence[tuple[float, ESeries]],
+    full_range: tuple[float, float],
+) -> _Grade:
+    """Grade ``index`` of the recipe, checked against the known technologies, tempco
+    premiums and sizes; its series is the first ``series_by_tolerance`` rule it meets."""
+    technologies, premium, size_codes = known
+    key = f"grades[{index}]"
+    grade = r.mapping(raw, key)
+    tolerance = r.parse(parse_fraction, r.get(grade, "tolerance", key), f"{key}.tolerance")
+    tech_name = str(r.get(grade, "technology", key))
+    if tech_name not in technologies:
+        raise r.fail(
+            f"{key}.technology",
+            f"expected one of the technologies {', '.join(technologies)}, got {tech_name!r}",
+        )
+    tech_code, drift = technologies[tech_name]
+    cost = r.number(r.get(grade, "cost", key), f"{key}.cost")
+    tempcos = [
+        r.parse(parse_tempco, t, f"{key}.tempcos[{j}]")
+        for j, t in enumerate(r.items(r.get(grade, "tempcos", key), f"{key}.tempcos"))
+    ]
+    for j, tempco in enumerate(tempcos):
+        if tempco not in premium:
+            raise r.fail(
+                f"{key}.tempcos[{j}]", f"no tempco_premium entry for {tempco * 1e6:g} ppm/K"
+            )
+    low, high = full_range
+    g_low, g_high = (
+        r.value_range(grade["range"], f"{key}.range") if "range" in grade else (low, high)
+    )
+    size_names = [str(s) for s in r.items(grade.get("sizes", list(size_codes)), f"{key}.sizes")]
+    for j, size in enumerate(size_names):
+        if size not in size_codes:
+            raise r.fail(
+                f"{key}.sizes[{j}]",
+                f"expected one of the sizes {', '.join(size_codes)}, got {size!r}",
+            )
+    series = next((s for start, s in rules if tolerance >= start - 1e-12), None)
+    if series is None:
+        raise r.fail(f"{key}.tolerance", "no series_by_tolerance rule covers this tolerance")
+    return _Grade(
+        key,
+        tolerance,
+        tech_name,
+        tech_code,
+        drift,
+        cost,
+        tuple(tempcos),
+        (max(low, g_low), min(high, g_high)),
+        tuple(size_names),
+        series,
+    )
+
+
+def _read_discrete_recipe(r: _Recipe) -> _DiscreteRecipe:
+    """Read and check every section of a discrete recipe (the first problem raises)."""
+    full_range = r.value_range(r.get(r.data, "range", "range"), "range")
+    rules = _series_rules(r)
+    sizes = _sizes(r)
+    technologies = _technologies(r)
+    premium = _premiums(r)
+    known = (technologies, premium, tuple(sizes))
+    grades = tuple(
+        _grade(r, i, raw, known, rules, full_range)
+        for i, raw in enumerate(r.items(r.get(r.data, "grades", ""), "grades"))
+    )
+    return _DiscreteRecipe(sizes, premium, grades)
+
+
+def _expand(r: _Recipe, recipe: _DiscreteRecipe) -> list[_Block]:
+    """One block of parts per grade, size and tempco class: every IEC 60063 value of the
+    grade's series in its range, with the recipe's illustrative cost. Two grades that would
+    make the same ids are refused."""
     blocks: list[_Block] = []
     seen: dict[str, str] = {}
     ladders: dict[tuple[ESeries, float, float], tuple[FloatArray, list[str]]] = {}
     code_of: dict[tuple[float, int], str] = {}  # ladders overlap: each code is worked out once
-    for i, grade in enumerate(r.items(r.get(data, "grades", ""), "grades")):
-        key = f"grades[{i}]"
-        grade = r.mapping(grade, key)
-        tolerance = r.parse(parse_fraction, r.get(grade, "tolerance", key), f"{key}.tolerance")
-        tech_name = str(r.get(grade, "technology", key))
-        if tech_name not in technologies:
-            raise r.fail(
-                f"{key}.technology",
-                f"expected one of the technologies {', '.join(technologies)}, got {tech_name!r}",
-            )
-        tech_code, drift = technologies[tech_name]
-        cost = r.number(r.get(grade, "cost", key), f"{key}.cost")
-        tempcos = [
-            r.parse(parse_tempco, t, f"{key}.tempcos[{j}]")
-            for j, t in enumerate(r.items(r.get(grade, "tempcos", key), f"{key}.tempcos"))
-        ]
-        for j, tempco in enumerate(tempcos):
-            if tempco not in premium:
-                raise r.fail(
-                    f"{key}.tempcos[{j}]", f"no tempco_premium entry for {tempco * 1e6:g} ppm/K"
-                )
-        g_low, g_high = (
-            r.value_range(grade["range"], f"{key}.range") if "range" in grade else (low, high)
-        )
-        size_names = [str(s) for s in r.items(grade.get("sizes", list(sizes)), f"{key}.sizes")]
-        for j, size in enumerate(size_names):
-            if size not in sizes:
-                raise r.fail(
-                    f"{key}.sizes[{j}]",
-                    f"expected one of the sizes {', '.join(sizes)}, got {size!r}",
-                )
-        series = next((s for start, s in rules if tolerance >= start - 1e-12), None)
-        if series is None:
-            raise r.fail(f"{key}.tolerance", "no series_by_tolerance rule covers this tolerance")
-        ladder = (series, max(low, g_low), min(high, g_high))
+    for grade in recipe.grades:
+        ladder = (grade.series, *grade.value_range)
         if ladder not in ladders:  # grades of one series and range share values and codes
             values = np.array(list(values_in_range(*ladder)), dtype=float)
-            figures = 2 if series <= ESeries.E24 else 3
+            figures = 2 if grade.series <= ESeries.E24 else 3
             for v in values:
                 if (v, figures) not in code_of:
                     code_of[v, figures] = rkm_code(v, figures)
             ladders[ladder] = values, [code_of[v, figures] for v in values]
         values, codes = ladders[ladder]
-        grade_code = f"{tech_code}{round(tolerance * 1e4):d}"
-        for size in size_names:
-            power, voltage, factor = sizes[size]
-            for tempco in tempcos:
+        grade_code = f"{grade.tech_code}{round(grade.tolerance * 1e4):d}"
+        for size in grade.sizes:
+            power, voltage, factor = recipe.sizes[size]
+            for tempco in grade.tempcos:
                 prefix = f"Q-{size}-{grade_code}-{round(tempco * 1e6):d}-"
                 if prefix in seen:
                     raise r.fail(
-                        key,
+                        grade.key,
                         f"grade repeats the ids of {seen[prefix]} "
                         "(same technology, tolerance, tempco and size)",
                     )
-                seen[prefix] = key
+                seen[prefix] = grade.key
                 blocks.append(
                     _Block(
                         prefix=prefix,
                         values=values,
                         codes=codes,
-                        tolerance=tolerance,
+                        tolerance=grade.tolerance,
                         tempco_per_k=tempco,
                         size=size,
                         power_w=power,
                         max_voltage_v=voltage,
-                        unit_cost=_discrete_cost(cost, factor, premium[tempco]),
-                        technology=tech_name,
-                        drift_1000h=drift,
-                        series=series.name,
+                        unit_cost=_discrete_cost(grade.cost, factor, recipe.premium[tempco]),
+                        technology=grade.technology,
+                        drift_1000h=grade.drift,
+                        series=grade.series.name,
                     )
                 )
+    return blocks
+
+
+def generate_discrete(
+    recipe: Mapping[str, Any], source: str = BUILTIN_DISCRETE_SOURCE
+) -> pd.DataFrame:
+    """Expand a discrete recipe (the mapping of ``catalogs/discrete_recipe.yaml``) into the
+    discrete table: for each grade, every IEC 60063 value of its series in its range * every
+    tempco class * every size. Costs follow the recipe's illustrative model::
+
+        unit_cost = grade cost * size cost factor + tempco premium
+
+    The recipe is read and checked first (:func:`_read_discrete_recipe`), then expanded
+    (:func:`_expand`)."""
+    r = _Recipe(recipe, source)
+    blocks = _expand(r, _read_discrete_recipe(r))
     if not blocks:
         return empty_discrete_frame()
     return _blocks_frame(blocks, source)
