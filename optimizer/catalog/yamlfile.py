@@ -15,6 +15,7 @@ from ..units import (
 )
 from .cells import (
     _QUANTITIES,
+    _combined,
     _did_you_mean,
     _discrete_from_table,
     _Problem,
@@ -47,10 +48,66 @@ def _scalar_text(node: yaml.Node) -> str | None:
     return str(node.value)
 
 
+def _yaml_entry(
+    path: str, item: yaml.Node, section: str, required: Sequence[str], known: Sequence[str]
+) -> dict[str, tuple[object, int]]:
+    """The raw cells of one entry of a ``section:`` list with the line of each; the first
+    problem of the entry raises :class:`CatalogError`."""
+    if not isinstance(item, yaml.MappingNode):
+        raise CatalogError(
+            f"expected a mapping of {', '.join(required)} for each entry of {section}:",
+            path=path,
+            row=item.start_mark.line + 1,
+            column=section,
+        )
+    found: dict[str, tuple[object, int]] = {}
+    for key_node, value_node in item.value:
+        key = str(key_node.value)
+        key_line = key_node.start_mark.line + 1
+        if key in found:
+            raise CatalogError(
+                "the key appears twice in this entry", path=path, row=key_line, column=key
+            )
+        if key not in known:
+            message = _did_you_mean(key, known, "key")
+            raise CatalogError(message, path=path, row=key_line, column=key)
+        if key == "values":
+            if not isinstance(value_node, yaml.SequenceNode):
+                raise CatalogError(
+                    "expected a list of element values such as [1k, 10k, 1k, 10k]",
+                    path=path,
+                    row=key_line,
+                    column=key,
+                )
+            values: list[tuple[str | None, int]] = []
+            for element in value_node.value:
+                if not isinstance(element, yaml.ScalarNode):
+                    raise CatalogError(
+                        "expected a single resistance for each element",
+                        path=path,
+                        row=element.start_mark.line + 1,
+                        column=key,
+                    )
+                values.append((_scalar_text(element), element.start_mark.line + 1))
+            found[key] = (values, key_line)
+        elif isinstance(value_node, yaml.ScalarNode):
+            found[key] = (_scalar_text(value_node), key_line)
+        else:
+            raise CatalogError(
+                "expected a single value, not a list or mapping",
+                path=path,
+                row=key_line,
+                column=key,
+            )
+    return found
+
+
 def _yaml_rows(
     path: str, node: yaml.Node, section: str, required: Sequence[str], optional: Sequence[str]
-) -> tuple[list[int], dict[str, list[object]], dict[str, list[int]]]:
-    """Read a list of mappings into columns of raw values with the line of each cell."""
+) -> tuple[list[int], dict[str, list[object]], dict[str, list[int]], list[CatalogError]]:
+    """Read a list of mappings into columns of raw values with the line of each cell, and the
+    problems of the entries left out (each entry's first problem; the other entries are read
+    on, so one run reports them all)."""
     if not isinstance(node, yaml.SequenceNode):
         raise CatalogError(
             f"expected a list of parts under {section}:",
@@ -62,79 +119,41 @@ def _yaml_rows(
     rows: list[int] = []
     cells: dict[str, list[object]] = {k: [] for k in known}
     lines: dict[str, list[int]] = {k: [] for k in known}
+    problems: list[CatalogError] = []
     for item in node.value:
         line = item.start_mark.line + 1
-        if not isinstance(item, yaml.MappingNode):
-            raise CatalogError(
-                f"expected a mapping of {', '.join(required)} for each entry of {section}:",
-                path=path,
-                row=line,
-                column=section,
-            )
-        found: dict[str, tuple[object, int]] = {}
-        for key_node, value_node in item.value:
-            key = str(key_node.value)
-            key_line = key_node.start_mark.line + 1
-            if key in found:
-                raise CatalogError(
-                    "the key appears twice in this entry", path=path, row=key_line, column=key
-                )
-            if key not in known:
-                raise CatalogError(
-                    _did_you_mean(key, known, "key"), path=path, row=key_line, column=key
-                )
-            if key == "values":
-                if not isinstance(value_node, yaml.SequenceNode):
-                    raise CatalogError(
-                        "expected a list of element values such as [1k, 10k, 1k, 10k]",
-                        path=path,
-                        row=key_line,
-                        column=key,
-                    )
-                values: list[tuple[str | None, int]] = []
-                for element in value_node.value:
-                    if not isinstance(element, yaml.ScalarNode):
-                        raise CatalogError(
-                            "expected a single resistance for each element",
-                            path=path,
-                            row=element.start_mark.line + 1,
-                            column=key,
-                        )
-                    values.append((_scalar_text(element), element.start_mark.line + 1))
-                found[key] = (values, key_line)
-            elif isinstance(value_node, yaml.ScalarNode):
-                found[key] = (_scalar_text(value_node), key_line)
-            else:
-                raise CatalogError(
-                    "expected a single value, not a list or mapping",
-                    path=path,
-                    row=key_line,
-                    column=key,
-                )
+        try:
+            found = _yaml_entry(path, item, section, required, known)
+        except CatalogError as exc:
+            problems.append(exc)
+            continue
         for key in known:
             value, key_line = found.get(key, (None, line))
             cells[key].append(value)
             lines[key].append(key_line)
         rows.append(line)
-    if not rows:
+    if not rows and not problems:
         raise CatalogError(
             f"the {section}: list is empty", path=path, row=node.start_mark.line + 1, column=section
         )
-    return rows, cells, lines
+    return rows, cells, lines, problems
 
 
 def _yaml_table(
     path: str, node: yaml.Node, section: str, required: Sequence[str], optional: Sequence[str]
-) -> _Table:
+) -> tuple[_Table, list[CatalogError]]:
+    """The cells of a ``section:`` list as a table, and the problems of the entries left
+    out."""
     import pandas as pd
 
-    rows, cells, lines = _yaml_rows(path, node, section, required, optional)
-    return _Table(
+    rows, cells, lines, problems = _yaml_rows(path, node, section, required, optional)
+    table = _Table(
         path,
         {k: pd.Series(v, dtype=object) for k, v in cells.items()},
         np.array(rows, dtype=np.int64),
         {k: np.array(v, dtype=np.int64) for k, v in lines.items()},
     )
+    return table, problems
 
 
 def _networks_from_table(table: _Table) -> tuple[NetworkPart, ...]:
@@ -271,14 +290,29 @@ def _load_yaml(
     if not sections:
         raise CatalogError(f"the file is empty: expected {expected}", path=path)
     discrete, discrete_lines = empty_discrete_frame(), np.zeros(0, dtype=np.int64)
-    if "discrete" in sections:
-        table = _yaml_table(path, sections["discrete"], "discrete", CSV_REQUIRED, CSV_OPTIONAL)
-        discrete, discrete_lines = _discrete_from_table(table), table.row_lines
     networks: tuple[NetworkPart, ...] = ()
     network_lines = np.zeros(0, dtype=np.int64)
+    problems: list[CatalogError] = []  # every problem of both lists, reported together
+    if "discrete" in sections:
+        table, skipped = _yaml_table(
+            path, sections["discrete"], "discrete", CSV_REQUIRED, CSV_OPTIONAL
+        )
+        problems += skipped
+        try:
+            if len(table.row_lines):
+                discrete, discrete_lines = _discrete_from_table(table), table.row_lines
+        except CatalogError as exc:
+            problems += exc.problems
     if "networks" in sections:
-        table = _yaml_table(
+        table, skipped = _yaml_table(
             path, sections["networks"], "networks", NETWORK_REQUIRED, NETWORK_OPTIONAL
         )
-        networks, network_lines = _networks_from_table(table), table.row_lines
+        problems += skipped
+        try:
+            if len(table.row_lines):
+                networks, network_lines = _networks_from_table(table), table.row_lines
+        except CatalogError as exc:
+            problems += exc.problems
+    if problems:
+        raise _combined(path, problems)
     return discrete, discrete_lines, networks, network_lines
