@@ -32,12 +32,11 @@ import math
 import os
 from pathlib import Path
 
-import yaml
 from yaml.nodes import MappingNode, Node, ScalarNode
 
 from .design import Topology
 from .errors import ModelError, SpecError, UnitError
-from .inputs import MAX_DEPTH, SPEC_MAX_BYTES, read_bounded, yaml_too_deep
+from .inputs import SPEC_MAX_BYTES, YamlTrouble, compose_yaml, read_bounded
 from .parts import Amplifier, RailSpan
 from .spec import (
     MAX_SAMPLES,
@@ -937,34 +936,13 @@ def _combined(path: str, problems: list[SpecError]) -> SpecError:
     return error
 
 
-def _yaml_error(path: str, exc: yaml.YAMLError) -> SpecError:
-    mark = getattr(exc, "problem_mark", None) or getattr(exc, "context_mark", None)
-    line = None if mark is None else int(mark.line) + 1
-    problem = getattr(exc, "problem", None)
-    context = getattr(exc, "context", None)
-    if problem is None:
-        text = str(exc)
-    elif context and str(problem).startswith("but "):
-        text = f"{context}, {problem}"  # "expected a single document ..., but found another"
-    else:
-        text = str(problem) + (f" ({context})" if context else "")
-    return SpecError(f"not valid YAML: {text}", path=path, line=line)
-
-
 def parse_spec_text(text: str, path: str) -> Spec:
     """Read a spec from YAML ``text``; ``path`` names the file in messages and is the base for
     relative catalog paths. Raises :class:`SpecError` listing every problem found."""
-    deep = yaml_too_deep(text)
-    if deep is not None:
-        raise SpecError(
-            f"mappings and lists nest deeper than {MAX_DEPTH} levels; a spec needs 4",
-            path=path,
-            line=deep,
-        )
     try:
-        root = yaml.compose(text, Loader=yaml.SafeLoader)
-    except yaml.YAMLError as exc:
-        raise _yaml_error(path, exc) from None
+        root = compose_yaml(text, "a spec", 4)
+    except YamlTrouble as exc:
+        raise SpecError(exc.message, path=path, line=exc.line) from None
     if root is None:
         raise SpecError(
             f"the file is empty; expected a mapping starting with quartet_spec: {FORMAT_VERSION}",

@@ -739,7 +739,8 @@ def test_yaml_catalog_with_discrete_parts_and_networks(tmp_path: Path) -> None:
         ),
         (
             "discrete: [\n",
-            "{path}:2: not valid YAML: expected the node content, but found '<stream end>'",
+            "{path}:2: not valid YAML: expected the node content, but found '<stream end>' "
+            "(while parsing a flow node)",
         ),
         ("discreet: []\n", "{path}:1: column 'discreet': unknown key; did you mean 'discrete'?"),
         ("discrete: 5\n", "{path}:1: column 'discrete': expected a list of parts under discrete:"),

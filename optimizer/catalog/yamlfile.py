@@ -239,7 +239,7 @@ _YAML_SECTIONS: Final = ("discrete", "networks")
 def _load_yaml(
     path: str, data: bytes
 ) -> tuple[pd.DataFrame, IntArray, tuple[NetworkPart, ...], IntArray]:
-    from ..inputs import MAX_DEPTH, yaml_too_deep
+    from ..inputs import YamlTrouble, compose_yaml
 
     try:
         text = data.decode("utf-16" if data[:2] in (b"\xff\xfe", b"\xfe\xff") else "utf-8-sig")
@@ -247,26 +247,10 @@ def _load_yaml(
         raise CatalogError(
             f"cannot read the file as UTF-8 text ({exc.reason} at byte {exc.start})", path=path
         ) from None
-    deep = yaml_too_deep(text)
-    if deep is not None:
-        raise CatalogError(
-            f"mappings and lists nest deeper than {MAX_DEPTH} levels; a catalog needs 3",
-            path=path,
-            row=deep,
-        )
     try:
-        root = yaml.compose(text, Loader=yaml.SafeLoader)
-    except yaml.MarkedYAMLError as exc:
-        mark = exc.problem_mark or exc.context_mark
-        line = mark.line + 1 if mark is not None else None
-        raise CatalogError(
-            f"not valid YAML: {exc.problem or exc.context}", path=path, row=line
-        ) from None
-    except yaml.reader.ReaderError as exc:  # a control character (found by tests/test_fuzz.py)
-        line = text[: exc.position].count("\n") + 1
-        raise CatalogError(
-            f"not valid YAML: character #x{exc.character:04x} is not allowed", path=path, row=line
-        ) from None
+        root = compose_yaml(text, "a catalog", 3)
+    except YamlTrouble as exc:
+        raise CatalogError(exc.message, path=path, row=exc.line) from None
     expected = "a mapping with a discrete: list and/or a networks: list"
     if root is None:
         raise CatalogError(f"the file is empty: expected {expected}", path=path)
