@@ -273,30 +273,35 @@ def _load_yaml(
         sections[key] = value_node
     if not sections:
         raise CatalogError(f"the file is empty: expected {expected}", path=path)
+    problems: list[CatalogError] = []  # every problem of both lists, reported together
+
+    def checked(section: str, required: Sequence[str], optional: Sequence[str]) -> _Table | None:
+        """The table of one list with its structural problems recorded; None when the list
+        is absent or every entry was left out."""
+        if section not in sections:
+            return None
+        table, skipped = _yaml_table(path, sections[section], section, required, optional)
+        problems.extend(skipped)
+        return table if len(table.row_lines) else None
+
     discrete, discrete_lines = empty_discrete_frame(), np.zeros(0, dtype=np.int64)
     networks: tuple[NetworkPart, ...] = ()
     network_lines = np.zeros(0, dtype=np.int64)
-    problems: list[CatalogError] = []  # every problem of both lists, reported together
-    if "discrete" in sections:
-        table, skipped = _yaml_table(
-            path, sections["discrete"], "discrete", CSV_REQUIRED, CSV_OPTIONAL
-        )
-        problems += skipped
-        try:
-            if len(table.row_lines):
-                discrete, discrete_lines = _discrete_from_table(table), table.row_lines
-        except CatalogError as exc:
-            problems += exc.problems
-    if "networks" in sections:
-        table, skipped = _yaml_table(
-            path, sections["networks"], "networks", NETWORK_REQUIRED, NETWORK_OPTIONAL
-        )
-        problems += skipped
-        try:
-            if len(table.row_lines):
-                networks, network_lines = _networks_from_table(table), table.row_lines
-        except CatalogError as exc:
-            problems += exc.problems
+    discrete_table = checked("discrete", CSV_REQUIRED, CSV_OPTIONAL)
+    network_table = checked("networks", NETWORK_REQUIRED, NETWORK_OPTIONAL)
+    try:
+        if discrete_table is not None:
+            discrete, discrete_lines = (
+                _discrete_from_table(discrete_table),
+                discrete_table.row_lines,
+            )
+    except CatalogError as exc:
+        problems.extend(exc.problems)
+    try:
+        if network_table is not None:
+            networks, network_lines = _networks_from_table(network_table), network_table.row_lines
+    except CatalogError as exc:
+        problems.extend(exc.problems)
     if problems:
         raise _combined(path, problems)
     return discrete, discrete_lines, networks, network_lines
