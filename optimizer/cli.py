@@ -424,7 +424,14 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
         raise interrupt.Interrupted(
             signum,
             "the search was stopped; the files above hold the best design found so far "
-            "(not proven best)",
+            "(not proven best)"
+            if winner is not None
+            else "the search was stopped before any design was found; "
+            + (
+                "the JSON file records that (no other file was written)"
+                if args.json_out is not None
+                else "no file was written"
+            ),
         )
     if result.status is SearchStatus.OPTIMAL:
         return EXIT_OK
