@@ -846,7 +846,7 @@ class _Schema:
             raise SpecError(
                 f"unsupported format version {version}; this Quartet reads format {FORMAT_VERSION}",
                 path=self.r.path,
-                key=key,
+                key=self.r.shown(key),
                 line=node_line(node),
             )
         return version
@@ -870,7 +870,10 @@ class _Schema:
                 f"sections {join_names(TOP_KEYS[2:])} (top-level keys found: {found})",
             )
         top = r.mapping(root, "", TOP_KEYS, line=node_line(root))
-        top.need("quartet_spec", self.version, f"the format version, {FORMAT_VERSION}", 0)
+        if r.prefix:  # a spec inside another file: the version key may be left out
+            top.opt("quartet_spec", self.version, 0)
+        else:
+            top.need("quartet_spec", self.version, f"the format version, {FORMAT_VERSION}", 0)
         title = top.opt("title", r.line_text, None)
         sections = {
             "amplifier": AMPLIFIER_KEYS,

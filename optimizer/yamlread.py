@@ -136,8 +136,11 @@ class Section:
 class Reader:
     """Walks the node tree of one spec file, collecting located problems."""
 
-    def __init__(self, path: str) -> None:
+    def __init__(self, path: str, prefix: str = "") -> None:
         self.path = path
+        #: Key path of the spec inside another file (a board file's inline spec); messages
+        #: name keys below it (``amplifiers[1].spec.requirements.gain``).
+        self.prefix = prefix
         self.folder = Path(path).parent
         self.problems: list[SpecError] = []
         self.warnings: list[tuple[int, str]] = []
@@ -147,8 +150,14 @@ class Reader:
 
     # -- problems ---------------------------------------------------------------------------
 
+    def shown(self, key: str) -> str:
+        """``key`` as messages name it (below :attr:`prefix`, if any)."""
+        if not self.prefix:
+            return key
+        return f"{self.prefix}.{key}" if key else self.prefix
+
     def problem(self, key: str, line: int, message: str) -> None:
-        self.problems.append(SpecError(message, path=self.path, key=key, line=line))
+        self.problems.append(SpecError(message, path=self.path, key=self.shown(key), line=line))
         self.bad.add(key)
 
     def fail(self, key: str, line: int, message: str) -> NoReturn:
@@ -157,7 +166,8 @@ class Reader:
 
     def warn(self, key: str, line: int, message: str) -> None:
         """A plausibility warning: the value is read, the run goes on."""
-        self.warnings.append((line, str(SpecError(message, path=self.path, key=key, line=line))))
+        error = SpecError(message, path=self.path, key=self.shown(key), line=line)
+        self.warnings.append((line, str(error)))
 
     def ok(self, *keys: str) -> bool:
         """True when no problem was recorded at, above or below any of ``keys``."""
