@@ -229,8 +229,11 @@ class _Map:
 class _Reader:
     """Walks the node tree of one spec file, collecting located problems."""
 
-    def __init__(self, path: str) -> None:
+    def __init__(self, path: str, prefix: str = "") -> None:
         self.path = path
+        #: Key path of the spec inside another file (a board file's inline spec); messages
+        #: name keys below it (``amplifiers[1].spec.requirements.gain``).
+        self.prefix = prefix
         self.folder = Path(path).parent
         self.problems: list[SpecError] = []
         self.warnings: list[tuple[int, str]] = []
@@ -240,8 +243,14 @@ class _Reader:
 
     # -- problems ---------------------------------------------------------------------------
 
+    def shown(self, key: str) -> str:
+        """``key`` as messages name it (below :attr:`prefix`, if any)."""
+        if not self.prefix:
+            return key
+        return f"{self.prefix}.{key}" if key else self.prefix
+
     def problem(self, key: str, line: int, message: str) -> None:
-        self.problems.append(SpecError(message, path=self.path, key=key, line=line))
+        self.problems.append(SpecError(message, path=self.path, key=self.shown(key), line=line))
         self.bad.add(key)
 
     def fail(self, key: str, line: int, message: str) -> NoReturn:
@@ -250,7 +259,8 @@ class _Reader:
 
     def warn(self, key: str, line: int, message: str) -> None:
         """A plausibility warning: the value is read, the run goes on."""
-        self.warnings.append((line, str(SpecError(message, path=self.path, key=key, line=line))))
+        error = SpecError(message, path=self.path, key=self.shown(key), line=line)
+        self.warnings.append((line, str(error)))
 
     def ok(self, *keys: str) -> bool:
         """True when no problem was recorded at, above or below any of ``keys``."""
@@ -1222,7 +1232,7 @@ class _Schema:
             raise SpecError(
                 f"unsupported format version {version}; this Quartet reads format {FORMAT_VERSION}",
                 path=self.r.path,
-                key=key,
+                key=self.r.shown(key),
                 line=_line(node),
             )
         return version
@@ -1246,7 +1256,10 @@ class _Schema:
                 f"sections {_join(TOP_KEYS[2:])} (top-level keys found: {found})",
             )
         top = r.mapping(root, "", TOP_KEYS, line=_line(root))
-        top.need("quartet_spec", self.version, f"the format version, {FORMAT_VERSION}", 0)
+        if r.prefix:  # a spec inside another file: the version key may be left out
+            top.opt("quartet_spec", self.version, 0)
+        else:
+            top.need("quartet_spec", self.version, f"the format version, {FORMAT_VERSION}", 0)
         title = top.opt("title", r.line_text, None)
         sections = {
             "amplifier": AMPLIFIER_KEYS,

@@ -35,7 +35,7 @@ from .frontier import discrete_frontier, network_frontier
 from .model import BuiltModel, Limits, ModelVariant, build_model, limits_for
 from .options import ALL_SHAPES, DIVIDER_SHAPES, EQUAL_SHAPES, OptionTable, build_options
 
-__all__ = ["Candidate", "PickResult", "SearchStatus", "pick", "solver_parameters"]
+__all__ = ["Candidate", "OrderedDesigns", "PickResult", "SearchStatus", "pick", "solver_parameters"]
 
 DEFAULT_TIME_LIMIT_S = 30.0
 MAX_CUTS = 400
@@ -531,3 +531,68 @@ def _best_of_each_kind(
 def with_objective(spec: Spec, objective: Objective) -> Spec:
     """``spec`` with another objective (for the CLI's overrides)."""
     return replace(spec, preferences=replace(spec.preferences, objective=objective))
+
+
+class OrderedDesigns:
+    """Every design of ``spec`` from ``catalog`` that the search's screens let through, best
+    first by the ranking key (the exact cost for the lowest-cost objective), one at a time and
+    with no fixed count: the topology streams of :func:`pick`, merged as :func:`pick` merges
+    them (ties to the topology listed first). Each design is judged by ``verifier`` as it is
+    taken; a verifier that passes everything defers the exact check to the caller (the board
+    search does): each stream still yields in nondecreasing key, so the order stays exact.
+
+    ``peek`` is the key of the next design (None: none left); ``proven`` says that the streams
+    ended without the clock (``deadline``, a ``time.perf_counter`` value) or a signal cutting
+    one short, so no design was left out."""
+
+    def __init__(
+        self,
+        spec: Spec,
+        catalog: Catalog,
+        verifier: Verifier,
+        *,
+        deadline: float,
+        workers: int = 1,
+    ) -> None:
+        self._clock = _Clock(deadline=deadline)
+        started = time.perf_counter()
+        problem = prepare(spec, catalog)
+        self._clock.build += time.perf_counter() - started
+        self._streams = _streams(problem, spec)
+        if problem.size == 0 or problem.limits.cmrr_budget <= 0.0 or amplifier_limits(spec):
+            self._streams = []  # nothing can pass
+        self._verifier = verifier
+        self._workers = workers
+        self._heads: list[tuple[float, Candidate] | None] | None = None
+
+    def _live(self) -> list[tuple[float, int]]:
+        if self._heads is None:
+            verifier, clock, workers = self._verifier, self._clock, self._workers
+            self._heads = [s.next(verifier, clock, workers) for s in self._streams]
+        return [(head[0], i) for i, head in enumerate(self._heads) if head is not None]
+
+    def peek(self) -> float | None:
+        live = self._live()
+        return min(live)[0] if live else None
+
+    def next(self) -> Candidate | None:
+        live = self._live()
+        if not live:
+            return None
+        _, best = min(live)
+        assert self._heads is not None
+        head = self._heads[best]
+        assert head is not None
+        self._heads[best] = self._streams[best].next(self._verifier, self._clock, self._workers)
+        return head[1]
+
+    @property
+    def proven(self) -> bool:
+        return not any(s.timed_out for s in self._streams) and all(
+            s.optimal for s in self._streams
+        )
+
+    @property
+    def seconds(self) -> tuple[float, float, float]:
+        """(build, solve, verify) seconds so far."""
+        return self._clock.build, self._clock.solve, self._clock.verify

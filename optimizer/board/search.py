@@ -1,0 +1,380 @@
+"""The board pick: one design per amplifier kind, chosen together so that the board's total
+cost (``optimizer.board.model``) is least, every chosen design verified by the exact check.
+
+Method (exact; names as in ``optimizer.board.combine``):
+
+* For each kind k, :class:`optimizer.solve.search.OrderedDesigns` streams the kind's designs
+  in nondecreasing *variable* cost ``v`` (parts + placements of one channel: the spec with
+  line cost and stock penalty 0), through the pick's own screens, which only drop designs the
+  exact check must fail. The exact check itself is deferred: a design is verified only when
+  a board needs it (lazily), and a design that fails is dropped.
+* **Alone.** Each kind's own cheapest design (``v + L·ids + S·unstocked ids``, the cost
+  ``quartet pick`` ranks by) is found from the same stream: the stream is read until its
+  next design's ``v + L`` (every design has at least one line) reaches the best verified cost.
+* **Board.** ``lb_k``, the least ``v`` of kind k not yet rejected, bounds every design of the
+  kind from below. Any board whose kind-k design has ``v`` satisfies
+  ``total ≥ q_k·v + Σ_{j≠k} q_j·lb_j + L`` (parts only add, a board has at least one line).
+  Let ``UB`` be the total of the ``top``-th best board over the designs read so far, each of
+  its designs verified. Every stream is read while ``q_k·v + Σ_{j≠k} q_j·lb_j + L ≤ UB``;
+  a design beyond that cannot enter the ``top`` boards. Over the designs read, the choice of
+  one per kind is solved exactly (``combine.best_boards``); a chosen design not yet verified
+  is verified, and if it fails it is removed and the choice solved again. When no stream has
+  a design inside its bound and every board shown is verified, the ranking is proven:
+  every design left unread costs more than ``UB``, and every read design took part in the
+  exact choice. A cap on distinct lines only removes boards, so the argument holds with it.
+
+The status is ``time_limit`` when the clock (or a signal) stopped a stream or the loop first;
+the boards shown are then verified but not proven best. Pure: no printing, no files.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from collections.abc import Sequence
+from dataclasses import dataclass, field, replace
+from enum import Enum
+
+from .. import interrupt
+from ..catalog import Catalog
+from ..cost import CostBreakdown, design_cost
+from ..design import Design
+from ..solve.search import OrderedDesigns, Verdict, Verifier
+from ..spec import Objective, Spec, StockPolicy
+from .combine import Option, best_boards
+from .model import Board, BoardAmplifier, BoardCost, Purchasing, board_cost, design_lines
+
+__all__ = [
+    "BoardResult",
+    "BoardStatus",
+    "Chosen",
+    "RankedBoard",
+    "alone_spec",
+    "board_search",
+]
+
+#: Default time limit of a board search, seconds.
+DEFAULT_TIME_LIMIT_S = 60.0
+#: Relative slack on the bounds, far above float rounding of sums of relative costs.
+BOUND_SLACK = 1e-9
+
+
+class BoardStatus(str, Enum):
+    """How a board search ended."""
+
+    OPTIMAL = "proven_optimal"
+    TIME_LIMIT = "time_limit"
+    INFEASIBLE = "infeasible"
+
+
+@dataclass(frozen=True)
+class Chosen:
+    """One kind's design in a board, with its exact check and its cost alone (the cost rule of
+    one design under the board's purchasing)."""
+
+    design: Design
+    verdict: Verdict
+    alone_cost: CostBreakdown
+
+
+@dataclass(frozen=True)
+class RankedBoard:
+    """A board: one design per amplifier kind (board order) and its cost."""
+
+    chosen: tuple[Chosen, ...]
+    cost: BoardCost
+
+
+@dataclass(frozen=True)
+class BoardResult:
+    """The outcome of :func:`board_search`.
+
+    ``boards``: the best boards, cheapest first; ``alone``: the board made of each kind's own
+    cheapest design (what picking each amplifier alone gives), None when a kind has none;
+    ``infeasible``: indices of kinds nothing meets (status INFEASIBLE) — empty when instead no
+    board meets the line cap; ``specs``: each kind's spec as searched (purchasing applied);
+    ``read``: designs read per kind; ``verified`` and ``rejected``: exact checks run and
+    failed."""
+
+    boards: tuple[RankedBoard, ...]
+    alone: RankedBoard | None
+    status: BoardStatus
+    infeasible: tuple[int, ...]
+    specs: tuple[Spec, ...]
+    read: tuple[int, ...]
+    verified: int
+    rejected: int
+    seconds: float
+    build_seconds: float
+    verify_seconds: float
+
+
+@dataclass(frozen=True)
+class _Deferred:
+    """The verdict of a design whose exact check is left to the board search."""
+
+    passed: bool = True
+
+
+def _defer(design: Design, spec: Spec) -> Verdict:
+    del design, spec
+    return _Deferred()
+
+
+def alone_spec(amplifier: BoardAmplifier, purchasing: Purchasing) -> Spec:
+    """The amplifier's spec with the board's purchasing in place of its own catalogs, stock
+    policy, costs and objective (the board minimises cost)."""
+    prefer = purchasing.stock is StockPolicy.PREFER
+    prefs = replace(
+        amplifier.spec.preferences,
+        catalogs=purchasing.catalogs,
+        use_builtin_catalogs=purchasing.use_builtin_catalogs,
+        stock=purchasing.stock,
+        stock_penalty=purchasing.stock_penalty if prefer else 0.0,
+        line_cost=purchasing.line_cost,
+        placement_cost=purchasing.placement_cost,
+        objective=Objective.COST,
+        cost_cap=None,
+    )
+    return replace(amplifier.spec, preferences=prefs)
+
+
+@dataclass
+class _Entry:
+    design: Design
+    variable: float
+    ids: frozenset[str]
+    unstocked: frozenset[str]
+    order: int
+    passed: bool | None = None
+    verdict: Verdict | None = None
+
+
+@dataclass
+class _Kind:
+    amplifier: BoardAmplifier
+    spec: Spec
+    stream: OrderedDesigns
+    pool: list[_Entry] = field(default_factory=list)
+
+    def pull(self) -> bool:
+        candidate = self.stream.next()
+        if candidate is None:
+            return False
+        ids, unstocked = design_lines(candidate.design)
+        self.pool.append(
+            _Entry(candidate.design, candidate.cost.total, ids, unstocked, len(self.pool))
+        )
+        return True
+
+    def live(self) -> list[_Entry]:
+        return [e for e in self.pool if e.passed is not False]
+
+    def least(self) -> float | None:
+        """The least variable cost of a design not yet rejected (read or still to come)."""
+        for entry in self.pool:
+            if entry.passed is not False:
+                return entry.variable
+        return self.stream.peek()
+
+
+class _Checker:
+    def __init__(self, verifier: Verifier) -> None:
+        self.verifier = verifier
+        self.verified = 0
+        self.rejected = 0
+        self.seconds = 0.0
+
+    def check(self, entry: _Entry, spec: Spec) -> bool:
+        if entry.passed is None:
+            started = time.perf_counter()
+            entry.verdict = self.verifier(entry.design, spec)
+            self.seconds += time.perf_counter() - started
+            entry.passed = bool(entry.verdict.passed)
+            self.verified += 1
+            self.rejected += 0 if entry.passed else 1
+        return bool(entry.passed)
+
+
+def _out_of_time(deadline: float) -> bool:
+    return interrupt.cancelled() or time.perf_counter() >= deadline
+
+
+def _slack(value: float) -> float:
+    return BOUND_SLACK * max(1.0, abs(value))
+
+
+def _alone(
+    kind: _Kind, checker: _Checker, purchasing: Purchasing, deadline: float
+) -> _Entry | None:
+    """The kind's own cheapest verified design (module docstring), or None."""
+    prefs = kind.spec.preferences
+
+    def own(entry: _Entry) -> float:
+        return design_cost(entry.design, prefs).total
+
+    if not kind.pool:
+        kind.pull()
+    while True:
+        best = None
+        for entry in sorted(kind.live(), key=lambda e: (own(e), e.order)):
+            if checker.check(entry, kind.spec):
+                best = entry
+                break
+            if _out_of_time(deadline):
+                return None
+        head = kind.stream.peek()
+        if head is None:
+            return best
+        if best is not None and head + purchasing.line_cost >= own(best) - _slack(own(best)):
+            return best
+        if _out_of_time(deadline) or not kind.pull():
+            return best
+
+
+def _options(kind: _Kind) -> tuple[list[_Entry], list[Option]]:
+    live = kind.live()
+    return live, [Option(e.variable, e.ids, e.unstocked) for e in live]
+
+
+def _chosen(entry: _Entry, kind: _Kind) -> Chosen:
+    assert entry.verdict is not None
+    return Chosen(entry.design, entry.verdict, design_cost(entry.design, kind.spec.preferences))
+
+
+def _ranked(
+    entries: Sequence[_Entry], kinds: Sequence[_Kind], purchasing: Purchasing
+) -> RankedBoard:
+    chosen = tuple(_chosen(e, k) for e, k in zip(entries, kinds, strict=True))
+    cost = board_cost(
+        ((k.amplifier.quantity, e.design) for e, k in zip(entries, kinds, strict=True)),
+        purchasing,
+    )
+    return RankedBoard(chosen, cost)
+
+
+def _solve(
+    kinds: Sequence[_Kind], purchasing: Purchasing, top: int
+) -> list[tuple[float, list[_Entry]]]:
+    prefer = purchasing.stock is StockPolicy.PREFER
+    lives, options = zip(*(_options(k) for k in kinds), strict=True)
+    unstocked = frozenset().union(*(o.unstocked for opts in options for o in opts))
+    found = best_boards(
+        options,
+        [k.amplifier.quantity for k in kinds],
+        line_cost=purchasing.line_cost,
+        stock_penalty=purchasing.stock_penalty if prefer else 0.0,
+        unstocked=unstocked,
+        top=top,
+        max_lines=purchasing.max_lines,
+    )
+    return [(total, [lives[k][i] for k, i in enumerate(key)]) for total, key in found]
+
+
+def _read_more(kinds: Sequence[_Kind], purchasing: Purchasing, ub: float, deadline: float) -> bool:
+    """Read every stream up to its bound under ``ub`` (module docstring); with no ``ub`` yet,
+    a batch from each stream. True when anything was read."""
+    floor: list[float] = []
+    for kind in kinds:
+        least = kind.least()
+        if least is None:
+            return False
+        floor.append(kind.amplifier.quantity * least)
+    read = False
+    for index, kind in enumerate(kinds):
+        rest = sum(floor) - floor[index] + purchasing.line_cost
+        if math.isinf(ub):
+            for _ in range(max(4, len(kind.pool))):
+                if _out_of_time(deadline) or not kind.pull():
+                    break
+                read = True
+            continue
+        while not _out_of_time(deadline):
+            head = kind.stream.peek()
+            if head is None or kind.amplifier.quantity * head + rest > ub + _slack(ub):
+                break
+            kind.pull()
+            read = True
+    return read
+
+
+def board_search(
+    board: Board,
+    catalog: Catalog,
+    verifier: Verifier,
+    *,
+    top: int | None = None,
+    time_limit_s: float | None = None,
+) -> BoardResult:
+    """The ``top`` cheapest boards (default: the board's ``alternatives``) whose every design
+    passes ``verifier``, with the alone board for comparison (module docstring)."""
+    started = time.perf_counter()
+    wanted = top if top is not None else board.purchasing.alternatives
+    deadline = started + (time_limit_s if time_limit_s is not None else DEFAULT_TIME_LIMIT_S)
+    purchasing = board.purchasing
+    checker = _Checker(verifier)
+    kinds: list[_Kind] = []
+    for amplifier in board.amplifiers:
+        spec = alone_spec(amplifier, purchasing)
+        streamed = replace(
+            spec, preferences=replace(spec.preferences, line_cost=0.0, stock_penalty=0.0)
+        )
+        stream = OrderedDesigns(streamed, catalog, _defer, deadline=deadline)
+        kinds.append(_Kind(amplifier, spec, stream))
+
+    def result(
+        boards: Sequence[RankedBoard],
+        alone: RankedBoard | None,
+        status: BoardStatus,
+        infeasible: Sequence[int] = (),
+    ) -> BoardResult:
+        build = sum(k.stream.seconds[0] + k.stream.seconds[1] for k in kinds)
+        return BoardResult(
+            boards=tuple(boards),
+            alone=alone,
+            status=status,
+            infeasible=tuple(infeasible),
+            specs=tuple(k.spec for k in kinds),
+            read=tuple(len(k.pool) for k in kinds),
+            verified=checker.verified,
+            rejected=checker.rejected,
+            seconds=time.perf_counter() - started,
+            build_seconds=build,
+            verify_seconds=checker.seconds,
+        )
+
+    alone_entries = [_alone(k, checker, purchasing, deadline) for k in kinds]
+    missing = [i for i, e in enumerate(alone_entries) if e is None]
+    if missing:
+        proven = [i for i in missing if kinds[i].stream.proven and not _out_of_time(deadline)]
+        if proven:
+            return result((), None, BoardStatus.INFEASIBLE, proven)
+        return result((), None, BoardStatus.TIME_LIMIT)
+    alone = _ranked([e for e in alone_entries if e is not None], kinds, purchasing)
+
+    boards: list[tuple[float, list[_Entry]]] = []
+    timed_out = False
+    while True:
+        if _out_of_time(deadline):
+            timed_out = True
+            break
+        boards = _solve(kinds, purchasing, wanted)
+        pending = [
+            (entry, kind)
+            for _, entries in boards
+            for entry, kind in zip(entries, kinds, strict=True)
+            if entry.passed is None
+        ]
+        if pending:
+            for entry, kind in pending:
+                checker.check(entry, kind.spec)
+            continue
+        ub = boards[wanted - 1][0] if len(boards) >= wanted else math.inf
+        if not _read_more(kinds, purchasing, ub, deadline):
+            break
+    verified_boards = [entries for _, entries in boards if all(e.passed for e in entries)]
+    ranked = [_ranked(entries, kinds, purchasing) for entries in verified_boards]
+    done = not timed_out and all(k.stream.proven for k in kinds) and not _out_of_time(deadline)
+    if not ranked:
+        return result((), alone, BoardStatus.INFEASIBLE if done else BoardStatus.TIME_LIMIT)
+    return result(ranked, alone, BoardStatus.OPTIMAL if done else BoardStatus.TIME_LIMIT)
