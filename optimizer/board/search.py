@@ -172,10 +172,11 @@ class _Kind:
 
     def least(self) -> float | None:
         """The least variable cost of a design not yet rejected (read or still to come)."""
-        for entry in self.pool:
-            if entry.passed is not False:
-                return entry.variable
-        return self.stream.peek()
+        values = [e.variable for e in self.pool if e.passed is not False]
+        head = self.stream.peek()
+        if head is not None:
+            values.append(head)
+        return min(values) if values else None
 
 
 class _Checker:
@@ -298,6 +299,81 @@ def _read_more(kinds: Sequence[_Kind], purchasing: Purchasing, ub: float, deadli
     return read
 
 
+def _needs(
+    kinds: Sequence[_Kind],
+    alone: Sequence[_Entry | None],
+    ub: float,
+    ceilings: Sequence[float | None],
+    purchasing: Purchasing,
+) -> list[float]:
+    """For each kind, the largest variable cost a design may have and still be the kind's
+    alone optimum (``own − L``: it has at least one line) or enter a board of total ``ub`` or
+    less (``(ub − Σ_{j≠k} q_j·lb_j − L)/q_k``); inf when not bounded. ``lb_j`` is the least
+    variable cost of kind j that is known for every design: with its CP-SAT streams bounded at
+    ``ceilings[j]``, the least read or next design, but no more than that ceiling; held (None),
+    only 0."""
+    lows = []
+    for kind, ceiling in zip(kinds, ceilings, strict=True):
+        least = kind.least()
+        if ceiling is None:
+            lows.append(0.0)
+        else:
+            lows.append(min(ceiling, least if least is not None else math.inf))
+    needs = []
+    for index, (kind, entry) in enumerate(zip(kinds, alone, strict=True)):
+        if entry is None or not math.isfinite(ub):
+            needs.append(math.inf)
+            continue
+        own = _alone_need(kind, entry, purchasing)
+        rest = sum(
+            k.amplifier.quantity * low
+            for j, (k, low) in enumerate(zip(kinds, lows, strict=True))
+            if j != index
+        )
+        board = (ub - rest - purchasing.line_cost) / kind.amplifier.quantity
+        need = max(own, board)
+        needs.append(need + _slack(need))
+    return needs
+
+
+def _alone_need(kind: _Kind, entry: _Entry | None, purchasing: Purchasing) -> float:
+    """The largest variable cost of a design that could beat the kind's alone optimum
+    ``entry``: ``own − L`` (a design has at least one line); inf without one."""
+    if entry is None:
+        return math.inf
+    need = design_cost(entry.design, kind.spec.preferences).total - purchasing.line_cost
+    return need + _slack(need)
+
+
+#: Rounds of raising the CP-SAT streams' ceilings before they are left unbounded.
+MAX_CEILING_ROUNDS = 4
+
+
+def _board_loop(
+    kinds: Sequence[_Kind], checker: _Checker, purchasing: Purchasing, wanted: int, deadline: float
+) -> tuple[list[tuple[float, list[_Entry]]], bool]:
+    """The exact choice over the designs read, reading more until the bound proves it (module
+    docstring); returns the boards and whether the clock stopped it."""
+    boards: list[tuple[float, list[_Entry]]] = []
+    while True:
+        if _out_of_time(deadline):
+            return boards, True
+        boards = _solve(kinds, purchasing, wanted)
+        pending = [
+            (entry, kind)
+            for _, entries in boards
+            for entry, kind in zip(entries, kinds, strict=True)
+            if entry.passed is None
+        ]
+        if pending:
+            for entry, kind in pending:
+                checker.check(entry, kind.spec)
+            continue
+        ub = boards[wanted - 1][0] if len(boards) >= wanted else math.inf
+        if not _read_more(kinds, purchasing, ub, deadline):
+            return boards, False
+
+
 def board_search(
     board: Board,
     catalog: Catalog,
@@ -307,7 +383,12 @@ def board_search(
     time_limit_s: float | None = None,
 ) -> BoardResult:
     """The ``top`` cheapest boards (default: the board's ``alternatives``) whose every design
-    passes ``verifier``, with the alone board for comparison (module docstring)."""
+    passes ``verifier``, with the alone board for comparison (module docstring).
+
+    The CP-SAT streams (one dual with two discrete parts, the yield basis) are held back at
+    first: the search runs on the exact enumerations alone, and the bounds it proves there
+    (each kind's alone optimum, the ``top``-th board) cap the CP-SAT streams' cost before they
+    run (``OrderedDesigns.release``); then the search runs again over every stream."""
     started = time.perf_counter()
     wanted = top if top is not None else board.purchasing.alternatives
     deadline = started + (time_limit_s if time_limit_s is not None else DEFAULT_TIME_LIMIT_S)
@@ -319,7 +400,7 @@ def board_search(
         streamed = replace(
             spec, preferences=replace(spec.preferences, line_cost=0.0, stock_penalty=0.0)
         )
-        stream = OrderedDesigns(streamed, catalog, _defer, deadline=deadline)
+        stream = OrderedDesigns(streamed, catalog, _defer, deadline=deadline, hold_cp_sat=True)
         kinds.append(_Kind(amplifier, spec, stream))
 
     def result(
@@ -343,7 +424,43 @@ def board_search(
             verify_seconds=checker.seconds,
         )
 
-    alone_entries = [_alone(k, checker, purchasing, deadline) for k in kinds]
+    # CP-SAT ceilings per kind: None while held. First round: the exact enumerations
+    # alone; then the CP-SAT streams up to each kind's alone bound; then, while the board
+    # bound asks for more, up to it (MAX_CEILING_ROUNDS, then unbounded).
+    ceilings: list[float | None] = [None] * len(kinds)
+    rounds = 0
+    while True:
+        alone_entries = [_alone(k, checker, purchasing, deadline) for k in kinds]
+        boards: list[tuple[float, list[_Entry]]] = []
+        timed_out = False
+        if all(e is not None for e in alone_entries):
+            boards, timed_out = _board_loop(kinds, checker, purchasing, wanted, deadline)
+        if timed_out or _out_of_time(deadline):
+            break
+        ub = boards[wanted - 1][0] if len(boards) >= wanted else math.inf
+        # The first release guesses the other kinds' least costs from the exact enumerations
+        # alone (CP-SAT may hold cheaper ones); the rounds after it use only known bounds, so a
+        # wrong guess costs a round, never a design.
+        known = [math.inf if c is None else c for c in ceilings]
+        needs = _needs(kinds, alone_entries, ub, known, purchasing)
+        needs = [max(n, _alone_need(k, e, purchasing))
+                 for k, e, n in zip(kinds, alone_entries, needs, strict=True)]  # fmt: skip
+        if rounds >= MAX_CEILING_ROUNDS:
+            needs = [math.inf] * len(kinds)
+        raise_any = False
+        for index, (kind, need) in enumerate(zip(kinds, needs, strict=True)):
+            current = ceilings[index]
+            if not kind.stream.has_cp_sat:
+                ceilings[index] = math.inf
+                continue
+            if current is None or need > current:
+                kind.stream.release(need)
+                ceilings[index] = need
+                raise_any = True
+        rounds += 1
+        if not raise_any:
+            break
+
     missing = [i for i, e in enumerate(alone_entries) if e is None]
     if missing:
         proven = [i for i in missing if kinds[i].stream.proven and not _out_of_time(deadline)]
@@ -351,27 +468,6 @@ def board_search(
             return result((), None, BoardStatus.INFEASIBLE, proven)
         return result((), None, BoardStatus.TIME_LIMIT)
     alone = _ranked([e for e in alone_entries if e is not None], kinds, purchasing)
-
-    boards: list[tuple[float, list[_Entry]]] = []
-    timed_out = False
-    while True:
-        if _out_of_time(deadline):
-            timed_out = True
-            break
-        boards = _solve(kinds, purchasing, wanted)
-        pending = [
-            (entry, kind)
-            for _, entries in boards
-            for entry, kind in zip(entries, kinds, strict=True)
-            if entry.passed is None
-        ]
-        if pending:
-            for entry, kind in pending:
-                checker.check(entry, kind.spec)
-            continue
-        ub = boards[wanted - 1][0] if len(boards) >= wanted else math.inf
-        if not _read_more(kinds, purchasing, ub, deadline):
-            break
     verified_boards = [entries for _, entries in boards if all(e.passed for e in entries)]
     ranked = [_ranked(entries, kinds, purchasing) for entries in verified_boards]
     done = not timed_out and all(k.stream.proven for k in kinds) and not _out_of_time(deadline)
