@@ -42,7 +42,15 @@ from ..design import Design
 from ..solve.search import OrderedDesigns, Verdict, Verifier
 from ..spec import Objective, Spec, StockPolicy
 from .combine import Option, best_boards
-from .model import Board, BoardAmplifier, BoardCost, Purchasing, board_cost, design_lines
+from .model import (
+    Board,
+    BoardAmplifier,
+    BoardCost,
+    Purchasing,
+    board_cost,
+    channel_cost,
+    design_lines,
+)
 
 __all__ = [
     "BoardResult",
@@ -142,7 +150,8 @@ def alone_spec(amplifier: BoardAmplifier, purchasing: Purchasing) -> Spec:
 @dataclass
 class _Entry:
     design: Design
-    variable: float
+    key: float  # v + (L/q)·ids: the order of the kind's stream
+    variable: float  # v: parts + placements of one channel
     ids: frozenset[str]
     unstocked: frozenset[str]
     order: int
@@ -154,16 +163,31 @@ class _Entry:
 class _Kind:
     amplifier: BoardAmplifier
     spec: Spec
-    stream: OrderedDesigns
+    stream: OrderedDesigns  # by v + (L/q)·ids
+    floor_stream: OrderedDesigns  # by v alone: only its first design is needed
     pool: list[_Entry] = field(default_factory=list)
+    _floor: float | None = None
+    _floor_known: bool = False
+
+    @property
+    def quantity(self) -> int:
+        return self.amplifier.quantity
 
     def pull(self) -> bool:
         candidate = self.stream.next()
         if candidate is None:
             return False
         ids, unstocked = design_lines(candidate.design)
+        parts, placements = channel_cost(candidate.design, self.spec.preferences.placement_cost)
         self.pool.append(
-            _Entry(candidate.design, candidate.cost.total, ids, unstocked, len(self.pool))
+            _Entry(
+                candidate.design,
+                candidate.cost.total,
+                parts + placements,
+                ids,
+                unstocked,
+                len(self.pool),
+            )
         )
         return True
 
@@ -171,12 +195,16 @@ class _Kind:
         return [e for e in self.pool if e.passed is not False]
 
     def least(self) -> float | None:
-        """The least variable cost of a design not yet rejected (read or still to come)."""
-        values = [e.variable for e in self.pool if e.passed is not False]
-        head = self.stream.peek()
-        if head is not None:
-            values.append(head)
-        return min(values) if values else None
+        """The least variable cost ``v`` of any design of the kind (None: it has none): the
+        first design of the stream by ``v``, its CP-SAT streams bounded by the first design of
+        its exact enumerations (which the least design cannot cost more than)."""
+        if not self._floor_known:
+            first = self.floor_stream.peek()
+            if self.floor_stream.has_cp_sat:
+                self.floor_stream.release(math.inf if first is None else first)
+            self._floor = self.floor_stream.peek()
+            self._floor_known = True
+        return self._floor
 
 
 class _Checker:
@@ -205,31 +233,50 @@ def _slack(value: float) -> float:
     return BOUND_SLACK * max(1.0, abs(value))
 
 
+def _spare(kind: _Kind, purchasing: Purchasing) -> float:
+    """What the alone cost of a design adds to its stream key at least: the key charges
+    ``L/q`` per line, the alone cost ``L``, and a design has one line or more."""
+    return purchasing.line_cost * (1.0 - 1.0 / kind.quantity)
+
+
 def _alone(
     kind: _Kind, checker: _Checker, purchasing: Purchasing, deadline: float
 ) -> _Entry | None:
-    """The kind's own cheapest verified design (module docstring), or None."""
+    """The kind's own cheapest verified design (module docstring), or None: the designs read
+    are checked in order of their alone cost until one passes; the stream is read on while a
+    design still to come could cost less alone (its key plus :func:`_spare` is below)."""
     prefs = kind.spec.preferences
+    spare = _spare(kind, purchasing)
+    own: dict[int, float] = {}
 
-    def own(entry: _Entry) -> float:
-        return design_cost(entry.design, prefs).total
+    def cost(entry: _Entry) -> float:
+        if entry.order not in own:
+            own[entry.order] = design_cost(entry.design, prefs).total
+        return own[entry.order]
 
     if not kind.pool:
         kind.pull()
     while True:
         best = None
-        for entry in sorted(kind.live(), key=lambda e: (own(e), e.order)):
+        for entry in sorted(kind.live(), key=lambda e: (cost(e), e.order)):
             if checker.check(entry, kind.spec):
                 best = entry
                 break
             if _out_of_time(deadline):
                 return None
-        head = kind.stream.peek()
-        if head is None:
-            return best
-        if best is not None and head + purchasing.line_cost >= own(best) - _slack(own(best)):
-            return best
-        if _out_of_time(deadline) or not kind.pull():
+        if best is None:
+            if _out_of_time(deadline) or not kind.pull():
+                return None
+            continue
+        limit = cost(best) - _slack(cost(best))
+        read = False
+        while not _out_of_time(deadline):
+            head = kind.stream.peek()
+            if head is None or head + spare >= limit:
+                break
+            kind.pull()
+            read = True
+        if not read:
             return best
 
 
@@ -280,10 +327,10 @@ def _read_more(kinds: Sequence[_Kind], purchasing: Purchasing, ub: float, deadli
         least = kind.least()
         if least is None:
             return False
-        floor.append(kind.amplifier.quantity * least)
+        floor.append(kind.quantity * least)
     read = False
     for index, kind in enumerate(kinds):
-        rest = sum(floor) - floor[index] + purchasing.line_cost
+        rest = sum(floor) - floor[index]
         if math.isinf(ub):
             for _ in range(max(4, len(kind.pool))):
                 if _out_of_time(deadline) or not kind.pull():
@@ -292,7 +339,7 @@ def _read_more(kinds: Sequence[_Kind], purchasing: Purchasing, ub: float, deadli
             continue
         while not _out_of_time(deadline):
             head = kind.stream.peek()
-            if head is None or kind.amplifier.quantity * head + rest > ub + _slack(ub):
+            if head is None or kind.quantity * head + rest > ub + _slack(ub):
                 break
             kind.pull()
             read = True
@@ -300,38 +347,25 @@ def _read_more(kinds: Sequence[_Kind], purchasing: Purchasing, ub: float, deadli
 
 
 def _needs(
-    kinds: Sequence[_Kind],
-    alone: Sequence[_Entry | None],
-    ub: float,
-    ceilings: Sequence[float | None],
-    purchasing: Purchasing,
+    kinds: Sequence[_Kind], alone: Sequence[_Entry | None], ub: float, purchasing: Purchasing
 ) -> list[float]:
-    """For each kind, the largest variable cost a design may have and still be the kind's
-    alone optimum (``own − L``: it has at least one line) or enter a board of total ``ub`` or
-    less (``(ub − Σ_{j≠k} q_j·lb_j − L)/q_k``); inf when not bounded. ``lb_j`` is the least
-    variable cost of kind j that is known for every design: with its CP-SAT streams bounded at
-    ``ceilings[j]``, the least read or next design, but no more than that ceiling; held (None),
-    only 0."""
-    lows = []
-    for kind, ceiling in zip(kinds, ceilings, strict=True):
-        least = kind.least()
-        if ceiling is None:
-            lows.append(0.0)
-        else:
-            lows.append(min(ceiling, least if least is not None else math.inf))
+    """For each kind, the largest stream key a design may have and still be the kind's alone
+    optimum (:func:`_alone_need`) or enter a board of total ``ub`` or less
+    (``(ub − Σ_{j≠k} q_j·lb_j)/q_k``, ``lb_j`` the least ``v`` of kind j); inf when not
+    bounded."""
+    lows = [k.least() or 0.0 for k in kinds]
     needs = []
     for index, (kind, entry) in enumerate(zip(kinds, alone, strict=True)):
         if entry is None or not math.isfinite(ub):
             needs.append(math.inf)
             continue
-        own = _alone_need(kind, entry, purchasing)
         rest = sum(
-            k.amplifier.quantity * low
+            k.quantity * low
             for j, (k, low) in enumerate(zip(kinds, lows, strict=True))
             if j != index
         )
-        board = (ub - rest - purchasing.line_cost) / kind.amplifier.quantity
-        need = max(own, board)
+        board = (ub - rest) / kind.quantity
+        need = max(_alone_need(kind, entry, purchasing), board)
         needs.append(need + _slack(need))
     return needs
 
@@ -341,7 +375,7 @@ def _alone_need(kind: _Kind, entry: _Entry | None, purchasing: Purchasing) -> fl
     ``entry``: ``own − L`` (a design has at least one line); inf without one."""
     if entry is None:
         return math.inf
-    need = design_cost(entry.design, kind.spec.preferences).total - purchasing.line_cost
+    need = design_cost(entry.design, kind.spec.preferences).total - _spare(kind, purchasing)
     return need + _slack(need)
 
 
@@ -397,11 +431,16 @@ def board_search(
     kinds: list[_Kind] = []
     for amplifier in board.amplifiers:
         spec = alone_spec(amplifier, purchasing)
-        streamed = replace(
+        per_line = purchasing.line_cost / amplifier.quantity
+        keyed = replace(
+            spec, preferences=replace(spec.preferences, line_cost=per_line, stock_penalty=0.0)
+        )
+        bare = replace(
             spec, preferences=replace(spec.preferences, line_cost=0.0, stock_penalty=0.0)
         )
-        stream = OrderedDesigns(streamed, catalog, _defer, deadline=deadline, hold_cp_sat=True)
-        kinds.append(_Kind(amplifier, spec, stream))
+        stream = OrderedDesigns(keyed, catalog, _defer, deadline=deadline, hold_cp_sat=True)
+        floor = OrderedDesigns(bare, catalog, _defer, deadline=deadline, hold_cp_sat=True)
+        kinds.append(_Kind(amplifier, spec, stream, floor))
 
     def result(
         boards: Sequence[RankedBoard],
@@ -409,7 +448,9 @@ def board_search(
         status: BoardStatus,
         infeasible: Sequence[int] = (),
     ) -> BoardResult:
-        build = sum(k.stream.seconds[0] + k.stream.seconds[1] for k in kinds)
+        build = sum(
+            sum(o.seconds[0] + o.seconds[1] for o in (k.stream, k.floor_stream)) for k in kinds
+        )
         return BoardResult(
             boards=tuple(boards),
             alone=alone,
@@ -441,8 +482,7 @@ def board_search(
         # The first release guesses the other kinds' least costs from the exact enumerations
         # alone (CP-SAT may hold cheaper ones); the rounds after it use only known bounds, so a
         # wrong guess costs a round, never a design.
-        known = [math.inf if c is None else c for c in ceilings]
-        needs = _needs(kinds, alone_entries, ub, known, purchasing)
+        needs = _needs(kinds, alone_entries, ub, purchasing)
         needs = [max(n, _alone_need(k, e, purchasing))
                  for k, e, n in zip(kinds, alone_entries, needs, strict=True)]  # fmt: skip
         if rounds >= MAX_CEILING_ROUNDS:
