@@ -71,14 +71,13 @@ def random_catalog(rng: random.Random) -> Catalog:
     for j in range(rng.choice([0, 1, 2])):
         a, b = rng.sample(LEVELS, 2)
         values = (a, b, a, b) if rng.random() < 0.5 else (a, b)
-        networks.append(
-            NetworkPart(
-                f"N{j}", values, abs_tolerance=0.005, ratio_tolerance=rng.choice([0.0005, 0.001]),
-                abs_tempco_per_k=25e-6, tracking_tempco_per_k=5e-6, power_per_element_w=0.1,
-                max_voltage_v=50.0, unit_cost=round(rng.uniform(0.1, 0.6), 2),
-                stock_qty=rng.choice([0, 10]),
-            )  # fmt: skip
-        )
+        network = NetworkPart(
+            f"N{j}", values, abs_tolerance=0.005, ratio_tolerance=rng.choice([0.0005, 0.001]),
+            abs_tempco_per_k=25e-6, tracking_tempco_per_k=5e-6, power_per_element_w=0.1,
+            max_voltage_v=50.0, unit_cost=round(rng.uniform(0.1, 0.6), 2),
+            stock_qty=rng.choice([0, 10]),
+        )  # fmt: skip
+        networks.append(network)
     return catalog_from_parts(parts, networks, source="board-test")
 
 
