@@ -16,6 +16,8 @@ import json
 from pathlib import Path
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from rich.console import Console
 
 from optimizer.board.boardfile import parse_board_text
@@ -169,3 +171,28 @@ def test_an_amplifier_that_cannot_be_met_exits_1_with_its_diagnosis(tmp_path: Pa
     assert code == EXIT_NOT_MET
     assert "nothing in the catalogs meets too precise" in out
     assert "Diagnosis of too precise" in out
+
+
+@settings(max_examples=150, deadline=None, derandomize=True, database=None)
+@given(data=st.data())
+def test_board_reader_on_mutated_example(data: st.DataObject) -> None:
+    """Random edits of the example board file (lines dropped, values swapped for odd ones):
+    the reader returns a board or a located SpecError, never another exception."""
+    lines = BOARD.read_text(encoding="utf-8").splitlines()
+    odd = ["", "x", "-1", "0", "1e400", "[]", "{}", "null", "'", "~", "1000000", "@"]
+    for _ in range(data.draw(st.integers(1, 4))):
+        index = data.draw(st.integers(0, len(lines) - 1))
+        line = lines[index]
+        if data.draw(st.booleans()) or ":" not in line:
+            del lines[index]
+        else:
+            key = line.split(":", 1)[0]
+            lines[index] = f"{key}: {data.draw(st.sampled_from(odd))}"
+        if not lines:
+            break
+    text = "\n".join(lines)
+    path = str(BOARD)  # the real path: relative spec and catalog paths resolve
+    try:
+        parse_board_text(text, path)
+    except SpecError as exc:
+        assert str(exc).startswith(path)
