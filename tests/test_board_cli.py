@@ -159,7 +159,9 @@ def test_existing_output_is_kept_without_force(tmp_path: Path) -> None:
 def test_an_amplifier_that_cannot_be_met_exits_1_with_its_diagnosis(tmp_path: Path) -> None:
     """A 0.0001 % gain accuracy: no part of the house stock comes near (its best is ±0.05 %)."""
     spec = (EXAMPLES / "drive_phase_current.yaml").read_text()
-    (tmp_path / "hard.yaml").write_text(spec.replace("gain_accuracy: 2 %", "gain_accuracy: 0.0001 %"))
+    (tmp_path / "hard.yaml").write_text(
+        spec.replace("gain_accuracy: 2 %", "gain_accuracy: 0.0001 %")
+    )
     (tmp_path / "house_stock.csv").write_text(HOUSE_CSV.read_text())
     board = tmp_path / "board.yaml"
     board.write_text(

@@ -65,7 +65,9 @@ def random_catalog(rng: random.Random) -> Catalog:
         tol, tc = rng.choice(TOLERANCES), rng.choice(TEMPCOS)
         cost = round(0.01 + 0.002 / math.sqrt(tol * 100) + 0.2e-6 / tc + rng.uniform(0, 0.03), 2)
         parts.append(
-            DiscretePart(f"D{i}", level, tol, tc, "0603", 0.1, 75.0, cost, rng.choice([0, 100, 100]))
+            DiscretePart(
+                f"D{i}", level, tol, tc, "0603", 0.1, 75.0, cost, rng.choice([0, 100, 100])
+            )
         )
     networks = []
     for j in range(rng.choice([0, 1, 2])):

@@ -49,7 +49,8 @@ EXAMPLES = ROOT / "examples"
 SPEC_FILES = sorted(
     p
     for p in EXAMPLES.glob("*.yaml")
-    if p.name != "house_stock_networks.yaml" and "quartet_board:" not in p.read_text(encoding="utf-8")
+    if p.name != "house_stock_networks.yaml"
+    and "quartet_board:" not in p.read_text(encoding="utf-8")
 )
 SPEC_TEXTS = {p: p.read_text(encoding="utf-8") for p in SPEC_FILES}
 CSV_TEXT = (EXAMPLES / "house_stock.csv").read_text(encoding="utf-8")
