@@ -175,7 +175,7 @@ def test_an_amplifier_that_cannot_be_met_exits_1_with_its_diagnosis(tmp_path: Pa
     assert "Diagnosis of too precise" in out
 
 
-@settings(max_examples=150, deadline=None, derandomize=True, database=None)
+@settings(max_examples=80, deadline=None, derandomize=True, database=None)
 @given(data=st.data())
 def test_board_reader_on_mutated_example(data: st.DataObject) -> None:
     """Random edits of the example board file (lines dropped, values swapped for odd ones):
