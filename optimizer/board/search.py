@@ -1,27 +1,35 @@
 """The board pick: one design per amplifier kind, chosen together so that the board's total
 cost (``optimizer.board.model``) is least, every chosen design verified by the exact check.
 
-Method (exact; names as in ``optimizer.board.combine``):
+Method (exact; ``v`` is one channel's parts + placements, ``L`` the line cost, ``q`` a kind's
+quantity, ``lines`` a design's distinct part ids):
 
-* For each kind k, :class:`optimizer.solve.search.OrderedDesigns` streams the kind's designs
-  in nondecreasing *variable* cost ``v`` (parts + placements of one channel: the spec with
-  line cost and stock penalty 0), through the pick's own screens, which only drop designs the
-  exact check must fail. The exact check itself is deferred: a design is verified only when
-  a board needs it (lazily), and a design that fails is dropped.
-* **Alone.** Each kind's own cheapest design (``v + L·ids + S·unstocked ids``, the cost
-  ``quartet pick`` ranks by) is found from the same stream: the stream is read until its
-  next design's ``v + L`` (every design has at least one line) reaches the best verified cost.
-* **Board.** ``lb_k``, the least ``v`` of kind k not yet rejected, bounds every design of the
-  kind from below. Any board whose kind-k design has ``v`` satisfies
-  ``total ≥ q_k·v + Σ_{j≠k} q_j·lb_j + L`` (parts only add, a board has at least one line).
-  Let ``UB`` be the total of the ``top``-th best board over the designs read so far, each of
-  its designs verified. Every stream is read while ``q_k·v + Σ_{j≠k} q_j·lb_j + L ≤ UB``;
-  a design beyond that cannot enter the ``top`` boards. Over the designs read, the choice of
-  one per kind is solved exactly (``combine.best_boards``); a chosen design not yet verified
-  is verified, and if it fails it is removed and the choice solved again. When no stream has
-  a design inside its bound and every board shown is verified, the ranking is proven:
-  every design left unread costs more than ``UB``, and every read design took part in the
-  exact choice. A cap on distinct lines only removes boards, so the argument holds with it.
+* **Streams.** For each kind, :class:`optimizer.solve.search.OrderedDesigns` streams its
+  designs in nondecreasing *key* ``v + (L/q)·lines`` (the spec with line cost ``L/q`` and no
+  stock penalty), through the pick's own screens, which only drop designs the exact check
+  must fail; a second stream (line cost 0) gives ``lb``, the least ``v`` of the kind (its
+  CP-SAT streams bounded by the first design of its exact enumerations, which the least
+  design cannot exceed). The exact check is deferred: a design is verified only when the
+  alone search or a board needs it, and a design that fails is dropped.
+* **Alone.** Each kind's own cheapest design (``v + L·lines + S·unstocked lines``, the cost
+  ``quartet pick`` ranks by) comes from the same stream: that cost is at least
+  ``key + L·(1 − 1/q)`` (one line or more), so the stream is read until that reaches the best
+  verified cost.
+* **Board.** A board holding design ``d`` of kind k costs at least
+  ``q_k·key(d) + Σ_{j≠k} q_j·lb_j``: its parts, its own lines (each paid once on the board)
+  and the least parts of every other kind. Let ``UB`` be the total of the ``top``-th best board
+  over the designs read so far, each of its designs verified. Every stream is read while that
+  bound of its next design is ``≤ UB``; a design beyond cannot enter the ``top`` boards. Over
+  the designs read, the choice of one per kind is solved exactly (``combine.best_boards``); a
+  chosen design not yet verified is verified, and if it fails it is removed and the choice
+  solved again. When no stream has a design inside its bound and every board shown is
+  verified, the ranking is proven: every design left unread costs more than ``UB``, and every
+  read design took part in the exact choice. A cap on distinct lines only removes boards, so
+  the argument holds with it.
+* **CP-SAT streams** (one dual with two discrete parts, the yield basis) are held back at
+  first; each round bounds them from above by the largest key any design may have and still
+  matter (the alone bound and the board bound above, from the bounds known so far), and
+  raises the bound until no kind needs more (after :data:`MAX_CEILING_ROUNDS`, unbounded).
 
 The status is ``time_limit`` when the clock (or a signal) stopped a stream or the loop first;
 the boards shown are then verified but not proven best. Pure: no printing, no files.
