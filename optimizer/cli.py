@@ -311,6 +311,20 @@ def _seconds(text: str) -> float:
     return value
 
 
+def _penalty(text: str) -> float:
+    import math
+
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(
+            f"expected a relative cost (a number of zero or more), got {text!r}"
+        ) from None
+    if not math.isfinite(value) or value < 0.0:
+        raise argparse.ArgumentTypeError(f"expected a relative cost of zero or more, got {text!r}")
+    return value
+
+
 def _add_pick_command(commands: argparse._SubParsersAction[_Parser]) -> None:
     from .spec import Objective
 
@@ -332,6 +346,11 @@ def _add_pick_command(commands: argparse._SubParsersAction[_Parser]) -> None:
         help="how many designs to rank (default: the spec's alternatives)",
     )  # fmt: skip
     pick.add_argument("--stock-only", action="store_true", help="use only parts in house stock")
+    pick.add_argument(
+        "--prefer-stock", type=_penalty, metavar="PENALTY",
+        help="prefer parts in house stock: add PENALTY (relative cost) per BOM line that is "
+        "not stocked (the spec's stock: prefer with this penalty)",
+    )  # fmt: skip
     pick.add_argument(
         "--objective", choices=[o.value for o in Objective],
         help="what to rank by (default: the spec's objective)",
@@ -368,6 +387,13 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
         spec = dataclasses.replace(
             spec, preferences=dataclasses.replace(spec.preferences, stock=StockPolicy.ONLY)
         )
+    elif args.prefer_stock is not None:
+        spec = dataclasses.replace(
+            spec,
+            preferences=dataclasses.replace(
+                spec.preferences, stock=StockPolicy.PREFER, stock_penalty=args.prefer_stock
+            ),
+        )
     if args.objective is not None:
         spec = with_objective(spec, Objective(args.objective))
     _stage("catalog")
@@ -376,7 +402,7 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
     _stage("search")
     # A signal during the search stops it; the search then returns what it found so far.
     with interrupt.winding_down():
-        result = pick(spec, catalog, verify, top=top, time_limit_s=args.time_limit)
+        result = pick(spec, catalog, verify, top=top, time_limit_s=args.time_limit, distinct=True)
     stopped = interrupt.cancelled()
     diagnosis = None
     if result.status is SearchStatus.INFEASIBLE and not stopped:
@@ -395,12 +421,13 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
         cautions=safety_cautions(spec),
         diagnosis=diagnosis,
         interrupted=stopped,
+        stock_known=catalog.stock_count > 0,
     )
     json_text = pick_json_text(pick_to_json(report, _all_warnings(args)))
     if args.json:
         console.print(json_text, markup=False, highlight=False, emoji=False, soft_wrap=True)
     else:
-        console.print(render_pick(report))
+        console.print(render_pick(report, width=console.width))
     winner = report.winner
     signum = interrupt.signal_number()
     if stopped and args.write_partial:

@@ -173,7 +173,7 @@ def _placement_cells(placement: Placement) -> tuple[str, str, str, str, str]:
             f"{_pct(part.drift_1000h)}, ratio {_pct(part.ratio_drift_1000h)}",
             f"{format_quantity(part.power_per_element_w, 'W', DIGITS)} / "
             f"{format_quantity(part.max_voltage_v, 'V', DIGITS)} per element",
-            f"{part.part_id} element {placement.element + 1} (package {placement.package + 1})",
+            f"{part.part_id}\nelement {placement.element + 1} (package {placement.package + 1})",
         )
     return (
         f"±{_pct(part.tolerance)}",
@@ -190,7 +190,9 @@ def _design_table(design: Design, origins: Sequence[str] | None) -> Table:
     for name in ("position", "value", "tolerance", "tempco", "drift per 1000 h"):
         table.add_column(name, no_wrap=name in ("position", "value"))
     table.add_column("power / voltage rating")
-    table.add_column("part")
+    # The part id is what gets bought: its column is never narrower than the longest id.
+    longest = max(len(p.part.part_id) for p in design.placements)
+    table.add_column("part", min_width=longest, overflow="fold")
     if origins is not None:
         table.add_column("given as")
     for index, placement in enumerate(design.placements):

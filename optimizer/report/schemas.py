@@ -180,6 +180,9 @@ _PICK_DESIGN: Final = _obj(
         ),
         "output_noise_v_rms": _NUM_N,
         "tightest": _obj({"name": _STR, **_MARGIN}),
+        "family_key": _STR,
+        "family_size": _INT,
+        "in_stock": _BOOL,
     }
 )
 
@@ -211,6 +214,7 @@ PICK_SCHEMA: Final[dict[str, Any]] = {
                 }
             ),
             "ranked": _arr(_PICK_DESIGN),
+            "family_members": _arr(_PICK_DESIGN),
             "other_kind": _arr(_PICK_DESIGN),
             "diagnosis": _obj(
                 {
