@@ -412,6 +412,13 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
         with interrupt.winding_down():
             diagnosis = diagnose(spec, catalog, verify, time_limit_s=limit)
         interrupt.check()
+    trade = None
+    if not stopped and result.ranked:
+        from .solve.trade import TRADE_TIME_LIMIT_S, kind_trade
+
+        with interrupt.winding_down():
+            limit = min(TRADE_TIME_LIMIT_S, args.time_limit)
+            trade = kind_trade(spec, catalog, verify, result, time_limit_s=limit)
     _stage("statistics")
     report = build_pick_report(
         spec,
@@ -422,6 +429,7 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
         diagnosis=diagnosis,
         interrupted=stopped,
         stock_known=catalog.stock_count > 0,
+        trade=trade,
     )
     json_text = pick_json_text(pick_to_json(report, _all_warnings(args)))
     if args.json:

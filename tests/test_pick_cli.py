@@ -391,6 +391,7 @@ TOP_KEYS = [
     "ranked",
     "family_members",
     "other_kind",
+    "kind_trade",
     "diagnosis",
     "safety_cautions",
     "warnings",

@@ -26,6 +26,7 @@ from optimizer.report.pick import (
     buy_lines,
     pick_to_json,
     render_pick,
+    trade_text,
 )
 from optimizer.solve.ranking import (
     base_values,
@@ -37,6 +38,7 @@ from optimizer.solve.ranking import (
     unbalanced_pairs,
 )
 from optimizer.solve.search import pick
+from optimizer.solve.trade import KindBest, Trade, cost_per_db, kind_trade
 from optimizer.spec import Preferences
 from optimizer.specfile import load_spec
 from optimizer.verify import verify
@@ -268,3 +270,52 @@ def test_buy_block_lists_each_part_once() -> None:
     assert block.count(part_id) == 1
     assert "R1=#1 R2=#2 R3=#3 R4=#4" in block
     assert f"Total relative cost {winner.cost.total:.3f}" in block
+
+
+# ---------------------------------------------------------------------------------------------
+# the discrete-versus-network trade line
+# ---------------------------------------------------------------------------------------------
+
+
+def test_cost_per_db_by_hand() -> None:
+    """(40 − 20) / (90 − 80) = 2 per dB (arithmetic by hand)."""
+    assert cost_per_db(20.0, 80.0, 40.0, 90.0) == pytest.approx(2.0)
+
+
+def test_trade_line_says_the_numbers() -> None:
+    spec = load_spec(EXAMPLE)
+    both = Trade(
+        KindBest("four discrete", True, 20.0, 81.0), KindBest("network", True, 34.57, 88.5), 80.0
+    )
+    text = trade_text(both, spec)
+    assert "four discrete: cheapest at cost 20.000 with 81.00 dB worst case" in text
+    assert "network: cheapest at cost 34.570 with 88.50 dB worst case" in text
+    # 7.50 dB more for 14.570 more: 14.57 / 7.5 = 1.943 per dB (by hand).
+    assert "extra 7.50 dB cost 14.570 more (1.943 per dB)" in text
+    none = Trade(
+        KindBest("four discrete", False, 380.23, 74.7),
+        KindBest("network", True, 34.57, 82.24),
+        80.0,
+    )
+    assert (
+        "no four-discrete design reaches 80 dB; the best reaches 74.70 dB worst case at cost 380.230"
+        in trade_text(none, spec)
+    )
+
+
+def test_trade_on_the_example_searches_the_missing_kind() -> None:
+    """Motor shunt: no discrete design meets the 80 dB floor (the ranking holds networks only),
+    so the bounded search reports the best discrete CMRR, below the floor; the network figures
+    are the winner's."""
+    spec = load_spec(EXAMPLE)
+    catalog = load_catalogs(list(spec.preferences.catalogs))
+    result = _report().result
+    trade = kind_trade(spec, catalog, verify, result, time_limit_s=3.0)
+    assert trade is not None
+    winner = _report().ranked[0]
+    assert trade.network.meets and trade.network.cost == winner.cost.total
+    assert trade.network.cmrr_db == winner.verification.worst_case.cmrr_db
+    assert not trade.discrete.meets
+    if trade.discrete.cmrr_db is not None:
+        assert trade.discrete.cmrr_db < 80.0
+        assert trade.discrete.cost is not None and trade.discrete.cost > 0.0

@@ -20,6 +20,10 @@ unit in the key name; fractions are plain fractions, 0.001 = 0.1 %)::
     family_members      [design]  every other design of each ranked family (same cost,
                          another base value or another part with the same elements); rank is
                          the choice's rank, statistics null (no Monte Carlo run)
+    kind_trade          null unless the spec allows both kinds: {text, four_discrete, network},
+                         each {meets_spec, cost, cmrr_db (worst case, or at the yield target),
+                         search_timed_out}; a kind that meets nothing gives its best CMRR
+                         below the floor from a search bounded to 3 s (null if none found)
     other_kind          [design]  the best design of a kind (four discrete parts, or a
                          network) the ranking lacks although the spec allows it
     diagnosis           null unless infeasible: {binding: [requirement names],
@@ -66,6 +70,7 @@ from ..design import Design, Topology
 from ..parts import DiscretePart, NetworkPart
 from ..solve.ranking import base_values, family_id, family_key
 from ..solve.search import MAX_CUTS, MAX_EXTRA_DESIGNS, Candidate, PickResult, SearchStatus
+from ..solve.trade import KindBest, Trade, cost_per_db
 from ..spec import CmrrBasis, Spec
 from ..units import format_fraction, format_quantity, format_resistance
 from ..verify import Verification
@@ -186,6 +191,8 @@ class PickReport:
     members: tuple[tuple[Shown, ...], ...] = ()
     #: Some catalog part has house stock: the tables show each part's stock.
     stock_known: bool = False
+    #: Both kinds (four discrete parts, a network) allowed: each kind's best (None otherwise).
+    trade: Trade | None = None
 
     @property
     def winner(self) -> Shown | None:
@@ -221,6 +228,7 @@ def build_pick_report(
     diagnosis: Diagnosis | None = None,
     interrupted: bool = False,
     stock_known: bool = False,
+    trade: Trade | None = None,
 ) -> PickReport:
     """The report of one pick: runs the Monte Carlo (``spec.preferences`` samples and seed)
     for every displayed design that has none yet."""
@@ -260,6 +268,7 @@ def build_pick_report(
         other_kind=others,
         members=members,
         stock_known=stock_known,
+        trade=trade,
         diagnosis=diagnosis,
         designs_asked=designs_asked,
         time_limit_s=time_limit_s,
@@ -511,6 +520,47 @@ def render_status(report: PickReport) -> Text:
     return text
 
 
+def _kind_words(best: KindBest, floor_db: float, basis: str) -> str:
+    if best.meets and best.cost is not None and best.cmrr_db is not None:
+        return f"{best.kind}: cheapest at cost {best.cost:.3f} with {best.cmrr_db:.2f} dB {basis}"
+    dash = best.kind.replace(" ", "-")
+    if best.cost is None or best.cmrr_db is None:
+        within = " within the search's time bound" if best.timed_out else ""
+        return f"no {dash} design reaches {floor_db:g} dB, and none was found{within}"
+    found = " (best found within the search's time bound)" if best.timed_out else ""
+    return (
+        f"no {dash} design reaches {floor_db:g} dB; the best reaches {best.cmrr_db:.2f} dB "
+        f"{basis} at cost {best.cost:.3f}{found}"
+    )
+
+
+def trade_text(trade: Trade, spec: Spec) -> str:
+    """One line: each kind's best (or why it has none) and what the extra decibels cost."""
+    basis = (
+        f"at {format_fraction(spec.requirements.yield_target)} yield"
+        if spec.requirements.cmrr_basis is CmrrBasis.YIELD
+        else "worst case"
+    )
+    d, n = trade.discrete, trade.network
+    words = [_kind_words(d, trade.floor_db, basis), _kind_words(n, trade.floor_db, basis)]
+    if d.meets and n.meets:
+        assert d.cost is not None and n.cost is not None
+        assert d.cmrr_db is not None and n.cmrr_db is not None
+        cheap, dear = (d, n) if d.cost <= n.cost else (n, d)
+        assert cheap.cmrr_db is not None and dear.cmrr_db is not None
+        assert cheap.cost is not None and dear.cost is not None
+        extra = dear.cmrr_db - cheap.cmrr_db
+        if extra <= 0.0:
+            words.append(f"the {cheap.kind} design is cheaper and has {-extra:.2f} dB more")
+        else:
+            rate = cost_per_db(cheap.cost, cheap.cmrr_db, dear.cost, dear.cmrr_db)
+            words.append(
+                f"the {dear.kind} design's extra {extra:.2f} dB cost {dear.cost - cheap.cost:.3f}"
+                f" more ({rate:.3f} per dB)"
+            )
+    return "Discrete or network: " + "; ".join(words) + "."
+
+
 def render_buy(report: PickReport) -> Table | None:
     """The "buy this" block for the winner: each part id once with its quantity, where each
     element goes, whether house stock has it, its unit cost; the total cost in the caption."""
@@ -585,6 +635,8 @@ def render_pick(report: PickReport, width: int = 160) -> RenderableType:
                 stock=report.stock_known,
             )
         )
+    if report.trade is not None:
+        parts.append(Text(trade_text(report.trade, spec)))
     buy = render_buy(report)
     if buy is not None:
         parts.append(buy)
@@ -691,6 +743,23 @@ def pick_to_json(report: PickReport, warnings: Sequence[str] = ()) -> dict[str, 
             _design_json(m, 1 + len(group)) for group in report.members for m in group
         ],
         "other_kind": [_design_json(s) for s in report.other_kind],
+        "kind_trade": None
+        if report.trade is None
+        else {
+            "text": trade_text(report.trade, spec),
+            **{
+                key: {
+                    "meets_spec": b.meets,
+                    "cost": b.cost,
+                    "cmrr_db": b.cmrr_db,
+                    "search_timed_out": b.timed_out,
+                }
+                for key, b in (
+                    ("four_discrete", report.trade.discrete),
+                    ("network", report.trade.network),
+                )
+            },
+        },
         "diagnosis": None
         if diagnosis is None
         else {

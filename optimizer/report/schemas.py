@@ -216,6 +216,23 @@ PICK_SCHEMA: Final[dict[str, Any]] = {
             "ranked": _arr(_PICK_DESIGN),
             "family_members": _arr(_PICK_DESIGN),
             "other_kind": _arr(_PICK_DESIGN),
+            "kind_trade": _obj(
+                {
+                    "text": _STR,
+                    **{
+                        k: _obj(
+                            {
+                                "meets_spec": _BOOL,
+                                "cost": _NUM_N,
+                                "cmrr_db": _NUM_N,
+                                "search_timed_out": _BOOL,
+                            }
+                        )
+                        for k in ("four_discrete", "network")
+                    },
+                },
+                nullable=True,
+            ),
             "diagnosis": _obj(
                 {
                     "binding": _arr(_STR),
