@@ -99,7 +99,7 @@ def _catalog_notes(args: argparse.Namespace, console: Console, catalog: Catalog)
     """The notes on how catalog files were read (encoding, separator, ignored columns), once
     each."""
     for note in dict.fromkeys(catalog.notes):
-        _notes(args, console).print(f"note: {escape(note)}", highlight=False)
+        _notes(args, console).print(f"note: {escape(note)}", highlight=False, emoji=False)
 
 
 def _once(args: argparse.Namespace, console: Console, paths: Sequence[str]) -> list[str]:
@@ -115,7 +115,7 @@ def _once(args: argparse.Namespace, console: Console, paths: Sequence[str]) -> l
         first = kept[real]
         shown = path if first == path else f"{path} (the same file as {first})"
         _notes(args, console).print(
-            f"note: {escape(shown)}: named more than once; read once", highlight=False
+            f"note: {escape(shown)}: named more than once; read once", highlight=False, emoji=False
         )
     return list(kept.values())
 
@@ -142,7 +142,7 @@ def _catalog_validate(args: argparse.Namespace, console: Console) -> int:
     _catalog_notes(args, console, catalog)
     console.print(render_catalog_summary(catalog))
     checked = "" if args.alone else " (ids checked against the built-in catalog)"
-    console.print(f"[green]valid[/green]: {escape(', '.join(paths))}{checked}")
+    console.print(f"[green]valid[/green]: {escape(', '.join(paths))}{checked}", emoji=False)
     return EXIT_OK
 
 
@@ -153,7 +153,7 @@ def _spec_validate(args: argparse.Namespace, console: Console) -> int:
     spec = load_spec(args.path)
     _warn(args, console, spec)
     console.print(render_spec_summary(spec))
-    console.print(f"[green]valid[/green]: {args.path}")
+    console.print(f"[green]valid[/green]: {escape(args.path)}", emoji=False)
     return EXIT_OK
 
 
@@ -239,7 +239,7 @@ def _spec_catalogs(spec: Spec, extra: Sequence[str], notes: Console | None = Non
     catalog = load_catalogs(list(paths.values()), spec.preferences.use_builtin_catalogs)
     if notes is not None:
         for note in dict.fromkeys(catalog.notes):
-            notes.print(f"note: {escape(note)}", highlight=False)
+            notes.print(f"note: {escape(note)}", highlight=False, emoji=False)
     return catalog
 
 
@@ -461,6 +461,7 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
             "[yellow]warning[/yellow]: no design was found, so no BOM, netlist or report was "
             "written and nothing was simulated",
             highlight=False,
+            emoji=False,
         )
     if stopped:
         raise interrupt.Interrupted(
@@ -583,7 +584,9 @@ def _warn(args: argparse.Namespace, console: Console, spec: Spec | None = None) 
     if spec is not None:
         args.spec_warnings = list(spec.warnings)
     for text in _all_warnings(args):
-        _notes(args, console).print(f"[yellow]warning[/yellow]: {escape(text)}", highlight=False)
+        _notes(args, console).print(
+            f"[yellow]warning[/yellow]: {escape(text)}", highlight=False, emoji=False
+        )
 
 
 #: Environment variable: a debugging aid the interrupt tests use. When set, each stage of a run
@@ -626,7 +629,9 @@ def _write_outputs(
     files = [(path, text.encode("utf-8")) for path, text in outputs if path != STDOUT]
     if files:
         for written in write_all(files, force=args.force, staged=lambda: _stage("writing")):
-            _notes(args, console).print(f"wrote {escape(str(written))}", highlight=False)
+            _notes(args, console).print(
+                f"wrote {escape(str(written))}", highlight=False, emoji=False
+            )
     for path, text in outputs:
         if path == STDOUT:
             sys.stdout.write(text)
@@ -690,6 +695,7 @@ def _verify_spice(args: argparse.Namespace, console: Console, spec: Spec, design
             "[yellow]warning[/yellow]: --verify-spice: ngspice was not found on PATH (Debian "
             "package 'ngspice'); the simulator cross-check was skipped",
             highlight=False,
+            emoji=False,
         )
         return
     from .report.simcheck import render_gain_comparison
@@ -698,7 +704,7 @@ def _verify_spice(args: argparse.Namespace, console: Console, spec: Spec, design
     try:
         comparison = simulate_gains(design, spec)
     except SimulatorError as exc:
-        out.print(f"[yellow]warning[/yellow]: --verify-spice: {escape(str(exc))}")
+        out.print(f"[yellow]warning[/yellow]: --verify-spice: {escape(str(exc))}", emoji=False)
         return
     out.print(render_gain_comparison(comparison))
 
@@ -783,15 +789,16 @@ def _sweep(args: argparse.Namespace, console: Console) -> int:
         image = sweep_plot(result, "png" if fmt == "png" else "svg", title)
         if image is not None:
             written = write_bytes(args.plot, image, force=args.force)
-            console.print(f"wrote {escape(str(written))}", highlight=False)
+            console.print(f"wrote {escape(str(written))}", highlight=False, emoji=False)
     if image is None:
         if fmt is not None:
             console.print(
                 "[yellow]warning[/yellow]: matplotlib is not installed (pip install "
                 "'quartet[plot]'); no plot written, the text chart follows",
                 highlight=False,
+                emoji=False,
             )
-        console.print(sweep_text_chart(result), markup=False, highlight=False)
+        console.print(sweep_text_chart(result), markup=False, highlight=False, emoji=False)
     return EXIT_OK
 
 
@@ -810,8 +817,8 @@ def main(
     try:
         args = parser.parse_args(list(sys.argv[1:] if argv is None else argv))
     except _UsageError as exc:
-        errors.print(parser.format_usage().rstrip(), markup=False, highlight=False)
-        errors.print(f"error: {exc}", markup=False, highlight=False)
+        errors.print(parser.format_usage().rstrip(), markup=False, highlight=False, emoji=False)
+        errors.print(f"error: {exc}", markup=False, highlight=False, emoji=False)
         return EXIT_BAD_INPUT
     except SystemExit as exc:  # --version and --help
         return int(exc.code or 0)
@@ -835,16 +842,19 @@ def main(
             f"[bold red]{type(exc).__name__}[/bold red]: the input is too large or too deeply "
             "nested to process",
             highlight=False,
+            emoji=False,
         )
         return EXIT_BAD_INPUT
     except QuartetError as exc:
         # escape: messages quote the user's own text, which may contain [markup].
         name = type(exc).__name__
-        errors.print(f"[bold red]{name}[/bold red]: {escape(str(exc))}", highlight=False)
+        errors.print(
+            f"[bold red]{name}[/bold red]: {escape(str(exc))}", highlight=False, emoji=False
+        )
         return EXIT_BAD_INPUT
     except interrupt.Interrupted as exc:
         detail = f": {exc.detail}" if exc.detail else ""
-        errors.print(f"interrupted{escape(detail)}", highlight=False)
+        errors.print(f"interrupted{escape(detail)}", highlight=False, emoji=False)
         return exc.exit_code
     except KeyboardInterrupt:
         errors.print("interrupted")

@@ -319,3 +319,21 @@ def test_trade_on_the_example_searches_the_missing_kind() -> None:
     if trade.discrete.cmrr_db is not None:
         assert trade.discrete.cmrr_db < 80.0
         assert trade.discrete.cost is not None and trade.discrete.cost > 0.0
+
+
+# ---------------------------------------------------------------------------------------------
+# user text is never read as markup or emoji
+# ---------------------------------------------------------------------------------------------
+
+
+def test_error_message_keeps_colons_literally() -> None:
+    """"40:100:2" in a message must not become an emoji (Rich reads ":100:" as one)."""
+    from optimizer.cli import main
+
+    out = Console(file=io.StringIO(), width=200, color_system=None)
+    err = Console(file=io.StringIO(), width=200, color_system=None)
+    code = main(["spec", "validate", "no/such/:100:[bold].yaml"], console=out, err=err)
+    text = err.file.getvalue()  # type: ignore[attr-defined]
+    assert code != 0
+    assert ":100:[bold].yaml" in text
+    assert "\N{HUNDRED POINTS SYMBOL}" not in text

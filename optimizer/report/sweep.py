@@ -77,7 +77,7 @@ def render_sweep_table(result: SweepResult, title: str) -> Table:
     at which each kind is feasible is marked."""
     marks = {kind: last_feasible(result, kind) for kind in SERIES}
     table = Table(
-        title=title,
+        title=Text(title),  # user text (the spec title): never read as markup or emoji
         title_justify="left",
         header_style="bold",
         caption=f"Relative cost units; each search limited to {result.time_limit_s:g} s.",
