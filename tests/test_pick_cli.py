@@ -56,7 +56,7 @@ EXAMPLE_SPECS = sorted(
 #: the 60 s default when measured): a shorter limit, and the time-limit exit is accepted.
 SLOW_EXAMPLES = {"adc_driver.yaml": 5.0, "adc_driver_stock.yaml": 5.0}
 #: Examples that nothing in their catalogs can meet (the example's own comment says so).
-INFEASIBLE_EXAMPLES = {"bridge_front_end_stock.yaml"}
+INFEASIBLE_EXAMPLES = {"bridge_front_end_stock_infeasible.yaml"}
 
 #: A gain-1 receiver over -40..125 °C and ten years, ideal amplifier, no source or REF
 #: impedance: the handbook formula applies as it stands. ``{floor}`` and ``{extra}`` are filled in.
