@@ -327,7 +327,7 @@ def test_trade_on_the_example_searches_the_missing_kind() -> None:
 
 
 def test_error_message_keeps_colons_literally() -> None:
-    """"40:100:2" in a message must not become an emoji (Rich reads ":100:" as one)."""
+    """ "40:100:2" in a message must not become an emoji (Rich reads ":100:" as one)."""
     from optimizer.cli import main
 
     out = Console(file=io.StringIO(), width=200, color_system=None)
@@ -337,3 +337,22 @@ def test_error_message_keeps_colons_literally() -> None:
     assert code != 0
     assert ":100:[bold].yaml" in text
     assert "\N{HUNDRED POINTS SYMBOL}" not in text
+
+
+def test_check_shows_the_cost_and_one_row_per_statistic() -> None:
+    """``quartet check`` prints the relative cost; the Monte-Carlo table has no two rows for
+    the same figure (the CMRR at the yield target appeared twice under two names)."""
+    from optimizer.cli import main
+
+    out = Console(file=io.StringIO(), width=200, color_system=None)
+    err = Console(file=io.StringIO(), width=200, color_system=None)
+    argv = ["check", str(EXAMPLE), "--r1", "1k", "--r2", "20k", "--r3", "1k", "--r4", "20k",
+            "--tolerance", "0.1%", "--tempco", "25ppm", "--samples", "2000"]  # fmt: skip
+    main(argv, console=out, err=err)
+    text = out.file.getvalue()  # type: ignore[attr-defined]
+    # The cost by the module docstring of optimizer.cost: 4 placements × 0.02 + 4 lines × 0.05
+    # (the example's preferences), parts given by value cost 0.
+    assert "Relative cost 0.280: parts 0.000, placements 0.080, BOM lines 0.200" in text
+    assert "How the resistors are bought: 4 discrete" in text
+    rows = [line.split("│")[1].strip() for line in text.splitlines() if "of builds" in line]
+    assert len(rows) == len(set(rows)) and "CMRR reached by 99.9 % of builds" in rows

@@ -71,10 +71,11 @@ from ..parts import DiscretePart, NetworkPart
 from ..solve.ranking import base_values, family_id, family_key
 from ..solve.search import MAX_CUTS, MAX_EXTRA_DESIGNS, Candidate, PickResult, SearchStatus
 from ..solve.trade import KindBest, Trade, cost_per_db
-from ..spec import CmrrBasis, Spec
+from ..spec import CmrrBasis, Objective, Spec
 from ..units import format_fraction, format_quantity, format_resistance
 from ..verify import Verification
 from .check import (
+    TOPOLOGY_LABELS,
     _cautions_panel,
     _db,
     _figure,
@@ -109,14 +110,6 @@ SCHEMA: Final = "quartet-pick/1"
 #: Significant digits of the figures in the table.
 DIGITS: Final = 4
 
-#: Short readable names of the topologies (the JSON keeps the values of ``Topology``).
-TOPOLOGY_LABELS: Final = {
-    Topology.DISCRETE: "4 discrete",
-    Topology.QUAD: "quad network",
-    Topology.EQUAL_PAIRS: "2 equal-value duals",
-    Topology.DIVIDER_PAIRS: "2 divider duals",
-    Topology.PAIR_PLUS_DISCRETE: "dual + 2 discrete",
-}
 
 #: Columns of the ranking on a wide screen (150 columns and more; our own wording). On a
 #: narrow screen the figures stack in one column (:data:`NARROW_COLUMNS`); the part ids and
@@ -461,8 +454,16 @@ def render_pick_table(
     return table
 
 
+#: The objectives in words (the spec and the JSON keep the values of ``Objective``).
+OBJECTIVE_WORDS: Final = {
+    Objective.COST: "lowest cost",
+    Objective.CMRR_MARGIN: "most CMRR margin",
+    Objective.PLACEMENTS: "fewest parts to place",
+}
+
+
 def _objective_words(spec: Spec) -> str:
-    return spec.preferences.objective.value.replace("_", " ")
+    return OBJECTIVE_WORDS[spec.preferences.objective]
 
 
 def _seconds(report: PickReport) -> str:
