@@ -356,3 +356,31 @@ def test_check_shows_the_cost_and_one_row_per_statistic() -> None:
     assert "How the resistors are bought: 4 discrete" in text
     rows = [line.split("│")[1].strip() for line in text.splitlines() if "of builds" in line]
     assert len(rows) == len(set(rows)) and "CMRR reached by 99.9 % of builds" in rows
+
+
+# ---------------------------------------------------------------------------------------------
+# the sweep's text chart
+# ---------------------------------------------------------------------------------------------
+
+
+def test_text_chart_scales_from_the_lowest_cost_and_marks_none_found() -> None:
+    """Hand-made sweep (demo numbers): networks at 20.77 and 34.57, discrete at 380.18 then
+    none (proven: ``x``) and none in time (``?``). The bottom label is the lowest cost found
+    (20.77), not 0, and the levels without a design are marked, not dropped."""
+    from optimizer.report.sweep import sweep_text_chart
+    from optimizer.solve.search import SearchStatus
+    from optimizer.sweep import SeriesPoint, SweepPoint, SweepResult
+
+    ok, none, late = SearchStatus.OPTIMAL, SearchStatus.INFEASIBLE, SearchStatus.TIME_LIMIT
+    quad, four = Topology.QUAD, Topology.DISCRETE
+    points = (
+        SweepPoint(50.0, SeriesPoint(380.18, ok, four), SeriesPoint(20.77, ok, quad)),
+        SweepPoint(52.0, SeriesPoint(None, none, None), SeriesPoint(34.57, ok, quad)),
+        SweepPoint(54.0, SeriesPoint(None, late, None), SeriesPoint(None, none, None)),
+    )
+    chart = sweep_text_chart(SweepResult(points, 5.0))
+    lines = chart.splitlines()
+    assert lines[0].startswith("380.2 |d")
+    assert lines[11].startswith("20.77 |n n")  # 34.57 rounds to the bottom row too
+    assert " no d |  x ?" in chart and " no n |    x" in chart
+    assert "x = none exists, ? = none found in time" in chart
