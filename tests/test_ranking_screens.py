@@ -384,3 +384,21 @@ def test_text_chart_scales_from_the_lowest_cost_and_marks_none_found() -> None:
     assert lines[11].startswith("20.77 |n n")  # 34.57 rounds to the bottom row too
     assert " no d |  x ?" in chart and " no n |    x" in chart
     assert "x = none exists, ? = none found in time" in chart
+
+
+def test_collection_bound_is_reported_and_keeps_cost_order(
+    monkeypatch: pytest.MonkeyPatch,
+) -> None:
+    """With the bound on extra designs set to 3 the collection stops early: the result says so
+    and the ranked designs stay in cost order (the exact ranking of what is shown)."""
+    import optimizer.solve.search as search
+
+    monkeypatch.setattr(search, "MAX_EXTRA_DESIGNS", 3)
+    spec = load_spec(EXAMPLE)
+    catalog = load_catalogs(list(spec.preferences.catalogs))
+    result = pick(spec, catalog, verify, top=10, time_limit_s=60, distinct=True)
+    assert result.ties_cut
+    assert len(result.ranked) <= 13
+    costs = [c.cost.total for c in result.ranked]
+    assert costs == sorted(costs)
+    assert list(result.choices) == sorted(result.choices)

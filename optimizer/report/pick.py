@@ -487,14 +487,15 @@ def render_status(report: PickReport) -> Text:
         text.append("proven optimal", style="bold green")
         designs = found + sum(len(m) for m in report.members)
         counted = f"{found} distinct choice(s), {designs} design(s)"
-        if found < report.designs_asked:
+        if found < report.designs_asked and not r.ties_cut:
             text.append(f": only {counted} meet the spec, all shown")
         else:
             text.append(f": the {counted} best by {_objective_words(report.spec)}")
         if r.ties_cut:
             text.append(
                 f" (collection stopped after {MAX_EXTRA_DESIGNS} extra designs: the lists of "
-                "other values at the same cost may be incomplete)"
+                "other values at the same cost may be incomplete, and more choices may exist "
+                "beyond those shown)"
             )
     elif r.status is SearchStatus.TIME_LIMIT:
         if report.interrupted:
