@@ -284,21 +284,28 @@ def _short_ohms(ohms: float) -> str:
 def buy_lines(design: Design) -> list[tuple[str, int, str, DiscretePart | NetworkPart]]:
     """The distinct parts of ``design`` as (part id, quantity, where it goes, part): a
     discrete part's quantity counts its positions; a network's its packages, and where it
-    goes maps each position to its element (``R1=#1``, 1-based; ``pkg 2`` for a second
-    package of the same part)."""
-    lines: dict[str, tuple[list[str], set[int], DiscretePart | NetworkPart]] = {}
-    for placement in design.placements:
+    goes maps each position to its element (``R1=#1``, 1-based); with two packages of one
+    part, the positions of each package are listed after its number
+    (``package 1: R1=#1 R2=#2; package 2: R3=#1 R4=#2``)."""
+    lines: dict[str, tuple[dict[int, list[str]], DiscretePart | NetworkPart]] = {}
+    for index, placement in enumerate(design.placements):
         part = placement.part
-        where, packages, _ = lines.setdefault(part.part_id, ([], set(), part))
+        groups, _ = lines.setdefault(part.part_id, ({}, part))
         if isinstance(part, NetworkPart):
             assert placement.element is not None
-            packages.add(placement.package)
-            package = f" pkg {placement.package + 1}" if placement.package else ""
-            where.append(f"{placement.position}=#{placement.element + 1}{package}")
+            groups.setdefault(placement.package, []).append(
+                f"{placement.position}=#{placement.element + 1}"
+            )
         else:
-            packages.add(len(where))
-            where.append(placement.position)
-    return [(pid, len(pk), " ".join(w), part) for pid, (w, pk, part) in lines.items()]
+            groups.setdefault(index, []).append(placement.position)
+    out: list[tuple[str, int, str, DiscretePart | NetworkPart]] = []
+    for part_id, (groups, part) in lines.items():
+        if isinstance(part, NetworkPart) and len(groups) > 1:
+            where = "; ".join(f"package {k + 1}: {' '.join(v)}" for k, v in groups.items())
+        else:
+            where = " ".join(w for v in groups.values() for w in v)
+        out.append((part_id, len(groups), where, part))
+    return out
 
 
 def _stock_word(part: DiscretePart | NetworkPart) -> str:
