@@ -1226,6 +1226,7 @@ def test_missing_builtin_data_is_a_located_error(tmp_path: Path) -> None:
     env = {
         **{k: v for k, v in os.environ.items() if k not in ("PYTHONHOME", "PYTHONPATH")},
         "PYTHONPATH": _dependency_folders(),
+        "COLUMNS": "1000",  # a long temporary path is not cut across lines
     }
     show = subprocess.run(
         [sys.executable, "-S", "-m", "optimizer", "catalog", "show"],
