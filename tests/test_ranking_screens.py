@@ -7,6 +7,7 @@ Sources are named beside each check.
 
 from __future__ import annotations
 
+import dataclasses
 import io
 import re
 from functools import cache
@@ -209,9 +210,10 @@ def _report() -> PickReport:
     )
 
 
-def _screen(width: int) -> str:
+def _screen(width: int, stock: bool = False) -> str:
     console = Console(file=io.StringIO(), width=width, color_system=None)
-    console.print(render_pick(_report(), width=width))
+    report = dataclasses.replace(_report(), stock_known=stock)
+    console.print(render_pick(report, width=width))
     return console.file.getvalue()  # type: ignore[attr-defined]
 
 
@@ -247,11 +249,13 @@ def test_json_keeps_every_member_with_its_family_key() -> None:
     assert len({r["family_key"] for r in ranked}) == len(ranked)
 
 
+@pytest.mark.parametrize("stock", [False, True])
 @pytest.mark.parametrize("width", [80, 120, 160])
-def test_ids_and_cost_are_never_cut(width: int) -> None:
+def test_ids_and_cost_are_never_cut(width: int, stock: bool) -> None:
     """Every part id of the ranking appears whole (with no ellipsis) at 80, 120 and 160
-    columns, and so does each cost; no line is wider than the screen."""
-    text = _screen(width)
+    columns, with and without the stock column, and so does each cost; the ranking table
+    fits the screen (its right border is on every row)."""
+    text = _screen(width, stock)
     ranking = text.split("Buy this")[0]
     assert "…" not in ranking.replace("… (", "")  # "… (29 values in all)" is ours
     for shown in _report().ranked:
@@ -260,6 +264,10 @@ def test_ids_and_cost_are_never_cut(width: int) -> None:
             assert re.search(whole, ranking)
         assert f"{shown.cost.total:.3f}" in ranking
     assert max(len(line) for line in text.splitlines()) <= width
+    rows = [line for line in ranking.splitlines() if line.startswith("│")]
+    assert rows and all(line.rstrip().endswith("│") for line in rows)
+    if stock:
+        assert "in stock: no" in ranking
 
 
 def test_buy_block_lists_each_part_once() -> None:

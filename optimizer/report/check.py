@@ -187,18 +187,29 @@ def _placement_cells(placement: Placement) -> tuple[str, str, str, str, str]:
 
 
 def _design_table(design: Design, origins: Sequence[str] | None) -> Table:
-    table = Table(title="The design", title_justify="left", header_style="bold")
-    for name in ("position", "value", "tolerance", "tempco", "drift per 1000 h"):
-        table.add_column(name, no_wrap=name in ("position", "value"))
-    table.add_column("power / voltage rating")
-    # The part id is what gets bought: its column is never narrower than the longest id.
+    """Position, value and part first (what gets bought stays whole and on screen: the part
+    column is never narrower than the longest id), then the figures."""
+    table = Table(
+        title="The design",
+        title_justify="left",
+        header_style="bold",
+    )
+    table.add_column("pos.", no_wrap=True)
+    table.add_column("value", no_wrap=True)
     longest = max(len(p.part.part_id) for p in design.placements)
     table.add_column("part", min_width=longest, overflow="fold")
+    for name in ("tolerance", "tempco", "drift per 1000 h", "power / voltage rating"):
+        table.add_column(name)
     if origins is not None:
         table.add_column("given as")
     for index, placement in enumerate(design.placements):
-        cells = [placement.position, format_resistance(placement.resistance_ohm, 6)]
-        cells += _placement_cells(placement)
+        figures = _placement_cells(placement)
+        cells = [
+            placement.position,
+            format_resistance(placement.resistance_ohm, 6),
+            figures[-1],
+            *figures[:-1],
+        ]
         if origins is not None:
             cells.append(origins[index])
         table.add_row(*(Text(c) for c in cells))

@@ -324,9 +324,8 @@ def _buy_cell(shown: Shown, also: Sequence[Shown], stock: bool) -> Text:
         text.append("\n")
         text.append(part_id, style="bold cyan")
         text.append(f" ×{quantity}")
-        if stock:
-            text.append(f", stock {_stock_word(part)}")
-        text.append(f"\n  {where}", style="dim")
+        stocked = f"; in stock: {_stock_word(part)}" if stock else ""
+        text.append(f"\n  {where}{stocked}", style="dim")
     others = _also_values(shown, also)
     if others:
         text.append(f"\nalso at this cost: {others}", style="italic")
@@ -444,8 +443,6 @@ def render_pick_table(
         (len(line[0]) + 3 + len(str(line[1])) for s in shown for line in buy_lines(s.design)),
         default=10,
     )
-    if stock:
-        id_width += len(", stock yes (000,000)")
     for name in TABLE_COLUMNS if wide else NARROW_COLUMNS:
         numeric = name not in ("what to buy", "tightest margin", "figures")
         table.add_column(
