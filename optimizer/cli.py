@@ -100,7 +100,7 @@ def _catalog_notes(args: argparse.Namespace, console: Console, catalog: Catalog)
     """The notes on how catalog files were read (encoding, separator, ignored columns), once
     each."""
     for note in dict.fromkeys(catalog.notes):
-        _notes(args, console).print(f"note: {escape(note)}", highlight=False)
+        _notes(args, console).print(f"note: {escape(note)}", highlight=False, emoji=False)
 
 
 def _once(args: argparse.Namespace, console: Console, paths: Sequence[str]) -> list[str]:
@@ -116,7 +116,7 @@ def _once(args: argparse.Namespace, console: Console, paths: Sequence[str]) -> l
         first = kept[real]
         shown = path if first == path else f"{path} (the same file as {first})"
         _notes(args, console).print(
-            f"note: {escape(shown)}: named more than once; read once", highlight=False
+            f"note: {escape(shown)}: named more than once; read once", highlight=False, emoji=False
         )
     return list(kept.values())
 
@@ -143,7 +143,7 @@ def _catalog_validate(args: argparse.Namespace, console: Console) -> int:
     _catalog_notes(args, console, catalog)
     console.print(render_catalog_summary(catalog))
     checked = "" if args.alone else " (ids checked against the built-in catalog)"
-    console.print(f"[green]valid[/green]: {escape(', '.join(paths))}{checked}")
+    console.print(f"[green]valid[/green]: {escape(', '.join(paths))}{checked}", emoji=False)
     return EXIT_OK
 
 
@@ -154,7 +154,7 @@ def _spec_validate(args: argparse.Namespace, console: Console) -> int:
     spec = load_spec(args.path)
     _warn(args, console, spec)
     console.print(render_spec_summary(spec))
-    console.print(f"[green]valid[/green]: {args.path}")
+    console.print(f"[green]valid[/green]: {escape(args.path)}", emoji=False)
     return EXIT_OK
 
 
@@ -233,7 +233,7 @@ def _spec_catalogs(spec: Spec, extra: Sequence[str], notes: Console | None = Non
     catalog = spec_catalogs(spec, extra)
     if notes is not None:
         for note in dict.fromkeys(catalog.notes):
-            notes.print(f"note: {escape(note)}", highlight=False)
+            notes.print(f"note: {escape(note)}", highlight=False, emoji=False)
     return catalog
 
 
@@ -305,6 +305,20 @@ def _seconds(text: str) -> float:
     return value
 
 
+def _penalty(text: str) -> float:
+    import math
+
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(
+            f"expected a relative cost (a number of zero or more), got {text!r}"
+        ) from None
+    if not math.isfinite(value) or value < 0.0:
+        raise argparse.ArgumentTypeError(f"expected a relative cost of zero or more, got {text!r}")
+    return value
+
+
 def _add_pick_command(commands: argparse._SubParsersAction[_Parser]) -> None:
     from .spec import Objective
 
@@ -326,6 +340,11 @@ def _add_pick_command(commands: argparse._SubParsersAction[_Parser]) -> None:
         help="how many designs to rank (default: the spec's alternatives)",
     )  # fmt: skip
     pick.add_argument("--stock-only", action="store_true", help="use only parts in house stock")
+    pick.add_argument(
+        "--prefer-stock", type=_penalty, metavar="PENALTY",
+        help="prefer parts in house stock: add PENALTY (relative cost) per BOM line that is "
+        "not stocked (the spec's stock: prefer with this penalty)",
+    )  # fmt: skip
     pick.add_argument(
         "--objective", choices=[o.value for o in Objective],
         help="what to rank by (default: the spec's objective)",
@@ -362,6 +381,13 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
         spec = dataclasses.replace(
             spec, preferences=dataclasses.replace(spec.preferences, stock=StockPolicy.ONLY)
         )
+    elif args.prefer_stock is not None:
+        spec = dataclasses.replace(
+            spec,
+            preferences=dataclasses.replace(
+                spec.preferences, stock=StockPolicy.PREFER, stock_penalty=args.prefer_stock
+            ),
+        )
     if args.objective is not None:
         spec = with_objective(spec, Objective(args.objective))
     _stage("catalog")
@@ -370,7 +396,7 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
     _stage("search")
     # A signal during the search stops it; the search then returns what it found so far.
     with interrupt.winding_down():
-        result = pick(spec, catalog, verify, top=top, time_limit_s=args.time_limit)
+        result = pick(spec, catalog, verify, top=top, time_limit_s=args.time_limit, distinct=True)
     stopped = interrupt.cancelled()
     diagnosis = None
     if result.status is SearchStatus.INFEASIBLE and not stopped:
@@ -380,6 +406,13 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
         with interrupt.winding_down():
             diagnosis = diagnose(spec, catalog, verify, time_limit_s=limit)
         interrupt.check()
+    trade = None
+    if not stopped and result.ranked:
+        from .solve.trade import TRADE_TIME_LIMIT_S, kind_trade
+
+        with interrupt.winding_down():
+            limit = min(TRADE_TIME_LIMIT_S, args.time_limit)
+            trade = kind_trade(spec, catalog, verify, result, time_limit_s=limit)
     _stage("statistics")
     report = build_pick_report(
         spec,
@@ -389,12 +422,14 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
         cautions=safety_cautions(spec),
         diagnosis=diagnosis,
         interrupted=stopped,
+        stock_known=catalog.stock_count > 0,
+        trade=trade,
     )
     json_text = pick_json_text(pick_to_json(report, _all_warnings(args)))
     if args.json:
         console.print(json_text, markup=False, highlight=False, emoji=False, soft_wrap=True)
     else:
-        console.print(render_pick(report))
+        console.print(render_pick(report, width=console.width))
     winner = report.winner
     signum = interrupt.signal_number()
     if stopped and args.write_partial:
@@ -420,6 +455,7 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
             "[yellow]warning[/yellow]: no design was found, so no BOM, netlist or report was "
             "written and nothing was simulated",
             highlight=False,
+            emoji=False,
         )
     if stopped:
         raise interrupt.Interrupted(
@@ -549,7 +585,9 @@ def _warn(args: argparse.Namespace, console: Console, spec: Spec | None = None) 
     if spec is not None:
         args.spec_warnings = list(spec.warnings)
     for text in _all_warnings(args):
-        _notes(args, console).print(f"[yellow]warning[/yellow]: {escape(text)}", highlight=False)
+        _notes(args, console).print(
+            f"[yellow]warning[/yellow]: {escape(text)}", highlight=False, emoji=False
+        )
 
 
 #: Environment variable: a debugging aid the interrupt tests use. When set, each stage of a run
@@ -592,7 +630,9 @@ def _write_outputs(
     files = [(path, text.encode("utf-8")) for path, text in outputs if path != STDOUT]
     if files:
         for written in write_all(files, force=args.force, staged=lambda: _stage("writing")):
-            _notes(args, console).print(f"wrote {escape(str(written))}", highlight=False)
+            _notes(args, console).print(
+                f"wrote {escape(str(written))}", highlight=False, emoji=False
+            )
     for path, text in outputs:
         if path == STDOUT:
             sys.stdout.write(text)
@@ -656,6 +696,7 @@ def _verify_spice(args: argparse.Namespace, console: Console, spec: Spec, design
             "[yellow]warning[/yellow]: --verify-spice: ngspice was not found on PATH (Debian "
             "package 'ngspice'); the simulator cross-check was skipped",
             highlight=False,
+            emoji=False,
         )
         return
     from .report.simcheck import render_gain_comparison
@@ -664,7 +705,7 @@ def _verify_spice(args: argparse.Namespace, console: Console, spec: Spec, design
     try:
         comparison = simulate_gains(design, spec)
     except SimulatorError as exc:
-        out.print(f"[yellow]warning[/yellow]: --verify-spice: {escape(str(exc))}")
+        out.print(f"[yellow]warning[/yellow]: --verify-spice: {escape(str(exc))}", emoji=False)
         return
     out.print(render_gain_comparison(comparison))
 
@@ -751,15 +792,16 @@ def _sweep(args: argparse.Namespace, console: Console) -> int:
         if image is not None:
             _stage("writing")
             written = write_bytes(args.plot, image, force=args.force)
-            console.print(f"wrote {escape(str(written))}", highlight=False)
+            console.print(f"wrote {escape(str(written))}", highlight=False, emoji=False)
     if image is None:
         if fmt is not None:
             console.print(
                 "[yellow]warning[/yellow]: matplotlib is not installed (pip install "
                 "'quartet[plot]'); no plot written, the text chart follows",
                 highlight=False,
+                emoji=False,
             )
-        console.print(sweep_text_chart(result), markup=False, highlight=False)
+        console.print(sweep_text_chart(result), markup=False, highlight=False, emoji=False)
     return EXIT_OK
 
 
@@ -903,8 +945,8 @@ def main(
     try:
         args = parser.parse_args(list(sys.argv[1:] if argv is None else argv))
     except _UsageError as exc:
-        errors.print(parser.format_usage().rstrip(), markup=False, highlight=False)
-        errors.print(f"error: {exc}", markup=False, highlight=False)
+        errors.print(parser.format_usage().rstrip(), markup=False, highlight=False, emoji=False)
+        errors.print(f"error: {exc}", markup=False, highlight=False, emoji=False)
         return EXIT_BAD_INPUT
     except SystemExit as exc:  # --version and --help
         return int(exc.code or 0)
@@ -928,16 +970,19 @@ def main(
             f"[bold red]{type(exc).__name__}[/bold red]: the input is too large or too deeply "
             "nested to process",
             highlight=False,
+            emoji=False,
         )
         return EXIT_BAD_INPUT
     except QuartetError as exc:
         # escape: messages quote the user's own text, which may contain [markup].
         name = type(exc).__name__
-        errors.print(f"[bold red]{name}[/bold red]: {escape(str(exc))}", highlight=False)
+        errors.print(
+            f"[bold red]{name}[/bold red]: {escape(str(exc))}", highlight=False, emoji=False
+        )
         return EXIT_BAD_INPUT
     except interrupt.Interrupted as exc:
         detail = f": {exc.detail}" if exc.detail else ""
-        errors.print(f"interrupted{escape(detail)}", highlight=False)
+        errors.print(f"interrupted{escape(detail)}", highlight=False, emoji=False)
         return exc.exit_code
     except KeyboardInterrupt:
         errors.print("interrupted")

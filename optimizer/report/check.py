@@ -55,7 +55,8 @@ from ..analysis.checks import CheckResult
 from ..analysis.montecarlo import MonteCarloResult
 from ..analysis.variation import DRIFT_SHARED_VARIANCE, drift_model_summary
 from ..analysis.worstcase import BudgetItem, WorstCase
-from ..design import Design, Placement
+from ..cost import CostBreakdown, design_cost
+from ..design import Design, Placement, Topology
 from ..parts import NetworkPart
 from ..spec import CmrrBasis, DriftModel, Spec
 from ..units import format_fraction, format_quantity, format_resistance, format_tempco
@@ -186,20 +187,51 @@ def _placement_cells(placement: Placement) -> tuple[str, str, str, str, str]:
 
 
 def _design_table(design: Design, origins: Sequence[str] | None) -> Table:
-    table = Table(title="The design", title_justify="left", header_style="bold")
-    for name in ("position", "value", "tolerance", "tempco", "drift per 1000 h"):
-        table.add_column(name, no_wrap=name in ("position", "value"))
-    table.add_column("power / voltage rating")
-    table.add_column("part")
+    """Position, value and part first (what gets bought stays whole and on screen: the part
+    column is never narrower than the longest id), then the figures."""
+    table = Table(
+        title="The design",
+        title_justify="left",
+        header_style="bold",
+    )
+    table.add_column("pos.", no_wrap=True)
+    table.add_column("value", no_wrap=True)
+    longest = max(len(p.part.part_id) for p in design.placements)
+    table.add_column("part", min_width=longest, overflow="fold")
+    for name in ("tolerance", "tempco", "drift per 1000 h", "power / voltage rating"):
+        table.add_column(name)
     if origins is not None:
         table.add_column("given as")
     for index, placement in enumerate(design.placements):
-        cells = [placement.position, format_resistance(placement.resistance_ohm, 6)]
-        cells += _placement_cells(placement)
+        figures = _placement_cells(placement)
+        cells = [
+            placement.position,
+            format_resistance(placement.resistance_ohm, 6),
+            figures[-1],
+            *figures[:-1],
+        ]
         if origins is not None:
             cells.append(origins[index])
         table.add_row(*(Text(c) for c in cells))
     return table
+
+
+#: Short readable names of the topologies (the JSON keeps the values of ``Topology``).
+TOPOLOGY_LABELS: Final = {
+    Topology.DISCRETE: "4 discrete",
+    Topology.QUAD: "quad network",
+    Topology.EQUAL_PAIRS: "2 equal-value duals",
+    Topology.DIVIDER_PAIRS: "2 divider duals",
+    Topology.PAIR_PLUS_DISCRETE: "dual + 2 discrete",
+}
+
+
+def _cost_line(cost: CostBreakdown) -> str:
+    return (
+        f"Relative cost {cost.total:.3f}: parts {cost.parts:.3f}, placements "
+        f"{cost.placements:.3f}, BOM lines {cost.lines:.3f}, stock penalty "
+        f"{cost.stock_penalty:.3f} (the spec's preferences)"
+    )
 
 
 def _design_lines(design: Design, spec: Spec, assumptions: Sequence[str]) -> Text:
@@ -209,8 +241,9 @@ def _design_lines(design: Design, spec: Spec, assumptions: Sequence[str]) -> Tex
         f"Nominal gain G = R2/R1 = {gain:.6g} (asked for {target:.6g}, "
         f"{_pct(gain / target - 1.0, signed=True)} off); "
         f"nominal R4/R3 = {design.resistances_ohm[3] / design.resistances_ohm[2]:.6g}",
-        f"How the resistors are bought: {design.topology.value}, "
+        f"How the resistors are bought: {TOPOLOGY_LABELS[design.topology]}, "
         f"{design.placement_count} part(s) to place",
+        _cost_line(design_cost(design, spec.preferences)),
     ]
     for note in assumptions:
         lines.append(f"Assumed: {note}")
@@ -314,10 +347,17 @@ def _statistics_table(result: MonteCarloResult, spec: Spec) -> Table:
         (f"CMRR reached by {target} of builds", _db(result.cmrr_at_yield_db)),
         ("life drift model", drift_model_summary(spec.requirements.drift_model, True)),
     ]  # fmt: skip
+    reached = {_pct(result.yield_target)}
     for percent, level in result.cmrr_percentiles_db:
-        rows.append((f"CMRR exceeded by {100 - percent:g} % of builds", _db(level)))
+        share = _pct((100 - percent) / 100)
+        if share in reached:  # one row per distinct statistic
+            continue
+        reached.add(share)
+        rows.append((f"CMRR reached by {share} of builds", _db(level)))
     for percent, error in result.gain_error_percentiles:
-        rows.append((f"gain error, {percent:g} % point", _pct(error, signed=True)))
+        rows.append(
+            (f"gain error: {_pct(percent / 100)} of builds are below", _pct(error, signed=True))
+        )
     for name, value in rows:
         table.add_row(Text(name), Text(value))
     return table

@@ -33,12 +33,13 @@ from dataclasses import dataclass
 from typing import Final, Literal
 
 from ..analysis.montecarlo import MonteCarloResult
-from ..design import Design
+from ..analysis.variation import drift_model_summary
+from ..design import Design, Placement
 from ..parts import DiscretePart, NetworkPart
 from ..spec import Spec
 from ..units import format_fraction, format_resistance, format_tempco
 from ..verify import Verification
-from .check import _db, _pct, label_of
+from .check import _db, _figure, _pct, label_of
 
 __all__ = [
     "BOM_COLUMNS",
@@ -207,8 +208,11 @@ def histogram_png(result: MonteCarloResult) -> bytes | None:
         axes.set_xlabel("worst CMRR of a build (dB)")
         axes.set_ylabel("builds")
         axes.legend()
+        figure.tight_layout()
         buffer = io.BytesIO()
-        figure.savefig(buffer, format="png", dpi=100, metadata={"Software": None})
+        figure.savefig(
+            buffer, format="png", dpi=100, metadata={"Software": None}, bbox_inches="tight"
+        )
     finally:
         plt.close(figure)
     return buffer.getvalue()
@@ -240,6 +244,63 @@ def _part_text(design: Design, index: int) -> str:
     return f"{value} ({part.part_id}, ±{format_fraction(part.tolerance, 4)})"
 
 
+def _design_row(placement: Placement) -> tuple[str, ...]:
+    """Position, value, part (with the element of a network), absolute tolerance and tempco,
+    and for a network the ratio tolerance and tracking tempco that set the CMRR."""
+    part = placement.part
+    value = format_resistance(placement.resistance_ohm, 6)
+    if isinstance(part, NetworkPart):
+        assert placement.element is not None
+        return (
+            placement.position,
+            value,
+            f"{part.part_id} element {placement.element + 1} (package {placement.package + 1})",
+            f"±{format_fraction(part.abs_tolerance, 4)} absolute",
+            f"±{format_tempco(part.abs_tempco_per_k, 4)} absolute",
+            format_fraction(part.ratio_tolerance, 4),
+            format_tempco(part.tracking_tempco_per_k, 4),
+        )
+    return (
+        placement.position,
+        value,
+        part.part_id,
+        f"±{format_fraction(part.tolerance, 4)}",
+        f"±{format_tempco(part.tempco_per_k, 4)}",
+        "–",
+        "–",
+    )
+
+
+def _assumptions(spec: Spec) -> list[tuple[str, str]]:
+    """The conditions every figure of the report assumes, in words with units."""
+    req, sig, ref = spec.requirements, spec.signal, spec.reference
+    years = req.life_s / (365.25 * 86400.0)
+    rows = [
+        ("temperature range", f"{req.temp_min_c:g} to {req.temp_max_c:g} °C"),
+        ("operating life (drift)", f"{years:.3g} years" if req.life_s > 0 else "none"),
+        ("life drift model", drift_model_summary(req.drift_model, True)),
+        (
+            "source impedance per leg",
+            f"{format_resistance(sig.source.min_ohm, 4)} to "
+            f"{format_resistance(sig.source.max_ohm, 4)}, legs differ by up to "
+            f"{format_resistance(sig.source.imbalance_ohm, 4)}",
+        ),
+        (
+            "REF drive impedance",
+            f"{format_resistance(ref.impedance_min_ohm, 4)} to "
+            f"{format_resistance(ref.impedance_max_ohm, 4)}",
+        ),
+        ("CMRR judged by", "the worst case" if req.cmrr_basis.value == "worst_case"
+         else f"the Monte-Carlo yield (target {format_fraction(req.yield_target)})"),
+        (
+            "Monte Carlo",
+            f"{spec.preferences.samples:,} builds, seed {spec.preferences.seed}",
+        ),
+        ("amplifier", spec.amplifier.name),
+    ]  # fmt: skip
+    return rows
+
+
 def check_blocks(design: Design, spec: Spec, verification: Verification) -> list[Block]:
     """The check figures of one design: cautions, parts, requirements, worst case, the error
     budget and the Monte-Carlo histogram of CMRR."""
@@ -251,40 +312,55 @@ def check_blocks(design: Design, spec: Spec, verification: Verification) -> list
     blocks.append(
         Block(
             "table",
-            headers=("position", "value", "part", "tolerance", "tempco"),
-            rows=tuple(
-                (
-                    p.position,
-                    format_resistance(p.resistance_ohm, 6),
-                    p.part.part_id,
-                    format_fraction(
-                        p.part.abs_tolerance
-                        if isinstance(p.part, NetworkPart)
-                        else p.part.tolerance,
-                        4,
-                    ),
-                    format_tempco(
-                        p.part.abs_tempco_per_k
-                        if isinstance(p.part, NetworkPart)
-                        else p.part.tempco_per_k,
-                        4,
-                    ),
-                )
-                for p in design.placements
+            headers=(
+                "position",
+                "value",
+                "part",
+                "tolerance",
+                "tempco",
+                "ratio tolerance (network)",
+                "tracking (network)",
             ),
+            rows=tuple(_design_row(p) for p in design.placements),
         )
     )
     blocks.append(Block("heading", text="Requirements"))
     blocks.append(
         Block(
             "table",
-            headers=("requirement", "met", "value", "limit"),
+            headers=("requirement", "met", "value", "limit", "margin"),
             rows=tuple(
-                (label_of(m.name), "yes" if m.passed else "NO", f"{m.value:.6g}", f"{m.limit:.6g}")
+                (
+                    label_of(m.name),
+                    "yes" if m.passed else "NO",
+                    _figure(m.value, m.unit),
+                    _figure(m.limit, m.unit),
+                    _figure(m.margin, m.unit, signed=True),
+                )
                 for m in verification.requirements
             ),
         )
     )
+    blocks.append(Block("heading", text="Every check"))
+    blocks.append(
+        Block(
+            "table",
+            headers=("check", "outcome", "margin", "how it was found"),
+            rows=tuple(
+                (
+                    label_of(c.name),
+                    ("met" if c.passed else "NOT met")
+                    if c.limit == c.limit  # nan: no requirement set
+                    else "no requirement",
+                    _figure(c.margin, c.unit, signed=True) if c.limit == c.limit else "",
+                    c.detail,
+                )
+                for c in verification.checks
+            ),
+        )
+    )
+    blocks.append(Block("heading", text="Conditions and assumptions"))
+    blocks.append(Block("table", headers=("item", "value"), rows=tuple(_assumptions(spec))))
     blocks.append(Block("heading", text="Worst case"))
     blocks.append(
         Block(
@@ -347,7 +423,7 @@ def pick_blocks(
     rows: Sequence[tuple[int, Design, float, Verification]], spec: Spec, status: str
 ) -> list[Block]:
     """The ranked table of a pick: ``rows`` of (rank, design, total cost, verification)."""
-    from .pick import TABLE_COLUMNS  # here, so that ``quartet check`` does not load the solver
+    from .pick import FILE_TABLE_COLUMNS  # here: ``quartet check`` does not load the solver
 
     table_rows = []
     for rank, design, cost, verification in rows:
@@ -368,7 +444,7 @@ def pick_blocks(
         Block("para", text=f"Search: {status}. Costs in relative units."),
         Block(
             "table",
-            headers=TABLE_COLUMNS[: TABLE_COLUMNS.index("gain err. worst") + 1],
+            headers=FILE_TABLE_COLUMNS,
             rows=tuple(table_rows),
         ),
     ]

@@ -16,7 +16,14 @@ unit in the key name; fractions are plain fractions, 0.001 = 0.1 %)::
                          proven_optimal: bool, objective, stock_policy, designs_asked,
                          designs_found, time_limit_s, gap (relative; null when not known),
                          rejected_by_exact_check, solves, model_size}
-    ranked              [design]  best first
+    ranked              [design]  one per distinct choice (family), best first
+    family_members      [design]  every other design of each ranked family (same cost,
+                         another base value or another part with the same elements); rank is
+                         the choice's rank, statistics null (no Monte Carlo run)
+    kind_trade          null unless the spec allows both kinds: {text, four_discrete, network},
+                         each {meets_spec, cost, cmrr_db (worst case, or at the yield target),
+                         search_timed_out}; a kind that meets nothing gives its best CMRR
+                         below the floor from a search bounded to 3 s (null if none found)
     other_kind          [design]  the best design of a kind (four discrete parts, or a
                          network) the ranking lacks although the spec allows it
     diagnosis           null unless infeasible: {binding: [requirement names],
@@ -38,7 +45,9 @@ unit in the key name; fractions are plain fractions, 0.001 = 0.1 %)::
               worst_case: {cmrr_db, gain_error_min, gain_error_max, gain_error_worst},
               statistics: {builds, seed, yield, yield_target, cmrr_at_yield_db} or null,
               output_noise_v_rms,
-              tightest: {name, value, limit, margin, unit}}
+              tightest: {name, value, limit, margin, unit},
+              family_key (12 hex digits shared by the designs of one family),
+              family_size (designs in the family), in_stock (every part has house stock)}
 """
 
 from __future__ import annotations
@@ -57,13 +66,16 @@ from rich.text import Text
 from .._version import __version__
 from ..analysis.montecarlo import monte_carlo
 from ..cost import CostBreakdown
-from ..design import Design, Placement, Topology
-from ..parts import NetworkPart
-from ..solve.search import MAX_CUTS, PickResult, SearchStatus
-from ..spec import CmrrBasis, Spec
-from ..units import format_fraction, format_quantity, format_resistance, format_tempco
+from ..design import Design, Topology
+from ..parts import DiscretePart, NetworkPart
+from ..solve.ranking import base_values, family_id, family_key
+from ..solve.search import MAX_CUTS, MAX_EXTRA_DESIGNS, Candidate, PickResult, SearchStatus
+from ..solve.trade import KindBest, Trade, cost_per_db
+from ..spec import CmrrBasis, Objective, Spec
+from ..units import format_fraction, format_quantity, format_resistance
 from ..verify import Verification
 from .check import (
+    TOPOLOGY_LABELS,
     _cautions_panel,
     _db,
     _figure,
@@ -84,8 +96,10 @@ __all__ = [
     "PickReport",
     "Shown",
     "build_pick_report",
+    "buy_lines",
     "pick_json_text",
     "pick_to_json",
+    "render_buy",
     "render_pick",
     "render_pick_table",
     "render_status",
@@ -96,30 +110,39 @@ SCHEMA: Final = "quartet-pick/1"
 #: Significant digits of the figures in the table.
 DIGITS: Final = 4
 
-#: Short readable names of the topologies (the JSON keeps the values of ``Topology``).
-TOPOLOGY_LABELS: Final = {
-    Topology.DISCRETE: "4 discrete",
-    Topology.QUAD: "quad network",
-    Topology.EQUAL_PAIRS: "2 equal-value duals",
-    Topology.DIVIDER_PAIRS: "2 divider duals",
-    Topology.PAIR_PLUS_DISCRETE: "dual + 2 discrete",
-}
 
-#: Header of the table: the column names of ``quartet pick`` (our own wording).
+#: Columns of the ranking on a wide screen (150 columns and more; our own wording). On a
+#: narrow screen the figures stack in one column (:data:`NARROW_COLUMNS`); the part ids and
+#: the cost are never cut at any width.
 TABLE_COLUMNS: Final = (
+    "#",
+    "what to buy",
+    "cost (rel.)",
+    "CMRR worst case",
+    "CMRR at yield",
+    "gain error worst",
+    "output noise",
+    "tightest margin",
+)
+#: Columns of the ranking below :data:`WIDE_FROM` columns.
+NARROW_COLUMNS: Final = ("#", "what to buy", "cost (rel.)", "figures")
+#: Terminal width from which the wide layout is used.
+WIDE_FROM: Final = 150
+#: Columns of the ranked table in file reports (one column per position).
+FILE_TABLE_COLUMNS: Final = (
     "#",
     "build",
     "R1",
     "R2",
     "R3",
     "R4",
-    "rel. cost",
-    "CMRR worst",
-    "CMRR stat.",
-    "gain err. worst",
-    "noise out",
-    "least margin",
+    "cost (rel.)",
+    "CMRR worst case",
+    "CMRR at yield",
+    "gain error worst",
 )
+#: At most this many other base values are named in a ranking row (the JSON has them all).
+ALSO_SHOWN: Final = 6
 
 
 @dataclass(frozen=True)
@@ -156,6 +179,13 @@ class PickReport:
     cautions: tuple[str, ...]
     #: A signal (SIGINT, SIGTERM) stopped the search: the designs are those found so far.
     interrupted: bool = False
+    #: Per ranked choice, the other designs of its family (same cost, another base value or
+    #: another part with the same elements), best first; their Monte Carlo is not run.
+    members: tuple[tuple[Shown, ...], ...] = ()
+    #: Some catalog part has house stock: the tables show each part's stock.
+    stock_known: bool = False
+    #: Both kinds (four discrete parts, a network) allowed: each kind's best (None otherwise).
+    trade: Trade | None = None
 
     @property
     def winner(self) -> Shown | None:
@@ -166,9 +196,14 @@ class PickReport:
 STATISTICS_THREADS = 4
 
 
-def _with_statistics(verdict: object, design: Design, spec: Spec) -> Verification:
+def _verification(verdict: object) -> Verification:
     if not isinstance(verdict, Verification):
         raise TypeError(f"expected the verdict of optimizer.verify.verify, got {type(verdict)}")
+    return verdict
+
+
+def _with_statistics(verdict: object, design: Design, spec: Spec) -> Verification:
+    verdict = _verification(verdict)
     if verdict.monte_carlo is not None:
         return verdict
     # On the worst-case basis the Monte Carlo is informative only: it changes no requirement,
@@ -185,20 +220,35 @@ def build_pick_report(
     cautions: Sequence[str],
     diagnosis: Diagnosis | None = None,
     interrupted: bool = False,
+    stock_known: bool = False,
+    trade: Trade | None = None,
 ) -> PickReport:
     """The report of one pick: runs the Monte Carlo (``spec.preferences`` samples and seed)
     for every displayed design that has none yet."""
     started = time.perf_counter()
-    shown = (*result.ranked, *result.extras)
+    choices = result.choices or tuple(range(1, len(result.ranked) + 1))
+    leaders: list[Candidate] = []
+    followers: dict[int, list[Candidate]] = {}
+    for number, candidate in zip(choices, result.ranked, strict=True):
+        if number in followers:
+            followers[number].append(candidate)
+        else:
+            followers[number] = []
+            leaders.append(candidate)
+    shown = (*leaders, *result.extras)
     # Each design's Monte Carlo has its own generator (seeded from the spec), so running them on
     # the machine's cores in threads (numpy releases the GIL) gives the same results in order.
     workers = max(1, min(len(shown), os.cpu_count() or 1, STATISTICS_THREADS))
     with ThreadPoolExecutor(workers) as pool:
         verdicts = list(pool.map(lambda c: _with_statistics(c.verdict, c.design, spec), shown))
-    count = len(result.ranked)
+    count = len(leaders)
     ranked = tuple(
         Shown(i + 1, c.design, c.cost, v)
-        for i, (c, v) in enumerate(zip(result.ranked, verdicts[:count], strict=True))
+        for i, (c, v) in enumerate(zip(leaders, verdicts[:count], strict=True))
+    )
+    members = tuple(
+        tuple(Shown(i + 1, c.design, c.cost, _verification(c.verdict)) for c in group)
+        for i, group in enumerate(followers.values())
     )
     others = tuple(
         Shown(None, c.design, c.cost, v)
@@ -209,6 +259,9 @@ def build_pick_report(
         result=result,
         ranked=ranked,
         other_kind=others,
+        members=members,
+        stock_known=stock_known,
+        trade=trade,
         diagnosis=diagnosis,
         designs_asked=designs_asked,
         time_limit_s=time_limit_s,
@@ -223,26 +276,84 @@ def build_pick_report(
 # ---------------------------------------------------------------------------------------------
 
 
-def _part_cell(placement: Placement) -> Text:
-    """Value on the first line; below it the tolerance and tempco (discrete part), or the
-    network's id with the element number (1-based; ``pkg 2`` for a second package of the same
-    network) and its ratio tolerance and tracking tempco."""
-    part = placement.part
-    text = Text(format_resistance(placement.resistance_ohm, 6), style="bold")
-    if isinstance(part, NetworkPart):
-        assert placement.element is not None
-        package = f" pkg {placement.package + 1}" if placement.package else ""
-        text.append(f"\n{part.part_id} #{placement.element + 1}{package}")
-        text.append(
-            f"\nratio {format_fraction(part.ratio_tolerance, DIGITS)}, "
-            f"{format_tempco(part.tracking_tempco_per_k, DIGITS)}"
-        )
-    else:
-        text.append(
-            f"\n±{format_fraction(part.tolerance, DIGITS)} "
-            f"{format_tempco(part.tempco_per_k, DIGITS)}"
-        )
+def _short_ohms(ohms: float) -> str:
+    """A value without the unit sign: ``4990 -> "4.99k"``."""
+    return format_resistance(ohms, DIGITS).replace(" Ω", "").replace(" ", "")
+
+
+def buy_lines(design: Design) -> list[tuple[str, int, str, DiscretePart | NetworkPart]]:
+    """The distinct parts of ``design`` as (part id, quantity, where it goes, part): a
+    discrete part's quantity counts its positions; a network's its packages, and where it
+    goes maps each position to its element (``R1=#1``, 1-based); with two packages of one
+    part, the positions of each package are listed after its number
+    (``package 1: R1=#1 R2=#2; package 2: R3=#1 R4=#2``)."""
+    lines: dict[str, tuple[dict[int, list[str]], DiscretePart | NetworkPart]] = {}
+    for index, placement in enumerate(design.placements):
+        part = placement.part
+        groups, _ = lines.setdefault(part.part_id, ({}, part))
+        if isinstance(part, NetworkPart):
+            assert placement.element is not None
+            groups.setdefault(placement.package, []).append(
+                f"{placement.position}=#{placement.element + 1}"
+            )
+        else:
+            groups.setdefault(index, []).append(placement.position)
+    out: list[tuple[str, int, str, DiscretePart | NetworkPart]] = []
+    for part_id, (groups, part) in lines.items():
+        if isinstance(part, NetworkPart) and len(groups) > 1:
+            where = "; ".join(f"package {k + 1}: {' '.join(v)}" for k, v in groups.items())
+        else:
+            where = " ".join(w for v in groups.values() for w in v)
+        out.append((part_id, len(groups), where, part))
+    return out
+
+
+def _stock_word(part: DiscretePart | NetworkPart) -> str:
+    return f"yes ({part.stock_qty:,})" if part.in_stock else "no"
+
+
+def _buy_cell(shown: Shown, also: Sequence[Shown], stock: bool) -> Text:
+    """Build and values on the first lines; then one line per part to buy (id whole, then
+    quantity and positions), the stock of each part when ``stock``; last the other base values
+    of the same family at the same cost."""
+    design = shown.design
+    text = Text(TOPOLOGY_LABELS[design.topology], style="bold")
+    values = "  ".join(f"{p.position} {_short_ohms(p.resistance_ohm)}" for p in design.placements)
+    text.append(f"\n{values}")
+    for part_id, quantity, where, part in buy_lines(design):
+        text.append("\n")
+        text.append(part_id, style="bold cyan")
+        text.append(f" ×{quantity}")
+        stocked = f"; in stock: {_stock_word(part)}" if stock else ""
+        text.append(f"\n  {where}{stocked}", style="dim")
+    others = _also_values(shown, also)
+    if others:
+        text.append(f"\nalso at this cost: {others}", style="italic")
     return text
+
+
+def _base_text(design: Design) -> str:
+    return "+".join(_short_ohms(v) for v in base_values(design))
+
+
+def _also_values(shown: Shown, also: Sequence[Shown]) -> str:
+    """The base values of the other members of the family (``1k, 2k, 5k …``), each once; the
+    count of members that differ only in part ids."""
+    mine = _base_text(shown.design)
+    names: list[str] = []
+    same = 0
+    for other in also:
+        name = _base_text(other.design)
+        if name == mine:
+            same += 1
+        elif name not in names:
+            names.append(name)
+    words = ", ".join(names[:ALSO_SHOWN])
+    if len(names) > ALSO_SHOWN:
+        words += f" … ({len(names)} values in all)"
+    if same:
+        words += ("; " if words else "") + f"{same} other part choice(s) at these values"
+    return words
 
 
 def _noise(verification: Verification) -> str:
@@ -252,27 +363,19 @@ def _noise(verification: Verification) -> str:
     return "n/a"
 
 
-#: Shorter names than ``label_of`` gives, for the narrow margin column.
-_SHORT_LABELS: Final = {"yield": "yield"}
-
-
 def _tightest(verification: Verification) -> Text:
     tight = verification.tightest
     style = "green" if tight.passed else "bold red"
-    label = _SHORT_LABELS.get(tight.name) or label_of(tight.name)
-    return Text(f"{label}\n{_figure(tight.margin, tight.unit, signed=True)}", style=style)
+    return Text(
+        f"{label_of(tight.name)}\n{_figure(tight.margin, tight.unit, signed=True)}", style=style
+    )
 
 
-def _row(shown: Shown) -> list[RenderableType]:
+def _figures(shown: Shown, spec: Spec) -> list[Text]:
     verification = shown.verification
     worst = verification.worst_case
     mc = verification.monte_carlo
-    rank = str(shown.rank) if shown.rank is not None else "other"
     return [
-        Text(rank),
-        Text(TOPOLOGY_LABELS[shown.design.topology]),
-        *(_part_cell(p) for p in shown.design.placements),
-        Text(f"{shown.cost.total:.3f}"),
         Text(_db(worst.cmrr_db)),
         Text(_db(mc.cmrr_at_yield_db) if mc is not None else "n/a"),
         Text(f"±{_pct(worst.gain_error_worst)}"),
@@ -281,19 +384,53 @@ def _row(shown: Shown) -> list[RenderableType]:
     ]
 
 
+def _row(
+    shown: Shown, also: Sequence[Shown], spec: Spec, wide: bool, stock: bool
+) -> list[RenderableType]:
+    rank = str(shown.rank) if shown.rank is not None else "other"
+    head = [Text(rank), _buy_cell(shown, also, stock), Text(f"{shown.cost.total:.3f}")]
+    figures = _figures(shown, spec)
+    if wide:
+        return [*head, *figures]
+    yield_pct = format_fraction(spec.requirements.yield_target)
+    stacked = Text()
+    for label, cell in zip(
+        ("CMRR worst ", f"CMRR at {yield_pct} ", "gain error ", "noise ", "tightest: "),
+        figures,
+        strict=True,
+    ):
+        if stacked:
+            stacked.append("\n")
+        stacked.append(label, style="dim")
+        stacked.append_text(cell)
+    return [*head, stacked]
+
+
 def render_pick_table(
-    shown: Sequence[Shown], spec: Spec, title: str, *, explain: bool = True
+    shown: Sequence[Shown],
+    spec: Spec,
+    title: str,
+    *,
+    explain: bool = True,
+    width: int = 160,
+    members: Sequence[Sequence[Shown]] = (),
+    stock: bool = False,
 ) -> Table:
-    """The designs as a table (the columns are :data:`TABLE_COLUMNS`); ``explain``: a caption
-    saying what the CMRR columns mean."""
+    """The designs as a table: :data:`TABLE_COLUMNS` from :data:`WIDE_FROM` columns of
+    ``width``, else :data:`NARROW_COLUMNS` (the figures stacked); ``members``: per design the
+    other designs of its family (named as "also at this cost"); ``stock``: show the house stock
+    of each part; ``explain``: a caption saying what the CMRR columns mean."""
     req = spec.requirements
+    yield_pct = format_fraction(req.yield_target)
     caption = (
-        f"CMRR worst: every tolerance, tempco over {req.temp_min_c:g} to {req.temp_max_c:g} °C"
-        f"{', life drift' if req.life_s > 0 else ''}, source and REF impedance and the "
-        f"amplifier at once (floor {req.cmrr_floor_db:g} dB). CMRR stat.: reached by "
-        f"{format_fraction(req.yield_target)} of {spec.preferences.samples:,} Monte-Carlo builds."
-        " rel. cost: relative units."
+        f"CMRR worst case: every tolerance, tempco over {req.temp_min_c:g} to "
+        f"{req.temp_max_c:g} °C{', life drift' if req.life_s > 0 else ''}, source and REF "
+        f"impedance and the amplifier at once (floor {req.cmrr_floor_db:g} dB). CMRR at yield: "
+        f"the CMRR that {yield_pct} of {spec.preferences.samples:,} simulated builds reach. "
+        "Cost in relative units. One row per distinct choice: other base values of the same "
+        "parts at the same cost are named below the parts."
     )
+    wide = width >= WIDE_FROM
     table = Table(
         title=title,
         title_justify="left",
@@ -302,27 +439,35 @@ def render_pick_table(
         caption_justify="left",
         show_lines=True,
     )
-    for name in TABLE_COLUMNS:
-        numeric = name in (
-            "#",
-            "rel. cost",
-            "CMRR worst",
-            "CMRR stat.",
-            "gain err. worst",
-            "noise out",
-        )
+    id_width = max(
+        (len(line[0]) + 3 + len(str(line[1])) for s in shown for line in buy_lines(s.design)),
+        default=10,
+    )
+    for name in TABLE_COLUMNS if wide else NARROW_COLUMNS:
+        numeric = name not in ("what to buy", "tightest margin", "figures")
         table.add_column(
             name,
             justify="right" if numeric else "left",
-            no_wrap=name in ("#", "CMRR worst", "CMRR stat."),
+            no_wrap=name in ("#", "cost (rel.)", "CMRR worst case", "CMRR at yield"),
+            min_width=id_width if name == "what to buy" else None,
+            overflow="fold",
         )
-    for item in shown:
-        table.add_row(*_row(item))
+    for i, item in enumerate(shown):
+        also = members[i] if i < len(members) else ()
+        table.add_row(*_row(item, also, spec, wide, stock))
     return table
 
 
+#: The objectives in words (the spec and the JSON keep the values of ``Objective``).
+OBJECTIVE_WORDS: Final = {
+    Objective.COST: "lowest cost",
+    Objective.CMRR_MARGIN: "most CMRR margin",
+    Objective.PLACEMENTS: "fewest parts to place",
+}
+
+
 def _objective_words(spec: Spec) -> str:
-    return spec.preferences.objective.value.replace("_", " ")
+    return OBJECTIVE_WORDS[spec.preferences.objective]
 
 
 def _seconds(report: PickReport) -> str:
@@ -344,10 +489,18 @@ def render_status(report: PickReport) -> Text:
     text = Text("Status: ", style="bold")
     if r.status is SearchStatus.OPTIMAL:
         text.append("proven optimal", style="bold green")
-        if found < report.designs_asked:
-            text.append(f": only {found} design(s) meet the spec, all shown")
+        designs = found + sum(len(m) for m in report.members)
+        counted = f"{found} distinct choice(s), {designs} design(s)"
+        if found < report.designs_asked and not r.ties_cut:
+            text.append(f": only {counted} meet the spec, all shown")
         else:
-            text.append(f": the {found} best design(s) by {_objective_words(report.spec)}")
+            text.append(f": the {counted} best by {_objective_words(report.spec)}")
+        if r.ties_cut:
+            text.append(
+                f" (collection stopped after {MAX_EXTRA_DESIGNS} extra designs: the lists of "
+                "other values at the same cost may be incomplete, and more choices may exist "
+                "beyond those shown)"
+            )
     elif r.status is SearchStatus.TIME_LIMIT:
         if report.interrupted:
             stopped = "the search was interrupted"
@@ -373,11 +526,87 @@ def render_status(report: PickReport) -> Text:
     return text
 
 
-def render_pick(report: PickReport) -> RenderableType:
-    """The whole output as one Rich renderable (nothing is printed here): safety cautions
-    when the spec has any, the ranked table, the best design of the missing kind, the status
-    line, the diagnosis when nothing meets the spec, and the full check report of the
-    winner."""
+def _kind_words(best: KindBest, floor_db: float, basis: str) -> str:
+    if best.meets and best.cost is not None and best.cmrr_db is not None:
+        return f"{best.kind}: cheapest at cost {best.cost:.3f} with {best.cmrr_db:.2f} dB {basis}"
+    dash = best.kind.replace(" ", "-")
+    if best.cost is None or best.cmrr_db is None:
+        within = " within the search's time bound" if best.timed_out else ""
+        return f"no {dash} design reaches {floor_db:g} dB, and none was found{within}"
+    found = " (best found within the search's time bound)" if best.timed_out else ""
+    return (
+        f"no {dash} design reaches {floor_db:g} dB; the best reaches {best.cmrr_db:.2f} dB "
+        f"{basis} at cost {best.cost:.3f}{found}"
+    )
+
+
+def trade_text(trade: Trade, spec: Spec) -> str:
+    """One line: each kind's best (or why it has none) and what the extra decibels cost."""
+    basis = (
+        f"at {format_fraction(spec.requirements.yield_target)} yield"
+        if spec.requirements.cmrr_basis is CmrrBasis.YIELD
+        else "worst case"
+    )
+    d, n = trade.discrete, trade.network
+    words = [_kind_words(d, trade.floor_db, basis), _kind_words(n, trade.floor_db, basis)]
+    if d.meets and n.meets:
+        assert d.cost is not None and n.cost is not None
+        assert d.cmrr_db is not None and n.cmrr_db is not None
+        cheap, dear = (d, n) if d.cost <= n.cost else (n, d)
+        assert cheap.cmrr_db is not None and dear.cmrr_db is not None
+        assert cheap.cost is not None and dear.cost is not None
+        extra = dear.cmrr_db - cheap.cmrr_db
+        if extra <= 0.0:
+            words.append(f"the {cheap.kind} design is cheaper and has {-extra:.2f} dB more")
+        else:
+            rate = cost_per_db(cheap.cost, cheap.cmrr_db, dear.cost, dear.cmrr_db)
+            words.append(
+                f"the {dear.kind} design's extra {extra:.2f} dB cost {dear.cost - cheap.cost:.3f}"
+                f" more ({rate:.3f} per dB)"
+            )
+    return "Discrete or network: " + "; ".join(words) + "."
+
+
+def render_buy(report: PickReport) -> Table | None:
+    """The "buy this" block for the winner: each part id once with its quantity, where each
+    element goes, whether house stock has it, its unit cost; the total cost in the caption."""
+    winner = report.winner
+    if winner is None:
+        return None
+    cost = winner.cost
+    table = Table(
+        title=f"Buy this (choice 1, {TOPOLOGY_LABELS[winner.design.topology]})",
+        title_justify="left",
+        header_style="bold",
+        caption=(
+            f"Total relative cost {cost.total:.3f}: parts {cost.parts:.3f}, placements "
+            f"{cost.placements:.3f}, BOM lines {cost.lines:.3f}, stock penalty "
+            f"{cost.stock_penalty:.3f}."
+        ),
+        caption_justify="left",
+    )
+    table.add_column("part id", no_wrap=True)
+    table.add_column("qty", justify="right", no_wrap=True)
+    table.add_column("goes to (position=element)", overflow="fold")
+    table.add_column("in house stock", no_wrap=True)
+    table.add_column("unit cost", justify="right", no_wrap=True)
+    for part_id, quantity, where, part in buy_lines(winner.design):
+        table.add_row(
+            Text(part_id),
+            Text(str(quantity)),
+            Text(where),
+            Text(_stock_word(part)),
+            Text(f"{part.unit_cost:.3f}"),
+        )
+    return table
+
+
+def render_pick(report: PickReport, width: int = 160) -> RenderableType:
+    """The whole output as one Rich renderable (nothing is printed here), laid out for a
+    terminal ``width`` columns wide: safety cautions when the spec has any, the ranked table
+    (one row per distinct choice), the best design of the missing kind, the "buy this" block,
+    the status line, the diagnosis when nothing meets the spec, and the full check report of
+    the winner. User text (titles, paths) is never read as markup."""
     spec = report.spec
     title = spec.title or "spec"
     where = f" ({spec.source_path})" if spec.source_path else ""
@@ -394,7 +623,11 @@ def render_pick(report: PickReport) -> RenderableType:
             render_pick_table(
                 report.ranked,
                 spec,
-                f"Designs that meet the spec, best first by {_objective_words(spec)}{basis}",
+                f"Distinct choices that meet the spec, best first by {_objective_words(spec)}"
+                f"{basis}",
+                width=width,
+                members=report.members,
+                stock=report.stock_known,
             )
         )
     if report.other_kind:
@@ -404,8 +637,15 @@ def render_pick(report: PickReport) -> RenderableType:
                 spec,
                 "Best of the kind the ranking above lacks (shown for comparison)",
                 explain=not report.ranked,
+                width=width,
+                stock=report.stock_known,
             )
         )
+    if report.trade is not None:
+        parts.append(Text(trade_text(report.trade, spec)))
+    buy = render_buy(report)
+    if buy is not None:
+        parts.append(buy)
     parts.append(render_status(report))
     if report.diagnosis is not None:
         parts.append(Text("Diagnosis: ", style="bold").append(report.diagnosis.text, style=""))
@@ -421,7 +661,7 @@ def render_pick(report: PickReport) -> RenderableType:
 # ---------------------------------------------------------------------------------------------
 
 
-def _design_json(shown: Shown) -> dict[str, Any]:
+def _design_json(shown: Shown, family_size: int = 1) -> dict[str, Any]:
     verification = shown.verification
     worst = verification.worst_case
     mc = verification.monte_carlo
@@ -470,6 +710,9 @@ def _design_json(shown: Shown) -> dict[str, Any]:
             "margin": float(tight.margin),
             "unit": tight.unit or "fraction",
         },
+        "family_key": family_id(family_key(shown.design, cost)),
+        "family_size": family_size,
+        "in_stock": all(p.part.in_stock for p in shown.design.placements),
     }
 
 
@@ -498,8 +741,31 @@ def pick_to_json(report: PickReport, warnings: Sequence[str] = ()) -> dict[str, 
             "solves": r.solves,
             "model_size": r.option_count,
         },
-        "ranked": [_design_json(s) for s in report.ranked],
+        "ranked": [
+            _design_json(s, 1 + (len(report.members[i]) if i < len(report.members) else 0))
+            for i, s in enumerate(report.ranked)
+        ],
+        "family_members": [
+            _design_json(m, 1 + len(group)) for group in report.members for m in group
+        ],
         "other_kind": [_design_json(s) for s in report.other_kind],
+        "kind_trade": None
+        if report.trade is None
+        else {
+            "text": trade_text(report.trade, spec),
+            **{
+                key: {
+                    "meets_spec": b.meets,
+                    "cost": b.cost,
+                    "cmrr_db": b.cmrr_db,
+                    "search_timed_out": b.timed_out,
+                }
+                for key, b in (
+                    ("four_discrete", report.trade.discrete),
+                    ("network", report.trade.network),
+                )
+            },
+        },
         "diagnosis": None
         if diagnosis is None
         else {

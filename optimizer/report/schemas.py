@@ -180,6 +180,9 @@ _PICK_DESIGN: Final = _obj(
         ),
         "output_noise_v_rms": _NUM_N,
         "tightest": _obj({"name": _STR, **_MARGIN}),
+        "family_key": _STR,
+        "family_size": _INT,
+        "in_stock": _BOOL,
     }
 )
 
@@ -211,7 +214,25 @@ PICK_SCHEMA: Final[dict[str, Any]] = {
                 }
             ),
             "ranked": _arr(_PICK_DESIGN),
+            "family_members": _arr(_PICK_DESIGN),
             "other_kind": _arr(_PICK_DESIGN),
+            "kind_trade": _obj(
+                {
+                    "text": _STR,
+                    **{
+                        k: _obj(
+                            {
+                                "meets_spec": _BOOL,
+                                "cost": _NUM_N,
+                                "cmrr_db": _NUM_N,
+                                "search_timed_out": _BOOL,
+                            }
+                        )
+                        for k in ("four_discrete", "network")
+                    },
+                },
+                nullable=True,
+            ),
             "diagnosis": _obj(
                 {
                     "binding": _arr(_STR),

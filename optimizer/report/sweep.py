@@ -77,7 +77,7 @@ def render_sweep_table(result: SweepResult, title: str) -> Table:
     at which each kind is feasible is marked."""
     marks = {kind: last_feasible(result, kind) for kind in SERIES}
     table = Table(
-        title=title,
+        title=Text(title),  # user text (the spec title): never read as markup or emoji
         title_justify="left",
         header_style="bold",
         caption=f"Relative cost units; each search limited to {result.time_limit_s:g} s.",
@@ -99,39 +99,62 @@ def render_sweep_table(result: SweepResult, title: str) -> Table:
 
 def sweep_text_chart(result: SweepResult, rows: int = CHART_ROWS) -> str:
     """Cost against floor as characters: ``d`` a discrete design, ``n`` a network design,
-    ``*`` both at the same height; one column per floor, cost rising upwards (linear scale
-    from zero to the highest cost found)."""
+    ``*`` both at the same height; below the axis, per kind, ``x`` none exists, ``?`` none
+    found in time; one column per floor, cost rising upwards (linear scale from the lowest to the
+    highest cost found, so no design is drawn at a cost it does not have)."""
     costs = [c for kind in SERIES for c in (s.cost for s in _series(result, kind)) if c is not None]
     if not costs:
         return "(no design found at any floor)"
-    top = max(costs) or 1.0
+    top, low = max(costs), min(costs)
+    span = (top - low) or 1.0
     width = len(result.points)
     grid = [[" "] * width for _ in range(rows)]
     for kind, mark in (("discrete", "d"), ("network", "n")):
         for column, point in enumerate(_series(result, kind)):
             if point.cost is None:
                 continue
-            row = min(rows - 1, round(point.cost / top * (rows - 1)))
+            row = min(rows - 1, round((point.cost - low) / span * (rows - 1)))
             cell = grid[rows - 1 - row]
             cell[column] = "*" if cell[column] not in (" ", mark) else mark
-    labels = [f"{top * (rows - 1 - i) / (rows - 1):.3g}" for i in range(rows)]
+    labels = [f"{low + span * (rows - 1 - i) / (rows - 1):.4g}" for i in range(rows)]
     label = max(len(text) for text in labels)
     lines = []
     for text, line in zip(labels, grid, strict=True):
         lines.append(f"{text:>{label}} |" + " ".join(line))
     lines.append(" " * label + " +" + "-" * (2 * width - 1))
+    for kind, name in (("discrete", "no d"), ("network", "no n")):
+        marks = [
+            " "
+            if p.cost is not None or p.status is None
+            else ("x" if p.status is SearchStatus.INFEASIBLE else "?")
+            for p in _series(result, kind)
+        ]
+        if any(m != " " for m in marks):
+            lines.append(f"{name:>{label}} |" + " ".join(marks))
     first, last = result.points[0].level, result.points[-1].level
     lines.append(
         " " * label
         + f"  {axis_label(result)} {level_text(result, first)} ... {level_text(result, last)}"
     )
-    lines.append(" " * label + "  d = four discrete, n = network, * = both; cost relative units")
+    lines.append(
+        " " * label + "  d = four discrete, n = network, * = both; rows no d / no n: x = none "
+        "exists, ? = none found in time; cost in relative units"
+    )
     return "\n".join(lines)
+
+
+#: Costs spanning more than this ratio are drawn on a log axis.
+LOG_SPAN: Final = 10.0
+#: Most x ticks drawn at the sweep's own levels.
+MAX_TICKS: Final = 25
 
 
 def sweep_plot(result: SweepResult, fmt: Literal["png", "svg"], title: str) -> bytes | None:
     """The cost curves as PNG or SVG bytes, or None when matplotlib (optional extra ``plot``)
-    is not installed."""
+    is not installed. Ticks at the sweep's levels; a log cost axis when the costs span more
+    than :data:`LOG_SPAN`; a design found but not proven cheapest (the time limit) drawn
+    hollow; a level where none was found marked along the bottom (``x``: none exists, ``?``:
+    none found in time); nothing clipped (a tight bounding box, the title wrapped)."""
     try:
         import matplotlib
 
@@ -139,23 +162,56 @@ def sweep_plot(result: SweepResult, fmt: Literal["png", "svg"], title: str) -> b
         import matplotlib.pyplot as plt
     except ImportError:
         return None
+    import textwrap
+
+    scale = 1.0 if result.axis == "cmrr" else 100.0
+    levels = [p.level * scale for p in result.points]
+    costs = [c for kind in SERIES for c in (s.cost for s in _series(result, kind)) if c is not None]
     figure, axes = plt.subplots(figsize=(7, 4))
     try:
-        for kind, style in (("discrete", "o-"), ("network", "s-")):
-            pairs = [
-                (p.level * (1.0 if result.axis == "cmrr" else 100.0), s.cost)
-                for p, s in zip(result.points, _series(result, kind), strict=True)
+        log = bool(costs) and min(costs) > 0 and max(costs) / min(costs) > LOG_SPAN
+        if log:
+            axes.set_yscale("log")
+        bottom = min(costs) if costs else 1.0
+        for kind, marker, colour in (("discrete", "o", "#1f5f99"), ("network", "s", "#b5651d")):
+            series = _series(result, kind)
+            found = [
+                (x, s.cost, s.status is SearchStatus.OPTIMAL)
+                for x, s in zip(levels, series, strict=True)
                 if s.cost is not None
             ]
-            if pairs:
-                axes.plot([f for f, _ in pairs], [c for _, c in pairs], style, label=kind)
+            if found:
+                axes.plot([x for x, _, _ in found], [c for _, c, _ in found], "-", color=colour,
+                          label=kind)  # fmt: skip
+                for x, cost, proven in found:
+                    axes.plot([x], [cost], marker, color=colour,
+                              markerfacecolor=colour if proven else "white")  # fmt: skip
+            for x, point in zip(levels, series, strict=True):
+                if point.cost is None and point.status is not None:
+                    none = point.status is SearchStatus.INFEASIBLE
+                    axes.plot([x], [bottom], linestyle="none", marker="x" if none else "$?$",
+                              color=colour, markersize=9)  # fmt: skip
+        for marker, face, words in (
+            ("o", "white", "not proven cheapest"),
+            ("x", "grey", "none exists"),
+            ("$?$", "grey", "none found in time"),
+        ):
+            axes.plot([], [], linestyle="none", marker=marker, color="grey",
+                      markerfacecolor=face, label=words)  # fmt: skip
+        if len(levels) <= MAX_TICKS:
+            axes.set_xticks(levels)
+        else:
+            step = -(-len(levels) // MAX_TICKS)
+            axes.set_xticks(levels[::step])
+        axes.tick_params(axis="x", labelrotation=45 if len(levels) > 12 else 0)
         axes.set_xlabel("CMRR floor (dB)" if result.axis == "cmrr" else "gain accuracy (± %)")
-        axes.set_ylabel("cheapest cost (relative units)")
-        axes.set_title(title)
-        axes.legend()
+        axes.set_ylabel("cheapest cost (relative units" + (", log scale)" if log else ")"))
+        axes.set_title("\n".join(textwrap.wrap(title, 60)), fontsize=10)
+        axes.legend(fontsize=8)
+        figure.tight_layout()
         buffer = io.BytesIO()
         metadata = {"Date": None} if fmt == "svg" else {"Software": None}
-        figure.savefig(buffer, format=fmt, metadata=metadata)
+        figure.savefig(buffer, format=fmt, metadata=metadata, bbox_inches="tight")
     finally:
         plt.close(figure)
     return buffer.getvalue()

@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import math
 import time
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field, replace
 from enum import Enum
 from typing import Protocol
@@ -34,11 +34,15 @@ from .environment import LinearEnvironment, linear_environment
 from .frontier import discrete_frontier, network_frontier
 from .model import COST_SCALE, BuiltModel, Limits, ModelVariant, build_model, limits_for
 from .options import ALL_SHAPES, DIVIDER_SHAPES, EQUAL_SHAPES, OptionTable, build_options
+from .ranking import binding_requirement, family_key, tie_key
 
 __all__ = ["Candidate", "OrderedDesigns", "PickResult", "SearchStatus", "pick", "solver_parameters"]
 
 DEFAULT_TIME_LIMIT_S = 30.0
 MAX_CUTS = 400
+#: Most designs taken beyond the count asked for, to complete the tie group at the cut and (for
+#: distinct choices) the families: a bound on the work, reported as ``PickResult.ties_cut``.
+MAX_EXTRA_DESIGNS = 200
 NETWORK_TOPOLOGIES = frozenset(
     {Topology.QUAD, Topology.EQUAL_PAIRS, Topology.DIVIDER_PAIRS, Topology.PAIR_PLUS_DISCRETE}
 )
@@ -91,6 +95,12 @@ class PickResult:
     solves: int
     option_count: int
     rejected: tuple[tuple[Design, Verdict], ...] = field(default=())
+    #: Per ranked design, the 1-based number of its distinct choice (family, see
+    #: ``optimizer.solve.ranking``); every design of one family has the same number.
+    choices: tuple[int, ...] = field(default=())
+    #: The collection stopped at MAX_EXTRA_DESIGNS: the last tie group (or the lists of
+    #: family members) may be incomplete; the cost order of what is shown stays exact.
+    ties_cut: bool = False
 
 
 def solver_parameters(time_limit_s: float, workers: int = 1, seed: int = 0) -> cp_model.CpSolver:
@@ -361,11 +371,16 @@ def pick(
     top: int | None = None,
     time_limit_s: float | None = None,
     workers: int = 1,
+    distinct: bool = False,
 ) -> PickResult:
     """The ``top`` best designs (by the spec's objective) from ``catalog`` that pass ``verifier``.
 
     One stream of designs per allowed topology, merged best first (ties go to the topology
-    listed first in :class:`Topology`). Infeasibility is not an exception here: an empty
+    listed first in :class:`Topology`). ``distinct`` (the CLI's ranking): ``top`` counts
+    distinct choices (families, ``optimizer.solve.ranking``); designs of equal cost are ordered
+    by the tie-breaks there, the whole tie group at the cut being fetched first; ``ranked``
+    holds every design of the first ``top`` families, grouped by family and numbered in
+    ``PickResult.choices``. Infeasibility is not an exception here: an empty
     ``ranked`` with status INFEASIBLE lets the caller run the diagnosis."""
     wanted = top if top is not None else spec.preferences.alternatives
     started = time.perf_counter()
@@ -384,21 +399,36 @@ def pick(
             return replay[i].pop(0)
         return streams[i].next(verifier, clock, workers)
 
-    _bound_cp_sat_streams(streams, replay, wanted, spec, verifier, clock, workers)
+    _bound_cp_sat_streams(streams, replay, wanted, spec, verifier, clock, workers, distinct)
     heads: list[tuple[float, Candidate] | None] = [advance(i) for i in range(len(streams))]
-    found: list[Candidate] = []
-    while len(found) < wanted:
+    taken: list[tuple[float, Candidate]] = []
+    families: set[tuple[object, ...]] = set()
+    ties_cut = False
+    while True:
         live = [(head[0], i) for i, head in enumerate(heads) if head is not None]
         if not live:
             break
-        _, best = min(live)
+        key, best = min(live)
+        if distinct:
+            if len(families) >= wanted and not _same_key(key, taken[-1][0]):
+                break  # the tie group at the cut is complete
+            if len(taken) >= wanted + MAX_EXTRA_DESIGNS:
+                ties_cut = True
+                break
         head = heads[best]
         assert head is not None
-        found.append(head[1])
-        # The stream's next design is needed only if more are wanted (not for the extras, which
-        # come from streams of the other kind).
-        heads[best] = advance(best) if len(found) < wanted else None
-    extras = _best_of_each_kind(found, streams, heads)
+        taken.append(head)
+        families.add(family_key(head[1].design, head[1].cost))
+        if not distinct and len(taken) >= wanted:
+            # Plain ranking: the stream's next design is not needed (the extras come from the
+            # streams of the other kind).
+            heads[best] = None
+            break
+        heads[best] = advance(best)
+    found, choices = _order(taken, wanted, distinct)
+    kept = {id(c) for c in found}
+    left = [t for t in taken if id(t[1]) not in kept]
+    extras = _best_of_each_kind(found, streams, heads, left)
     timed_out = any(s.timed_out for s in streams)
     rejected = [r for s in streams for r in s.rejected]
     if found:
@@ -423,7 +453,50 @@ def pick(
         solves=sum(s.solves for s in streams),
         option_count=problem.size,
         rejected=tuple(rejected),
+        choices=choices,
+        ties_cut=ties_cut,
     )
+
+
+def _same_key(a: float, b: float) -> bool:
+    """Two ranking keys are a tie (equal up to rounding of sums of relative costs)."""
+    return math.isclose(a, b, rel_tol=1e-9, abs_tol=1e-12)
+
+
+def _order(
+    taken: list[tuple[float, Candidate]], wanted: int, distinct: bool
+) -> tuple[list[Candidate], tuple[int, ...]]:
+    """The taken designs (best key first) with each tie group sorted by the tie-breaks of
+    ``optimizer.solve.ranking`` and cut to the designs of the first ``wanted`` families,
+    grouped by family (``distinct``), or the first ``wanted`` in merge order; with each
+    design's family number."""
+    if not distinct:  # the merge order (ties: the topology listed first)
+        numbers_plain: dict[tuple[object, ...], int] = {}
+        plain = [c for _, c in taken[:wanted]]
+        fams = [family_key(c.design, c.cost) for c in plain]
+        return plain, tuple(numbers_plain.setdefault(f, len(numbers_plain) + 1) for f in fams)
+    ordered: list[Candidate] = []
+    start = 0
+    while start < len(taken):
+        end = start
+        while end < len(taken) and _same_key(taken[end][0], taken[start][0]):
+            end += 1
+        group = [c for _, c in taken[start:end]]
+        binding = binding_requirement([c.verdict for c in group])
+        ordered.extend(sorted(group, key=lambda c: tie_key(c.design, c.verdict, binding)))
+        start = end
+    numbers: dict[tuple[object, ...], int] = {}
+    members: dict[int, list[Candidate]] = {}
+    for candidate in ordered:
+        fam = family_key(candidate.design, candidate.cost)
+        number = numbers.setdefault(fam, len(numbers) + 1)
+        members.setdefault(number, []).append(candidate)
+    found: list[Candidate] = []
+    choices: list[int] = []
+    for number in range(1, min(wanted, len(members)) + 1):
+        found.extend(members[number])
+        choices.extend([number] * len(members[number]))
+    return found, tuple(choices)
 
 
 def _bound_cp_sat_streams(
@@ -434,6 +507,7 @@ def _bound_cp_sat_streams(
     verifier: Verifier,
     clock: _Clock,
     workers: int,
+    distinct: bool = False,
 ) -> None:
     """Take the wanted number of designs from the exact enumerations first (kept in ``replay``
     for the merge); the cost of the last of them bounds every CP-SAT stream's objective from
@@ -450,6 +524,7 @@ def _bound_cp_sat_streams(
         return
     heads = {i: streams[i].next(verifier, clock, workers) for i in fronts}
     taken = 0
+    families: set[tuple[object, ...]] = set()
     last = math.inf
     while taken < wanted:
         live = [(head[0], i) for i, head in heads.items() if head is not None]
@@ -459,7 +534,9 @@ def _bound_cp_sat_streams(
         head = heads[best]
         assert head is not None
         replay[best].append(head)
-        taken += 1
+        families.add(family_key(head[1].design, head[1].cost))
+        # Distinct choices: the bound is the cost of the wanted-th family, not design.
+        taken = len(families) if distinct else taken + 1
         heads[best] = streams[best].next(verifier, clock, workers) if taken < wanted else None
     for i, head in heads.items():
         if head is not None:
@@ -507,9 +584,11 @@ def _best_of_each_kind(
     found: list[Candidate],
     streams: list[_Stream | _FrontierStream],
     heads: list[tuple[float, Candidate] | None],
+    left: Sequence[tuple[float, Candidate]] = (),
 ) -> tuple[Candidate, ...]:
     """When the ranking shows only discrete or only network designs although both kinds are
-    allowed, add the best design of the missing kind (the next head of its streams)."""
+    allowed, add the best design of the missing kind (the next head of its streams, or a design
+    taken but left out of the ranking: ``left``)."""
     if not found:
         return ()
     shown_discrete = any(c.design.topology is Topology.DISCRETE for c in found)
@@ -523,6 +602,7 @@ def _best_of_each_kind(
             for stream, head in zip(streams, heads, strict=False)
             if head is not None and (Topology.DISCRETE in stream.topologies) == want_discrete
         ]
+        pool += [t for t in left if (t[1].design.topology is Topology.DISCRETE) == want_discrete]
         if pool:
             extras.append(min(pool, key=lambda h: h[0])[1])
     return tuple(extras)
