@@ -18,11 +18,15 @@ if str(ROOT) not in sys.path:  # a checkout used without installing
     sys.path.append(str(ROOT))
 
 from optimizer.cli import build_parser  # noqa: E402
-from optimizer.report.schemas import CHECK_SCHEMA, PICK_SCHEMA  # noqa: E402
+from optimizer.report.schemas import BOARD_SCHEMA, CHECK_SCHEMA, PICK_SCHEMA  # noqa: E402
 
 #: Width the help text is wrapped at (argparse reads COLUMNS).
 HELP_COLUMNS = "100"
-SCHEMAS = {"quartet-pick.schema.json": PICK_SCHEMA, "quartet-check.schema.json": CHECK_SCHEMA}
+SCHEMAS = {
+    "quartet-pick.schema.json": PICK_SCHEMA,
+    "quartet-check.schema.json": CHECK_SCHEMA,
+    "quartet-board.schema.json": BOARD_SCHEMA,
+}
 
 
 def _parsers(

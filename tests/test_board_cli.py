@@ -16,27 +16,21 @@ import json
 from pathlib import Path
 
 import pytest
+from helpers import EXAMPLES, run_cli
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from rich.console import Console
 
 from optimizer.board.boardfile import parse_board_text
-from optimizer.cli import EXIT_BAD_INPUT, EXIT_NOT_MET, EXIT_OK, main
+from optimizer.cli import EXIT_BAD_INPUT, EXIT_NOT_MET, EXIT_OK
 from optimizer.errors import SpecError
+from optimizer.report.schemas import BOARD_SCHEMA, schema_errors
 
-EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 BOARD = EXAMPLES / "drive_board.yaml"
 HOUSE_CSV = EXAMPLES / "house_stock.csv"
 
 
 def run(args: list[str]) -> tuple[int, str, str]:
-    out, err = io.StringIO(), io.StringIO()
-    code = main(
-        args,
-        console=Console(file=out, width=200, color_system=None),
-        err=Console(file=err, width=200, color_system=None),
-    )
-    return code, out.getvalue(), err.getvalue()
+    return run_cli(args)
 
 
 def house_parts() -> dict[str, dict[str, str]]:
@@ -173,6 +167,20 @@ def test_an_amplifier_that_cannot_be_met_exits_1_with_its_diagnosis(tmp_path: Pa
     assert code == EXIT_NOT_MET
     assert "nothing in the catalogs meets too precise" in out
     assert "Diagnosis of too precise" in out
+    # the JSON document of a board that cannot be built still matches its schema
+    code, text, _ = run(["board", str(board), "--time-limit", "20", "--json"])
+    document = json.loads(text)
+    assert schema_errors(document, BOARD_SCHEMA) == []
+    assert document["boards"] == [] and document["diagnosis"][0]["amplifier"] == "too precise"
+
+
+def test_board_json_matches_its_schema(board_run: tuple[int, dict, str, Path]) -> None:
+    """The quartet-board/1 document of the example validates against the published schema
+    (docs/schemas/quartet-board.schema.json), which refuses unknown keys and wrong types."""
+    _, document, _, _ = board_run
+    assert schema_errors(document, BOARD_SCHEMA) == []
+    broken = {**document, "saving": {"board_total": "cheap"}}
+    assert schema_errors(broken, BOARD_SCHEMA) != []
 
 
 @settings(max_examples=80, deadline=None, derandomize=True, database=None)

@@ -1,7 +1,8 @@
-"""JSON Schemas (draft 2020-12 vocabulary) of the ``quartet-pick/1`` and ``quartet-check/1``
-documents, as Python dicts (``json.dumps`` of one is a schema file), and a small validator for
-the subset of the vocabulary they use: ``type`` (one or a list), ``const``, ``enum``,
-``properties``, ``required``, ``additionalProperties: false``, ``items`` and ``minimum``.
+"""JSON Schemas (draft 2020-12 vocabulary) of the ``quartet-pick/1``, ``quartet-check/1`` and
+``quartet-board/1`` documents, as Python dicts (``json.dumps`` of one is a schema file), and a
+small validator for the subset of the vocabulary they use: ``type`` (one or a list),
+``const``, ``enum``, ``properties``, ``required``, ``additionalProperties: false``, ``items``
+and ``minimum``.
 """
 
 from __future__ import annotations
@@ -10,7 +11,7 @@ from typing import Any, Final
 
 from ..design import Topology
 
-__all__ = ["CHECK_SCHEMA", "PICK_SCHEMA", "schema_errors"]
+__all__ = ["BOARD_SCHEMA", "CHECK_SCHEMA", "PICK_SCHEMA", "schema_errors"]
 
 _DIALECT: Final = "https://json-schema.org/draft/2020-12/schema"
 
@@ -255,6 +256,113 @@ PICK_SCHEMA: Final[dict[str, Any]] = {
             "timing": _obj(
                 {"build_s": _NUM, "solve_s": _NUM, "verify_s": _NUM, "statistics_s": _NUM}
             ),
+            "non_finite": _NON_FINITE,
+        }
+    ),
+}
+
+
+_BOARD_COST: Final = _obj(
+    {
+        "parts": _NUM,
+        "placements": _NUM,
+        "lines": _NUM,
+        "stock_penalty": _NUM,
+        "total": _NUM,
+        "line_count": _INT,
+    }
+)
+_BOARD_AMPLIFIER: Final = _obj(
+    {
+        "name": _STR,
+        "quantity": _INT,
+        "designator_prefix": _STR,
+        "spec_path": _STR_N,
+        "topology": _TOPOLOGIES,
+        "positions": _arr(_obj({**_POSITION_COMMON, **_POSITION_FIGURES})),
+        "channel_cost": _obj({"parts": _NUM, "placements": _NUM}),
+        "alone_cost": _NUM_N,
+        "meets_spec": _BOOL,
+        "cmrr_worst_db": _NUM_N,
+        "gain_error_worst": _NUM_N,
+        "cmrr_at_yield_db": _NUM_N,
+    }
+)
+_BOARD_BOM_LINE: Final = _obj(
+    {
+        "part_id": _STR,
+        "kind": {"type": "string", "enum": ["discrete", "network"]},
+        "values_ohm": _arr(_NUM),
+        "tolerance": _NUM,
+        "ratio_tolerance": _NUM_N,
+        "tempco_per_k": _NUM,
+        "tracking_tempco_per_k": _NUM_N,
+        "size": _STR,
+        "quantity": _INT,
+        "designators": _arr(_STR),
+        "amplifiers": _arr(_STR),
+        "unit_cost": _NUM,
+        "extended_cost": _NUM,
+        "house_stock": _INT,
+    }
+)
+
+BOARD_SCHEMA: Final[dict[str, Any]] = {
+    "$schema": _DIALECT,
+    "$id": "quartet-board/1",
+    "title": "quartet board result",
+    **_obj(
+        {
+            "schema": {"const": "quartet-board/1"},
+            "quartet_version": _STR,
+            "board": _obj({"path": _STR_N, "title": _STR_N}),
+            "purchasing": _obj(
+                {
+                    "catalogs": _arr(_STR),
+                    "builtin_catalogs": _BOOL,
+                    "stock_policy": {"type": "string", "enum": ["any", "only", "prefer"]},
+                    "stock_penalty": _NUM,
+                    "line_cost": _NUM,
+                    "placement_cost": _NUM,
+                    "max_lines": _INT_N,
+                }
+            ),
+            "search": _obj(
+                {
+                    "status": {
+                        "type": "string",
+                        "enum": ["proven_optimal", "time_limit", "infeasible"],
+                    },
+                    "proven_optimal": _BOOL,
+                    "boards_asked": _INT,
+                    "boards_found": _INT,
+                    "time_limit_s": _NUM,
+                    "designs_read": _arr(_INT),
+                    "exact_checks": _INT,
+                    "rejected_by_exact_check": _INT,
+                }
+            ),
+            "boards": _arr(
+                _obj(
+                    {
+                        "rank": _INT,
+                        "cost": _BOARD_COST,
+                        "amplifiers": _arr(_BOARD_AMPLIFIER),
+                        "bom": _arr(_BOARD_BOM_LINE),
+                    }
+                )
+            ),
+            "alone": _obj(
+                {"cost": _BOARD_COST, "amplifiers": _arr(_BOARD_AMPLIFIER)}, nullable=True
+            ),
+            "saving": _obj(
+                {"alone_total": _NUM, "board_total": _NUM, "saving": _NUM, "fraction": _NUM},
+                nullable=True,
+            ),
+            "diagnosis": _arr(_obj({"amplifier": _STR, "binding": _arr(_STR), "text": _STR})),
+            "safety_cautions": _arr(_STR),
+            "warnings": _arr(_STR),
+            "timing": _obj({"search_s": _NUM, "statistics_s": _NUM}),
             "non_finite": _NON_FINITE,
         }
     ),
