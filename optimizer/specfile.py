@@ -36,7 +36,7 @@ from yaml.nodes import MappingNode, Node, ScalarNode
 
 from .design import Topology
 from .errors import ModelError, SpecError, UnitError
-from .inputs import SPEC_MAX_BYTES, YamlTrouble, compose_yaml, read_bounded
+from .inputs import YamlTrouble, compose_yaml
 from .parts import Amplifier, RailSpan
 from .spec import (
     MAX_SAMPLES,
@@ -83,6 +83,7 @@ from .yamlread import (
     kind_of,
     node_line,
     ohms_text,
+    read_document,
     volts_text,
 )
 
@@ -967,18 +968,5 @@ def parse_spec_text(text: str, path: str) -> Spec:
 def load_spec(path: str | os.PathLike[str]) -> Spec:
     """Read and check the spec file at ``path``. Raises :class:`SpecError` (located by file, line
     and key path) for a missing or unreadable file, bad YAML, or any problem in the content."""
-    name = os.fspath(path)
-    data = read_bounded(
-        name,
-        SPEC_MAX_BYTES,
-        lambda message: SpecError(message, path=name),
-        "spec",
-        missing="file not found",
-        folder="is a folder, not a spec file",
-    )
-    try:
-        text = data.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        line = data[: exc.start].count(b"\n") + 1
-        raise SpecError("not UTF-8 text", path=name, line=line) from None
+    name, text = read_document(path, "spec")
     return parse_spec_text(text, name)

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import difflib
 import math
+import os
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 from enum import Enum
@@ -22,6 +23,7 @@ from yaml.constructor import SafeConstructor
 from yaml.nodes import MappingNode, Node, ScalarNode, SequenceNode
 
 from .errors import ModelError, SpecError, UnitError, quote
+from .inputs import SPEC_MAX_BYTES, read_bounded
 from .units import (
     exceeds,
     format_quantity,
@@ -446,3 +448,23 @@ class Reader:
             return self.span_pair(node, key, read, expected, fmt)
 
         return inner
+
+
+def read_document(path: str | os.PathLike[str], kind: str) -> tuple[str, str]:
+    """The name and UTF-8 text (byte-order mark dropped) of the ``kind`` file at ``path``
+    (``"spec"`` or ``"board"``): a regular file of at most the spec size limit. Raises
+    :class:`SpecError` located by file (and line, for a byte that is not UTF-8)."""
+    name = os.fspath(path)
+    data = read_bounded(
+        name,
+        SPEC_MAX_BYTES,
+        lambda message: SpecError(message, path=name),
+        kind,
+        missing="file not found",
+        folder=f"is a folder, not a {kind} file",
+    )
+    try:
+        return name, data.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        line = data[: exc.start].count(b"\n") + 1
+        raise SpecError("not UTF-8 text", path=name, line=line) from None

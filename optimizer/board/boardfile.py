@@ -42,10 +42,10 @@ from pathlib import Path
 from yaml.nodes import MappingNode, Node
 
 from ..errors import ModelError, SpecError
-from ..inputs import SPEC_MAX_BYTES, YamlTrouble, compose_yaml, read_bounded
+from ..inputs import YamlTrouble, compose_yaml
 from ..spec import Spec, StockPolicy
 from ..specfile import _combined, _Schema, load_spec
-from ..yamlread import Reader, Recorded, Section, node_line
+from ..yamlread import Reader, Recorded, Section, node_line, read_document
 from .model import Board, BoardAmplifier, Purchasing
 
 __all__ = ["BOARD_FORMAT_VERSION", "load_board", "parse_board_text"]
@@ -313,18 +313,5 @@ def parse_board_text(text: str, path: str) -> Board:
 def load_board(path: str | os.PathLike[str]) -> Board:
     """Read and check the board file at ``path`` (and the spec files it names). Raises
     :class:`SpecError`, located by file, line and key path."""
-    name = os.fspath(path)
-    data = read_bounded(
-        name,
-        SPEC_MAX_BYTES,
-        lambda message: SpecError(message, path=name),
-        "board",
-        missing="file not found",
-        folder="is a folder, not a board file",
-    )
-    try:
-        text = data.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        line = data[: exc.start].count(b"\n") + 1
-        raise SpecError("not UTF-8 text", path=name, line=line) from None
+    name, text = read_document(path, "board")
     return parse_board_text(text, name)
