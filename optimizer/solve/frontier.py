@@ -269,7 +269,6 @@ class _Parts:
     spread: Array  # per class: the exact check's corner deviation δ (analysis.checks)
     power_w: Array  # per catalog row: power rating derated to the hottest temperature
     volts: Array  # per catalog row: limiting voltage
-    classes: Array  # per class (E, 3): tolerance, tempco (per K), drift bound (fractions)
 
     def variants(self, position: int, key: tuple[int, int]) -> list[tuple[float, int]]:
         """(cost, catalog row) of every usable part of class and value ``key``, cheapest first."""
@@ -286,11 +285,8 @@ def _temperature_span(spec: Spec) -> float:
 
 
 def _discrete_parts(
-    catalog: Catalog, spec: Spec, env: LinearEnvironment, lim: _Limits, floors: bool = True
+    catalog: Catalog, spec: Spec, env: LinearEnvironment, lim: _Limits
 ) -> _Parts | None:
-    """The usable discrete parts grouped by electrical class (:class:`_Parts`). ``floors``:
-    screen the ratings by :func:`stress_floor` too (it assumes the worst-case gain and balance
-    conditions, so the yield basis leaves it out)."""
     prefs = spec.preferences
     frame = catalog.discrete
     if frame.empty:
@@ -323,7 +319,7 @@ def _discrete_parts(
     for position in range(4):
         stress = float(env.stress_v[position])
         usable = (volts >= RATING_SCREEN * stress) & (power * r >= RATING_SCREEN * stress**2)
-        floor = stress_floor(spec, lim, position) if floors else 0.0
+        floor = stress_floor(spec, lim, position)
         if floor > 0.0:
             # The exact rating check takes the worst corner: the voltage is at least the floor
             # times the part's share, the power at least that squared over its highest value.
@@ -350,7 +346,7 @@ def _discrete_parts(
         values, lo, hi, tuple(best), tuple(best_cost), tuple(kept_rows), tuple(kept_costs),
         tuple(spans), classes[:, 0] + classes[:, 1] * _temperature_span(spec),
         frame["power_w"].to_numpy(float) * env.derating,
-        frame["max_voltage_v"].to_numpy(float), classes,
+        frame["max_voltage_v"].to_numpy(float),
     )  # fmt: skip
 
 
@@ -689,13 +685,10 @@ def _emit(
     g2: IntArray,
     bound: Array,
     should_stop: Callable[[], bool],
-    join: Callable[[int, IntArray, IntArray], tuple[IntArray, IntArray]] | None = None,
-    rated: bool = True,
 ) -> Iterator[Design]:
     """Merge the group pairs (taken in order of their bound) into one stream of designs in
     exact cost order: a heap of entries keyed by a lower bound that is replaced by the exact
-    cost before an entry is emitted. ``join`` (default :func:`_join`) joins the records of one
-    group pair (given its position in ``g1``, ``g2`` and its two record index arrays); ``rated``: screen R2's rating by the current R1 carries (worst-case basis)."""
+    cost before an entry is emitted."""
     line_cost = spec.preferences.line_cost
     part_cache: dict[int, DiscretePart] = {}
 
@@ -703,7 +696,7 @@ def _emit(
         picked = [_cached_part(catalog, row, part_cache) for row in rows]
         return parts_cost(picked, spec.preferences).total
 
-    across = stress_floor(spec, lim, 0) if rated else 0.0  # least |V1 − V−| over the signal
+    across = stress_floor(spec, lim, 0)  # least |V1 − V−| over the signal corners
 
     def feedback_rated(electrical: tuple[tuple[int, int], ...], row: int) -> bool:
         """R2 carries R1's current ``I = (V1 − V−)/R1'`` (``analysis.checks.resistor_voltages``),
@@ -740,11 +733,7 @@ def _emit(
             a_idx = order1[span1[g1[next_pair], 0] : span1[g1[next_pair], 1]]
             b_idx = order2[span2[g2[next_pair], 0] : span2[g2[next_pair], 1]]
             next_pair += 1
-            ja, jb = (
-                join(next_pair - 1, a_idx, b_idx)
-                if join
-                else _join(one, a_idx, two, b_idx, lim, parts)
-            )
+            ja, jb = _join(one, a_idx, two, b_idx, lim, parts)
             if ja.size == 0:
                 continue
             keys = np.column_stack([one.ca[ja], one.ka[ja], one.cb[ja], one.kb[ja],
