@@ -118,17 +118,54 @@ class _Clock:
 
 
 @dataclass(frozen=True)
+class _ModelParts:
+    """The option table, discrete block and value constants of the CP-SAT model."""
+
+    options: OptionTable
+    block: DiscreteBlock
+    constants: tuple[NDArray[np.float64], NDArray[np.float64], NDArray[np.float64]]
+
+
+@dataclass(frozen=True)
 class Problem:
-    """Everything the model is built from (kept together for re-builds)."""
+    """Everything the model is built from (kept together for re-builds). The CP-SAT model's
+    parts (options, discrete block, value constants) are built on first use: a pick served by
+    the exact enumerations alone never needs them."""
 
     spec: Spec
     catalog: Catalog
     env: LinearEnvironment
-    options: OptionTable
-    block: DiscreteBlock
     limits: Limits
+    _parts: list[_ModelParts] = field(default_factory=list, compare=False, repr=False)
 
-    constants: tuple[NDArray[np.float64], NDArray[np.float64], NDArray[np.float64]]
+    def _model_parts(self) -> _ModelParts:
+        if not self._parts:
+            block = build_discrete(self.catalog, self.spec, self.env)
+            self._parts.append(
+                _ModelParts(
+                    build_options(self.catalog, self.spec, self.env),
+                    block,
+                    value_constants(block, self.spec, self.env),
+                )
+            )
+        return self._parts[0]
+
+    @property
+    def options(self) -> OptionTable:
+        return self._model_parts().options
+
+    @property
+    def block(self) -> DiscreteBlock:
+        return self._model_parts().block
+
+    @property
+    def constants(self) -> tuple[NDArray[np.float64], NDArray[np.float64], NDArray[np.float64]]:
+        return self._model_parts().constants
+
+    @property
+    def built(self) -> bool:
+        """Whether the CP-SAT model's parts have been built."""
+        return bool(self._parts)
 
     def build(self, variant: ModelVariant) -> BuiltModel:
         return build_model(
@@ -339,18 +376,10 @@ def _frontier_applies(spec: Spec, topology: Topology) -> bool:
 
 
 def prepare(spec: Spec, catalog: Catalog) -> Problem:
-    """The environment, options, discrete block and limits of the linear model."""
+    """The environment and limits of the linear model; its options, discrete block and value
+    constants follow on first use (:class:`Problem`)."""
     env = linear_environment(spec)
-    block = build_discrete(catalog, spec, env)
-    return Problem(
-        spec,
-        catalog,
-        env,
-        build_options(catalog, spec, env),
-        block,
-        limits_for(spec, env),
-        value_constants(block, spec, env),
-    )
+    return Problem(spec, catalog, env, limits_for(spec, env))
 
 
 def pick(
@@ -375,7 +404,12 @@ def pick(
     problem = prepare(spec, catalog)
     clock.build += time.perf_counter() - started
     streams = _streams(problem, spec)
-    if problem.size == 0 or problem.limits.cmrr_budget <= 0.0 or amplifier_limits(spec):
+    cp_sat = any(isinstance(s, _Stream) for s in streams)
+    if (
+        (cp_sat and problem.size == 0)
+        or problem.limits.cmrr_budget <= 0.0
+        or amplifier_limits(spec)
+    ):
         streams = []  # nothing can pass: leave the reasons to the diagnosis
     replay: list[list[tuple[float, Candidate]]] = [[] for _ in streams]
 
@@ -421,7 +455,7 @@ def pick(
         build_seconds=clock.build,
         cuts=len(rejected),
         solves=sum(s.solves for s in streams),
-        option_count=problem.size,
+        option_count=problem.size if problem.built else 0,
         rejected=tuple(rejected),
     )
 
@@ -476,8 +510,6 @@ def _streams(problem: Problem, spec: Spec) -> list[_Stream | _FrontierStream]:
     parts the catalog lacks altogether (no quad, no dual for its positions, no discrete part for
     a position it needs) is left out: it has no design, so no model is built for it."""
     objective = spec.preferences.objective
-    kind, shape_of = problem.options.kind, problem.options.shape
-    has_discrete = [bool(problem.block.usable(i)) for i in range(4)]
     streams: list[_Stream | _FrontierStream] = []
     for topology in Topology:
         if topology not in spec.preferences.topologies:
@@ -485,6 +517,8 @@ def _streams(problem: Problem, spec: Spec) -> list[_Stream | _FrontierStream]:
         if _frontier_applies(spec, topology):
             streams.append(_FrontierStream(problem, topology))
             continue
+        kind, shape_of = problem.options.kind, problem.options.shape
+        has_discrete = [bool(problem.block.usable(i)) for i in range(4)]
         if topology is Topology.PAIR_PLUS_DISCRETE:
             for shape in range(len(ALL_SHAPES)):
                 rest = [i for i in range(4) if i not in ALL_SHAPES[shape]]
