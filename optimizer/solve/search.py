@@ -35,7 +35,14 @@ from .frontier import discrete_frontier, network_frontier
 from .model import BuiltModel, Limits, ModelVariant, build_model, limits_for
 from .options import ALL_SHAPES, DIVIDER_SHAPES, EQUAL_SHAPES, OptionTable, build_options
 
-__all__ = ["Candidate", "PickResult", "SearchStatus", "pick", "solver_parameters"]
+__all__ = [
+    "Candidate",
+    "PickResult",
+    "SearchProgress",
+    "SearchStatus",
+    "pick",
+    "solver_parameters",
+]
 
 DEFAULT_TIME_LIMIT_S = 30.0
 MAX_CUTS = 400
@@ -106,15 +113,47 @@ def solver_parameters(time_limit_s: float, workers: int = 1, seed: int = 0) -> c
     return solver
 
 
+@dataclass(frozen=True)
+class SearchProgress:
+    """How far a running search has got (for a progress display): seconds since it started,
+    the time limit (s), candidates the exact check has judged and how many of them passed."""
+
+    elapsed_s: float
+    time_limit_s: float
+    checked: int
+    passed: int
+
+
+#: Least seconds between two progress reports.
+PROGRESS_INTERVAL_S = 0.1
+
+
 @dataclass
 class _Clock:
     deadline: float
     solve: float = 0.0
     verify: float = 0.0
     build: float = 0.0
+    started: float = 0.0
+    checked: int = 0
+    passed: int = 0
+    report: Callable[[SearchProgress], None] | None = None
+    _reported: float = -math.inf
 
     def remaining(self) -> float:
-        return 0.0 if interrupt.cancelled() else self.deadline - time.perf_counter()
+        now = time.perf_counter()
+        if self.report is not None and now - self._reported >= PROGRESS_INTERVAL_S:
+            self._reported = now
+            self.report(
+                SearchProgress(now - self.started, self.deadline - self.started, self.checked,
+                               self.passed)
+            )  # fmt: skip
+        return 0.0 if interrupt.cancelled() else self.deadline - now
+
+    def judged(self, passed: bool) -> None:
+        """Count one exact check."""
+        self.checked += 1
+        self.passed += int(passed)
 
 
 @dataclass(frozen=True)
@@ -293,6 +332,7 @@ class _Stream(_Progress):
             started = time.perf_counter()
             verdict = verifier(design, spec)
             clock.verify += time.perf_counter() - started
+            clock.judged(verdict.passed)
             if not verdict.passed:
                 self.rejected.append((design, verdict))
                 if len(self.rejected) >= MAX_CUTS:
@@ -356,6 +396,7 @@ class _FrontierStream(_Progress):
             started = time.perf_counter()
             verdict = verifier(design, spec)
             clock.verify += time.perf_counter() - started
+            clock.judged(verdict.passed)
             if not verdict.passed:
                 self.rejected.append((design, verdict))
                 continue
@@ -390,16 +431,22 @@ def pick(
     top: int | None = None,
     time_limit_s: float | None = None,
     workers: int = 1,
+    progress: Callable[[SearchProgress], None] | None = None,
 ) -> PickResult:
     """The ``top`` best designs (by the spec's objective) from ``catalog`` that pass ``verifier``.
 
     One stream of designs per allowed topology, merged best first (ties go to the topology
     listed first in :class:`Topology`). Infeasibility is not an exception here: an empty
-    ``ranked`` with status INFEASIBLE lets the caller run the diagnosis."""
+    ``ranked`` with status INFEASIBLE lets the caller run the diagnosis. ``progress`` (if
+    given) is called with a :class:`SearchProgress` at most every
+    :data:`PROGRESS_INTERVAL_S` seconds while the search runs (between steps; a CP-SAT solve
+    is one step)."""
     wanted = top if top is not None else spec.preferences.alternatives
     started = time.perf_counter()
     clock = _Clock(
-        deadline=started + (time_limit_s if time_limit_s is not None else DEFAULT_TIME_LIMIT_S)
+        deadline=started + (time_limit_s if time_limit_s is not None else DEFAULT_TIME_LIMIT_S),
+        started=started,
+        report=progress,
     )
     problem = prepare(spec, catalog)
     clock.build += time.perf_counter() - started
