@@ -63,6 +63,7 @@ def build_parser() -> argparse.ArgumentParser:
     _add_check_command(commands)
     _add_pick_command(commands)
     _add_sweep_command(commands)
+    _add_board_command(commands)
     return parser
 
 
@@ -228,17 +229,10 @@ def _add_check_command(commands: argparse._SubParsersAction[_Parser]) -> None:
 
 
 def _spec_catalogs(spec: Spec, extra: Sequence[str], notes: Console | None = None) -> Catalog:
-    """The spec's catalogs, then ``extra`` files (a file named twice is read once), plus the
-    built-in catalogs unless the spec says ``builtin_catalogs: false``; the reading notes go
-    to ``notes``."""
-    import os
+    """:func:`optimizer.api.spec_catalogs`, with the reading notes printed to ``notes``."""
+    from .api import spec_catalogs
 
-    from .catalog import load_catalogs
-
-    paths: dict[str, str] = {}
-    for path in (*spec.preferences.catalogs, *extra):
-        paths.setdefault(os.path.realpath(path), path)
-    catalog = load_catalogs(list(paths.values()), spec.preferences.use_builtin_catalogs)
+    catalog = spec_catalogs(spec, extra)
     if notes is not None:
         for note in dict.fromkeys(catalog.notes):
             notes.print(f"note: {escape(note)}", highlight=False)
@@ -354,7 +348,7 @@ def _add_pick_command(commands: argparse._SubParsersAction[_Parser]) -> None:
 def _pick(args: argparse.Namespace, console: Console) -> int:
     import dataclasses
 
-    from .analysis.checks import safety_cautions
+    from .analysis.safety import safety_cautions
     from .report.pick import build_pick_report, pick_json_text, pick_to_json, render_pick
     from .solve.search import SearchStatus, pick, with_objective
     from .spec import Objective, StockPolicy
@@ -435,7 +429,14 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
         raise interrupt.Interrupted(
             signum,
             "the search was stopped; the files above hold the best design found so far "
-            "(not proven best)",
+            "(not proven best)"
+            if winner is not None
+            else "the search was stopped before any design was found; "
+            + (
+                "the JSON file records that (no other file was written)"
+                if args.json_out is not None
+                else "no file was written"
+            ),
         )
     if result.status is SearchStatus.OPTIMAL:
         return EXIT_OK
@@ -647,7 +648,7 @@ def _write_exports(
     if args.json_out is not None:
         outputs.append((args.json_out, json_text + "\n"))
     if args.netlist is not None:
-        from .analysis.checks import safety_cautions
+        from .analysis.safety import safety_cautions
         from .netlist import design_netlist
 
         netlist = design_netlist(design, spec, cautions=safety_cautions(spec))
@@ -754,6 +755,7 @@ def _sweep(args: argparse.Namespace, console: Console) -> int:
     spec = load_spec(args.spec)
     _warn(args, console, spec)
     catalog = _spec_catalogs(spec, args.catalog, _notes(args, console))
+    _stage("search")
     with Progress(console=console, transient=True) as progress:
         what = "CMRR floor" if args.cmrr is not None else "gain accuracy"
         task = progress.add_task(f"sweeping the {what}", total=len(floors))
@@ -775,6 +777,7 @@ def _sweep(args: argparse.Namespace, console: Console) -> int:
     if fmt is not None:
         image = sweep_plot(result, "png" if fmt == "png" else "svg", title)
         if image is not None:
+            _stage("writing")
             written = write_bytes(args.plot, image, force=args.force)
             console.print(f"wrote {escape(str(written))}", highlight=False)
     if image is None:
@@ -786,6 +789,131 @@ def _sweep(args: argparse.Namespace, console: Console) -> int:
             )
         console.print(sweep_text_chart(result), markup=False, highlight=False)
     return EXIT_OK
+
+
+# ---------------------------------------------------------------------------------------------
+# board: several amplifiers picked together (optimizer.board)
+# ---------------------------------------------------------------------------------------------
+
+
+def _add_board_command(commands: argparse._SubParsersAction[_Parser]) -> None:
+    board = commands.add_parser(
+        "board",
+        help="pick every amplifier of a board together, sharing BOM lines",
+        description="Pick one design per amplifier of a board file so that the whole board "
+        "costs least (parts, placements, one line cost per distinct part id), every design "
+        "verified exactly; show each amplifier, the merged BOM and the saving against picking "
+        "each alone. Exit 0 when proven optimal, 1 when an amplifier cannot be met (with its "
+        "diagnosis), 2 on bad input, 3 when the time limit ended the search first.",
+    )
+    board.add_argument("board", metavar="BOARD", help="board file (YAML)")
+    board.add_argument(
+        "--catalog", action="append", default=[], metavar="PATH",
+        help="extra catalog file (repeatable); the board's catalogs are always read",
+    )  # fmt: skip
+    board.add_argument(
+        "--top", type=_whole_number(1, 100), metavar="N",
+        help="how many boards to rank (default: the board's purchasing.alternatives)",
+    )  # fmt: skip
+    board.add_argument(
+        "--time-limit", type=_seconds, default=PICK_TIME_LIMIT_S, metavar="S",
+        help=f"seconds for the search (default {PICK_TIME_LIMIT_S:g})",
+    )  # fmt: skip
+    board.add_argument("--json", action="store_true", help="write the result as JSON")
+    board.add_argument("--bom", metavar="FILE.csv", help="write the merged BOM of the best board")
+    board.add_argument("--json-out", metavar="FILE", help="write the JSON document to a file")
+    board.add_argument(
+        "--report", metavar="FILE.md|FILE.html", help="write a report (Markdown or HTML)"
+    )
+    board.add_argument("--force", action="store_true", help="replace output files that exist")
+    board.set_defaults(handler=_board)
+
+
+def _board(args: argparse.Namespace, console: Console) -> int:
+    from .analysis.safety import safety_cautions
+    from .board.boardfile import load_board
+    from .board.search import BoardStatus, board_search
+    from .catalog import load_catalogs
+    from .report.board import (
+        board_blocks,
+        board_bom_csv_text,
+        board_json_text,
+        board_to_json,
+        build_board_report,
+        render_board,
+    )
+    from .report.exports import render_report, report_format
+    from .safewrite import STDOUT, OutputError, check_outputs
+    from .verify import verify
+
+    def outputs_allowed(inputs: list[str]) -> None:
+        if args.report is not None and args.report != STDOUT and not report_format(args.report):
+            raise OutputError(f"{args.report}: a report file must end in .md or .html")
+        if STDOUT in _export_paths(args) and args.json:
+            raise OutputError(f"{STDOUT}: --json already prints on standard output")
+        check_outputs(_export_paths(args), force=args.force, inputs=inputs)
+
+    outputs_allowed([args.board, *args.catalog])  # before any work
+    board = load_board(args.board)
+    specs = [a.spec.source_path for a in board.amplifiers if a.spec.source_path]
+    outputs_allowed([args.board, *specs, *board.purchasing.catalogs, *args.catalog])
+    args.spec_warnings = list(board.warnings)
+    _warn(args, console)
+    paths = _once(args, console, [*board.purchasing.catalogs, *args.catalog])
+    catalog = load_catalogs(paths, board.purchasing.use_builtin_catalogs)
+    _catalog_notes(args, console, catalog)
+    top = args.top if args.top is not None else board.purchasing.alternatives
+    with interrupt.winding_down():
+        result = board_search(board, catalog, verify, top=top, time_limit_s=args.time_limit)
+    stopped = interrupt.cancelled()
+    diagnoses = []
+    if result.status is BoardStatus.INFEASIBLE and not stopped:
+        from .solve.diagnose import diagnose
+
+        limit = min(DIAGNOSIS_TIME_LIMIT_S, args.time_limit)
+        with interrupt.winding_down():
+            for index in result.infeasible:
+                spec = result.specs[index]
+                diagnoses.append((index, diagnose(spec, catalog, verify, time_limit_s=limit)))
+        interrupt.check()
+    cautions = list(dict.fromkeys(c for a in board.amplifiers for c in safety_cautions(a.spec)))
+    report = build_board_report(
+        board, result, boards_asked=top, time_limit_s=args.time_limit, cautions=cautions,
+        diagnoses=diagnoses, interrupted=stopped,
+    )  # fmt: skip
+    json_text = board_json_text(board_to_json(report, _all_warnings(args)))
+    if args.json:
+        console.print(json_text, markup=False, highlight=False, emoji=False, soft_wrap=True)
+    else:
+        console.print(render_board(report))
+    if stopped:
+        raise interrupt.Interrupted(
+            interrupt.signal_number(),
+            "the search was stopped; the boards above are the best found so far (not proven "
+            "best); no file was written",
+        )
+    outputs: list[tuple[str, str]] = []
+    best = report.best
+    if args.json_out is not None:
+        outputs.append((args.json_out, json_text + "\n"))
+    if best is not None and args.bom is not None:
+        outputs.append((args.bom, board_bom_csv_text(board, best)))
+    if args.report is not None:
+        fmt = "md" if args.report == STDOUT else report_format(args.report)
+        assert fmt is not None  # checked by _check_outputs
+        title = f"Quartet board: {board.title or args.board}"
+        outputs.append((args.report, render_report(title, board_blocks(report), fmt)))
+    _write_outputs(args, console, outputs)
+    if best is None and args.bom is not None:
+        _notes(args, console).print(
+            "[yellow]warning[/yellow]: no board was found, so no BOM was written",
+            highlight=False,
+        )
+    if result.status is BoardStatus.OPTIMAL:
+        return EXIT_OK
+    if result.status is BoardStatus.INFEASIBLE:
+        return EXIT_NOT_MET
+    return EXIT_TIME_LIMIT
 
 
 # ---------------------------------------------------------------------------------------------

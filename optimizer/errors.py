@@ -10,14 +10,10 @@ from structured fields and say what was found, what was expected and where::
     ├── SpecError(ValueError)          a spec file problem, with file, line and key path
     ├── CatalogError(ValueError)       a catalog problem, with file, row and column
     ├── DesignError(ValueError)        a user's design (part strings, ids, mapping) is wrong
-    ├── InfeasibleError                nothing in the catalog meets the spec
-    ├── SolverTimeout                  the time limit ended the search before any design
     └── SimulatorError                 the ngspice cross-check could not run or did not solve
 """
 
 from __future__ import annotations
-
-from dataclasses import dataclass
 
 #: Longest piece of the user's own text quoted in a message.
 QUOTE_CHARS = 60
@@ -98,6 +94,8 @@ class CatalogError(QuartetError, ValueError):
         self.row = row
         self.column = column
         self.message = message
+        #: The separate problems this error lists (itself alone unless it combines several).
+        self.problems: tuple[CatalogError, ...] = (self,)
         loc = _where(path, row)
         at = f"column '{column}': " if column else ""
         super().__init__(f"{loc}{at}{message}")
@@ -105,31 +103,6 @@ class CatalogError(QuartetError, ValueError):
 
 class DesignError(QuartetError, ValueError):
     """A user-supplied design is malformed: bad part string, unknown part id, bad mapping."""
-
-
-@dataclass(frozen=True)
-class BestReachable:
-    """The best value of one requirement that the catalog can reach (for a diagnosis)."""
-
-    requirement: str
-    asked: str
-    reachable: str
-    note: str = ""
-
-
-class InfeasibleError(QuartetError):
-    """No design from the catalogs meets the spec; ``binding`` names the requirements that bind."""
-
-    def __init__(
-        self, binding: tuple[str, ...], best: tuple[BestReachable, ...], text: str
-    ) -> None:
-        self.binding = binding
-        self.best = best
-        super().__init__(text)
-
-
-class SolverTimeout(QuartetError):
-    """The time limit ended the search before any feasible design was found."""
 
 
 class SimulatorError(QuartetError):

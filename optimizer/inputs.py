@@ -21,6 +21,8 @@ __all__ = [
     "MAX_DEPTH",
     "QUOTE_CHARS",
     "SPEC_MAX_BYTES",
+    "YamlTrouble",
+    "compose_yaml",
     "file_kind",
     "quote",
     "read_bounded",
@@ -111,3 +113,47 @@ def yaml_too_deep(text: str, limit: int = MAX_DEPTH) -> int | None:
     except yaml.YAMLError:
         return None
     return None
+
+
+class YamlTrouble(ValueError):
+    """Why :func:`compose_yaml` could not read a text: a message and the 1-based line (or
+    None); each reader turns it into its own located error."""
+
+    def __init__(self, message: str, line: int | None) -> None:
+        super().__init__(message)
+        self.message = message
+        self.line = line
+
+
+def _yaml_message(text: str, exc: yaml.YAMLError) -> tuple[str, int | None]:
+    """The message and line of a PyYAML error, in PyYAML's own words."""
+    if isinstance(exc, yaml.reader.ReaderError):  # a character YAML does not allow
+        where = text[: exc.position].count("\n") + 1
+        return f"character #x{exc.character:04x} is not allowed", where
+    mark = getattr(exc, "problem_mark", None) or getattr(exc, "context_mark", None)
+    line = None if mark is None else int(mark.line) + 1
+    problem = getattr(exc, "problem", None)
+    context = getattr(exc, "context", None)
+    if problem is None:
+        return str(exc), line
+    if context and str(problem).startswith("but "):
+        return f"{context}, {problem}", line  # "expected a single document ..., but found ..."
+    return str(problem) + (f" ({context})" if context else ""), line
+
+
+def compose_yaml(text: str, what: str, needs: int) -> yaml.Node | None:
+    """The node tree of ``text`` by PyYAML's safe composer (every node keeps its line; no
+    Python object is built), None for an empty document. ``text`` nesting deeper than
+    :data:`MAX_DEPTH` is refused first (``what`` and the ``needs`` levels it has name the
+    file in the message); raises :class:`YamlTrouble`."""
+    deep = yaml_too_deep(text)
+    if deep is not None:
+        raise YamlTrouble(
+            f"mappings and lists nest deeper than {MAX_DEPTH} levels; {what} needs {needs}", deep
+        )
+    try:
+        node: yaml.Node | None = yaml.compose(text, Loader=yaml.SafeLoader)
+    except yaml.YAMLError as exc:
+        message, line = _yaml_message(text, exc)
+        raise YamlTrouble(f"not valid YAML: {message}", line) from None
+    return node

@@ -388,7 +388,7 @@ def design_netlist(
     differential input (the range's maximum, not its largest magnitude), VREF the middle of the
     REF range. The comments list the parts, the conditions and the output the closed form
     predicts (``transfer.coefficients``), then each of ``cautions`` (the caller passes
-    ``analysis.checks.safety_cautions(spec)``) as a ``* Caution:`` line.
+    ``analysis.safety.safety_cautions(spec)``) as a ``* Caution:`` line.
     """
     try:
         model = AmplifierModel(amplifier_model)

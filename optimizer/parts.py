@@ -12,6 +12,7 @@ import math
 from dataclasses import dataclass
 from enum import Enum
 
+from .bounds import FRACTION, NONNEGATIVE, POSITIVE, TEMPCO
 from .errors import ModelError
 
 __all__ = [
@@ -55,27 +56,32 @@ def _check_finite(owner: str, field: str, value: float) -> None:
 
 def _check_positive(owner: str, field: str, value: float) -> None:
     _check_finite(owner, field, value)
-    if value <= 0.0:
+    if not POSITIVE.holds(value):
         raise ModelError(owner, field, f"expected a value above zero, got {value!r}")
 
 
 def _check_nonnegative(owner: str, field: str, value: float) -> None:
     _check_finite(owner, field, value)
-    if value < 0.0:
+    if not NONNEGATIVE.holds(value):
         raise ModelError(owner, field, f"expected a value of zero or more, got {value!r}")
 
 
-def _check_fraction(owner: str, field: str, value: float, limit: float = 0.5) -> None:
+def _check_fraction(owner: str, field: str, value: float) -> None:
     _check_nonnegative(owner, field, value)
-    if value >= limit:
-        raise ModelError(owner, field, f"expected a fraction below {limit:g}, got {value!r}")
+    if not FRACTION.holds(value):
+        raise ModelError(
+            owner, field, f"expected a fraction below {FRACTION.high:g}, got {value!r}"
+        )
 
 
 def _check_tempco(owner: str, field: str, value: float) -> None:
     _check_nonnegative(owner, field, value)
-    if value > 0.01:
+    if not TEMPCO.holds(value):
         raise ModelError(
-            owner, field, f"expected at most 0.01 per kelvin (10,000 ppm/K), got {value!r}"
+            owner,
+            field,
+            f"expected at most {TEMPCO.high:g} per kelvin ({TEMPCO.high * 1e6:,.0f} ppm/K), "
+            f"got {value!r}",
         )
 
 

@@ -125,10 +125,6 @@ class Signal:
                 "signal", "max_frequency", f"expected above zero, got {self.max_frequency_hz:g}"
             )
 
-    @property
-    def differential_peak_v(self) -> float:
-        return max(abs(self.differential_min_v), abs(self.differential_max_v))
-
 
 @dataclass(frozen=True)
 class Reference:

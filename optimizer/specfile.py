@@ -3,7 +3,7 @@
 The file is read with PyYAML's *safe* loader only: it is composed into a node tree with
 ``yaml.SafeLoader`` (which keeps every node's line) and each plain value is built by
 ``SafeConstructor`` (strings, numbers, yes/no, null); no Python object is ever constructed.
-The tree is then walked key by key against the schema below.
+The tree is then walked key by key (:mod:`optimizer.yamlread`) against the schema below.
 
 Every problem becomes a :class:`~optimizer.errors.SpecError` naming the file, the 1-based line
 and the dotted key path (``motor.yaml:14: requirements.cmrr_floor: cannot read '80 dBB' ...``).
@@ -28,22 +28,15 @@ Schema (format version 1; see the README for every key, its unit and its default
 
 from __future__ import annotations
 
-import difflib
 import math
 import os
-from collections.abc import Callable, Mapping, Sequence
-from dataclasses import dataclass
-from enum import Enum
 from pathlib import Path
-from typing import NoReturn, TypeVar
 
-import yaml
-from yaml.constructor import SafeConstructor
-from yaml.nodes import MappingNode, Node, ScalarNode, SequenceNode
+from yaml.nodes import MappingNode, Node, ScalarNode
 
 from .design import Topology
-from .errors import ModelError, SpecError, UnitError, quote
-from .inputs import MAX_DEPTH, SPEC_MAX_BYTES, read_bounded, yaml_too_deep
+from .errors import ModelError, SpecError, UnitError
+from .inputs import SPEC_MAX_BYTES, YamlTrouble, compose_yaml, read_bounded
 from .parts import Amplifier, RailSpan
 from .spec import (
     MAX_SAMPLES,
@@ -63,7 +56,6 @@ from .spec import (
 from .units import (
     exceeds,
     format_quantity,
-    format_resistance,
     format_temperature,
     parse_current,
     parse_current_noise,
@@ -77,11 +69,29 @@ from .units import (
     parse_voltage,
     parse_voltage_noise,
 )
+from .yamlread import (
+    ZERO_OR_RESISTANCE,
+    Parse,
+    Read,
+    Reader,
+    Recorded,
+    Section,
+    celsius_text,
+    expected_form,
+    hertz_text,
+    join_names,
+    kind_of,
+    node_line,
+    ohms_text,
+    volts_text,
+)
 
-__all__ = ["FORMAT_VERSION", "load_spec", "parse_spec_text"]
+__all__ = [
+    "FORMAT_VERSION",
+    "load_spec",
+    "parse_spec_text",
+]
 
-#: Longest free text (title, labels) a spec may hold: it is shown on one line of the reports.
-MAX_TEXT_CHARS = 200
 
 #: A fraction written as a bare number this large or larger gets a warning (0.05 = 5 %): a
 #: gain accuracy or tolerance that loose is rare, "0.5" meant as 0.5 % is common.
@@ -122,407 +132,10 @@ FORMAT_VERSION = 1
 #: At most this many problems are listed in one error; the rest are counted.
 MAX_LISTED_PROBLEMS = 25
 
-T = TypeVar("T")
-E = TypeVar("E", bound=Enum)
-Parse = Callable[[object], float]
-Read = Callable[[Node, str], T]
 
-
-_NULL_TAG = "tag:yaml.org,2002:null"
-_MAP_TAG = "tag:yaml.org,2002:map"
-_SEQ_TAG = "tag:yaml.org,2002:seq"
-ZERO_OR_RESISTANCE = "a resistance of zero or more such as 0, 100R or 4.99k"
 _SPAN_FORMS = (
     "from_negative and from_positive (distances from the rails) or min and max (absolute volts)"
 )
-
-
-class _Recorded(Exception):
-    """Internal: a problem was recorded; the value being read falls back to its placeholder."""
-
-
-def _expected(parse: Parse) -> str:
-    """The description of what ``parse`` accepts, in the units module's own words."""
-    try:
-        parse("")
-    except UnitError as exc:
-        return exc.expected
-    return "a value"  # pragma: no cover - every parser refuses the empty string
-
-
-def _line(node: Node) -> int:
-    return int(node.start_mark.line) + 1
-
-
-def _kind(node: Node) -> str:
-    if isinstance(node, MappingNode):
-        return "a mapping"
-    if isinstance(node, SequenceNode):
-        return "a list"
-    if node.tag == _NULL_TAG:
-        return "no value"
-    return "a single value"
-
-
-def _join(names: Sequence[str]) -> str:
-    return ", ".join(names)
-
-
-def _volts(value: float) -> str:
-    return format_quantity(value, "V", 6)
-
-
-def _ohms(value: float) -> str:
-    return format_resistance(value, 6)
-
-
-def _hertz(value: float) -> str:
-    return format_quantity(value, "Hz", 6)
-
-
-def _celsius(value: float) -> str:
-    return format_temperature(value, 6)
-
-
-@dataclass
-class _Map:
-    """A mapping node whose keys were checked: ``entries`` maps each key to its value node."""
-
-    reader: _Reader
-    key: str
-    line: int
-    entries: dict[str, Node]
-    key_lines: dict[str, int]
-    suggested: set[str]
-
-    def child(self, name: str) -> str:
-        return f"{self.key}.{name}" if self.key else name
-
-    def has(self, name: str) -> bool:
-        return name in self.entries
-
-    def line_of(self, name: str) -> int:
-        """The line of key ``name`` (this mapping's line when the key is absent)."""
-        return self.key_lines.get(name, self.line)
-
-    def opt(self, name: str, read: Read[T], default: T) -> T:
-        """The value of an optional key: ``default`` when absent or (after recording) unreadable."""
-        node = self.entries.get(name)
-        if node is None:
-            return default
-        return self.reader.attempt(node, self.child(name), read, default)
-
-    def need(self, name: str, read: Read[T], expected: str, placeholder: T) -> T:
-        """The value of a required key; a missing key is recorded at this mapping's line."""
-        node = self.entries.get(name)
-        if node is None:
-            if name in self.suggested:  # already reported: "unknown key ...; did you mean ..."
-                self.reader.bad.add(self.child(name))
-            else:
-                self.reader.problem(
-                    self.child(name), self.line, f"required key is missing; expected {expected}"
-                )
-            return placeholder
-        return self.reader.attempt(node, self.child(name), read, placeholder)
-
-
-class _Reader:
-    """Walks the node tree of one spec file, collecting located problems."""
-
-    def __init__(self, path: str) -> None:
-        self.path = path
-        self.folder = Path(path).parent
-        self.problems: list[SpecError] = []
-        self.warnings: list[tuple[int, str]] = []
-        self.bad: set[str] = set()
-        self.lines: dict[str, int] = {}
-        self._constructor = SafeConstructor()
-
-    # -- problems ---------------------------------------------------------------------------
-
-    def problem(self, key: str, line: int, message: str) -> None:
-        self.problems.append(SpecError(message, path=self.path, key=key, line=line))
-        self.bad.add(key)
-
-    def fail(self, key: str, line: int, message: str) -> NoReturn:
-        self.problem(key, line, message)
-        raise _Recorded
-
-    def warn(self, key: str, line: int, message: str) -> None:
-        """A plausibility warning: the value is read, the run goes on."""
-        self.warnings.append((line, str(SpecError(message, path=self.path, key=key, line=line))))
-
-    def ok(self, *keys: str) -> bool:
-        """True when no problem was recorded at, above or below any of ``keys``."""
-        for bad in self.bad:
-            for key in keys:
-                if (
-                    bad == key
-                    or bad.startswith((f"{key}.", f"{key}["))
-                    or key.startswith(f"{bad}.")
-                ):
-                    return False
-        return True
-
-    def attempt(self, node: Node, key: str, read: Read[T], placeholder: T) -> T:
-        self.lines.setdefault(key, _line(node))
-        try:
-            return read(node, key)
-        except _Recorded:
-            return placeholder
-
-    def model_error(self, exc: ModelError, section: str, fields: Mapping[str, str]) -> None:
-        """Record a dataclass's refusal at the key its field came from (or the nearest parent)."""
-        key = fields.get(exc.field, section)
-        while key not in self.lines and "." in key:
-            key = key.rsplit(".", 1)[0]
-        line = self.lines.get(key, 1)
-        wanted = fields.get(exc.field)
-        message = exc.message if wanted == key else f"{exc.field}: {exc.message}"
-        self.problem(key, line, message)
-
-    # -- plain values -----------------------------------------------------------------------
-
-    def value(self, node: Node, key: str) -> object:
-        """The Python value of a scalar node, built as ``yaml.safe_load`` would build it."""
-        try:
-            return self._constructor.construct_object(node, deep=True)
-        except yaml.YAMLError as exc:
-            problem = getattr(exc, "problem", None) or str(exc)
-            self.fail(key, _line(node), f"cannot read this value: {problem}")
-        except Exception as exc:  # PyYAML's constructors fail in many ways on
-            # an explicit tag the text does not fit: ``!!int 9e9`` (ValueError), ``!!bool 1``
-            # (KeyError), ``!!timestamp 1`` (AttributeError) (found by tests/test_fuzz.py)
-            self.fail(key, _line(node), f"cannot read this value as {node.tag}: {exc}")
-
-    def scalar(self, node: Node, key: str, expected: str) -> object:
-        if not isinstance(node, ScalarNode):
-            self.fail(key, _line(node), f"expected {expected}, got {_kind(node)}")
-        value = self.value(node, key)
-        if value is None:
-            self.fail(key, _line(node), f"no value given; expected {expected}")
-        return value
-
-    def quantity(self, parse: Parse) -> Read[float]:
-        expected = _expected(parse)
-
-        def read(node: Node, key: str) -> float:
-            value = self.scalar(node, key, expected)
-            try:
-                return parse(value)
-            except UnitError as exc:
-                self.fail(key, _line(node), str(exc))
-
-        return read
-
-    def zero_or_resistance(self, node: Node, key: str) -> float:
-        """A resistance that may be zero (a source or REF impedance): ``0``, ``10``, ``4k99``."""
-        expected = ZERO_OR_RESISTANCE
-        value = self.scalar(node, key, expected)
-        try:
-            return parse_resistance(value)
-        except UnitError as exc:
-            # parse_resistance refuses zero and below with this reason; zero is allowed here.
-            if exc.reason == "not above zero" and not str(value).lstrip().startswith("-"):
-                return 0.0
-            if exc.reason == "not above zero":
-                self.fail(
-                    key, _line(node), f"cannot read {value!r} (below zero): expected {expected}"
-                )
-            self.fail(key, _line(node), str(exc))
-
-    def number(self, expected: str) -> Read[float]:
-        def read(node: Node, key: str) -> float:
-            value = self.scalar(node, key, expected)
-            if isinstance(value, str):
-                # YAML 1.1 reads 1e2 (no dot) and quoted numbers as text: read them as numbers.
-                try:
-                    value = float(value.strip().replace("_", ""))
-                except ValueError:
-                    self.fail(key, _line(node), f"expected {expected}, got {quote(node.value)}")
-            if isinstance(value, bool) or not isinstance(value, (int, float)):
-                self.fail(key, _line(node), f"expected {expected}, got {quote(node.value)}")
-            try:
-                number = float(value)
-            except OverflowError:  # an int beyond the float range (found by tests/test_fuzz.py)
-                number = math.inf
-            if not math.isfinite(number):
-                self.fail(
-                    key,
-                    _line(node),
-                    f"expected {expected}, got {node.value!r} (not a finite number)",
-                )
-            return number
-
-        return read
-
-    def integer(self, expected: str) -> Read[int]:
-        def read(node: Node, key: str) -> int:
-            value = self.scalar(node, key, expected)
-            if isinstance(value, bool) or not isinstance(value, int):
-                self.fail(key, _line(node), f"expected {expected}, got {node.value!r}")
-            if abs(value) >= 2**63:  # may be too long to print (found by tests/test_fuzz.py)
-                too_large = f"expected {expected}, got a number too large (2^63 or more)"
-                self.fail(key, _line(node), too_large)
-            return value
-
-        return read
-
-    def boolean(self, node: Node, key: str) -> bool:
-        value = self.scalar(node, key, "true or false")
-        if not isinstance(value, bool):
-            self.fail(key, _line(node), f"expected true or false, got {node.value!r}")
-        return value
-
-    def text(self, node: Node, key: str) -> str:
-        self.scalar(node, key, "text")
-        assert isinstance(node, ScalarNode)
-        text = str(node.value).strip()
-        if not text:
-            self.fail(key, _line(node), "expected text, got an empty value")
-        return text
-
-    def line_text(self, node: Node, key: str) -> str:
-        """Free text shown in reports: one line of at most MAX_TEXT_CHARS characters."""
-        text = self.text(node, key)
-        if len(text) > MAX_TEXT_CHARS or "\n" in text:
-            self.fail(
-                key,
-                _line(node),
-                f"expected one line of at most {MAX_TEXT_CHARS} characters, got "
-                f"{len(text):,} characters" + (" on several lines" if "\n" in text else ""),
-            )
-        return text
-
-    def choice(self, enum: type[E]) -> Read[E]:
-        valid = [str(member.value) for member in enum]
-
-        def read(node: Node, key: str) -> E:
-            self.scalar(node, key, f"one of {_join(valid)}")
-            assert isinstance(node, ScalarNode)
-            for member in enum:
-                if member.value == node.value:
-                    return member
-            close = difflib.get_close_matches(str(node.value), valid, n=1)
-            hint = f"; did you mean {close[0]!r}?" if close else ""
-            self.fail(key, _line(node), f"{node.value!r} is not one of {_join(valid)}{hint}")
-
-        return read
-
-    # -- containers -------------------------------------------------------------------------
-
-    def mapping(
-        self, node: Node, key: str, allowed: Sequence[str], *, line: int | None = None
-    ) -> _Map:
-        """Check that ``node`` is a mapping whose keys are all in ``allowed``; unknown keys are
-        recorded with a suggestion. ``line`` is where missing keys are reported (default: the
-        mapping's own first line)."""
-        where = _line(node) if line is None else line
-        if not isinstance(node, MappingNode):
-            self.fail(
-                key,
-                _line(node),
-                f"expected a mapping with keys {_join(allowed)}, got {_kind(node)}",
-            )
-        if node.tag != _MAP_TAG:
-            self.fail(
-                key, _line(node), f"the tag {node.tag!r} is not allowed here; write a plain mapping"
-            )
-        try:
-            self._constructor.flatten_mapping(node)  # YAML merge keys (<<: *anchor)
-        except yaml.YAMLError as exc:
-            self.fail(key, _line(node), f"cannot merge: {getattr(exc, 'problem', None) or exc}")
-        entries: dict[str, Node] = {}
-        key_lines: dict[str, int] = {}
-        suggested: set[str] = set()
-        for key_node, value_node in node.value:
-            child_line = _line(key_node)
-            if not isinstance(key_node, ScalarNode):
-                self.problem(key, child_line, f"expected a key name, got {_kind(key_node)}")
-                continue
-            name = str(key_node.value)
-            child = f"{key}.{name}" if key else name
-            if name in entries:
-                self.problem(child, child_line, f"key {name!r} is given twice in this mapping")
-                continue
-            if name not in allowed:
-                close = difflib.get_close_matches(name, allowed, n=1)
-                if close:
-                    suggested.add(close[0])
-                    self.problem(
-                        child, child_line, f"unknown key {name!r}; did you mean {close[0]!r}?"
-                    )
-                else:
-                    self.problem(
-                        child,
-                        child_line,
-                        f"unknown key {name!r}; valid keys here: {_join(allowed)}",
-                    )
-                continue
-            entries[name] = value_node
-            key_lines[name] = child_line
-            self.lines[child] = child_line
-        return _Map(self, key, where, entries, key_lines, suggested)
-
-    def section(self, parent: _Map, name: str, allowed: Sequence[str]) -> _Map | None:
-        """A child mapping of ``parent`` (None when absent or not a mapping); missing keys in it
-        are reported at the line of its own key."""
-        node = parent.entries.get(name)
-        if node is None:
-            return None
-        key = parent.child(name)
-        try:
-            return self.mapping(node, key, allowed, line=parent.line_of(name))
-        except _Recorded:
-            return None
-
-    def sequence(self, node: Node, key: str, expected: str) -> list[Node]:
-        if isinstance(node, ScalarNode) and node.tag != _NULL_TAG:
-            return [node]  # a single item may be written without brackets
-        if not isinstance(node, SequenceNode):
-            self.fail(key, _line(node), f"expected a list of {expected}, got {_kind(node)}")
-        if node.tag != _SEQ_TAG:
-            self.fail(
-                key, _line(node), f"the tag {node.tag!r} is not allowed here; write a plain list"
-            )
-        return list(node.value)
-
-    def span_pair(
-        self,
-        node: Node,
-        key: str,
-        read: Read[float],
-        expected: str,
-        fmt: Callable[[float], str],
-        *,
-        strict: bool = False,
-    ) -> tuple[float, float]:
-        """``{min: .., max: ..}`` with min ≤ max (min < max when ``strict``)."""
-        m = self.mapping(node, key, ("min", "max"), line=self.lines.get(key))
-        low = m.need("min", read, expected, math.nan)
-        high = m.need("max", read, expected, math.nan)
-        if not self.ok(key):
-            raise _Recorded
-        if exceeds(low, high) or (strict and low >= high):
-            relation = "is not below" if strict else "is above"
-            self.fail(
-                m.child("min"), m.line_of("min"), f"min {fmt(low)} {relation} max {fmt(high)}"
-            )
-        # Equal within rounding (units.NUMBER_REL_TOL) counts as equal.
-        return min(low, high), high
-
-    def pair(
-        self, read: Read[float], expected: str, fmt: Callable[[float], str], *, scalar: bool = False
-    ) -> Read[tuple[float, float]]:
-        """A reader of ``{min: .., max: ..}``; with ``scalar`` also of one value (min = max)."""
-
-        def inner(node: Node, key: str) -> tuple[float, float]:
-            if scalar and not isinstance(node, MappingNode):
-                value = read(node, key)
-                return value, value
-            return self.span_pair(node, key, read, expected, fmt)
-
-        return inner
 
 
 # ---------------------------------------------------------------------------------------------
@@ -596,9 +209,9 @@ DEFAULT_AMPLIFIER_LABEL = "op-amp"
 
 
 class _Schema:
-    """Reads each section of one spec file with one :class:`_Reader`."""
+    """Reads each section of one spec file with one :class:`Reader`."""
 
-    def __init__(self, reader: _Reader) -> None:
+    def __init__(self, reader: Reader) -> None:
         self.r = reader
         r = reader
         self.voltage = r.quantity(parse_voltage)
@@ -619,7 +232,7 @@ class _Schema:
         try:
             return parse_db(value)
         except UnitError as exc:
-            self.r.fail(key, _line(node), str(exc))
+            self.r.fail(key, node_line(node), str(exc))
 
     def span(self, node: Node, key: str) -> RailSpan:
         """``{from_negative, from_positive}`` (distances from the rails) or ``{min, max}``."""
@@ -640,45 +253,47 @@ class _Schema:
                 f"expected {_SPAN_FORMS}",
             )
         names = ("from_negative", "from_positive") if relative else ("min", "max")
-        what = _expected(parse_voltage)
+        what = expected_form(parse_voltage)
         low = m.need(names[0], self.voltage, what, math.nan)
         high = m.need(names[1], self.voltage, what, math.nan)
         if not r.ok(key):
-            raise _Recorded
+            raise Recorded
         if not relative and low >= high:
             r.fail(
                 m.child("min"),
                 m.line_of("min"),
-                f"min {_volts(low)} is not below max {_volts(high)}",
+                f"min {volts_text(low)} is not below max {volts_text(high)}",
             )
         return RailSpan(low, high, relative=bool(relative))
 
-    def amplifier(self, m: _Map) -> Amplifier | None:
+    def amplifier(self, m: Section) -> Amplifier | None:
         r = self.r
         label = m.opt("label", r.line_text, DEFAULT_AMPLIFIER_LABEL)
         cmrr = m.need("cmrr", self.level, "a level in decibels such as 100 dB, or ideal", math.nan)
         aol = m.need(
             "open_loop_gain", self.level, "a level in decibels such as 120 dB, or ideal", math.nan
         )
-        gbw = m.need("gbw", self.frequency, _expected(parse_frequency), math.nan)
+        gbw = m.need("gbw", self.frequency, expected_form(parse_frequency), math.nan)
         slew = m.need(
-            "slew_rate", r.quantity(parse_slew_rate), _expected(parse_slew_rate), math.nan
+            "slew_rate", r.quantity(parse_slew_rate), expected_form(parse_slew_rate), math.nan
         )
         offset = m.need(
-            "offset_voltage", self.bound(parse_voltage), _expected(parse_voltage), math.nan
+            "offset_voltage", self.bound(parse_voltage), expected_form(parse_voltage), math.nan
         )
-        bias = m.need("bias_current", self.bound(parse_current), _expected(parse_current), math.nan)
+        bias = m.need(
+            "bias_current", self.bound(parse_current), expected_form(parse_current), math.nan
+        )
         offset_current = m.opt("offset_current", self.bound(parse_current), None)
         en = m.need(
             "voltage_noise",
             r.quantity(parse_voltage_noise),
-            _expected(parse_voltage_noise),
+            expected_form(parse_voltage_noise),
             math.nan,
         )
         in_ = m.need(
             "current_noise",
             r.quantity(parse_current_noise),
-            _expected(parse_current_noise),
+            expected_form(parse_current_noise),
             math.nan,
         )
         span_expected = (
@@ -717,14 +332,14 @@ class _Schema:
             if value < 0.0:
                 self.r.fail(
                     key,
-                    _line(node),
+                    node_line(node),
                     f"expected a bound of zero or more (a magnitude), got {node.value!r}",
                 )
             return value
 
         return inner
 
-    def bare_fraction(self, m: _Map, name: str, value: float) -> None:
+    def bare_fraction(self, m: Section, name: str, value: float) -> None:
         """Warn when a fraction is written as a bare number of BARE_FRACTION_WARNING or more
         (``0.5`` is ±50 %, often meant as 0.5 %)."""
         node = m.entries.get(name)
@@ -738,7 +353,7 @@ class _Schema:
             f"{node.value} means ±{value * 100:g} %; write {node.value} % for {node.value} percent",
         )
 
-    def check_amplifier(self, m: _Map, amp: Amplifier) -> None:
+    def check_amplifier(self, m: Section, amp: Amplifier) -> None:
         """Warn about amplifier figures outside the ranges op-amps are made in
         (PLAUSIBLE_AMPLIFIER)."""
         for name, (field_name, unit, low, high) in PLAUSIBLE_AMPLIFIER.items():
@@ -761,8 +376,9 @@ class _Schema:
             r.problem(
                 "amplifier.input_range",
                 r.lines.get("amplifier.input_range", 1),
-                f"with rails {_volts(rails.negative_v)} and {_volts(rails.positive_v)} this range "
-                f"({_volts(low)} to {_volts(high)}) is empty",
+                f"with rails {volts_text(rails.negative_v)} and {volts_text(rails.positive_v)} "
+                "this range "
+                f"({volts_text(low)} to {volts_text(high)}) is empty",
             )
         out = amp.output_span
         key = "amplifier.output_swing"
@@ -772,7 +388,7 @@ class _Schema:
                     r.problem(
                         f"{key}.{name}",
                         r.lines.get(f"{key}.{name}", 1),
-                        f"{_volts(distance)} would put the output beyond the rail; "
+                        f"{volts_text(distance)} would put the output beyond the rail; "
                         "expected zero or more",
                     )
         else:
@@ -780,13 +396,15 @@ class _Schema:
                 r.problem(
                     f"{key}.min",
                     r.lines.get(f"{key}.min", 1),
-                    f"{_volts(out.low_v)} is below the negative rail {_volts(rails.negative_v)}",
+                    f"{volts_text(out.low_v)} is below the negative rail "
+                    f"{volts_text(rails.negative_v)}",
                 )
             if exceeds(out.high_v, rails.positive_v):
                 r.problem(
                     f"{key}.max",
                     r.lines.get(f"{key}.max", 1),
-                    f"{_volts(out.high_v)} is above the positive rail {_volts(rails.positive_v)}",
+                    f"{volts_text(out.high_v)} is above the positive rail "
+                    f"{volts_text(rails.positive_v)}",
                 )
         if r.ok(key):
             low, high = out.resolve(rails.negative_v, rails.positive_v)
@@ -794,14 +412,14 @@ class _Schema:
                 r.problem(
                     key,
                     r.lines.get(key, 1),
-                    f"with rails {_volts(rails.negative_v)} and {_volts(rails.positive_v)} "
-                    f"this swing ({_volts(low)} to {_volts(high)}) is empty",
+                    f"with rails {volts_text(rails.negative_v)} and {volts_text(rails.positive_v)} "
+                    f"this swing ({volts_text(low)} to {volts_text(high)}) is empty",
                 )
 
     # -- rails, signal, reference -------------------------------------------------------------
 
-    def rails(self, m: _Map) -> Rails | None:
-        positive = m.need("positive", self.voltage, _expected(parse_voltage), math.nan)
+    def rails(self, m: Section) -> Rails | None:
+        positive = m.need("positive", self.voltage, expected_form(parse_voltage), math.nan)
         negative = m.opt("negative", self.voltage, 0.0)
         if not self.r.ok("rails"):
             return None
@@ -820,9 +438,13 @@ class _Schema:
         high = m.opt("max", self.impedance, 0.0)
         imbalance = m.opt("imbalance", self.impedance, 0.0)
         if not r.ok(key):
-            raise _Recorded
+            raise Recorded
         if exceeds(low, high):
-            r.fail(m.child("min"), m.line_of("min"), f"min {_ohms(low)} is above max {_ohms(high)}")
+            r.fail(
+                m.child("min"),
+                m.line_of("min"),
+                f"min {ohms_text(low)} is above max {ohms_text(high)}",
+            )
         low = min(low, high)  # equal within rounding counts as equal
         # high − low rounds (0.3 − 0.1 is 0.19999999999999998): compare within
         # units.NUMBER_REL_TOL of the numbers the span comes from.
@@ -830,19 +452,19 @@ class _Schema:
             r.fail(
                 m.child("imbalance"),
                 m.line_of("imbalance"),
-                f"{_ohms(imbalance)} is more than max - min = {_ohms(high - low)}; "
+                f"{ohms_text(imbalance)} is more than max - min = {ohms_text(high - low)}; "
                 "two legs inside [min, max] cannot differ by more",
             )
         return SourceImpedance(min_ohm=low, max_ohm=high, imbalance_ohm=imbalance)
 
-    def signal(self, m: _Map) -> Signal | None:
+    def signal(self, m: Section) -> Signal | None:
         r = self.r
         pair = "min and max in volts, such as {min: -1 V, max: 1 V}"
-        volts = r.pair(self.voltage, _expected(parse_voltage), _volts)
+        volts = r.pair(self.voltage, expected_form(parse_voltage), volts_text)
         nan2 = (math.nan, math.nan)
         diff = m.need("differential", volts, pair, nan2)
         cm = m.need("common_mode", volts, pair, nan2)
-        fmax = m.need("max_frequency", self.frequency, _expected(parse_frequency), math.nan)
+        fmax = m.need("max_frequency", self.frequency, expected_form(parse_frequency), math.nan)
         source = m.opt("source_impedance", self.source, SourceImpedance())
         ac = m.opt("mains_derived", r.boolean, False)
         if not r.ok("signal"):
@@ -871,16 +493,18 @@ class _Schema:
             )
             return None
 
-    def reference(self, m: _Map) -> Reference | None:
+    def reference(self, m: Section) -> Reference | None:
         r = self.r
         voltage = m.need(
             "voltage",
-            r.pair(self.voltage, _expected(parse_voltage), _volts, scalar=True),
+            r.pair(self.voltage, expected_form(parse_voltage), volts_text, scalar=True),
             "a voltage such as 2.5 V, or {min: 2.4 V, max: 2.6 V}",
             (math.nan, math.nan),
         )
         impedance = m.opt(
-            "impedance", r.pair(self.impedance, ZERO_OR_RESISTANCE, _ohms, scalar=True), (0.0, 0.0)
+            "impedance",
+            r.pair(self.impedance, ZERO_OR_RESISTANCE, ohms_text, scalar=True),
+            (0.0, 0.0),
         )
         if not r.ok("reference"):
             return None
@@ -918,8 +542,8 @@ class _Schema:
             r.problem(
                 key,
                 r.lines.get(key, 1),
-                f"{_volts(value)} is outside the rails "
-                f"({_volts(rails.negative_v)} to {_volts(rails.positive_v)})",
+                f"{volts_text(value)} is outside the rails "
+                f"({volts_text(rails.negative_v)} to {volts_text(rails.positive_v)})",
             )
             if key == "reference.voltage":
                 break
@@ -937,16 +561,16 @@ class _Schema:
             low = band.opt("low", self.frequency, DEFAULT_NOISE_BAND_LOW_HZ)
             high = band.opt("high", self.frequency, None)
         if not r.ok(key):
-            raise _Recorded
+            raise Recorded
         if limit <= 0.0:
             r.fail(
                 m.child("max"),
                 m.line_of("max"),
-                f"expected an RMS voltage above zero, got {_volts(limit)}",
+                f"expected an RMS voltage above zero, got {volts_text(limit)}",
             )
         return limit, low, high
 
-    def requirements(self, m: _Map, signal: Signal | None) -> Requirements | None:
+    def requirements(self, m: Section, signal: Signal | None) -> Requirements | None:
         r = self.r
         gain = m.need(
             "gain",
@@ -954,9 +578,9 @@ class _Schema:
             "a gain above zero such as 20 (a plain ratio)",
             math.nan,
         )
-        accuracy = m.need("gain_accuracy", self.fraction, _expected(parse_fraction), math.nan)
+        accuracy = m.need("gain_accuracy", self.fraction, expected_form(parse_fraction), math.nan)
         self.bare_fraction(m, "gain_accuracy", accuracy)
-        floor = m.need("cmrr_floor", self.db, _expected(parse_db), math.nan)
+        floor = m.need("cmrr_floor", self.db, expected_form(parse_db), math.nan)
         if r.ok("requirements.cmrr_floor") and floor <= 0.0:
             r.problem(
                 "requirements.cmrr_floor",
@@ -981,7 +605,7 @@ class _Schema:
             )
         temps = m.need(
             "temperature",
-            r.pair(self.temperature, _expected(parse_temperature), _celsius),
+            r.pair(self.temperature, expected_form(parse_temperature), celsius_text),
             "min and max such as {min: -40 °C, max: 125 °C}",
             (math.nan, math.nan),
         )
@@ -1015,8 +639,8 @@ class _Schema:
                 r.problem(
                     key if key in r.lines else "requirements.output_noise",
                     r.lines.get(key, r.lines.get("requirements.output_noise", 1)),
-                    f"band low {_hertz(band_low)} is not below "
-                    f"band high {_hertz(band_high)}{source}",
+                    f"band low {hertz_text(band_low)} is not below "
+                    f"band high {hertz_text(band_high)}{source}",
                 )
                 return None
         try:
@@ -1060,9 +684,9 @@ class _Schema:
     def topologies(self, node: Node, key: str) -> tuple[Topology, ...]:
         r = self.r
         valid = [t.value for t in Topology]
-        items = r.sequence(node, key, f"topologies ({_join(valid)})")
+        items = r.sequence(node, key, f"topologies ({join_names(valid)})")
         if not items:
-            r.fail(key, _line(node), f"expected at least one of {_join(valid)}")
+            r.fail(key, node_line(node), f"expected at least one of {join_names(valid)}")
         read = r.choice(Topology)
         chosen: list[Topology] = []
         for index, item in enumerate(items):
@@ -1070,11 +694,11 @@ class _Schema:
             if topology is None:
                 continue
             if topology in chosen:
-                r.problem(f"{key}[{index}]", _line(item), f"{topology.value!r} is listed twice")
+                r.problem(f"{key}[{index}]", node_line(item), f"{topology.value!r} is listed twice")
                 continue
             chosen.append(topology)
         if not r.ok(key):
-            raise _Recorded
+            raise Recorded
         return tuple(chosen)
 
     def catalogs(self, node: Node, key: str) -> tuple[str, ...]:
@@ -1092,20 +716,20 @@ class _Schema:
             if not resolved.is_file():
                 r.problem(
                     item_key,
-                    _line(item),
+                    node_line(item),
                     f"catalog file not found: {resolved} "
                     "(paths are relative to the spec file's folder)",
                 )
                 continue
             if str(resolved) in paths:
-                r.problem(item_key, _line(item), f"{text!r} is listed twice")
+                r.problem(item_key, node_line(item), f"{text!r} is listed twice")
                 continue
             paths.append(str(resolved))
         if not r.ok(key):
-            raise _Recorded
+            raise Recorded
         return tuple(paths)
 
-    def preferences(self, m: _Map | None) -> Preferences | None:
+    def preferences(self, m: Section | None) -> Preferences | None:
         r = self.r
         if m is None:
             return Preferences()
@@ -1154,7 +778,7 @@ class _Schema:
         same_lot = m.opt("same_lot_tracking", r.boolean, defaults.same_lot_tracking)
         window = m.opt(
             "resistance_range",
-            r.pair(r.quantity(parse_resistance), _expected(parse_resistance), _ohms),
+            r.pair(r.quantity(parse_resistance), expected_form(parse_resistance), ohms_text),
             (defaults.resistance_min_ohm, defaults.resistance_max_ohm),
         )
         samples, seed, distribution, sigma_k = (
@@ -1222,8 +846,8 @@ class _Schema:
             raise SpecError(
                 f"unsupported format version {version}; this Quartet reads format {FORMAT_VERSION}",
                 path=self.r.path,
-                key=key,
-                line=_line(node),
+                key=self.r.shown(key),
+                line=node_line(node),
             )
         return version
 
@@ -1232,21 +856,24 @@ class _Schema:
         if not isinstance(root, MappingNode):
             r.fail(
                 "",
-                _line(root),
-                f"expected a mapping of sections at the top level ({_join(TOP_KEYS)}), "
-                f"got {_kind(root)}",
+                node_line(root),
+                f"expected a mapping of sections at the top level ({join_names(TOP_KEYS)}), "
+                f"got {kind_of(root)}",
             )
         names = {str(k.value) for k, _ in root.value if isinstance(k, ScalarNode)}
         if not names & set(TOP_KEYS):
-            found = _join(sorted(names)) or "none"
+            found = join_names(sorted(names)) or "none"
             r.fail(
                 "",
-                _line(root),
+                node_line(root),
                 f"not a Quartet spec file: expected quartet_spec: {FORMAT_VERSION} and the "
-                f"sections {_join(TOP_KEYS[2:])} (top-level keys found: {found})",
+                f"sections {join_names(TOP_KEYS[2:])} (top-level keys found: {found})",
             )
-        top = r.mapping(root, "", TOP_KEYS, line=_line(root))
-        top.need("quartet_spec", self.version, f"the format version, {FORMAT_VERSION}", 0)
+        top = r.mapping(root, "", TOP_KEYS, line=node_line(root))
+        if r.prefix:  # a spec inside another file: the version key may be left out
+            top.opt("quartet_spec", self.version, 0)
+        else:
+            top.need("quartet_spec", self.version, f"the format version, {FORMAT_VERSION}", 0)
         title = top.opt("title", r.line_text, None)
         sections = {
             "amplifier": AMPLIFIER_KEYS,
@@ -1255,13 +882,13 @@ class _Schema:
             "reference": REFERENCE_KEYS,
             "requirements": REQUIREMENT_KEYS,
         }
-        maps: dict[str, _Map | None] = {}
+        maps: dict[str, Section | None] = {}
         for name, keys in sections.items():
             if not top.has(name):
                 r.problem(
                     name,
                     top.line,
-                    f"required section is missing; expected a mapping with keys {_join(keys)}",
+                    f"required section is missing; expected a mapping with keys {join_names(keys)}",
                 )
                 maps[name] = None
             else:
@@ -1312,45 +939,24 @@ def _combined(path: str, problems: list[SpecError]) -> SpecError:
     return error
 
 
-def _yaml_error(path: str, exc: yaml.YAMLError) -> SpecError:
-    mark = getattr(exc, "problem_mark", None) or getattr(exc, "context_mark", None)
-    line = None if mark is None else int(mark.line) + 1
-    problem = getattr(exc, "problem", None)
-    context = getattr(exc, "context", None)
-    if problem is None:
-        text = str(exc)
-    elif context and str(problem).startswith("but "):
-        text = f"{context}, {problem}"  # "expected a single document ..., but found another"
-    else:
-        text = str(problem) + (f" ({context})" if context else "")
-    return SpecError(f"not valid YAML: {text}", path=path, line=line)
-
-
 def parse_spec_text(text: str, path: str) -> Spec:
     """Read a spec from YAML ``text``; ``path`` names the file in messages and is the base for
     relative catalog paths. Raises :class:`SpecError` listing every problem found."""
-    deep = yaml_too_deep(text)
-    if deep is not None:
-        raise SpecError(
-            f"mappings and lists nest deeper than {MAX_DEPTH} levels; a spec needs 4",
-            path=path,
-            line=deep,
-        )
     try:
-        root = yaml.compose(text, Loader=yaml.SafeLoader)
-    except yaml.YAMLError as exc:
-        raise _yaml_error(path, exc) from None
+        root = compose_yaml(text, "a spec", 4)
+    except YamlTrouble as exc:
+        raise SpecError(exc.message, path=path, line=exc.line) from None
     if root is None:
         raise SpecError(
             f"the file is empty; expected a mapping starting with quartet_spec: {FORMAT_VERSION}",
             path=path,
             line=1,
         )
-    reader = _Reader(path)
+    reader = Reader(path)
     schema = _Schema(reader)
     try:
         spec = schema.spec(root)
-    except _Recorded:
+    except Recorded:
         spec = None
     if reader.problems:
         raise _combined(path, reader.problems)

@@ -19,8 +19,9 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from .analysis.checks import CheckResult, run_checks, safety_cautions
+from .analysis.checks import CheckResult, run_checks
 from .analysis.montecarlo import MonteCarloResult, monte_carlo
+from .analysis.safety import safety_cautions
 from .analysis.worstcase import WorstCase, worst_case
 from .design import Design
 from .spec import CmrrBasis, Spec

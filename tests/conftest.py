@@ -37,3 +37,38 @@ def ngspice() -> str:
     pytest.skip(
         "ngspice not installed (Debian package 'ngspice'); these checks always run under CI"
     )
+
+
+#: Tests that take seconds each: the exhaustive references (oracle, battery, relaxation), the
+#: fuzzing, the wheel build, the signal tests and the benchmark smoke runs. They carry the
+#: ``slow`` marker, so ``pytest -m "not slow"`` is the quick loop while editing; plain
+#: ``pytest`` (the README's command, what CI runs) runs everything. Entries are node-id
+#: prefixes: a file, or a file and a test function.
+SLOW = (
+    "tests/test_oracle.py",
+    "tests/test_fuzz.py",
+    "tests/test_interrupt.py",
+    "tests/test_benchmark_smoke.py",
+    "tests/test_docs.py",
+    "tests/test_board_search.py",
+    "tests/test_frontier.py::test_top_k_costs_match_the_exhaustive_reference",
+    "tests/test_frontier.py::test_network_specs_match_the_reference_over_the_builtin_catalog",
+    "tests/test_frontier.py::test_screen_is_a_relaxation_and_exact_for_independent_parts",
+    "tests/test_frontier.py::test_battery_over_the_builtin_catalog",
+    "tests/test_frontier.py::test_plain_specs_find_the_cheap_designs",
+    "tests/test_catalog.py::test_wheel_install_carries_the_builtin_catalog",
+)
+
+
+def pytest_collection_modifyitems(config: pytest.Config, items: list[pytest.Item]) -> None:
+    """Mark the tests of :data:`SLOW` ``slow`` (node ids are taken relative to the checkout
+    root, whatever folder pytest runs from)."""
+    root = Path(__file__).resolve().parent.parent
+    for item in items:
+        try:
+            node = Path(item.path).resolve().relative_to(root).as_posix()
+        except ValueError:
+            continue
+        name = item.name.split("[", 1)[0]
+        if any(node == s or f"{node}::{name}" == s for s in SLOW):
+            item.add_marker(pytest.mark.slow)

@@ -22,9 +22,9 @@ import pytest
 import sympy as sp
 from scipy import constants
 
-from optimizer.analysis import checks
-from optimizer.analysis.checks import (
-    CheckResult,
+from optimizer.analysis import checks, formulas
+from optimizer.analysis.checks import CheckResult, run_checks
+from optimizer.analysis.formulas import (
     closed_loop_bandwidth,
     common_mode_input_resistance,
     derated_power,
@@ -34,10 +34,9 @@ from optimizer.analysis.checks import (
     output_noise_terms,
     required_bandwidth,
     rss,
-    run_checks,
-    safety_cautions,
     single_pole_magnitude,
 )
+from optimizer.analysis.safety import safety_cautions
 from optimizer.design import Design, Placement
 from optimizer.errors import ModelError
 from optimizer.parts import Amplifier, DiscretePart, NetworkPart, RailSpan
@@ -133,8 +132,8 @@ def by_name(results: tuple[CheckResult, ...]) -> dict[str, CheckResult]:
 
 def test_boltzmann_constant_is_codata() -> None:
     # Source: scipy.constants.k (CODATA 2018; exact in the 2019 SI).
-    assert constants.k == checks.BOLTZMANN_J_PER_K
-    assert constants.zero_Celsius == checks.ZERO_CELSIUS_K
+    assert constants.k == formulas.BOLTZMANN_J_PER_K
+    assert constants.zero_Celsius == formulas.ZERO_CELSIUS_K
 
 
 def test_johnson_noise_10k_at_25c() -> None:
@@ -670,7 +669,7 @@ def drifting(values: tuple[float, float, float, float], drift: float) -> Design:
 
 def test_life_value_bounds_and_drift_intervals() -> None:
     # r/R0 from (1 ± δ)·(1 + d): δ = 0.1 %, drift interval [−0.5 %, 0.5 %] or [0, 0.5 %].
-    low, high = checks.life_value_bounds(0.001, -0.005, 0.005)
+    low, high = formulas.life_value_bounds(0.001, -0.005, 0.005)
     assert (float(low), float(high)) == (pytest.approx(0.999 * 0.995), pytest.approx(1.001 * 1.005))
     net = NetworkPart("NQ", (1e3,) * 4, 0.0, 0.0, 0.0, 0.0, 0.05, 50.0, 1.0,
                       drift_1000h=0.001, ratio_drift_1000h=0.0005)  # fmt: skip

@@ -19,6 +19,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
+from optimizer.analysis.environment import IDEAL_ENVIRONMENT, Environment, source_vertices
 from optimizer.analysis.montecarlo import (
     CMRR_PERCENTS,
     GAIN_PERCENTS,
@@ -28,15 +29,7 @@ from optimizer.analysis.montecarlo import (
     monte_carlo_from_variation,
 )
 from optimizer.analysis.transfer import coefficients, common_mode_gain, differential_gain
-from optimizer.analysis.variation import (
-    IDEAL_ENVIRONMENT,
-    Environment,
-    SharedGroup,
-    Variation,
-    resistances,
-    sample_values,
-    source_vertices,
-)
+from optimizer.analysis.variation import SharedGroup, Variation, resistances, sample_values
 from optimizer.analysis.worstcase import worst_case_from_variation
 from optimizer.design import Design, Placement
 from optimizer.errors import ModelError

@@ -28,6 +28,12 @@ import sympy as sp
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
+from optimizer.analysis.environment import (
+    IDEAL_ENVIRONMENT,
+    Environment,
+    environment_from_spec,
+    source_vertices,
+)
 from optimizer.analysis.transfer import (
     coefficients,
     combine_cmrr_db,
@@ -35,14 +41,10 @@ from optimizer.analysis.transfer import (
     differential_gain,
 )
 from optimizer.analysis.variation import (
-    IDEAL_ENVIRONMENT,
-    Environment,
     SharedGroup,
     Variation,
     discrete_factor_bounds,
     drift_bound,
-    environment_from_spec,
-    source_vertices,
     variation_from_design,
 )
 from optimizer.analysis.worstcase import (

@@ -35,6 +35,7 @@ import pandas as pd
 import pytest
 import rich
 import yaml
+from helpers import EXAMPLES, ROOT
 from rich.console import Console
 
 from optimizer.catalog import (
@@ -56,8 +57,6 @@ from optimizer.parts import DiscretePart, NetworkPart, Technology
 from optimizer.report.catalog import catalog_counts, render_catalog_summary
 from optimizer.units import parse_resistance
 
-ROOT = Path(__file__).resolve().parent.parent
-EXAMPLES = ROOT / "examples"
 HOUSE_CSV = EXAMPLES / "house_stock.csv"
 HOUSE_NETWORKS = EXAMPLES / "house_stock_networks.yaml"
 
@@ -740,7 +739,8 @@ def test_yaml_catalog_with_discrete_parts_and_networks(tmp_path: Path) -> None:
         ),
         (
             "discrete: [\n",
-            "{path}:2: not valid YAML: expected the node content, but found '<stream end>'",
+            "{path}:2: not valid YAML: expected the node content, but found '<stream end>' "
+            "(while parsing a flow node)",
         ),
         ("discreet: []\n", "{path}:1: column 'discreet': unknown key; did you mean 'discrete'?"),
         ("discrete: 5\n", "{path}:1: column 'discrete': expected a list of parts under discrete:"),
@@ -1218,6 +1218,7 @@ def test_missing_builtin_data_is_a_located_error(tmp_path: Path) -> None:
     env = {
         **{k: v for k, v in os.environ.items() if k not in ("PYTHONHOME", "PYTHONPATH")},
         "PYTHONPATH": _dependency_folders(),
+        "COLUMNS": "1000",  # a long temporary path is not cut across lines
     }
     show = subprocess.run(
         [sys.executable, "-S", "-m", "optimizer", "catalog", "show"],

@@ -24,11 +24,11 @@ import re
 from pathlib import Path
 
 import pytest
+from helpers import EXAMPLES, run_cli
 from rich.console import Console
 
-from optimizer.analysis.checks import safety_cautions
+from optimizer.analysis.safety import safety_cautions
 from optimizer.catalog import builtin_catalog
-from optimizer.cli import main
 from optimizer.errors import DesignError
 from optimizer.report.check import SCHEMA, check_json_text, check_to_json, render_check
 from optimizer.specfile import load_spec
@@ -41,7 +41,6 @@ from optimizer.userdesign import (
 )
 from optimizer.verify import verify
 
-EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 INDUSTRIAL = str(EXAMPLES / "industrial_input.yaml")
 MAINS = str(EXAMPLES / "mains_monitor.yaml")
 FAST = ["--samples", "2000"]
@@ -90,13 +89,7 @@ SECTION_TITLES = (
 
 
 def _run(argv: list[str], width: int = 1000) -> tuple[int, str, str]:
-    out = Console(file=io.StringIO(), width=width, color_system=None)
-    err = Console(file=io.StringIO(), width=width, color_system=None)
-    code = main(argv, console=out, err=err)
-    text_out = out.file.getvalue()  # type: ignore[attr-defined]
-    text_err = err.file.getvalue()  # type: ignore[attr-defined]
-    assert "Traceback" not in text_out + text_err
-    return code, text_out, text_err
+    return run_cli(argv, width)
 
 
 def _json(argv: list[str], width: int = 1000) -> tuple[int, dict[str, object]]:

@@ -17,7 +17,6 @@ Sources of the expected values:
 from __future__ import annotations
 
 import base64
-import io
 import json
 import re
 import subprocess
@@ -25,27 +24,19 @@ from pathlib import Path
 
 import pandas as pd
 import pytest
-from rich.console import Console
+from helpers import EXAMPLES, run_cli
 
 from optimizer.analysis.transfer import coefficients
-from optimizer.cli import main
 from optimizer.report.exports import BOM_COLUMNS
 from optimizer.report.schemas import CHECK_SCHEMA, PICK_SCHEMA, schema_errors
 from optimizer.specfile import load_spec
 
-EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 MOTOR = str(EXAMPLES / "motor_shunt.yaml")
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"  # PNG specification (ISO/IEC 15948), section 5.2
 
 
 def _run(argv: list[str], width: int = 200) -> tuple[int, str, str]:
-    out = Console(file=io.StringIO(), width=width, color_system=None)
-    err = Console(file=io.StringIO(), width=width, color_system=None)
-    code = main(argv, console=out, err=err)
-    text_out = out.file.getvalue()  # type: ignore[attr-defined]
-    text_err = err.file.getvalue()  # type: ignore[attr-defined]
-    assert "Traceback" not in text_out + text_err
-    return code, text_out, text_err
+    return run_cli(argv, width)
 
 
 # Demo catalog (invented ids and costs); two ids start with formula characters on purpose.
@@ -287,9 +278,9 @@ def test_html_report_without_plots_keeps_the_text_histogram() -> None:
 
 
 def test_mains_exports_carry_the_safety_cautions(tmp_path: Path) -> None:
-    # Source: the cautions the analysis gives for this spec (analysis.checks.safety_cautions);
+    # Source: the cautions the analysis gives for this spec (analysis.safety.safety_cautions);
     # the exports must repeat them, not drop them.
-    from optimizer.analysis.checks import safety_cautions
+    from optimizer.analysis.safety import safety_cautions
 
     mains = str(EXAMPLES / "mains_monitor.yaml")
     cautions = safety_cautions(load_spec(mains))

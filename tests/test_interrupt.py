@@ -19,8 +19,8 @@ import time
 from pathlib import Path
 
 import pytest
+from helpers import ROOT
 
-ROOT = Path(__file__).resolve().parent.parent
 ADC = str(ROOT / "examples" / "adc_driver.yaml")
 MOTOR = str(ROOT / "examples" / "motor_shunt.yaml")
 CHECK = ["check", MOTOR, "--r1", "1k", "--r2", "20k", "--r3", "1k", "--r4", "20k"]
@@ -101,3 +101,27 @@ def test_write_partial_keeps_the_best_design_found_so_far(tmp_path: Path) -> Non
         err.split()
     )
     assert _outputs(tmp_path)["b.csv"].startswith("positions,part_id,kind,")
+
+
+@pytest.mark.parametrize(
+    ("marker", "pause", "after", "signum"),
+    [
+        ("search", "", 1.0, signal.SIGINT),  # between and during the floors' searches
+        ("search", "", 1.0, signal.SIGTERM),
+        ("writing", "writing", 0.2, signal.SIGINT),  # the plot made, not yet written
+    ],
+)
+def test_a_signal_stops_a_sweep_and_writes_no_plot(
+    tmp_path: Path, marker: str, pause: str, after: float, signum: int
+) -> None:
+    pytest.importorskip("matplotlib")
+    (tmp_path / "b.png").write_text(OLD, encoding="utf-8")
+    # The writing case needs a sweep that ends by itself: the motor example, three floors.
+    floors = ["--cmrr", "60:64:2"] if marker == "writing" else ["--cmrr", "60:110:1"]
+    spec = MOTOR if marker == "writing" else ADC
+    argv = ["sweep", spec, *floors, "--plot", "b.png", "--force"]
+    code, err = _run_until(argv, tmp_path, marker, signum, pause=pause, after=after)
+    assert code == 128 + signum
+    assert "interrupted" in err
+    assert "Traceback" not in err
+    assert _outputs(tmp_path) == {"b.png": OLD}

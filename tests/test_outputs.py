@@ -10,31 +10,22 @@ atomically. No real device is ever written: FIFOs and symlinks under ``tmp_path`
 
 from __future__ import annotations
 
-import io
 import os
 import stat
 from pathlib import Path
 
 import pytest
-from rich.console import Console
+from helpers import EXAMPLES, run_cli
 
-from optimizer.cli import main
 from optimizer.safewrite import OutputError, check_outputs, write_all, write_text
 
-EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 MOTOR = str(EXAMPLES / "motor_shunt.yaml")
 CHECK = ["check", MOTOR, "--r1", "1k", "--r2", "20k", "--r3", "1k", "--r4", "20k"]
 CHECK += ["--tolerance", "0.1%", "--tempco", "25ppm/K", "--samples", "500"]
 
 
 def _run(argv: list[str]) -> tuple[int, str, str]:
-    out = Console(file=io.StringIO(), width=200, color_system=None)
-    err = Console(file=io.StringIO(), width=200, color_system=None)
-    code = main(argv, console=out, err=err)
-    text_out = out.file.getvalue()  # type: ignore[attr-defined]
-    text_err = err.file.getvalue()  # type: ignore[attr-defined]
-    assert "Traceback" not in text_out + text_err
-    return code, text_out, text_err
+    return run_cli(argv)
 
 
 def _special(tmp_path: Path, kind: str) -> Path:

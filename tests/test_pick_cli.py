@@ -35,6 +35,7 @@ from typing import Any
 
 import pytest
 import yaml
+from helpers import EXAMPLES, run_cli
 from rich.console import Console
 
 from optimizer.catalog import builtin_catalog
@@ -42,7 +43,6 @@ from optimizer.cli import EXIT_BAD_INPUT, EXIT_NOT_MET, EXIT_OK, EXIT_TIME_LIMIT
 from optimizer.design import Topology
 from optimizer.report.pick import SCHEMA, TABLE_COLUMNS
 
-EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 HOUSE_CSV = EXAMPLES / "house_stock.csv"
 HOUSE_NETWORKS = EXAMPLES / "house_stock_networks.yaml"
 JULIAN_YEAR_H = 365.25 * 24.0
@@ -130,13 +130,7 @@ TN_Q10K_ELEMENT = 0.0001 / 2 + 1e-6 / 2 * DELTA_T_MAX_K + 0.00005 * math.sqrt(LI
 
 
 def _run(argv: list[str], width: int = 250) -> tuple[int, str, str]:
-    out = Console(file=io.StringIO(), width=width, color_system=None)
-    err = Console(file=io.StringIO(), width=width, color_system=None)
-    code = main(argv, console=out, err=err)
-    text_out = out.file.getvalue()  # type: ignore[attr-defined]
-    text_err = err.file.getvalue()  # type: ignore[attr-defined]
-    assert "Traceback" not in text_out + text_err
-    return code, text_out, text_err
+    return run_cli(argv, width)
 
 
 def _run_json(argv: list[str]) -> tuple[int, dict[str, Any]]:

@@ -10,17 +10,16 @@ check``), and for case 2 the full list of the 16 designs two parts allow (counte
 
 from __future__ import annotations
 
-import io
 import json
 import shutil
 from pathlib import Path
 from typing import Any
 
 import pytest
-from rich.console import Console
+from helpers import run_cli
 
 from optimizer.catalog import load_catalogs
-from optimizer.cli import EXIT_OK, main
+from optimizer.cli import EXIT_OK
 from optimizer.cost import design_cost
 from optimizer.solve.enumerate import reference_search
 from optimizer.solve.search import pick
@@ -32,12 +31,8 @@ CASES = Path(__file__).resolve().parent / "data" / "pick_repro"
 
 
 def _run(argv: list[str]) -> tuple[int, str]:
-    out = Console(file=io.StringIO(), width=250, color_system=None)
-    err = Console(file=io.StringIO(), width=250, color_system=None)
-    code = main(argv, console=out, err=err)
-    text = out.file.getvalue()  # type: ignore[attr-defined]
-    assert "Traceback" not in text + err.file.getvalue()  # type: ignore[attr-defined]
-    return code, text
+    code, out, _ = run_cli(argv, 250)
+    return code, out
 
 
 def _case(tmp_path: Path, name: str) -> Path:

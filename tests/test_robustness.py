@@ -26,7 +26,8 @@ import math
 
 import pytest
 
-from optimizer.analysis.checks import check_resistor_ratings, derated_power
+from optimizer.analysis.checks import check_resistor_ratings
+from optimizer.analysis.formulas import derated_power
 from optimizer.analysis.transfer import coefficients, differential_gain
 from optimizer.analysis.worstcase import worst_case
 from optimizer.catalog import Catalog, catalog_from_parts

@@ -17,6 +17,7 @@ from pathlib import Path
 
 import pytest
 import scipy.constants as si
+from helpers import EXAMPLES
 from rich.console import Console
 
 from optimizer.cli import main
@@ -25,8 +26,6 @@ from optimizer.errors import SpecError
 from optimizer.report.spec import render_spec_summary
 from optimizer.spec import CmrrBasis, Distribution, Objective, Spec, StockPolicy
 from optimizer.specfile import load_spec, parse_spec_text
-
-EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 
 # A valid spec; the line numbers in the expected messages below refer to this text.
 BASE = """\

@@ -23,11 +23,11 @@ import numpy as np
 import pandas as pd
 import pytest
 import yaml
+from helpers import ROOT
 
 import optimizer
 from optimizer.catalog import DISCRETE_COLUMNS, builtin_data_folder, generate_discrete
 
-ROOT = Path(__file__).resolve().parent.parent
 SPEC = ROOT / "examples" / "motor_shunt.yaml"
 HEAVY = ("pandas", "ortools")
 
@@ -92,7 +92,7 @@ def test_building_a_catalog_still_loads_pandas(tmp_path: Path) -> None:
 @pytest.mark.parametrize("name", ["discrete_recipe.yaml", "networks.yaml"])
 def test_builtin_recipes_read_alike_by_libyaml_and_pure_python(name: str) -> None:
     """The catalog's reader gives what PyYAML's pure-Python safe loader gives."""
-    from optimizer.catalog import _read_builtin
+    from optimizer.catalog.builtin import _read_builtin
 
     text = builtin_data_folder().joinpath(name).read_text(encoding="utf-8")
     reference = yaml.load(text, Loader=yaml.SafeLoader)

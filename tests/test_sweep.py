@@ -16,16 +16,17 @@ import xml.etree.ElementTree as ET
 from pathlib import Path
 
 import pytest
+from helpers import EXAMPLES
 from rich.console import Console
 
-from optimizer.cli import _spec_catalogs, main
+from optimizer.api import spec_catalogs
+from optimizer.cli import main
 from optimizer.errors import SpecError
 from optimizer.report.sweep import last_feasible, render_sweep_table, sweep_plot, sweep_text_chart
 from optimizer.solve.search import SearchStatus
 from optimizer.specfile import load_spec
 from optimizer.sweep import SweepResult, parse_range, sweep, sweep_cmrr
 
-EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 INDUSTRIAL = str(EXAMPLES / "industrial_input.yaml")
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
 
@@ -42,7 +43,7 @@ def _run(argv: list[str]) -> tuple[int, str, str]:
 @pytest.fixture(scope="module")
 def industrial_sweep() -> SweepResult:
     spec = load_spec(INDUSTRIAL)
-    catalog = _spec_catalogs(spec, [])
+    catalog = spec_catalogs(spec)
     seen: list[float] = []
     result = sweep_cmrr(
         spec,
@@ -158,7 +159,7 @@ def test_gain_accuracy_sweep() -> None:
     # proven cheapest cost never rises as the accuracy loosens.
     spec = load_spec(INDUSTRIAL)
     result = sweep(
-        spec, _spec_catalogs(spec, []), "gain_accuracy", (0.0005, 0.001, 0.002), time_limit_s=10
+        spec, spec_catalogs(spec), "gain_accuracy", (0.0005, 0.001, 0.002), time_limit_s=10
     )
     assert result.axis == "gain_accuracy"
     costs = [p.network.cost for p in result.points if p.network.status is SearchStatus.OPTIMAL]

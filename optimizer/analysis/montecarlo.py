@@ -34,7 +34,7 @@ Method
   ``Rs1``, ``Rs3`` low, ``Rref`` high, ``A = ∞`` and smallest at the opposite corner with
   ``A = A_min``. Of the source-polygon vertices only those that no other vertex beats in both
   coordinates can hold such an extreme
-  (:func:`~optimizer.analysis.variation.dominant_vertices`). The gain is monotone in ``ε``:
+  (:func:`~optimizer.analysis.environment.dominant_vertices`). The gain is monotone in ``ε``:
   at ``A = ∞`` it rises with ``ε`` for every build (``Adm = (a(1+ε) + c(1−ε))/(2β(1−ε))``,
   ``β = 1 − c``, has ``dAdm/dε = a/(β(1−ε)²) > 0``), so the largest gain takes ``ε = +e``
   only; at ``A_min`` the direction depends on the build, so the smallest gain takes both
@@ -66,16 +66,9 @@ from numpy.typing import ArrayLike, NDArray
 from ..design import Design
 from ..errors import ModelError
 from ..spec import Distribution, Requirements, Spec
+from .environment import Environment, dominant_vertices, environment_from_spec
 from .transfer import divider_ratio
-from .variation import (
-    Environment,
-    Variation,
-    dominant_vertices,
-    environment_from_spec,
-    sample_values,
-    static_and_tempco,
-    variation_from_design,
-)
+from .variation import Variation, sample_values, static_and_tempco, variation_from_design
 from .worstcase import (
     bridge_terms,
     common_mode_error_from_terms,
@@ -331,7 +324,7 @@ def monte_carlo_from_variation(
     chunk: int = DEFAULT_CHUNK,
 ) -> MonteCarloResult:
     """Monte-Carlo yield of a :class:`~optimizer.analysis.variation.Variation` in an
-    :class:`~optimizer.analysis.variation.Environment` against ``requirements`` (target gain,
+    :class:`~optimizer.analysis.environment.Environment` against ``requirements`` (target gain,
     gain accuracy, CMRR floor, yield target). Module docstring for the method."""
     if isinstance(samples, bool) or not isinstance(samples, int) or samples < 1:
         raise ModelError(

@@ -73,6 +73,13 @@ from numpy.typing import ArrayLike, NDArray
 from ..design import Design
 from ..errors import ModelError
 from ..spec import Spec
+from .environment import (
+    IDEAL_ENVIRONMENT,
+    Environment,
+    amplifier_corners,
+    dominant_vertices,
+    environment_from_spec,
+)
 from .transfer import (
     coefficients,
     common_mode_gain,
@@ -80,16 +87,7 @@ from .transfer import (
     divider_ratio,
     feedback_factor,
 )
-from .variation import (
-    IDEAL_ENVIRONMENT,
-    Environment,
-    Variation,
-    amplifier_corners,
-    dominant_vertices,
-    environment_from_spec,
-    passive_corners,
-    variation_from_design,
-)
+from .variation import Variation, passive_corners, variation_from_design
 
 __all__ = [
     "BUDGET_NAMES",
@@ -659,7 +657,7 @@ def _refine(variation: Variation, environment: Environment) -> _Extremes | None:
     resistance value ``x = c/a`` rises with ``Rs3`` and falls with ``Rs1`` and ``Rref``, and
     ``Adm`` rises with ``Rref`` and falls with ``Rs1`` and ``Rs3``, so at every scale a
     source vertex that another one beats in both coordinates
-    (:func:`~optimizer.analysis.variation.dominant_vertices`), or the other end of the REF
+    (:func:`~optimizer.analysis.environment.dominant_vertices`), or the other end of the REF
     range, gives a value no better."""
     if not needs_scale_search(variation, environment):
         return None

@@ -20,13 +20,22 @@ from dataclasses import dataclass, replace
 
 from ..catalog import Catalog
 from ..design import Design
-from ..errors import BestReachable
 from ..spec import CmrrBasis, Objective, Spec
 from ..units import format_fraction, format_quantity, format_resistance
 from .amplifier import amplifier_limits
 from .search import PickResult, SearchStatus, Verifier, pick
 
-__all__ = ["Diagnosis", "diagnose"]
+__all__ = ["BestReachable", "Diagnosis", "diagnose"]
+
+
+@dataclass(frozen=True)
+class BestReachable:
+    """The best value of one requirement that the catalog can reach (for a diagnosis)."""
+
+    requirement: str
+    asked: str
+    reachable: str
+    note: str = ""
 
 
 @dataclass(frozen=True)

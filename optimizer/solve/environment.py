@@ -11,8 +11,9 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from ..analysis.checks import derated_power
-from ..analysis.variation import drift_bound, source_vertices
+from ..analysis.environment import source_vertices
+from ..analysis.formulas import derated_power
+from ..analysis.variation import drift_bound
 from ..spec import Spec
 
 __all__ = [
@@ -27,7 +28,7 @@ __all__ = [
 
 def derating_factor(temp_c: float) -> float:
     """Fraction of the 70 °C power rating usable at ``temp_c`` (the derating curve of
-    :func:`optimizer.analysis.checks.derated_power`)."""
+    :func:`optimizer.analysis.formulas.derated_power`)."""
     return float(derated_power(1.0, temp_c))
 
 

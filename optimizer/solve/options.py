@@ -26,7 +26,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from ..analysis.checks import BOLTZMANN_J_PER_K as BOLTZMANN
+from ..analysis.formulas import BOLTZMANN_J_PER_K as BOLTZMANN
 from ..catalog import Catalog
 from ..design import Topology
 from ..spec import Distribution, DriftModel, Spec, StockPolicy

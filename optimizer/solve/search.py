@@ -32,11 +32,12 @@ from .amplifier import amplifier_limits
 from .discrete import DiscreteBlock, build_discrete, value_constants
 from .environment import LinearEnvironment, linear_environment
 from .frontier import discrete_frontier, network_frontier
-from .model import BuiltModel, Limits, ModelVariant, build_model, limits_for
+from .model import COST_SCALE, BuiltModel, Limits, ModelVariant, build_model, limits_for
 from .options import ALL_SHAPES, DIVIDER_SHAPES, EQUAL_SHAPES, OptionTable, build_options
 
 __all__ = [
     "Candidate",
+    "OrderedDesigns",
     "PickResult",
     "SearchProgress",
     "SearchStatus",
@@ -612,3 +613,129 @@ def _best_of_each_kind(
 def with_objective(spec: Spec, objective: Objective) -> Spec:
     """``spec`` with another objective (for the CLI's overrides)."""
     return replace(spec, preferences=replace(spec.preferences, objective=objective))
+
+
+class OrderedDesigns:
+    """Every design of ``spec`` from ``catalog`` that the search's screens let through, best
+    first by the ranking key (the exact cost for the lowest-cost objective), one at a time and
+    with no fixed count: the topology streams of :func:`pick`, merged as :func:`pick` merges
+    them (ties to the topology listed first). Each design is judged by ``verifier`` as it is
+    taken; a verifier that passes everything defers the exact check to the caller (the board
+    search does): each stream still yields in nondecreasing key, so the order stays exact.
+
+    ``hold_cp_sat``: the CP-SAT streams wait until :meth:`release` (the exact enumerations run
+    alone, so a caller can first learn a bound); the designs they then bring may be cheaper
+    than some already taken, but each later :meth:`peek` is again the least key of every design
+    not yet taken. ``peek`` is None when none is left; ``proven`` says that every stream ran
+    out without the clock (``deadline``, a ``time.perf_counter`` value), a signal or a hold
+    cutting it short, so no design was left out (beyond a released ceiling)."""
+
+    def __init__(
+        self,
+        spec: Spec,
+        catalog: Catalog,
+        verifier: Verifier,
+        *,
+        deadline: float,
+        workers: int = 1,
+        hold_cp_sat: bool = False,
+    ) -> None:
+        self._clock = _Clock(deadline=deadline)
+        started = time.perf_counter()
+        problem = prepare(spec, catalog)
+        self._clock.build += time.perf_counter() - started
+        self._streams = _streams(problem, spec)
+        cp_sat = any(isinstance(s, _Stream) for s in self._streams)
+        if (
+            (cp_sat and problem.size == 0)
+            or problem.limits.cmrr_budget <= 0.0
+            or amplifier_limits(spec)
+        ):
+            self._streams = []  # nothing can pass
+        self._problem = problem
+        self._verifier = verifier
+        self._workers = workers
+        self._held = hold_cp_sat
+        self._seen: set[Design] = set()  # designs the CP-SAT streams gave (two may overlap)
+        self._extended: set[int] = set()  # CP-SAT streams continued by a later one
+        self._heads: list[tuple[float, Candidate] | None] = [None] * len(self._streams)
+        self._started = [False] * len(self._streams)
+
+    def _live(self) -> list[tuple[float, int]]:
+        for i, stream in enumerate(self._streams):
+            if not self._started[i] and not (self._held and isinstance(stream, _Stream)):
+                self._started[i] = True
+                self._heads[i] = self._next(stream)
+        return [(head[0], i) for i, head in enumerate(self._heads) if head is not None]
+
+    @property
+    def has_cp_sat(self) -> bool:
+        """Some stream is a CP-SAT stream."""
+        return any(isinstance(s, _Stream) for s in self._streams)
+
+    @property
+    def holding(self) -> bool:
+        """Some CP-SAT stream still waits for :meth:`release`."""
+        return self._held and any(isinstance(s, _Stream) for s in self._streams)
+
+    def release(self, ceiling: float = math.inf) -> None:
+        """Let the CP-SAT streams in, each bounded above by ``ceiling`` (designs dearer than it
+        are left out; ``inf``: none). Called again with a higher ceiling, it adds for each
+        CP-SAT stream a stream of the designs from its old ceiling up to the new one (a design
+        both give is taken once)."""
+        for i, stream in enumerate(list(self._streams)):
+            if not isinstance(stream, _Stream):
+                continue
+            if not self._started[i]:
+                stream.cost_ceiling = min(stream.cost_ceiling, ceiling)
+                continue
+            if ceiling <= stream.cost_ceiling or i in self._extended:
+                continue
+            self._extended.add(i)
+            fresh = _Stream(self._problem, stream.topologies, stream.objective, stream.pair_shape)
+            fresh.cost_ceiling = ceiling
+            built = fresh._model(self._clock)
+            if not built.infeasible and built.goal is not None:
+                slack = 4 * len(built.literals()) + 1  # each term rounds by half a unit at most
+                built.model.add(built.goal >= math.floor(stream.cost_ceiling * COST_SCALE) - slack)
+            self._streams.append(fresh)
+            self._heads.append(None)
+            self._started.append(False)
+        self._held = False
+
+    def peek(self) -> float | None:
+        live = self._live()
+        return min(live)[0] if live else None
+
+    def next(self) -> Candidate | None:
+        live = self._live()
+        if not live:
+            return None
+        _, best = min(live)
+        head = self._heads[best]
+        assert head is not None
+        stream = self._streams[best]
+        self._heads[best] = self._next(stream)
+        return head[1]
+
+    def _next(self, stream: _Stream | _FrontierStream) -> tuple[float, Candidate] | None:
+        while True:
+            head = stream.next(self._verifier, self._clock, self._workers)
+            if head is None or not isinstance(stream, _Stream):
+                return head
+            if head[1].design not in self._seen:
+                self._seen.add(head[1].design)
+                return head
+
+    @property
+    def proven(self) -> bool:
+        return (
+            not self.holding
+            and not any(s.timed_out for s in self._streams)
+            and all(s.optimal for s in self._streams)
+        )
+
+    @property
+    def seconds(self) -> tuple[float, float, float]:
+        """(build, solve, verify) seconds so far."""
+        return self._clock.build, self._clock.solve, self._clock.verify

@@ -77,6 +77,15 @@ TARGET_1M_SOLVE_S = 10.0
 TARGET_1M_SOLVE_OVER_READ = 2.0
 TARGET_MC_PER_S = 10e6
 TARGET_PEAK_BYTES = 1 << 30
+#: Board pick (issue 16): 4 different amplifiers over the built-in catalog, proven; 16
+#: channels of 4 kinds.
+TARGET_BOARD4_S = 5.0
+TARGET_BOARD16_S = 10.0
+#: The board section's amplifiers: four bundled examples, each one kind of the board.
+BOARD_KINDS = ("motor_shunt", "industrial_input", "mains_monitor", "bridge_front_end")
+#: The board section's purchasing (relative units): a line costs two 5 % resistors.
+BOARD_LINE_COST = 2.0
+BOARD_PLACEMENT_COST = 0.02
 
 #: A pick's status as the benchmark names it (``SearchStatus`` values and the ``search.status``
 #: of ``quartet pick``'s JSON today; "optimal" is read as proven optimal too).
@@ -493,6 +502,63 @@ def bench_battery(runs: int, tmp: str) -> list[dict[str, Any]]:
                 "status": status,
                 "ranked": len(result.ranked),
                 "optimum": result.ranked[0].cost.total if result.ranked else None,
+                "search_s": median(searches),
+            }
+        )
+    return rows
+
+
+def bench_board(runs: int) -> list[dict[str, Any]]:
+    """The board pick (``optimizer.board``, top 1) on: the four :data:`BOARD_KINDS` examples
+    once each over the built-in catalog; the same four kinds with 4 channels each (16
+    channels); and ``examples/drive_board.yaml`` (the house stock). Every run must be proven
+    optimal. "search" is the board search's own time, without the Monte Carlo of the report."""
+    from optimizer.board import Board, BoardAmplifier, Purchasing, board_search
+    from optimizer.board.boardfile import load_board
+    from optimizer.catalog import builtin_catalog
+    from optimizer.verify import verify
+
+    specs = [load_spec(os.path.join(REPO, "examples", f"{n}.yaml")) for n in BOARD_KINDS]
+    purchasing = Purchasing(line_cost=BOARD_LINE_COST, placement_cost=BOARD_PLACEMENT_COST)
+
+    def kinds(quantity: int) -> Board:
+        amplifiers = tuple(
+            BoardAmplifier(name, spec, quantity, f"K{chr(65 + i)}")
+            for i, (name, spec) in enumerate(zip(BOARD_KINDS, specs, strict=True))
+        )
+        return Board(amplifiers, purchasing, f"{len(specs)} kinds x {quantity}")
+
+    drive = load_board(os.path.join(REPO, "examples", "drive_board.yaml"))
+    workloads = [
+        ("4 kinds x 1 (built-in catalog)", kinds(1), builtin_catalog()),
+        ("4 kinds x 4 = 16 channels (built-in catalog)", kinds(4), builtin_catalog()),
+        ("examples/drive_board.yaml (house stock)", drive,
+         load_catalogs([os.path.join(REPO, "examples", "house_stock.csv")], False)),
+    ]  # fmt: skip
+    rows = []
+    for name, board, catalog in workloads:
+        row: dict[str, Any] = {"board": name}
+        searches: list[float] = []
+        try:
+            for _ in range(runs):
+                wall, result = timed(board_search, board, catalog, verify, top=1, time_limit_s=60.0)
+                status = status_name(result.status)
+                check_status(status, len(result.boards), (PROVEN,))
+                searches.append(wall)
+        except Exception as exc:  # a failed run: shown, never measured
+            rows.append(failed_row({**row, "runs": len(searches)}, exc))
+            continue
+        best, alone = result.boards[0], result.alone
+        rows.append(
+            {
+                **row,
+                "runs": len(searches),
+                "status": status,
+                "board_total": best.cost.total,
+                "alone_total": alone.cost.total if alone else None,
+                "lines": best.cost.line_count,
+                "designs_read": sum(result.read),
+                "exact_checks": result.verified,
                 "search_s": median(searches),
             }
         )
@@ -942,6 +1008,15 @@ def targets(result: dict[str, Any]) -> list[dict[str, Any]]:
     if mc:
         add("MC kernel samples/s >= 1e7", mc.get("samples_per_s"), TARGET_MC_PER_S, True,
             ["Monte-Carlo kernel"] if "failed" in mc else [])  # fmt: skip
+    boards = {r["board"]: r for r in result.get("board", [])}
+    for label, prefix, goal in (
+        ("board of 4 different amplifiers, proven (s) <= 5", "4 kinds x 1", TARGET_BOARD4_S),
+        ("board of 16 channels of 4 kinds, proven (s) <= 10", "4 kinds x 4", TARGET_BOARD16_S),
+    ):
+        rows = [r for name, r in boards.items() if name.startswith(prefix)]
+        if rows:
+            failed = [r["board"] for r in rows if "failed" in r]
+            add(label, None if failed else rows[0]["search_s"], goal, False, failed)
     return out
 
 
@@ -950,7 +1025,7 @@ def failures(result: dict[str, Any]) -> list[str]:
     out = []
     for section, key in (("examples", "example"), ("battery", "spec"), ("cli", "command"),
                          ("oracle", "parts"),
-                         ("scaling", "parts")):  # fmt: skip
+                         ("scaling", "parts"), ("board", "board")):  # fmt: skip
         out += [f"{section} {r[key]}: {r['failed']}" for r in result.get(section, [])
                 if "failed" in r]  # fmt: skip
     mc = result.get("montecarlo")
@@ -994,7 +1069,7 @@ def parse_args(argv: Sequence[str] | None) -> argparse.Namespace:
     parser.add_argument("--runs", type=int, default=None, help="runs per figure (default 5)")
     parser.add_argument("--json", metavar="OUT", help="write the figures as JSON to OUT")
     parser.add_argument(
-        "--sections", default="examples,battery,cli,oracle,scaling,montecarlo",
+        "--sections", default="examples,battery,cli,oracle,scaling,montecarlo,board",
         help="comma-separated sections to run",
     )  # fmt: skip
     parser.add_argument("--examples", help="comma-separated example names (default: all)")
@@ -1117,6 +1192,13 @@ def main(argv: Sequence[str] | None = None) -> int:
             result["montecarlo"] = bench_montecarlo(runs, mc_samples)
             print(section("\nMonte-Carlo kernel (one core)", [result["montecarlo"]],
                           ["samples", "runs", "status", "kernel_s", "samples_per_s"], "samples"),
+                  flush=True)  # fmt: skip
+        if "board" in sections:
+            result["board"] = bench_board(runs)
+            print(section("\nBoard pick (top 1, proven; line cost 2, placement 0.02)",
+                          result["board"], ["board", "runs", "status", "board_total",
+                                            "alone_total", "lines", "designs_read",
+                                            "exact_checks", "search_s"], "board"),
                   flush=True)  # fmt: skip
     result["targets"] = targets(result)
     result["failures"] = failures(result)
