@@ -9,10 +9,11 @@ SIGINT / SIGTERM (128 + the signal number).
 from __future__ import annotations
 
 import argparse
+import contextlib
 import os
 import sys
 import warnings
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Iterator, Sequence
 from typing import TYPE_CHECKING
 
 from rich.console import Console
@@ -26,6 +27,7 @@ if TYPE_CHECKING:
     from .catalog import Catalog
     from .design import Design
     from .report.pick import PickReport
+    from .solve.search import SearchProgress
     from .spec import Spec
     from .verify import Verification
 
@@ -395,8 +397,16 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
     top = args.top if args.top is not None else spec.preferences.alternatives
     _stage("search")
     # A signal during the search stops it; the search then returns what it found so far.
-    with interrupt.winding_down():
-        result = pick(spec, catalog, verify, top=top, time_limit_s=args.time_limit, distinct=True)
+    with interrupt.winding_down(), _search_progress() as progress:
+        result = pick(
+            spec,
+            catalog,
+            verify,
+            top=top,
+            time_limit_s=args.time_limit,
+            distinct=True,
+            progress=progress,
+        )
     stopped = interrupt.cancelled()
     diagnosis = None
     if result.status is SearchStatus.INFEASIBLE and not stopped:
@@ -607,6 +617,30 @@ def _stage(name: str) -> None:
         import time
 
         time.sleep(STAGE_PAUSE_S)
+
+
+@contextlib.contextmanager
+def _search_progress() -> Iterator[Callable[[SearchProgress], None] | None]:
+    """A progress line for the search on standard error when it is a terminal (spinner,
+    designs checked and verified, elapsed time; removed when the search ends); nothing when
+    standard error is a pipe or a file."""
+    if not sys.stderr.isatty():
+        yield None
+        return
+    from rich.progress import Progress, SpinnerColumn, TextColumn, TimeElapsedColumn
+
+    columns = (SpinnerColumn(), TextColumn("{task.description}"), TimeElapsedColumn())
+    with Progress(*columns, console=Console(stderr=True), transient=True) as bar:
+        task = bar.add_task("searching", total=None)
+
+        def show(state: SearchProgress) -> None:
+            bar.update(
+                task,
+                description=f"searching: {state.passed} verified of {state.checked} checked, "
+                f"limit {state.time_limit_s:g} s",
+            )
+
+        yield show
 
 
 def _notes(args: argparse.Namespace, console: Console) -> Console:

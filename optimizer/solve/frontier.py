@@ -563,21 +563,58 @@ def _group_table(half: _Half) -> tuple[IntArray, IntArray, Array, Array, IntArra
     return order, np.column_stack([starts, stops]), least_cost, least_spread, classes, groups
 
 
+def _gain_room(c_lo: Array, c_hi: Array, lim: _Limits) -> tuple[Array, Array]:
+    """Per record (rows of ``c_lo``, ``c_hi``: its ``c`` bounds at vertices that share one
+    ``a``): ``(ln a_min, ln a_max)`` such that the gain conditions of the module docstring
+    hold only if the partner's ``ln a_lo`` lies in between. ``Adm`` rises with ``a``
+    (:func:`_adm`), so ``Adm(a_lo, c_lo, ε, 1/A) ≥ G_min`` gives
+    ``a_lo ≥ (2·G_min·(1/A + (1 − c_lo)(1 − ε)) − c_lo(1 − ε))/(1 + ε)`` and
+    ``Adm(a_hi, c_hi, ε, 0) ≤ G_max`` gives ``a_lo ≤ a_hi ≤ (2·G_max(1 − c_hi)(1 − ε) −
+    c_hi(1 − ε))/(1 + ε)``, for every sign of ``ε``; widened by 1e-12 against rounding."""
+    least = np.full(c_lo.shape[0], 0.0)
+    most = np.full(c_lo.shape[0], np.inf)
+    for e in lim.eps:
+        low_a = 2.0 * lim.gain_min * (lim.inv_a + (1.0 - c_lo) * (1.0 - e)) - c_lo * (1.0 - e)
+        high_a = 2.0 * lim.gain_max * (1.0 - c_hi) * (1.0 - e) - c_hi * (1.0 - e)
+        least = np.maximum(least, low_a.max(axis=1) / (1.0 + e))
+        most = np.minimum(most, high_a.min(axis=1) / (1.0 + e))
+    with np.errstate(divide="ignore"):
+        a_least = np.where(least > 0.0, np.log(least * (1.0 - 1e-12)), -np.inf)
+        a_most = np.where(most > 0.0, np.log(most * (1.0 + 1e-12)), -np.inf)
+    return a_least, a_most
+
+
 def _join(
-    one: _Half, idx_one: IntArray, two: _Half, idx_two: IntArray, lim: _Limits, parts: _Parts
+    one: _Half,
+    idx_one: IntArray,
+    two: _Half,
+    idx_two: IntArray,
+    lim: _Limits,
+    parts: _Parts,
+    sorted_cache: dict[tuple[int, int], tuple[IntArray, Array]] | None = None,
 ) -> tuple[IntArray, IntArray]:
     """Exact join of side-1 records ``idx_one`` with side-2 records ``idx_two``: the pairs that
-    meet balance and gain at every vertex (and the input impedance floor at nominal values)."""
+    meet balance and gain at every vertex (and the input impedance floor at nominal values).
+    ``sorted_cache`` keeps each side-2 group sorted by its ``ln a_lo`` at vertex 0 (a group is
+    joined with many side-1 groups)."""
     lam = lim.balance
-    q0 = two.low[idx_two, 0]
-    order = np.argsort(q0, kind="stable")
-    sorted_two = idx_two[order]
-    q_sorted = q0[order]
+    key = (int(idx_two[0]), int(idx_two.size))
+    cached = sorted_cache.get(key) if sorted_cache is not None else None
+    if cached is None:
+        q0 = two.low[idx_two, 0]
+        order = np.argsort(q0, kind="stable")
+        cached = (idx_two[order], q0[order])
+        if sorted_cache is not None:
+            sorted_cache[key] = cached
+    sorted_two, q_sorted = cached
     # The vertices where a is the same as at vertex 0 (same Rs3 and Rref): there the partner's
     # one interval [q, Q] must satisfy q ≥ high_v − Λ and Q ≤ low_v + Λ at each of them.
     same = np.flatnonzero((lim.rs3 == lim.rs3[0]) & (lim.rref == lim.rref[0]))
-    first = np.searchsorted(q_sorted, one.high[idx_one][:, same].max(axis=1) - lam, side="left")
-    last = np.searchsorted(q_sorted, one.low[idx_one][:, same].min(axis=1) + lam, side="right")
+    p_low, p_high = one.low[idx_one][:, same], one.high[idx_one][:, same]
+    # The gain conditions at those vertices bound the partner's a too (:func:`_gain_room`).
+    a_least, a_most = _gain_room(np.exp(p_low), np.exp(p_high), lim)
+    first = np.searchsorted(q_sorted, np.maximum(p_high.max(axis=1) - lam, a_least), side="left")
+    last = np.searchsorted(q_sorted, np.minimum(p_low.min(axis=1) + lam, a_most), side="right")
     count = np.maximum(last - first, 0)
     out_a: list[IntArray] = []
     out_b: list[IntArray] = []
@@ -720,6 +757,7 @@ def _emit(
             parts.volts[row] >= current * r2_hi and parts.power_w[row] >= current**2 * r2_hi
         )
 
+    sorted_cache: dict[tuple[int, int], tuple[IntArray, Array]] = {}
     heap: list[tuple[float, int, int, object]] = []
     tick = itertools.count()
     next_pair = 0
@@ -733,7 +771,7 @@ def _emit(
             a_idx = order1[span1[g1[next_pair], 0] : span1[g1[next_pair], 1]]
             b_idx = order2[span2[g2[next_pair], 0] : span2[g2[next_pair], 1]]
             next_pair += 1
-            ja, jb = _join(one, a_idx, two, b_idx, lim, parts)
+            ja, jb = _join(one, a_idx, two, b_idx, lim, parts, sorted_cache)
             if ja.size == 0:
                 continue
             keys = np.column_stack([one.ca[ja], one.ka[ja], one.cb[ja], one.kb[ja],

@@ -36,7 +36,15 @@ from .model import COST_SCALE, BuiltModel, Limits, ModelVariant, build_model, li
 from .options import ALL_SHAPES, DIVIDER_SHAPES, EQUAL_SHAPES, OptionTable, build_options
 from .ranking import binding_requirement, family_key, tie_key
 
-__all__ = ["Candidate", "OrderedDesigns", "PickResult", "SearchStatus", "pick", "solver_parameters"]
+__all__ = [
+    "Candidate",
+    "OrderedDesigns",
+    "PickResult",
+    "SearchProgress",
+    "SearchStatus",
+    "pick",
+    "solver_parameters",
+]
 
 DEFAULT_TIME_LIMIT_S = 30.0
 MAX_CUTS = 400
@@ -116,29 +124,98 @@ def solver_parameters(time_limit_s: float, workers: int = 1, seed: int = 0) -> c
     return solver
 
 
+@dataclass(frozen=True)
+class SearchProgress:
+    """How far a running search has got (for a progress display): seconds since it started,
+    the time limit (s), candidates the exact check has judged and how many of them passed."""
+
+    elapsed_s: float
+    time_limit_s: float
+    checked: int
+    passed: int
+
+
+#: Least seconds between two progress reports.
+PROGRESS_INTERVAL_S = 0.1
+
+
 @dataclass
 class _Clock:
     deadline: float
     solve: float = 0.0
     verify: float = 0.0
     build: float = 0.0
+    started: float = 0.0
+    checked: int = 0
+    passed: int = 0
+    report: Callable[[SearchProgress], None] | None = None
+    _reported: float = -math.inf
 
     def remaining(self) -> float:
-        return 0.0 if interrupt.cancelled() else self.deadline - time.perf_counter()
+        now = time.perf_counter()
+        if self.report is not None and now - self._reported >= PROGRESS_INTERVAL_S:
+            self._reported = now
+            self.report(
+                SearchProgress(now - self.started, self.deadline - self.started, self.checked,
+                               self.passed)
+            )  # fmt: skip
+        return 0.0 if interrupt.cancelled() else self.deadline - now
+
+    def judged(self, passed: bool) -> None:
+        """Count one exact check."""
+        self.checked += 1
+        self.passed += int(passed)
+
+
+@dataclass(frozen=True)
+class _ModelParts:
+    """The option table, discrete block and value constants of the CP-SAT model."""
+
+    options: OptionTable
+    block: DiscreteBlock
+    constants: tuple[NDArray[np.float64], NDArray[np.float64], NDArray[np.float64]]
 
 
 @dataclass(frozen=True)
 class Problem:
-    """Everything the model is built from (kept together for re-builds)."""
+    """Everything the model is built from (kept together for re-builds). The CP-SAT model's
+    parts (options, discrete block, value constants) are built on first use: a pick served by
+    the exact enumerations alone never needs them."""
 
     spec: Spec
     catalog: Catalog
     env: LinearEnvironment
-    options: OptionTable
-    block: DiscreteBlock
     limits: Limits
+    _parts: list[_ModelParts] = field(default_factory=list, compare=False, repr=False)
 
-    constants: tuple[NDArray[np.float64], NDArray[np.float64], NDArray[np.float64]]
+    def _model_parts(self) -> _ModelParts:
+        if not self._parts:
+            block = build_discrete(self.catalog, self.spec, self.env)
+            self._parts.append(
+                _ModelParts(
+                    build_options(self.catalog, self.spec, self.env),
+                    block,
+                    value_constants(block, self.spec, self.env),
+                )
+            )
+        return self._parts[0]
+
+    @property
+    def options(self) -> OptionTable:
+        return self._model_parts().options
+
+    @property
+    def block(self) -> DiscreteBlock:
+        return self._model_parts().block
+
+    @property
+    def constants(self) -> tuple[NDArray[np.float64], NDArray[np.float64], NDArray[np.float64]]:
+        return self._model_parts().constants
+
+    @property
+    def built(self) -> bool:
+        """Whether the CP-SAT model's parts have been built."""
+        return bool(self._parts)
 
     def build(self, variant: ModelVariant) -> BuiltModel:
         return build_model(
@@ -266,6 +343,7 @@ class _Stream(_Progress):
             started = time.perf_counter()
             verdict = verifier(design, spec)
             clock.verify += time.perf_counter() - started
+            clock.judged(verdict.passed)
             if not verdict.passed:
                 self.rejected.append((design, verdict))
                 if len(self.rejected) >= MAX_CUTS:
@@ -329,6 +407,7 @@ class _FrontierStream(_Progress):
             started = time.perf_counter()
             verdict = verifier(design, spec)
             clock.verify += time.perf_counter() - started
+            clock.judged(verdict.passed)
             if not verdict.passed:
                 self.rejected.append((design, verdict))
                 continue
@@ -349,18 +428,10 @@ def _frontier_applies(spec: Spec, topology: Topology) -> bool:
 
 
 def prepare(spec: Spec, catalog: Catalog) -> Problem:
-    """The environment, options, discrete block and limits of the linear model."""
+    """The environment and limits of the linear model; its options, discrete block and value
+    constants follow on first use (:class:`Problem`)."""
     env = linear_environment(spec)
-    block = build_discrete(catalog, spec, env)
-    return Problem(
-        spec,
-        catalog,
-        env,
-        build_options(catalog, spec, env),
-        block,
-        limits_for(spec, env),
-        value_constants(block, spec, env),
-    )
+    return Problem(spec, catalog, env, limits_for(spec, env))
 
 
 def pick(
@@ -372,6 +443,7 @@ def pick(
     time_limit_s: float | None = None,
     workers: int = 1,
     distinct: bool = False,
+    progress: Callable[[SearchProgress], None] | None = None,
 ) -> PickResult:
     """The ``top`` best designs (by the spec's objective) from ``catalog`` that pass ``verifier``.
 
@@ -381,16 +453,26 @@ def pick(
     by the tie-breaks there, the whole tie group at the cut being fetched first; ``ranked``
     holds every design of the first ``top`` families, grouped by family and numbered in
     ``PickResult.choices``. Infeasibility is not an exception here: an empty
-    ``ranked`` with status INFEASIBLE lets the caller run the diagnosis."""
+    ``ranked`` with status INFEASIBLE lets the caller run the diagnosis. ``progress`` (if
+    given) is called with a :class:`SearchProgress` at most every
+    :data:`PROGRESS_INTERVAL_S` seconds while the search runs (between steps; a CP-SAT solve
+    is one step)."""
     wanted = top if top is not None else spec.preferences.alternatives
     started = time.perf_counter()
     clock = _Clock(
-        deadline=started + (time_limit_s if time_limit_s is not None else DEFAULT_TIME_LIMIT_S)
+        deadline=started + (time_limit_s if time_limit_s is not None else DEFAULT_TIME_LIMIT_S),
+        started=started,
+        report=progress,
     )
     problem = prepare(spec, catalog)
     clock.build += time.perf_counter() - started
     streams = _streams(problem, spec)
-    if problem.size == 0 or problem.limits.cmrr_budget <= 0.0 or amplifier_limits(spec):
+    cp_sat = any(isinstance(s, _Stream) for s in streams)
+    if (
+        (cp_sat and problem.size == 0)
+        or problem.limits.cmrr_budget <= 0.0
+        or amplifier_limits(spec)
+    ):
         streams = []  # nothing can pass: leave the reasons to the diagnosis
     replay: list[list[tuple[float, Candidate]]] = [[] for _ in streams]
 
@@ -451,7 +533,7 @@ def pick(
         build_seconds=clock.build,
         cuts=len(rejected),
         solves=sum(s.solves for s in streams),
-        option_count=problem.size,
+        option_count=problem.size if problem.built else 0,
         rejected=tuple(rejected),
         choices=choices,
         ties_cut=ties_cut,
@@ -553,8 +635,6 @@ def _streams(problem: Problem, spec: Spec) -> list[_Stream | _FrontierStream]:
     parts the catalog lacks altogether (no quad, no dual for its positions, no discrete part for
     a position it needs) is left out: it has no design, so no model is built for it."""
     objective = spec.preferences.objective
-    kind, shape_of = problem.options.kind, problem.options.shape
-    has_discrete = [bool(problem.block.usable(i)) for i in range(4)]
     streams: list[_Stream | _FrontierStream] = []
     for topology in Topology:
         if topology not in spec.preferences.topologies:
@@ -562,6 +642,8 @@ def _streams(problem: Problem, spec: Spec) -> list[_Stream | _FrontierStream]:
         if _frontier_applies(spec, topology):
             streams.append(_FrontierStream(problem, topology))
             continue
+        kind, shape_of = problem.options.kind, problem.options.shape
+        has_discrete = [bool(problem.block.usable(i)) for i in range(4)]
         if topology is Topology.PAIR_PLUS_DISCRETE:
             for shape in range(len(ALL_SHAPES)):
                 rest = [i for i in range(4) if i not in ALL_SHAPES[shape]]
@@ -643,7 +725,12 @@ class OrderedDesigns:
         problem = prepare(spec, catalog)
         self._clock.build += time.perf_counter() - started
         self._streams = _streams(problem, spec)
-        if problem.size == 0 or problem.limits.cmrr_budget <= 0.0 or amplifier_limits(spec):
+        cp_sat = any(isinstance(s, _Stream) for s in self._streams)
+        if (
+            (cp_sat and problem.size == 0)
+            or problem.limits.cmrr_budget <= 0.0
+            or amplifier_limits(spec)
+        ):
             self._streams = []  # nothing can pass
         self._problem = problem
         self._verifier = verifier
