@@ -24,6 +24,7 @@ __all__ = [
     "YamlTrouble",
     "compose_yaml",
     "file_kind",
+    "is_file",
     "quote",
     "read_bounded",
     "yaml_too_deep",
@@ -157,3 +158,13 @@ def compose_yaml(text: str, what: str, needs: int) -> yaml.Node | None:
         message, line = _yaml_message(text, exc)
         raise YamlTrouble(f"not valid YAML: {message}", line) from None
     return node
+
+
+def is_file(path: os.PathLike[str] | str) -> bool:
+    """True when ``path`` names a regular file (symlinks followed). A name the system cannot
+    even look up (too long, a NUL byte, no permission on a folder) is no file: False, never an
+    OSError."""
+    try:
+        return stat.S_ISREG(os.stat(path).st_mode)
+    except (OSError, ValueError):
+        return False

@@ -35,8 +35,8 @@ from pathlib import Path
 from yaml.nodes import MappingNode, Node, ScalarNode
 
 from .design import Topology
-from .errors import ModelError, SpecError, UnitError
-from .inputs import YamlTrouble, compose_yaml
+from .errors import ModelError, SpecError, UnitError, quote
+from .inputs import YamlTrouble, compose_yaml, is_file
 from .parts import Amplifier, RailSpan
 from .spec import (
     MAX_SAMPLES,
@@ -714,11 +714,11 @@ class _Schema:
                 continue
             candidate = Path(os.path.expanduser(text))
             resolved = candidate if candidate.is_absolute() else r.folder / candidate
-            if not resolved.is_file():
+            if not is_file(resolved):
                 r.problem(
                     item_key,
                     node_line(item),
-                    f"catalog file not found: {resolved} "
+                    f"catalog file not found: {quote(str(resolved))} "
                     "(paths are relative to the spec file's folder)",
                 )
                 continue

@@ -41,8 +41,8 @@ from pathlib import Path
 
 from yaml.nodes import MappingNode, Node
 
-from ..errors import ModelError, SpecError
-from ..inputs import YamlTrouble, compose_yaml
+from ..errors import ModelError, SpecError, quote
+from ..inputs import YamlTrouble, compose_yaml, is_file
 from ..spec import Spec, StockPolicy
 from ..specfile import _combined, _Schema, load_spec
 from ..yamlread import Reader, Recorded, Section, node_line, read_document
@@ -124,10 +124,9 @@ class _BoardReader:
         candidate = Path(os.path.expanduser(text))
         if not candidate.is_absolute():
             candidate = self.r.folder / candidate
-        if not candidate.exists():
-            self.r.fail(
-                key, node_line(node), f"spec file {text!r} not found (looked for {candidate})"
-            )
+        if not is_file(candidate):
+            message = f"spec file {quote(text)} not found (looked for {quote(str(candidate))})"
+            self.r.fail(key, node_line(node), message)
         try:
             return load_spec(candidate)
         except SpecError as exc:
