@@ -623,9 +623,19 @@ def _stage(name: str) -> None:
 def _search_progress() -> Iterator[Callable[[SearchProgress], None] | None]:
     """A progress line for the search on standard error when it is a terminal (spinner,
     designs checked and verified, elapsed time; removed when the search ends); nothing when
-    standard error is a pipe or a file."""
+    standard error is a pipe or a file. Under :data:`STAGES_VARIABLE` the stage ``designs``
+    is marked when the first design has passed the exact check."""
+    marked = False
+
+    def mark(state: SearchProgress) -> None:
+        nonlocal marked
+        if state.passed and not marked:
+            marked = True
+            _stage("designs")
+
+    staged = bool(os.environ.get(STAGES_VARIABLE))
     if not sys.stderr.isatty():
-        yield None
+        yield mark if staged else None
         return
     from rich.progress import Progress, SpinnerColumn, TextColumn, TimeElapsedColumn
 
@@ -634,6 +644,8 @@ def _search_progress() -> Iterator[Callable[[SearchProgress], None] | None]:
         task = bar.add_task("searching", total=None)
 
         def show(state: SearchProgress) -> None:
+            if staged:
+                mark(state)
             bar.update(
                 task,
                 description=f"searching: {state.passed} verified of {state.checked} checked, "

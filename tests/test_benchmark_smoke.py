@@ -118,7 +118,10 @@ def test_a_failing_command_is_reported_failed(tmp_path: Path) -> None:
         assert target["met"] is False and target["measured"] is None
         assert target["note"].startswith("FAILED: warm-up run: exit code 2")
     (mc,) = [t for t in result["targets"] if t["target"].startswith("MC kernel")]
-    assert mc["met"] is True and "failed" not in result["montecarlo"]
+    # the Monte-Carlo row still counts: it ran and has a figure (whether the speed target is
+    # met depends on the machine's load and is not asserted here)
+    assert mc["measured"] is not None and isinstance(mc["met"], bool)
+    assert "failed" not in result["montecarlo"]
     assert len(result["failures"]) == 2
     assert "FAILED: 2 row(s) had a failed run" in proc.stdout
 
