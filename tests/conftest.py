@@ -51,6 +51,7 @@ SLOW = (
     "tests/test_benchmark_smoke.py",
     "tests/test_docs.py",
     "tests/test_board_search.py",
+    "tests/test_battery.py",
     "tests/test_frontier.py::test_top_k_costs_match_the_exhaustive_reference",
     "tests/test_frontier.py::test_network_specs_match_the_reference_over_the_builtin_catalog",
     "tests/test_frontier.py::test_screen_is_a_relaxation_and_exact_for_independent_parts",

@@ -84,9 +84,7 @@ XFAIL: dict[str, str] = {
 def _params() -> list[object]:
     out = []
     for purpose, fields, kind in BATTERY:
-        marks = (
-            [pytest.mark.xfail(strict=True, reason=XFAIL[purpose])] if purpose in XFAIL else []
-        )
+        marks = [pytest.mark.xfail(strict=True, reason=XFAIL[purpose])] if purpose in XFAIL else []
         out.append(pytest.param(fields, kind, id=purpose, marks=marks))
     return out
 
@@ -132,7 +130,9 @@ SCREEN_SPECS = [
 def _random_design(rng: random.Random, cat: Catalog) -> Design:
     if rng.random() < 0.5:
         rows = [rng.randrange(cat.discrete_count) for _ in range(4)]
-        return Design(tuple(Placement(f"R{i + 1}", cat.discrete_part(r)) for i, r in enumerate(rows)))  # type: ignore[arg-type]
+        return Design(
+            tuple(Placement(f"R{i + 1}", cat.discrete_part(r)) for i, r in enumerate(rows))
+        )  # type: ignore[arg-type]
     quads = [n for n in cat.networks if n.elements == 4]
     net = rng.choice(quads)
     order = rng.sample(range(4), 4)

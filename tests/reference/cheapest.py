@@ -221,7 +221,12 @@ def source_points(low: float, high: float, imbalance: float) -> tuple[tuple[floa
     points = [(low, low), (high, high)]
     width = min(imbalance, high - low)
     if width > 0.0:
-        points += [(low, low + width), (low + width, low), (high - width, high), (high, high - width)]
+        points += [
+            (low, low + width),
+            (low + width, low),
+            (high - width, high),
+            (high, high - width),
+        ]
     unique: list[tuple[float, float]] = []
     for point in points:
         if point not in unique:
@@ -241,7 +246,9 @@ def conditions(spec: Spec) -> Conditions:
     y_balance = y_full - sign_spread(eps)
     g, acc = req.gain, req.gain_accuracy
     k_low = g * (1.0 - acc) * 2.0 / (1.0 + math.exp(y_full)) if math.isfinite(y_full) else 0.0
-    k_high = g * (1.0 + acc) * 2.0 / (1.0 + math.exp(-y_full)) if math.isfinite(y_full) else math.inf
+    k_high = (
+        g * (1.0 + acc) * 2.0 / (1.0 + math.exp(-y_full)) if math.isfinite(y_full) else math.inf
+    )
     return Conditions(
         delta_t=max(abs(req.temp_min_c - 25.0), abs(req.temp_max_c - 25.0)),
         life_s=req.life_s,
@@ -329,7 +336,9 @@ class Classes:
 def _allowed(value: float, spec: Spec) -> bool:
     p = spec.preferences
     return bool(
-        p.resistance_min_ohm * (1.0 - WINDOW_SLACK) <= value <= p.resistance_max_ohm * (1.0 + WINDOW_SLACK)
+        p.resistance_min_ohm * (1.0 - WINDOW_SLACK)
+        <= value
+        <= p.resistance_max_ohm * (1.0 + WINDOW_SLACK)
     )
 
 
@@ -410,7 +419,9 @@ def element_bounds(net: NetworkPart, cond: Conditions) -> tuple[float, float]:
     t = net.ratio_tolerance / 2.0
     tc = net.tracking_tempco_per_k / 2.0
     d = drift_end(net.ratio_drift_1000h, cond.life_s) / 2.0
-    return (1.0 - t) * (1.0 - tc * cond.delta_t) * (1.0 - d), (1.0 + t) * (1.0 + tc * cond.delta_t) * (1.0 + d)
+    return (1.0 - t) * (1.0 - tc * cond.delta_t) * (1.0 - d), (1.0 + t) * (
+        1.0 + tc * cond.delta_t
+    ) * (1.0 + d)
 
 
 def allowed_networks(catalog: Catalog, spec: Spec) -> list[NetworkPart]:
@@ -530,7 +541,9 @@ class Search:
     def __init__(self, spec: Spec, catalog: Catalog, *, screen: bool | None = None) -> None:
         self.spec = spec
         self.catalog = catalog
-        self.screen = spec.requirements.cmrr_basis is CmrrBasis.WORST_CASE if screen is None else screen
+        self.screen = (
+            spec.requirements.cmrr_basis is CmrrBasis.WORST_CASE if screen is None else screen
+        )
         if self.screen and spec.requirements.cmrr_basis is CmrrBasis.YIELD:
             raise ValueError("the corner screens are no relaxation on the yield basis")
         self.cond = conditions(spec)
@@ -572,7 +585,9 @@ class Search:
         g1 = omega(l_min / h_max * cond.k_low)
         theta = 1.0 / (1.0 + (h_max / l_min) ** 2 * math.exp(cond.y_balance))
         self.gamma = np.array([g1 * lam_s, g1, theta * w2 * lam_s, theta * w2 * lam_r])
-        self.gain_limit = math.log((1.0 + cond.accuracy) / (1.0 - cond.accuracy)) * (1.0 + LOG_SLACK) + LOG_SLACK
+        self.gain_limit = (
+            math.log((1.0 + cond.accuracy) / (1.0 - cond.accuracy)) * (1.0 + LOG_SLACK) + LOG_SLACK
+        )
 
     def _spreads(
         self, lows: Sequence[float], highs: Sequence[float], weights: Array | None = None
@@ -609,7 +624,11 @@ class Search:
         if not self.screen:
             low, high = 0.0, math.inf
         start = np.searchsorted(b.values + offset, base * low, side="left")
-        stop = np.searchsorted(b.values + offset, base * high, side="right") if math.isfinite(high) else np.full(len(base), len(b.values))
+        stop = (
+            np.searchsorted(b.values + offset, base * high, side="right")
+            if math.isfinite(high)
+            else np.full(len(base), len(b.values))
+        )
         count = np.maximum(stop - start, 0)
         ia = np.repeat(np.arange(len(base)), count)
         ib = _ranges(start, count)
@@ -632,10 +651,24 @@ class Search:
             up, down = self._spreads(lows, highs)
             g_up, g_down = self._spreads(lows, highs, self.gamma)
             cond = self.cond
-            k_min = cond.gain * (1.0 - cond.accuracy) * math.exp(g_down) * 2.0 / (1.0 + math.exp(cond.y_full))
-            k_max = cond.gain * (1.0 + cond.accuracy) * math.exp(-g_up) * 2.0 / (1.0 + math.exp(-cond.y_full))
+            k_min = (
+                cond.gain
+                * (1.0 - cond.accuracy)
+                * math.exp(g_down)
+                * 2.0
+                / (1.0 + math.exp(cond.y_full))
+            )
+            k_max = (
+                cond.gain
+                * (1.0 + cond.accuracy)
+                * math.exp(-g_up)
+                * 2.0
+                / (1.0 + math.exp(-cond.y_full))
+            )
             a = np.searchsorted(lk, float(ell(np.array(k_min * (1.0 - WINDOW_SLACK)))), side="left")
-            b = np.searchsorted(lk, float(ell(np.array(k_max * (1.0 + WINDOW_SLACK)))), side="right")
+            b = np.searchsorted(
+                lk, float(ell(np.array(k_max * (1.0 + WINDOW_SLACK)))), side="right"
+            )
             i1, i2, lk = i1[a:b], i2[a:b], lk[a:b]
             y = cond.y_balance
             # Nominal gain (A = ∞, ε = +e) = (a' + c)/(2(1 − c)), a' = a(1 + ε)/(1 − ε); its
@@ -673,7 +706,9 @@ class Search:
             return r, np.ones(len(r), dtype=bool)
         low = np.array([s.low for s in slots])[None, :].repeat(len(r), 0)
         high = np.array([s.high for s in slots])[None, :].repeat(len(r), 0)
-        if any(s.own is not None for s in slots):  # same-lot: a part id placed once keeps its tempco
+        if any(
+            s.own is not None for s in slots
+        ):  # same-lot: a part id placed once keeps its tempco
             rows = np.stack([slots[j].rows[idx[:, j]] for j in range(4)], axis=1)
             for j, slot in enumerate(slots):
                 if slot.own is None:
@@ -707,7 +742,9 @@ class Search:
         width = np.array([math.log(s.high / s.low) for s in cls.slots])
         t = [self.beta[j] * width for j in range(4)]
         g = [self.gamma[j] * width for j in range(4)]
-        c2, c3, c4 = (x.ravel() for x in np.meshgrid(np.arange(k), np.arange(k), np.arange(k), indexing="ij"))
+        c2, c3, c4 = (
+            x.ravel() for x in np.meshgrid(np.arange(k), np.arange(k), np.arange(k), indexing="ij")
+        )
         rest_t = t[1][c2] + t[2][c3] + t[3][c4]
         rest_g = g[1][c2] + g[2][c3] + g[3][c4]
         s = np.sort(np.stack([c2, c3, c4], axis=1), axis=1)
@@ -721,7 +758,9 @@ class Search:
             if not len(ok):
                 continue
             new = (c2[ok] != c1) & (c3[ok] != c1) & (c4[ok] != c1)
-            lb = cls.cost[c1] + rest_cost[ok] + new * (p.line_cost + penalty * (not cls.stocked[c1]))
+            lb = (
+                cls.cost[c1] + rest_cost[ok] + new * (p.line_cost + penalty * (not cls.stocked[c1]))
+            )
             yield lb, c1 * k**3 + ok  # ok indexes the (c2, c3, c4) grid in C order
 
     def _expand_discrete(self, code: int) -> Stream | None:
@@ -745,7 +784,12 @@ class Search:
             rows, costs = rows[order], costs[order]
 
             def build(i: int) -> Design:
-                return Design(tuple(Placement(POSITIONS[j], self.discrete_part(int(rows[i, j]))) for j in range(4)))  # type: ignore[arg-type]
+                return Design(
+                    tuple(
+                        Placement(POSITIONS[j], self.discrete_part(int(rows[i, j])))
+                        for j in range(4)
+                    )
+                )  # type: ignore[arg-type]
 
             return costs, build
 
@@ -759,7 +803,9 @@ class Search:
         """A stream over quad blocks: lazily when every design of the skeleton costs the same
         (no line cost, no stock penalty), else all blocks merged and sorted first."""
         p = self.spec.preferences
-        constant = p.line_cost == 0.0 and (p.stock is not StockPolicy.PREFER or p.stock_penalty == 0.0)
+        constant = p.line_cost == 0.0 and (
+            p.stock is not StockPolicy.PREFER or p.stock_penalty == 0.0
+        )
         made = (b for b in (block(idx) for idx in blocks) if b is not None)
         if constant:
             head = next(made, None)
@@ -808,7 +854,11 @@ class Search:
             tt = fixed_t + self.beta[free[0]] * width[ca] + self.beta[free[1]] * width[cb]
             fixed_g = sum(self.gamma[j] for j in pos) * math.log(hi / lo)
             tg = fixed_g + self.gamma[free[0]] * width[ca] + self.gamma[free[1]] * width[cb]
-            ok = (tt <= limit) & (tg <= self.gain_limit) if self.screen else np.ones(len(ca), dtype=bool)
+            ok = (
+                (tt <= limit) & (tg <= self.gain_limit)
+                if self.screen
+                else np.ones(len(ca), dtype=bool)
+            )
             if not ok.any():
                 continue
             lb = network_cost([net], self.spec) + disc_cost[ok]
@@ -870,19 +920,26 @@ class Search:
 
             def make(i: int) -> Design:
                 net, perm = lay[i]
-                return Design(tuple(Placement(POSITIONS[j], net, element=perm[j]) for j in range(4)))  # type: ignore[arg-type]
+                return Design(
+                    tuple(Placement(POSITIONS[j], net, element=perm[j]) for j in range(4))
+                )  # type: ignore[arg-type]
 
         else:
             duals = [(n, o) for n in self.duals for o in orders(n, 2)]
             if not duals:
                 return None
-            first, second = ((0, 2), (1, 3)) if topology is Topology.EQUAL_PAIRS else ((0, 1), (2, 3))
+            first, second = (
+                ((0, 2), (1, 3)) if topology is Topology.EQUAL_PAIRS else ((0, 1), (2, 3))
+            )
             net_of = np.array([self.duals.index(n) for n, _ in duals])
             v = np.array([[n.values_ohm[o[0]], n.values_ohm[o[1]]] for n, o in duals])
             bd = np.array([element_bounds(n, self.cond) for n, _ in duals])
             unit = np.array([n.unit_cost for n, _ in duals])
             stocked = np.array([n.in_stock for n, _ in duals])
-            ia, ib = (x.ravel() for x in np.meshgrid(np.arange(len(duals)), np.arange(len(duals)), indexing="ij"))
+            ia, ib = (
+                x.ravel()
+                for x in np.meshgrid(np.arange(len(duals)), np.arange(len(duals)), indexing="ij")
+            )
             same = net_of[ia] == net_of[ib]
             r = np.zeros((len(ia), 4))
             low = np.zeros((len(ia), 4))
@@ -927,7 +984,9 @@ class Search:
         started = time.perf_counter()
         spec = self.spec
         if self.cond.y_balance < 0.0 and self.screen:  # the amplifier alone misses the floor
-            return Result([], True, 0, 0, time.perf_counter() - started, ["amplifier below the floor"])
+            return Result(
+                [], True, 0, 0, time.perf_counter() - started, ["amplifier below the floor"]
+            )
         heap: list[tuple[float, int, int, object]] = []
         tick = itertools.count()
         for topology in (Topology.QUAD, Topology.EQUAL_PAIRS, Topology.DIVIDER_PAIRS):
@@ -977,7 +1036,9 @@ class Search:
                 continue
             theirs = design_cost(design, spec.preferences).total
             if not math.isclose(cost, theirs, rel_tol=1e-9, abs_tol=1e-12):
-                raise AssertionError(f"cost rule disagrees: reference {cost!r}, optimizer.cost {theirs!r}")
+                raise AssertionError(
+                    f"cost rule disagrees: reference {cost!r}, optimizer.cost {theirs!r}"
+                )
             found.append((cost, design))
         skeletons = sum(s.expanded for s in scans)
         return Result(found[:k], complete, checked, skeletons, time.perf_counter() - started)
@@ -1052,8 +1113,9 @@ def _ranges(start: Array, count: Array) -> Array:
     return np.asarray(np.repeat(start, count) + np.arange(total) - offsets, dtype=np.int64)
 
 
-def cheapest(spec: Spec, catalog: Catalog, k: int = 10, *, screen: bool | None = None,
-             max_checks: int = 5000) -> Result:
+def cheapest(
+    spec: Spec, catalog: Catalog, k: int = 10, *, screen: bool | None = None, max_checks: int = 5000
+) -> Result:
     """The ``k`` cheapest distinct designs of ``spec`` from ``catalog`` that pass the exact check
     (module docstring). ``screen=False`` lists every design (required on the yield basis)."""
     return Search(spec, catalog, screen=screen).run(k, max_checks)
