@@ -59,12 +59,15 @@ def pick(
     *,
     top: int | None = None,
     time_limit_s: float | None = None,
+    distinct: bool = True,
 ) -> PickResult:
-    """The ``top`` cheapest designs (the spec's ``alternatives`` by default) that pass the exact
+    """The ``top`` cheapest choices (the spec's ``alternatives`` by default) that pass the exact
     check, from ``catalog`` (by default :func:`spec_catalogs` of the spec), best first, with
-    the search's status (optimal, best found, infeasible, out of time)."""
+    the search's status (optimal, best found, infeasible, out of time). ``distinct`` (as the
+    command line ranks): ``top`` counts distinct choices and ``ranked`` holds every member of
+    each, numbered in ``choices``; False counts single designs."""
     chosen = catalog if catalog is not None else spec_catalogs(spec)
-    return search.pick(spec, chosen, verify, top=top, time_limit_s=time_limit_s)
+    return search.pick(spec, chosen, verify, top=top, time_limit_s=time_limit_s, distinct=distinct)
 
 
 def check(
