@@ -142,8 +142,8 @@ class DiscretePart:
 class NetworkPart:
     """A matched resistor network: two or four elements in one package.
 
-    Error structure (see README, "How parts vary"): all elements share one absolute error
-    within ±``abs_tolerance`` and one tempco within ±``abs_tempco_per_k``; each element's
+    Error structure (see docs/explanation.md, "How parts vary"): all elements share one absolute
+    error within ±``abs_tolerance`` and one tempco within ±``abs_tempco_per_k``; each element's
     deviation from the package mean lies within ±``ratio_tolerance``/2 and its tempco within
     ±``tracking_tempco_per_k``/2 of the shared one, so every element ratio stays within
     ``ratio_tolerance`` and tracks within ``tracking_tempco_per_k``.

@@ -10,7 +10,7 @@ and the dotted key path (``motor.yaml:14: requirements.cmrr_floor: cannot read '
 The loader does not stop at the first problem: every independent problem is collected and
 reported together (sorted by line); values that depend on a broken one are not checked.
 
-Schema (format version 1; see the README for every key, its unit and its default)::
+Schema (format version 1; see docs/reference.md for every key, its unit and its default)::
 
     quartet_spec: 1
     title: ...

@@ -4,7 +4,7 @@ The temperature at the ends of the operating range; the source impedances ``Rs1`
 with R1) and ``Rs3`` (in series with R3), each in ``[min, max]`` with ``|Rs1 − Rs3| ≤
 imbalance`` (a polygon: :func:`source_vertices` lists its vertices); the REF drive impedance
 ``Rref ∈ [min, max]``; the amplifier's CMRR at its minimum with either sign; the open-loop gain
-at its minimum or infinite (a datasheet gives a minimum). README, "How parts vary".
+at its minimum or infinite (a datasheet gives a minimum). docs/explanation.md, "How parts vary".
 """
 
 from __future__ import annotations

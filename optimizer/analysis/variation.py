@@ -1,7 +1,7 @@
 """How the parts of a design vary: the variables of the exact error model, their corners and
 their Monte-Carlo samples.
 
-Model (README, "How parts vary")
+Model (docs/explanation.md, "How parts vary")
 --------------------------------
 A **discrete part** at temperature ``T`` (°C) and end of life has the resistance::
 

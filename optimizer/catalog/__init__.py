@@ -6,7 +6,7 @@ per orderable part, SI units, see :data:`DISCRETE_COLUMNS`) and matched networks
 vectorised numpy/pandas operations and turned into :class:`~optimizer.parts.DiscretePart`
 objects only on demand, so a catalog of a million rows loads in seconds.
 
-File formats (names of our own; see README, "Parts catalogs"):
+File formats (names of our own; see docs/reference.md, "Parts catalogs"):
 
 * CSV, discrete parts only. Header line with the columns ``part_id, resistance, tolerance,
   tempco, size, power, max_voltage, cost, stock`` (required) and ``technology, drift``
