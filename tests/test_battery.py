@@ -77,12 +77,21 @@ def load(tmp_path: Path, fields: dict[str, object]) -> Spec:
 #: Specs the pick cannot yet prove within PICK_LIMIT_S (none at present; pair_plus_discrete,
 #: still served by CP-SAT, takes 13-30 s for "G = 2, 56 dB, one dual and two discrete only").
 XFAIL: dict[str, str] = {}
+#: Specs whose reference search is too slow for the suite (measured: over 2 minutes, the pick
+#: itself proves its top 10 in 0.9 s); left out with the reason, to be made cheaper.
+SLOW_REFERENCE: dict[str, str] = {
+    "G = 10, 60 dB, 0.1 % gain accuracy, discrete": (
+        "the reference search runs over 2 minutes on this spec (the pick: 0.9 s, proven)"
+    ),
+}
 
 
 def _params() -> list[object]:
     out = []
     for purpose, fields, kind in BATTERY:
         marks = [pytest.mark.xfail(strict=True, reason=XFAIL[purpose])] if purpose in XFAIL else []
+        if purpose in SLOW_REFERENCE:
+            marks = [pytest.mark.skip(reason=SLOW_REFERENCE[purpose])]
         out.append(pytest.param(fields, kind, id=purpose, marks=marks))
     return out
 
