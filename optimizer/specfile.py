@@ -718,7 +718,7 @@ class _Schema:
                 r.problem(
                     item_key,
                     node_line(item),
-                    f"catalog file not found: {quote(str(resolved))} "
+                    f"catalog file not found: {_path_text(resolved)} "
                     "(paths are relative to the spec file's folder)",
                 )
                 continue
@@ -938,6 +938,12 @@ def _combined(path: str, problems: list[SpecError]) -> SpecError:
     error = SpecError(f"{len(ordered)} problems\n" + "\n".join(lines), path=path)
     error.key, error.line = ordered[0].key, ordered[0].line
     return error
+
+
+def _path_text(path: Path) -> str:
+    """A path for a message: as it is up to 200 characters, cut to one line beyond."""
+    text = str(path)
+    return text if len(text) <= 200 else quote(text)
 
 
 def parse_spec_text(text: str, path: str) -> Spec:

@@ -191,6 +191,7 @@ def _screen_values(design: Design, spec: Spec) -> tuple[float, float, float]:
     return cm, g_min, g_max
 
 
+@pytest.mark.skipif(not RUN_BATTERY, reason="set QUARTET_BATTERY=1 (see RUN_BATTERY)")
 @pytest.mark.parametrize("which", range(len(SCREEN_SPECS)))
 def test_screen_points_lie_inside_the_exact_worst_case(tmp_path: Path, which: int) -> None:
     """Corner values the screen tests (feasible points) are never worse than the exact worst
