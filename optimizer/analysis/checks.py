@@ -80,6 +80,8 @@ __all__ = [
     "check_resistor_ratings",
     "operating_corners",
     "placement_life_drift",
+    "rating_corners",
+    "resistor_stress",
     "run_checks",
 ]
 
@@ -460,24 +462,61 @@ def check_full_power_bandwidth(design: Design, spec: Spec) -> CheckResult:
     return CheckResult("full_power_bandwidth", margin >= 0.0, fp, f_max, margin, "Hz", detail)
 
 
-def check_resistor_ratings(design: Design, spec: Spec) -> tuple[CheckResult, ...]:
-    """Power and voltage of each resistor at the worst corner (linear solution; the output is not
-    assumed to clip) against its power rating derated to ``temp_max_c`` and its limiting
-    voltage. Network elements use ``power_per_element_w`` (package totals are not checked)."""
-    c = operating_corners(design, spec)
+def rating_corners(nominal: NDArray[np.float64], spreads: NDArray[np.float64], spec: Spec) -> (
+    OperatingCorners
+):  # fmt: skip
+    """A subset of :func:`operating_corners` for a quick screen of the rating check: every
+    resistor at both ends ``R(1 ± δ)`` (``spreads``: δ per position, :func:`value_spread`), every
+    signal corner, and only the first source vertex, the lowest REF impedance, the first sign of
+    the amplifier's common-mode error and the ideal open-loop gain. Each is a point the exact
+    check evaluates (same values, same arithmetic), so :func:`resistor_stress` there never
+    exceeds its value over :func:`operating_corners`."""
+    sig, ref = spec.signal, spec.reference
+    rs1, rs3 = _source_pairs(spec)
+    signs = np.array([1.0]) if math.isinf(spec.amplifier.cmrr_db) else np.array([-1.0, 1.0])
+    axes = [
+        *(_ends(r * (1.0 - d), r * (1.0 + d)) for r, d in zip(nominal, spreads, strict=True)),
+        _ends(sig.common_mode_min_v, sig.common_mode_max_v),
+        _ends(sig.differential_min_v, sig.differential_max_v),
+        _ends(ref.voltage_min_v, ref.voltage_max_v),
+    ]
+    grid = [g.ravel() for g in np.meshgrid(*axes, indexing="ij")]
+    one = np.ones_like(grid[0])
+    return OperatingCorners(
+        r1=grid[0], r2=grid[1], r3=grid[2], r4=grid[3], rs1=one * rs1[0], rs3=one * rs3[0],
+        rref=one * ref.impedance_min_ohm, vcm=grid[4], vd=grid[5], vref=grid[6],
+        sign=one * signs[0], open_loop_gain=one * math.inf,
+    )  # fmt: skip
+
+
+def resistor_stress(c: OperatingCorners, spec: Spec) -> tuple[Array, Array]:
+    """``(power, voltage)``, each (4,) for R1..R4: the largest dissipation ``V²/R`` (W) and the
+    largest ``|V|`` across each resistor (V) over the corners ``c`` (:func:`resistor_voltages`
+    at the linear solution; the output is not assumed to clip)."""
     vout = _vout(c, spec)
     volts = resistor_voltages(
         c.r1, c.r2, c.r3, c.r4, c.rs1, c.rs3, c.rref, c.v1, c.v2, c.vref, vout
     )
+    rs = (c.r1, c.r2, c.r3, c.r4)
+    power = np.array([np.max(resistor_power(v, r)) for v, r in zip(volts, rs, strict=True)])
+    peak = np.array([np.max(np.abs(v)) for v in volts])
+    return power, peak
+
+
+def check_resistor_ratings(design: Design, spec: Spec) -> tuple[CheckResult, ...]:
+    """Power and voltage of each resistor at the worst corner (linear solution; the output is not
+    assumed to clip) against its power rating derated to ``temp_max_c`` and its limiting
+    voltage. Network elements use ``power_per_element_w`` (package totals are not checked)."""
+    powers, peaks = resistor_stress(operating_corners(design, spec), spec)
     hot = spec.requirements.temp_max_c
     power_results: list[CheckResult] = []
     voltage_results: list[CheckResult] = []
-    for placement, v, r in zip(design.placements, volts, (c.r1, c.r2, c.r3, c.r4), strict=True):
+    for placement, power_a, peak_a in zip(design.placements, powers, peaks, strict=True):
         part = placement.part
         name = placement.position
         rating = part.power_per_element_w if isinstance(part, NetworkPart) else part.power_w
         allowed = float(derated_power(rating, hot))
-        power = float(np.max(resistor_power(v, r)))
+        power = float(power_a)
         margin = allowed - power
         power_results.append(
             CheckResult(
@@ -486,7 +525,7 @@ def check_resistor_ratings(design: Design, spec: Spec) -> tuple[CheckResult, ...
                 f"derated to {_q(allowed, 'W')} at {hot:g} °C",
             )
         )  # fmt: skip
-        peak = float(np.max(np.abs(v)))
+        peak = float(peak_a)
         margin_v = part.max_voltage_v - peak
         voltage_results.append(
             CheckResult(

@@ -64,12 +64,14 @@ import numpy as np
 import pandas as pd
 from numpy.typing import NDArray
 
+from ..analysis.checks import rating_corners, resistor_stress
+from ..analysis.formulas import derated_power, value_spread
 from ..analysis.variation import drift_factor_bounds
 from ..catalog import Catalog
 from ..cost import design_cost, parts_cost
 from ..design import Design, Placement, Topology
 from ..parts import DiscretePart, NetworkPart
-from ..spec import Spec, StockPolicy
+from ..spec import Preferences, Spec, StockPolicy
 from .discrete import allowed_rows
 from .environment import LinearEnvironment, life_drift
 
@@ -269,6 +271,14 @@ class _Parts:
     spread: Array  # per class: the exact check's corner deviation δ (analysis.checks)
     power_w: Array  # per catalog row: power rating derated to the hottest temperature
     volts: Array  # per catalog row: limiting voltage
+    line_charge: Array  # (E, K): least per-line cost of a part id of that class and value
+    class_charge: Array  # (E,): least line_charge over the class's values
+
+    def lines_charge(self, electrical: Sequence[tuple[int, int]]) -> float:
+        """Least per-line cost (line cost and stock penalty) of a design with these
+        (class, value) positions: one line per distinct (class, value) at least, each at least
+        its :func:`line_charges` figure."""
+        return float(sum(self.line_charge[key] for key in set(electrical)))
 
     def variants(self, position: int, key: tuple[int, int]) -> list[tuple[float, int]]:
         """(cost, catalog row) of every usable part of class and value ``key``, cheapest first."""
@@ -316,6 +326,8 @@ def _discrete_parts(
     order = np.lexsort((id_rank, cost, value_of, class_of))
     shape = (len(classes), values.size)
     best, best_cost, kept_rows, kept_costs, spans = [], [], [], [], []
+    in_stock = frame["stock_qty"].to_numpy()[rows] > 0
+    stocked = np.zeros(shape, dtype=bool)
     for position in range(4):
         stress = float(env.stress_v[position])
         usable = (volts >= RATING_SCREEN * stress) & (power * r >= RATING_SCREEN * stress**2)
@@ -337,17 +349,35 @@ def _discrete_parts(
         table_cost[class_of[heads], value_of[heads]] = cost[heads]
         span[class_of[heads], value_of[heads], 0] = starts
         span[class_of[heads], value_of[heads], 1] = stops
+        held = sel[in_stock[sel]]  # (plain assignment: repeated indices all set True)
+        stocked[class_of[held], value_of[held]] = True
         best.append(table)
         best_cost.append(table_cost)
         kept_rows.append(rows[sel])
         kept_costs.append(cost[sel])
         spans.append(span)
+    usable_any = np.any(np.stack([b >= 0 for b in best]), axis=0)
+    charge = line_charges(usable_any, stocked, prefs)
     return _Parts(
         values, lo, hi, tuple(best), tuple(best_cost), tuple(kept_rows), tuple(kept_costs),
         tuple(spans), classes[:, 0] + classes[:, 1] * _temperature_span(spec),
         frame["power_w"].to_numpy(float) * env.derating,
-        frame["max_voltage_v"].to_numpy(float),
+        frame["max_voltage_v"].to_numpy(float), charge,
+        np.min(np.where(usable_any, charge, np.inf), axis=1),
     )  # fmt: skip
+
+
+def line_charges(
+    usable: NDArray[np.bool_], stocked: NDArray[np.bool_], prefs: Preferences
+) -> Array:
+    """Per (class, value): the least per-line cost a part id of it adds (``optimizer.cost``):
+    ``line_cost + stock_penalty·[no usable part of that class and value is stocked]`` under
+    the stock policy "prefer", ``line_cost`` otherwise. A part id has one class and value, so a
+    design pays at least this for every distinct (class, value) it places: a lower bound of
+    its per-line cost. Entries with no usable part are ``inf``."""
+    penalty = prefs.stock_penalty if prefs.stock is StockPolicy.PREFER else 0.0
+    charge = prefs.line_cost + np.where(stocked, 0.0, penalty)
+    return np.where(usable, charge, np.inf)
 
 
 # --------------------------------------------------------------------------------------------
@@ -681,7 +711,6 @@ def discrete_frontier(
         return
     order1, span1, cost1, spread1, cls1, _ = _group_table(one)
     order2, span2, cost2, spread2, cls2, _ = _group_table(two)
-    line_cost = spec.preferences.line_cost
     # Group pairs: feasible by least spreads (over the vertices that share the partner's term,
     # as in ``_prune``), keyed by their least cost.
     fits = np.ones((spread1.shape[0], spread2.shape[0]), dtype=bool)
@@ -699,9 +728,12 @@ def discrete_frontier(
     if g1.size == 0:
         return
     classes = np.column_stack([cls1[g1], cls2[g2]])
-    distinct = np.array([len(set(row)) for row in classes.tolist()])
-    # Lines: one per distinct electrical class at least (a part id has one class).
-    bound = cost1[g1] + cost2[g2] + line_cost * distinct
+    # Lines: one per distinct electrical class at least (a part id has one class), each at
+    # least the class's least per-line charge (line cost and stock penalty).
+    distinct = np.array(
+        [sum(parts.class_charge[c] for c in set(row)) for row in classes.tolist()], dtype=float
+    )
+    bound = cost1[g1] + cost2[g2] + distinct
     pair_order = np.argsort(bound, kind="stable")
     yield from _emit(spec, catalog, parts, lim, one, two, order1, span1, order2, span2,
                      g1[pair_order], g2[pair_order], bound[pair_order], should_stop)  # fmt: skip
@@ -726,36 +758,29 @@ def _emit(
     """Merge the group pairs (taken in order of their bound) into one stream of designs in
     exact cost order: a heap of entries keyed by a lower bound that is replaced by the exact
     cost before an entry is emitted."""
-    line_cost = spec.preferences.line_cost
     part_cache: dict[int, DiscretePart] = {}
 
     def cost_of(rows: tuple[int, ...]) -> float:
         picked = [_cached_part(catalog, row, part_cache) for row in rows]
         return parts_cost(picked, spec.preferences).total
 
-    across = stress_floor(spec, lim, 0)  # least |V1 − V−| over the signal corners
+    hot = spec.requirements.temp_max_c
+    tmin = spec.requirements.temp_min_c
 
-    def feedback_rated(electrical: tuple[tuple[int, int], ...], row: int) -> bool:
-        """R2 carries R1's current ``I = (V1 − V−)/R1'`` (``analysis.checks.resistor_voltages``),
-        which does not depend on R2: at the corner with R1 low and R2 high the part at R2 sees
-        ``I·R2`` and dissipates ``I²·R2`` (at the check's own corner values, with the
-        spread of ``analysis.checks.value_spread``), with ``|V1 − V−|`` at least its least over this
-        design's own range of ``a`` (:func:`inverting_floor`). A part that cannot bear that
-        fails the exact rating check, which takes the worst corner."""
-        if across <= 0.0:
-            return True
-        (c1, k1), (c2, k2), (c3, k3), (c4, k4) = electrical
-        # A corner of the exact check: R1·(1 − δ1) and R2·(1 + δ2) (``value_spread``).
-        r1_lo = parts.values[k1] * (1.0 - parts.spread[c1]) + float(lim.rs1.min())
-        r2_hi = parts.values[k2] * (1.0 + parts.spread[c2])
-        r3_lo, r3_hi = parts.values[k3] * parts.lo[c3], parts.values[k3] * parts.hi[c3]
-        r4_lo, r4_hi = parts.values[k4] * parts.lo[c4], parts.values[k4] * parts.hi[c4]
-        a_lo = float(np.min((r4_lo + lim.rref) / (r3_hi + lim.rs3 + r4_lo + lim.rref)))
-        a_hi = float(np.max((r4_hi + lim.rref) / (r3_lo + lim.rs3 + r4_hi + lim.rref)))
-        current = max(inverting_floor(spec, lim, a_lo, a_hi), across) / r1_lo * (1.0 - 1e-9)
-        return bool(
-            parts.volts[row] >= current * r2_hi and parts.power_w[row] >= current**2 * r2_hi
-        )
+    def rated(rows: tuple[int, ...]) -> bool:
+        """False when a part of ``rows`` fails the exact rating check for certain: its stress at
+        a subset of the check's own corners (``analysis.checks.rating_corners``) already
+        exceeds its derated power rating or its limiting voltage (relative slack 1e-9)."""
+        picked = [_cached_part(catalog, row, part_cache) for row in rows]
+        nominal = np.array([p.resistance_ohm for p in picked])
+        spreads = np.array([value_spread(p.tolerance, p.tempco_per_k, tmin, hot) for p in picked])
+        power, peak = resistor_stress(rating_corners(nominal, spreads, spec), spec)
+        for p, pw, pk in zip(picked, power, peak, strict=True):
+            if pw * (1.0 - 1e-9) > float(derated_power(p.power_w, hot)):
+                return False
+            if pk * (1.0 - 1e-9) > p.max_voltage_v:
+                return False
+        return True
 
     sorted_cache: dict[tuple[int, int], tuple[IntArray, Array]] = {}
     heap: list[tuple[float, int, int, object]] = []
@@ -776,7 +801,7 @@ def _emit(
                 continue
             keys = np.column_stack([one.ca[ja], one.ka[ja], one.cb[ja], one.kb[ja],
                                     two.ca[jb], two.ka[jb], two.cb[jb], two.kb[jb]])  # fmt: skip
-            lb = one.cost[ja] + two.cost[jb] + line_cost * _distinct_parts(keys)
+            lb = one.cost[ja] + two.cost[jb] + _distinct_charge(keys, parts.line_charge)
             sort = np.lexsort((*(keys[:, i] for i in range(7, -1, -1)), lb))
             # The pair's combinations, in bound order, enter the heap one at a time.
             block = (keys[sort], lb[sort])
@@ -799,16 +824,18 @@ def _emit(
         lists = [parts.variants(i, electrical[i]) for i in range(4)]
         rows = tuple(lists[i][choice[i]][1] for i in range(4))
         if kind == _EXACT:
-            if feedback_rated(electrical, rows[1]):
-                yield _discrete_design(catalog, rows, part_cache)
+            yield _discrete_design(catalog, rows, part_cache)
             continue
         # A bound entry: its exact cost goes back into the heap, and so do the other parts of
         # the same classes and values (other sizes, stock). Each successor's bound is its part
         # cost plus one line per distinct (class, value): never above its exact cost, and never
         # below this entry's bound, so taking successors now keeps the order exact (a
         # successor can cost less than this design itself, when it shares a line).
-        heapq.heappush(heap, (max(cost_of(rows), key), _EXACT, next(tick), (electrical, choice)))
-        lines = line_cost * len(set(electrical))
+        if rated(rows):
+            heapq.heappush(
+                heap, (max(cost_of(rows), key), _EXACT, next(tick), (electrical, choice))
+            )
+        lines = parts.lines_charge(electrical)
         for i in range(4):
             if choice[i] + 1 < len(lists[i]):
                 nxt = tuple(c + (1 if j == i else 0) for j, c in enumerate(choice))
@@ -819,13 +846,16 @@ def _emit(
                 heapq.heappush(heap, (bound_next, _BOUND, next(tick), (electrical, nxt)))
 
 
-def _distinct_parts(keys: IntArray) -> IntArray:
-    """Distinct (class, value) pairs among the four positions of each row of ``keys``
-    (columns: class, value for R1..R4): the least number of part ids (lines) a design needs."""
-    pairs = keys[:, 0::2] * (1 << 32) + keys[:, 1::2]
+def _distinct_charge(keys: IntArray, charge: Array) -> Array:
+    """Per row of ``keys`` (columns: class, value for R1..R4): the sum of ``charge`` over its
+    distinct (class, value) pairs, the least per-line cost a design needs (a part id has one
+    class and value, so the design places at least one line per distinct pair)."""
+    pairs = keys[:, 0::2] * charge.shape[1] + keys[:, 1::2]
     s = np.sort(pairs, axis=1)
-    count: IntArray = 1 + np.sum(s[:, 1:] != s[:, :-1], axis=1)
-    return count
+    first = np.ones_like(s, dtype=bool)
+    first[:, 1:] = s[:, 1:] != s[:, :-1]
+    total: Array = np.sum(np.where(first, charge.reshape(-1)[s], 0.0), axis=1)
+    return total
 
 
 def _cached_part(catalog: Catalog, row: int, cache: dict[int, DiscretePart]) -> DiscretePart:
