@@ -554,6 +554,7 @@ class Search:
         self.quads = [n for n in self.networks if n.elements == 4]
         self._parts: dict[int, DiscretePart] = {}
         self._halves: dict[tuple[object, object, int], tuple[Array, Array, Array]] = {}
+        self._barren: set[tuple[object, ...]] = set()
         self.layouts = self._mixed_layouts()
         self.catalog_values = catalog.discrete["resistance_ohm"].to_numpy(dtype=float)
         self._weights()
@@ -582,7 +583,13 @@ class Search:
         lam_s = rr * l_min / (rr * l_min + cond.s0)
         lam_r = rr * l_min / (rr * l_min + cond.r0)
         self.beta = np.array([w1 * lam_s, w1, w2 * lam_s, w2 * lam_r])
-        g1 = omega(l_min / h_max * cond.k_low)
+        # The gain's slope in R2's log factor: with A = ∞, ln Adm = ln k + ln(1 + ρ) − ln 2
+        # (module docstring), ∂ ln k = 1, ∂ ln ρ = −∂ ln c = −1/(1 + k), so the slope is
+        # 1 − ρ/((1 + ρ)(1 + k)) ≥ 1 − σ/(1 + k_min), σ = e^Y/(1 + e^Y) (a design that meets
+        # the floor keeps |ln ρ| ≤ Y at every point), k_min = k_low·Lmin/Hmax; R1's slope is
+        # the same times λ1 (its share of R1 + Rs1).
+        sigma = math.exp(cond.y_full) / (1.0 + math.exp(cond.y_full))
+        g1 = 1.0 - sigma / (1.0 + l_min / h_max * cond.k_low)
         theta = 1.0 / (1.0 + (h_max / l_min) ** 2 * math.exp(cond.y_balance))
         self.gamma = np.array([g1 * lam_s, g1, theta * w2 * lam_s, theta * w2 * lam_r])
         self.gain_limit = (
@@ -639,11 +646,28 @@ class Search:
         self._halves[key] = out
         return out
 
+    def _gain_corners(self, slots: Sequence[Slot], i1: Array, i2: Array) -> Array:
+        """Mask of the (R1, R2) value pairs that pass test 2 at two corners of their own: with
+        A = ∞ the gain is ``k(1 + ρ)/2``, ``k = R2/R1'`` (module docstring), and a design that
+        meets the floor has ``|ln ρ| ≤ Y`` at every point, so at the point R1·L1, R2·H2 (R1·H1,
+        R2·L2), Rs1 at its minimum, its gain is at least ``k(1 + e^−Y)/2`` (at most
+        ``k(1 + e^Y)/2``): the same window ``[k_low, k_high]`` as test 2 holds for ``k`` at
+        these points. Any ε: ρ carries it."""
+        cond = self.cond
+        r1, r2 = slots[0].values[i1], slots[1].values[i2]
+        k_up = r2 * slots[1].high / (r1 * slots[0].low + cond.s0)
+        k_down = r2 * slots[1].low / (r1 * slots[0].high + cond.s0)
+        keep: Array = (k_up <= cond.k_high) & (k_down >= cond.k_low)
+        return keep
+
     def _quads(self, slots: Sequence[Slot]) -> Iterator[Array]:
         """Indices ``(n, 4)`` into the slots' value lists of the quads that pass test 2, in
         blocks of about :data:`BLOCK` quads."""
         i1, i2, lk = self._pairs(slots[0], slots[1], 1)
         i3, i4, lm = self._pairs(slots[2], slots[3], 2)
+        if self.screen and len(i1):
+            keep = self._gain_corners(slots, i1, i2)
+            i1, i2, lk = i1[keep], i2[keep], lk[keep]
         if not len(i1) or not len(i3):
             return
         if self.screen:
@@ -793,7 +817,16 @@ class Search:
 
             return costs, build
 
-        return self._stream(self._quads(slots), block)
+        # Classes that differ only in what the screens ignore (size, technology, cost, stock)
+        # give the same quads and the same screen results: a skeleton found barren once is
+        # barren for all of them (same value lists, same factor bounds).
+        key = tuple((s.vid, s.low, s.high, s.own, id(s) if s.own else None) for s in slots)
+        if key in self._barren:
+            return None
+        stream = self._stream(self._quads(slots), block)
+        if stream is None:
+            self._barren.add(key)
+        return stream
 
     def _stream(
         self,
