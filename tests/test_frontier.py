@@ -23,6 +23,7 @@ import math
 import random
 
 import pytest
+from battery import spec_text
 from test_oracle import random_case
 
 from optimizer.analysis.worstcase import common_mode_error_worst_sign, worst_case
@@ -268,114 +269,9 @@ def test_plain_specs_find_the_cheap_designs(
 
 
 # ---------------------------------------------------------------------------------------------
-# A battery of plain specs over the whole built-in catalog
+# Network-only specs against the exhaustive reference (the canonical battery of plain specs,
+# ``tests/battery.py``, is compared with the second reference in ``tests/test_battery.py``)
 # ---------------------------------------------------------------------------------------------
-
-BATTERY_SPEC = """quartet_spec: 1
-title: "battery"
-amplifier: {{cmrr: {amp_cmrr}, open_loop_gain: {aol}, gbw: 10 MHz, slew_rate: 5 V/us,
-            offset_voltage: 0 V, bias_current: 0 A, voltage_noise: 10 nV/rtHz,
-            current_noise: 0.1 pA/rtHz, input_range: {{from_negative: 0 V, from_positive: 0 V}},
-            output_swing: {{from_negative: 0 V, from_positive: 0 V}}}}
-rails: {{positive: 15 V, negative: -15 V}}
-signal: {{differential: {{min: -{vd} V, max: {vd} V}}, common_mode: {{min: -5 V, max: 5 V}},
-          max_frequency: 1 kHz{source}}}
-reference: {{voltage: 0 V{ref}}}
-requirements: {{gain: {gain}, gain_accuracy: {acc} %, cmrr_floor: {floor} dB,
-               temperature: {{min: {tmin} °C, max: {tmax} °C}}{life}}}
-preferences: {{topologies: [{topologies}]{prefs}}}
-"""
-
-ALL = "four_discrete, quad_network, equal_pairs, divider_pairs"
-
-#: (purpose, fields) — each spec names what it exercises.
-BATTERY = [
-    ("G = 2, 50 dB, room, discrete only", dict(gain=2, floor=50, topologies="four_discrete")),
-    ("G = 2, 50 dB, all built kinds", dict(gain=2, floor=50, topologies=ALL)),
-    (
-        "G = 20, 60 dB, industrial, 5 years",
-        dict(
-            gain=20, floor=60, tmin=-20, tmax=85, life=", operating_life: 43800 h", topologies=ALL
-        ),
-    ),
-    (
-        "G = 5, 40 dB, automotive, discrete",
-        dict(gain=5, floor=40, tmin=-40, tmax=125, topologies="four_discrete"),
-    ),
-    ("awkward gain 3.3, 56 dB", dict(gain=3.3, floor=56, topologies="four_discrete")),
-    ("awkward attenuation 0.47, 50 dB", dict(gain=0.47, floor=50, topologies="four_discrete")),
-    ("attenuation 0.1, 60 dB, networks", dict(gain=0.1, floor=60, topologies=ALL)),
-    ("G = 1, 76 dB, quad only", dict(gain=1, floor=76, topologies="quad_network")),
-    ("G = 1, 70 dB, equal pairs only", dict(gain=1, floor=70, topologies="equal_pairs")),
-    ("G = 10, 66 dB, divider pairs only", dict(gain=10, floor=66, topologies="divider_pairs")),
-    ("G = 200, 70 dB, small signal", dict(gain=200, floor=70, vd=0.05, topologies=ALL)),
-    (
-        "finite amplifier CMRR 90 dB, 70 dB floor",
-        dict(gain=2, floor=70, amp_cmrr="90 dB", aol="100 dB", topologies=ALL),
-    ),
-    (
-        "source impedance with imbalance",
-        dict(
-            gain=10,
-            floor=60,
-            topologies="four_discrete",
-            source=", source_impedance: {min: 10, max: 100, imbalance: 20}",
-        ),
-    ),
-    ("REF impedance", dict(gain=2, floor=60, topologies=ALL, ref=", impedance: {min: 0, max: 5}")),
-    (
-        "line and placement costs",
-        dict(
-            gain=2,
-            floor=50,
-            topologies="four_discrete",
-            prefs=", line_cost: 0.5, placement_cost: 0.1",
-        ),
-    ),
-    ("110 dB: nothing the built-in catalog holds", dict(gain=1, floor=110, topologies=ALL)),
-]
-
-
-def battery_text(fields: dict[str, object]) -> str:
-    """The spec text of one battery entry (also used by the benchmark's battery section)."""
-    values: dict[str, object] = dict(amp_cmrr="ideal", aol="ideal", vd=1, source="", ref="",
-                                     acc=1, tmin=25, tmax=25, life="", prefs="")  # fmt: skip
-    values.update(fields)
-    if "vd" not in fields:  # keep the output inside the ±15 V rails with room to spare
-        values["vd"] = round(min(1.0, 5.0 / float(str(values["gain"]))), 4)
-    return BATTERY_SPEC.format(**values)
-
-
-@pytest.mark.parametrize(("purpose", "fields"), BATTERY, ids=[b[0] for b in BATTERY])
-def test_battery_over_the_builtin_catalog(
-    tmp_path: object, purpose: str, fields: dict[str, object]
-) -> None:
-    """Each plain spec ends proven (optimal, or nothing meets it), never at the time limit;
-    the ranked costs never fall; every ranked design passes the exact check; the ten shown
-    are distinct designs."""
-    from pathlib import Path
-
-    from optimizer.specfile import load_spec
-
-    path = Path(str(tmp_path)) / "battery.yaml"
-    path.write_text(battery_text(fields), encoding="utf-8")
-    spec = load_spec(str(path))
-    result = pick(spec, builtin_catalog(), verify, top=10, time_limit_s=120.0)
-    assert result.status in (SearchStatus.OPTIMAL, SearchStatus.INFEASIBLE), purpose
-    costs = [c.cost.total for c in result.ranked]
-    assert all(a <= b + 1e-9 for a, b in itertools.pairwise(costs))
-    keys = {
-        tuple((p.part.part_id, p.element, p.package) for p in c.design.placements)
-        for c in result.ranked
-    }
-    assert len(keys) == len(result.ranked)
-    for candidate in result.ranked:
-        assert verify(candidate.design, spec).passed
-    if "nothing" in purpose:
-        assert result.status is SearchStatus.INFEASIBLE
-    else:
-        assert len(result.ranked) == 10
-
 
 #: Network-only specs, small enough for the exhaustive reference over the whole built-in
 #: catalog (about 1,400 quad designs, 234,000 pairs of duals).
@@ -401,7 +297,7 @@ def test_network_specs_match_the_reference_over_the_builtin_catalog(
     from optimizer.specfile import load_spec
 
     path = Path(str(tmp_path)) / "network.yaml"
-    path.write_text(battery_text(fields), encoding="utf-8")
+    path.write_text(spec_text(fields), encoding="utf-8")
     spec = load_spec(str(path))
     catalog = builtin_catalog()
     ref = reference_search(spec, catalog, verify, top=10)

@@ -67,6 +67,7 @@ from .transfer import coefficients, differential_gain, divider_ratio
 from .variation import drift_bound, drift_interval
 
 __all__ = [
+    "ALL_ENDS",
     "DROOP_SHARE",
     "CheckResult",
     "OperatingCorners",
@@ -462,44 +463,68 @@ def check_full_power_bandwidth(design: Design, spec: Spec) -> CheckResult:
     return CheckResult("full_power_bandwidth", margin >= 0.0, fp, f_max, margin, "Hz", detail)
 
 
-def rating_corners(nominal: NDArray[np.float64], spreads: NDArray[np.float64], spec: Spec) -> (
-    OperatingCorners
-):  # fmt: skip
-    """A subset of :func:`operating_corners` for a quick screen of the rating check: every
-    resistor at both ends ``R(1 ± δ)`` (``spreads``: δ per position, :func:`value_spread`), every
-    signal corner, and only the first source vertex, the lowest REF impedance, the first sign of
-    the amplifier's common-mode error and the ideal open-loop gain. Each is a point the exact
-    check evaluates (same values, same arithmetic), so :func:`resistor_stress` there never
-    exceeds its value over :func:`operating_corners`."""
+#: Resistor ends of :func:`rating_corners`, one row per corner: 0 for ``R(1 − δ)``, 1 for
+#: ``R(1 + δ)`` at R1..R4 (every combination).
+ALL_ENDS: tuple[tuple[int, int, int, int], ...] = tuple(
+    (a, b, c, d) for a in (0, 1) for b in (0, 1) for c in (0, 1) for d in (0, 1)
+)
+
+
+def rating_corners(
+    nominal: NDArray[np.float64],
+    spreads: NDArray[np.float64],
+    spec: Spec,
+    ends: tuple[tuple[int, int, int, int], ...] = ALL_ENDS,
+) -> OperatingCorners:
+    """A subset of :func:`operating_corners` for a quick screen of the rating check, for one
+    design (``nominal``, ``spreads``: shape (4,), ohms and δ per position, :func:`value_spread`)
+    or many (shape (N, 4); every array of the result then has shape (N, M)): the resistor
+    ends ``ends`` (default: all), every signal corner, and only the first source vertex, the
+    lowest REF impedance, the first sign of the amplifier's common-mode error and the ideal
+    open-loop gain. Each is a point the exact check evaluates (same values, same arithmetic),
+    so :func:`resistor_stress` there never exceeds its value over :func:`operating_corners`."""
     sig, ref = spec.signal, spec.reference
     rs1, rs3 = _source_pairs(spec)
     signs = np.array([1.0]) if math.isinf(spec.amplifier.cmrr_db) else np.array([-1.0, 1.0])
-    axes = [
-        *(_ends(r * (1.0 - d), r * (1.0 + d)) for r, d in zip(nominal, spreads, strict=True)),
-        _ends(sig.common_mode_min_v, sig.common_mode_max_v),
-        _ends(sig.differential_min_v, sig.differential_max_v),
-        _ends(ref.voltage_min_v, ref.voltage_max_v),
-    ]
-    grid = [g.ravel() for g in np.meshgrid(*axes, indexing="ij")]
-    one = np.ones_like(grid[0])
+    r = np.asarray(nominal, dtype=float)
+    d = np.asarray(spreads, dtype=float)
+    lo, hi = r * (1.0 - d), r * (1.0 + d)
+    high_end = np.array(ends, dtype=bool)  # (E, 4)
+    values = np.where(high_end, hi[..., None, :], lo[..., None, :])  # (..., E, 4)
+    vcm, vd, vref = (
+        g.ravel()
+        for g in np.meshgrid(
+            _ends(sig.common_mode_min_v, sig.common_mode_max_v),
+            _ends(sig.differential_min_v, sig.differential_max_v),
+            _ends(ref.voltage_min_v, ref.voltage_max_v),
+            indexing="ij",
+        )
+    )
+    count = vcm.size
+    rr = [np.repeat(values[..., j], count, axis=-1) for j in range(4)]  # (..., E·S), E major
+    one = np.ones_like(rr[0])
     return OperatingCorners(
-        r1=grid[0], r2=grid[1], r3=grid[2], r4=grid[3], rs1=one * rs1[0], rs3=one * rs3[0],
-        rref=one * ref.impedance_min_ohm, vcm=grid[4], vd=grid[5], vref=grid[6],
+        r1=rr[0], r2=rr[1], r3=rr[2], r4=rr[3], rs1=one * rs1[0], rs3=one * rs3[0],
+        rref=one * ref.impedance_min_ohm, vcm=one * np.tile(vcm, len(ends)),
+        vd=one * np.tile(vd, len(ends)), vref=one * np.tile(vref, len(ends)),
         sign=one * signs[0], open_loop_gain=one * math.inf,
     )  # fmt: skip
 
 
 def resistor_stress(c: OperatingCorners, spec: Spec) -> tuple[Array, Array]:
-    """``(power, voltage)``, each (4,) for R1..R4: the largest dissipation ``V²/R`` (W) and the
-    largest ``|V|`` across each resistor (V) over the corners ``c`` (:func:`resistor_voltages`
-    at the linear solution; the output is not assumed to clip)."""
+    """``(power, voltage)``: the largest dissipation ``V²/R`` (W) and the largest ``|V|`` across
+    each resistor (V) over the corners ``c`` (the last axis of its arrays), with R1..R4 along
+    the last axis of the result: shape (4,) for one design, (N, 4) for many
+    (:func:`resistor_voltages` at the linear solution; the output is not assumed to clip)."""
     vout = _vout(c, spec)
     volts = resistor_voltages(
         c.r1, c.r2, c.r3, c.r4, c.rs1, c.rs3, c.rref, c.v1, c.v2, c.vref, vout
     )
     rs = (c.r1, c.r2, c.r3, c.r4)
-    power = np.array([np.max(resistor_power(v, r)) for v, r in zip(volts, rs, strict=True)])
-    peak = np.array([np.max(np.abs(v)) for v in volts])
+    power = np.stack(
+        [np.max(resistor_power(v, r), axis=-1) for v, r in zip(volts, rs, strict=True)], axis=-1
+    )
+    peak = np.stack([np.max(np.abs(v), axis=-1) for v in volts], axis=-1)
     return power, peak
 
 

@@ -271,8 +271,19 @@ class _Parts:
     spread: Array  # per class: the exact check's corner deviation δ (analysis.checks)
     power_w: Array  # per catalog row: power rating derated to the hottest temperature
     volts: Array  # per catalog row: limiting voltage
+    top_w: tuple[Array, ...]  # per position (E, K): highest power_w among the usable parts
+    top_v: tuple[Array, ...]  # per position (E, K): highest volts among the usable parts
+    exact_spread: bool  # ``spread`` is every part's own δ (false with same-lot tracking)
     line_charge: Array  # (E, K): least per-line cost of a part id of that class and value
     class_charge: Array  # (E,): least line_charge over the class's values
+
+    def bears(self, rows: Sequence[int], power: Array, peak: Array) -> bool:
+        """Whether the parts ``rows`` (catalog rows at R1..R4) bear ``power`` (W) and ``peak``
+        (V) per position (relative slack 1e-9, as :func:`_rated_combinations`)."""
+        return all(
+            self.power_w[r] >= pw * (1.0 - 1e-9) and self.volts[r] >= pk * (1.0 - 1e-9)
+            for r, pw, pk in zip(rows, power.tolist(), peak.tolist(), strict=True)
+        )
 
     def lines_charge(self, electrical: Sequence[tuple[int, int]]) -> float:
         """Least per-line cost (line cost and stock penalty) of a design with these
@@ -319,13 +330,16 @@ def _discrete_parts(
     lo = (1.0 - classes[:, 0]) * (1.0 - swing) * drift_low
     hi = (1.0 + classes[:, 0]) * (1.0 + swing) * drift_high
     cost = frame["unit_cost"].to_numpy(float)[rows] + prefs.placement_cost
-    power = frame["power_w"].to_numpy(float)[rows] * env.derating
+    rated_w = derated_power(frame["power_w"].to_numpy(float), spec.requirements.temp_max_c)
+    power = rated_w[rows]
     volts = frame["max_voltage_v"].to_numpy(float)[rows]
     # Ties in cost go by part id: its rank in sorted order (integer codes, no string copies).
     id_rank, _ = pd.factorize(frame["part_id"].to_numpy()[rows], sort=True)
     order = np.lexsort((id_rank, cost, value_of, class_of))
     shape = (len(classes), values.size)
     best, best_cost, kept_rows, kept_costs, spans = [], [], [], [], []
+    top_w: list[Array] = []
+    top_v: list[Array] = []
     in_stock = frame["stock_qty"].to_numpy()[rows] > 0
     stocked = np.zeros(shape, dtype=bool)
     for position in range(4):
@@ -351,6 +365,11 @@ def _discrete_parts(
         span[class_of[heads], value_of[heads], 1] = stops
         held = sel[in_stock[sel]]  # (plain assignment: repeated indices all set True)
         stocked[class_of[held], value_of[held]] = True
+        for tops, rating in ((top_w, power), (top_v, volts)):
+            top = np.zeros(shape)
+            if sel.size:
+                top[class_of[heads], value_of[heads]] = np.maximum.reduceat(rating[sel], starts)
+            tops.append(top)
         best.append(table)
         best_cost.append(table_cost)
         kept_rows.append(rows[sel])
@@ -361,9 +380,8 @@ def _discrete_parts(
     return _Parts(
         values, lo, hi, tuple(best), tuple(best_cost), tuple(kept_rows), tuple(kept_costs),
         tuple(spans), classes[:, 0] + classes[:, 1] * _temperature_span(spec),
-        frame["power_w"].to_numpy(float) * env.derating,
-        frame["max_voltage_v"].to_numpy(float), charge,
-        np.min(np.where(usable_any, charge, np.inf), axis=1),
+        rated_w, frame["max_voltage_v"].to_numpy(float), tuple(top_w), tuple(top_v),
+        not prefs.same_lot_tracking, charge, np.min(np.where(usable_any, charge, np.inf), axis=1),
     )  # fmt: skip
 
 
@@ -783,6 +801,8 @@ def _emit(
         return True
 
     sorted_cache: dict[tuple[int, int], tuple[IntArray, Array]] = {}
+    # Per (class, value) quadruple: its stress at the screen's corners (``_rated_combinations``).
+    stress_of: dict[tuple[tuple[int, int], ...], tuple[Array, Array]] = {}
     heap: list[tuple[float, int, int, object]] = []
     tick = itertools.count()
     next_pair = 0
@@ -804,20 +824,23 @@ def _emit(
             lb = one.cost[ja] + two.cost[jb] + _distinct_charge(keys, parts.line_charge)
             sort = np.lexsort((*(keys[:, i] for i in range(7, -1, -1)), lb))
             # The pair's combinations, in bound order, enter the heap one at a time.
-            block = (keys[sort], lb[sort])
-            heapq.heappush(heap, (float(block[1][0]), _BLOCK, next(tick), (block, 0)))
+            block = _Block(keys[sort], lb[sort], parts, spec)
+            at = block.usable(0)
+            if at is not None:
+                heapq.heappush(heap, (float(block.lbs[at]), _BLOCK, next(tick), (block, at)))
             continue
         if not heap:
             return
         key, kind, _, payload = heapq.heappop(heap)
         if kind == _BLOCK:
-            (keys, lbs), at = cast(tuple[tuple[IntArray, Array], int], payload)
-            if at + 1 < lbs.size:
-                heapq.heappush(
-                    heap, (float(lbs[at + 1]), _BLOCK, next(tick), ((keys, lbs), at + 1))
-                )
-            k = [int(v) for v in keys[at]]
+            block, at = cast(tuple[_Block, int], payload)
+            after = block.usable(at + 1)
+            if after is not None:
+                heapq.heappush(heap, (float(block.lbs[after]), _BLOCK, next(tick), (block, after)))
+            k = [int(v) for v in block.keys[at]]
             first = tuple((k[2 * i], k[2 * i + 1]) for i in range(4))
+            if block.screened:
+                stress_of[first] = (block.power[at], block.peak[at])
             heapq.heappush(heap, (key, _BOUND, next(tick), (first, (0, 0, 0, 0))))
             continue
         electrical, choice = cast(tuple[tuple[tuple[int, int], ...], tuple[int, ...]], payload)
@@ -831,7 +854,8 @@ def _emit(
         # cost plus one line per distinct (class, value): never above its exact cost, and never
         # below this entry's bound, so taking successors now keeps the order exact (a
         # successor can cost less than this design itself, when it shares a line).
-        if rated(rows):
+        known = stress_of.get(electrical)
+        if rated(rows) if known is None else parts.bears(rows, *known):
             heapq.heappush(
                 heap, (max(cost_of(rows), key), _EXACT, next(tick), (electrical, choice))
             )
@@ -844,6 +868,71 @@ def _emit(
                 seen.add((electrical, nxt))
                 bound_next = sum(lists[j][nxt[j]][0] for j in range(4)) + lines
                 heapq.heappush(heap, (bound_next, _BOUND, next(tick), (electrical, nxt)))
+
+
+#: Resistor ends of the block-level rating screen (``analysis.checks.rating_corners``): R1 low
+#: and R2 high (the largest current through both), R3 and R4 at every end.
+_SCREEN_ENDS = ((0, 1, 0, 0), (0, 1, 0, 1), (0, 1, 1, 0), (0, 1, 1, 1))
+#: Designs whose rating stress is computed at once (bounds the screen's memory).
+_STRESS_CHUNK = 8192
+
+
+class _Block:
+    """The combinations of one group pair, sorted by their bound ``lbs``, screened against the
+    ratings (:func:`_rated_combinations`) a chunk at a time as the merge reaches them (most
+    blocks are left after their first few entries)."""
+
+    def __init__(self, keys: IntArray, lbs: Array, parts: _Parts, spec: Spec) -> None:
+        self.keys, self.lbs, self.parts, self.spec = keys, lbs, parts, spec
+        self.screened = parts.exact_spread
+        n = keys.shape[0]
+        self.ok = np.ones(n, dtype=bool)
+        self.power = np.zeros((n, 4))
+        self.peak = np.zeros((n, 4))
+        self.done = 0  # entries screened so far (a prefix)
+
+    def usable(self, at: int) -> int | None:
+        """The first entry from ``at`` on that passes the screen, or None."""
+        n = self.keys.shape[0]
+        while at < n:
+            while self.screened and at >= self.done:
+                # Chunks double from 64 up to _STRESS_CHUNK: most blocks need only a few.
+                step = min(_STRESS_CHUNK, max(64, self.done))
+                part = slice(self.done, min(self.done + step, n))
+                ok, power, peak = _rated_combinations(self.keys[part], self.parts, self.spec)
+                self.ok[part], self.power[part], self.peak[part] = ok, power, peak
+                self.done = part.stop
+            ahead = np.flatnonzero(self.ok[at : self.done if self.screened else n])
+            if ahead.size:
+                return at + int(ahead[0])
+            at = self.done if self.screened else n
+        return None
+
+
+def _rated_combinations(
+    keys: IntArray, parts: _Parts, spec: Spec
+) -> tuple[NDArray[np.bool_], Array, Array]:
+    """For combinations ``keys`` (columns: class, value for R1..R4): the mask of those whose
+    best-rated part at every position (``_Parts.top_w``, ``top_v``) bears its stress at the
+    corners :data:`_SCREEN_ENDS` of ``analysis.checks.rating_corners``, and that stress
+    ``(power, peak)`` (N, 4). Those corners are points of the exact rating check (every part
+    of a class has the class's δ when ``parts.exact_spread``), so a combination left out fails
+    it with every part of its classes and values (relative slack 1e-9)."""
+    n = keys.shape[0]
+    power = np.empty((n, 4))
+    peak = np.empty((n, 4))
+    cls, val = keys[:, 0::2], keys[:, 1::2]
+    for start in range(0, n, _STRESS_CHUNK):
+        part = slice(start, start + _STRESS_CHUNK)
+        corners = rating_corners(
+            parts.values[val[part]], parts.spread[cls[part]], spec, _SCREEN_ENDS
+        )
+        power[part], peak[part] = resistor_stress(corners, spec)
+    ok = np.ones(n, dtype=bool)
+    for i in range(4):
+        ok &= power[:, i] * (1.0 - 1e-9) <= parts.top_w[i][cls[:, i], val[:, i]]
+        ok &= peak[:, i] * (1.0 - 1e-9) <= parts.top_v[i][cls[:, i], val[:, i]]
+    return ok, power, peak
 
 
 def _distinct_charge(keys: IntArray, charge: Array) -> Array:
