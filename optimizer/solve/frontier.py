@@ -857,7 +857,7 @@ def _emit(
         known = stress_of.get(electrical)
         if rated(rows) if known is None else parts.bears(rows, *known):
             heapq.heappush(
-                heap, (max(cost_of(rows), key), _EXACT, next(tick), (electrical, choice))
+                heap, (_exact_key(cost_of(rows), key), _EXACT, next(tick), (electrical, choice))
             )
         lines = parts.lines_charge(electrical)
         for i in range(4):
@@ -933,6 +933,19 @@ def _rated_combinations(
         ok &= power[:, i] * (1.0 - 1e-9) <= parts.top_w[i][cls[:, i], val[:, i]]
         ok &= peak[:, i] * (1.0 - 1e-9) <= parts.top_v[i][cls[:, i], val[:, i]]
     return ok, power, peak
+
+
+#: Relative difference below which a design's exact cost counts as equal to its bound: the two
+#: are sums of the same figures in different orders (rounding differs in the last digits).
+_SAME_COST = 1e-12
+
+
+def _exact_key(cost: float, bound: float) -> float:
+    """The heap key of a design of exact ``cost`` found from an entry of key ``bound``: the
+    bound itself when the two agree to :data:`_SAME_COST` (so the design is taken before every
+    other entry of that cost, not after a tie group that differs only in rounding), else the
+    larger (the key never falls)."""
+    return bound if cost <= bound + _SAME_COST * abs(bound) else max(cost, bound)
 
 
 def _distinct_charge(keys: IntArray, charge: Array) -> Array:

@@ -524,6 +524,57 @@ def bench_battery(runs: int, tmp: str) -> list[dict[str, Any]]:
     return rows
 
 
+#: The sweep section: ``quartet sweep`` over 30 CMRR floors (issue #11: at most 10 s, cost
+#: curves monotone).
+SWEEP_SPEC = "motor_shunt"
+SWEEP_FLOORS = tuple(40.0 + 2.0 * i for i in range(30))
+TARGET_SWEEP_S = 10.0
+
+
+def bench_sweep(runs: int) -> list[dict[str, Any]]:
+    """``optimizer.sweep.sweep_cmrr`` of :data:`SWEEP_SPEC` over :data:`SWEEP_FLOORS` (two
+    searches per floor, each limited to the CLI's default 10 s): the wall time, how many
+    searches ended proven, and whether each cost curve is monotone (a higher floor never
+    costs less, and nothing is found above a floor where nothing exists)."""
+    from optimizer.solve.search import SearchStatus
+    from optimizer.sweep import sweep_cmrr
+
+    spec = load_spec(os.path.join(REPO, "examples", f"{SWEEP_SPEC}.yaml"))
+    catalog = spec_catalog(spec)
+    row: dict[str, Any] = {"sweep": f"{SWEEP_SPEC}, {len(SWEEP_FLOORS)} floors"}
+    walls: list[float] = []
+    try:
+        for _ in range(runs):
+            wall, result = timed(sweep_cmrr, spec, catalog, SWEEP_FLOORS, time_limit_s=10.0)
+            walls.append(wall)
+        series = [[p.discrete for p in result.points], [p.network for p in result.points]]
+        proven = sum(
+            1
+            for line in series
+            for point in line
+            if point.status in (SearchStatus.OPTIMAL, SearchStatus.INFEASIBLE)
+        )
+        searches = sum(1 for line in series for point in line if point.status is not None)
+        monotone = True
+        for line in series:
+            last = -math.inf
+            for point in line:
+                cost = math.inf if point.cost is None else point.cost
+                monotone &= cost >= last - 1e-9
+                last = cost
+    except Exception as exc:  # a failed run: shown, never measured
+        return [failed_row({**row, "runs": len(walls)}, exc)]
+    return [
+        {
+            **row,
+            "runs": len(walls),
+            "proven": f"{proven}/{searches}",
+            "monotone": "yes" if monotone else "NO",
+            "wall_s": median(walls),
+        }
+    ]
+
+
 def bench_board(runs: int) -> list[dict[str, Any]]:
     """The board pick (``optimizer.board``, top 1) on: the four :data:`BOARD_KINDS` examples
     once each over the built-in catalog; the same four kinds with 4 channels each (16
@@ -1002,6 +1053,12 @@ def targets(result: dict[str, Any]) -> list[dict[str, Any]]:
         failed = [r["spec"] for r in battery if "failed" in r]
         add("battery median search (s) <= 0.3", median(ok) if ok else None, 0.3, False, failed)
         add("battery largest search (s) <= 2", max(ok) if ok else None, 2.0, False, failed)
+    for row in result.get("sweep", []):
+        failed = [row["failed"]] if "failed" in row else []
+        add(f"sweep wall (s) <= {TARGET_SWEEP_S:g}: {row['sweep']}", row.get("wall_s"),
+            TARGET_SWEEP_S, False, failed)  # fmt: skip
+        add(f"sweep cost curves monotone: {row['sweep']}", 1.0 if row.get("monotone") == "yes"
+            else 0.0, 1.0, True, failed)  # fmt: skip
     for row in result.get("cli", []):
         goal = TARGET_CLI_PICK_S if " pick " in row["command"] else TARGET_CLI_S
         add(f"CLI wall (s) <= {goal:g}: {row['command'].split(' ', 3)[3]}", row.get("wall_s"),
@@ -1051,7 +1108,7 @@ def failures(result: dict[str, Any]) -> list[str]:
     """Every failed row of every section, as "section key: message"."""
     out = []
     for section, key in (("examples", "example"), ("battery", "spec"), ("cli", "command"),
-                         ("oracle", "parts"),
+                         ("sweep", "sweep"), ("oracle", "parts"),
                          ("scaling", "parts"), ("board", "board")):  # fmt: skip
         out += [f"{section} {r[key]}: {r['failed']}" for r in result.get(section, [])
                 if "failed" in r]  # fmt: skip
@@ -1096,7 +1153,7 @@ def parse_args(argv: Sequence[str] | None) -> argparse.Namespace:
     parser.add_argument("--runs", type=int, default=None, help="runs per figure (default 5)")
     parser.add_argument("--json", metavar="OUT", help="write the figures as JSON to OUT")
     parser.add_argument(
-        "--sections", default="examples,battery,cli,oracle,scaling,montecarlo,board",
+        "--sections", default="examples,battery,cli,sweep,oracle,scaling,montecarlo,board",
         help="comma-separated sections to run",
     )  # fmt: skip
     parser.add_argument("--examples", help="comma-separated example names (default: all)")
@@ -1221,6 +1278,11 @@ def main(argv: Sequence[str] | None = None) -> int:
             print(section("\nMonte-Carlo kernel (one core)", [result["montecarlo"]],
                           ["samples", "runs", "status", "kernel_s", "samples_per_s"], "samples"),
                   flush=True)  # fmt: skip
+        if "sweep" in sections:
+            result["sweep"] = bench_sweep(1 if args.quick else min(runs, 3))
+            print(section("\nquartet sweep (two searches per floor, 10 s each at most)",
+                          result["sweep"], ["sweep", "runs", "proven", "monotone", "wall_s"],
+                          "sweep"), flush=True)  # fmt: skip
         if "board" in sections:
             result["board"] = bench_board(runs)
             print(section("\nBoard pick (top 1, proven; line cost 2, placement 0.02)",
