@@ -55,7 +55,6 @@ SLOW = (
     "tests/test_frontier.py::test_top_k_costs_match_the_exhaustive_reference",
     "tests/test_frontier.py::test_network_specs_match_the_reference_over_the_builtin_catalog",
     "tests/test_frontier.py::test_screen_is_a_relaxation_and_exact_for_independent_parts",
-    "tests/test_frontier.py::test_battery_over_the_builtin_catalog",
     "tests/test_frontier.py::test_plain_specs_find_the_cheap_designs",
     "tests/test_catalog.py::test_wheel_install_carries_the_builtin_catalog",
 )

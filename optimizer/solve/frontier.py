@@ -447,68 +447,81 @@ def _half_records(parts: _Parts, lim: _Limits, side: int) -> _Half:
     pieces: list[tuple[IntArray, ...]] = []
     n_classes = parts.lo.size
     avail_a = [np.flatnonzero(parts.best[pa][c] >= 0) for c in range(n_classes)]
-    avail_b = [np.flatnonzero(parts.best[pb][c] >= 0) for c in range(n_classes)]
+    # Per class at position pb: how many of its usable values lie below each global value
+    # index (``count[c, j]``: usable values among values[:j]), and their indices in order
+    # (``index[c, i]``: the i-th usable value). A search in the class's own value list is
+    # then a search in the global list read through ``count``.
+    usable_b = parts.best[pb] >= 0  # (E, K)
+    count = np.zeros((n_classes, values.size + 1), dtype=np.int64)
+    np.cumsum(usable_b, axis=1, out=count[:, 1:])
+    index = np.zeros((n_classes, values.size), dtype=np.int64)
+    cls_b, val_b = np.nonzero(usable_b)
+    starts = np.cumsum(count[:, -1]) - count[:, -1]
+    index[cls_b, np.arange(cls_b.size) - starts[cls_b]] = val_b
+    classes_b = np.flatnonzero(count[:, -1] > 0)
     group = 0
     for ca in range(n_classes):
         ka = avail_a[ca]
-        if ka.size == 0:
+        if ka.size == 0 or classes_b.size == 0:
             continue
-        for cb in range(n_classes):
-            kb = avail_b[cb]
-            if kb.size == 0:
-                continue
-            vb = values[kb]
-            ra = values[ka]
-            if side == 1:
-                # c_hi ≤ t_hi: R2·hi2·(1 − t) ≤ t·(R1·lo1 + Rs1); c_lo ≥ t_lo likewise.
-                top = (
-                    np.max(t_hi * (ra[:, None] * parts.lo[ca] + series_a[None, :]), axis=1)
-                    / ((1.0 - t_hi) * parts.hi[cb])
-                    if t_hi < 1.0
-                    else np.full(ra.size, np.inf)
-                )
-                bottom = np.min(t_lo * (ra[:, None] * parts.hi[ca] + series_a[None, :]), axis=1) / (
-                    (1.0 - t_lo) * parts.lo[cb]
-                )
-            else:
-                # a_hi ≤ t_hi: (R4·hi4 + Rref)(1 − t) ≤ t·(R3·lo3 + Rs3); a_lo ≥ t_lo likewise.
-                top = (
-                    np.max(
-                        t_hi * (ra[:, None] * parts.lo[ca] + series_a[None, :]) / (1.0 - t_hi)
-                        - series_b[None, :],
-                        axis=1,
-                    )
-                    / parts.hi[cb]
-                    if t_hi < 1.0
-                    else np.full(ra.size, np.inf)
-                )
-                bottom = (
-                    np.min(
-                        t_lo * (ra[:, None] * parts.hi[ca] + series_a[None, :]) / (1.0 - t_lo)
-                        - series_b[None, :],
-                        axis=1,
-                    )
-                    / parts.lo[cb]
-                )
-            first = np.searchsorted(vb, bottom * (1.0 - 1e-9), side="left")
-            last = np.searchsorted(vb, top * (1.0 + 1e-9), side="right")
-            count = np.maximum(last - first, 0)
-            total = int(count.sum())
-            if total == 0:
-                continue
-            ia = np.repeat(np.arange(ka.size), count)
-            offsets = np.arange(total) - np.repeat(np.cumsum(count) - count, count)
-            ib = np.repeat(first, count) + offsets
-            pieces.append(
-                (
-                    np.full(total, group, dtype=np.int64),
-                    np.full(total, ca, dtype=np.int64),
-                    ka[ia],
-                    np.full(total, cb, dtype=np.int64),
-                    kb[ib],
-                )
+        ra = values[ka]
+        hi_b, lo_b = parts.hi[classes_b][:, None], parts.lo[classes_b][:, None]
+        if side == 1:
+            # c_hi ≤ t_hi: R2·hi2·(1 − t) ≤ t·(R1·lo1 + Rs1); c_lo ≥ t_lo likewise.
+            top = (
+                np.max(t_hi * (ra[:, None] * parts.lo[ca] + series_a[None, :]), axis=1)[None, :]
+                / ((1.0 - t_hi) * hi_b)
+                if t_hi < 1.0
+                else np.full((classes_b.size, ra.size), np.inf)
             )
-            group += 1
+            bottom = np.min(t_lo * (ra[:, None] * parts.hi[ca] + series_a[None, :]), axis=1)[
+                None, :
+            ] / ((1.0 - t_lo) * lo_b)
+        else:
+            # a_hi ≤ t_hi: (R4·hi4 + Rref)(1 − t) ≤ t·(R3·lo3 + Rs3); a_lo ≥ t_lo likewise.
+            top = (
+                np.max(
+                    t_hi * (ra[:, None] * parts.lo[ca] + series_a[None, :]) / (1.0 - t_hi)
+                    - series_b[None, :],
+                    axis=1,
+                )[None, :]
+                / hi_b
+                if t_hi < 1.0
+                else np.full((classes_b.size, ra.size), np.inf)
+            )
+            bottom = (
+                np.min(
+                    t_lo * (ra[:, None] * parts.hi[ca] + series_a[None, :]) / (1.0 - t_lo)
+                    - series_b[None, :],
+                    axis=1,
+                )[None, :]
+                / lo_b
+            )
+        # (partner class, value of a): the partner's value window, as positions in its list
+        # (rows: partner classes; columns: the values of a).
+        g_first = np.searchsorted(values, (bottom * (1.0 - 1e-9)).ravel(), side="left")
+        g_last = np.searchsorted(values, (top * (1.0 + 1e-9)).ravel(), side="right")
+        rows_b = np.repeat(classes_b, ra.size)
+        first = count[rows_b, g_first]
+        n_pair = np.maximum(count[rows_b, g_last] - first, 0)
+        per_class = n_pair.reshape(classes_b.size, ra.size).sum(axis=1)
+        total = int(per_class.sum())
+        if total == 0:
+            continue
+        groups = np.cumsum(per_class > 0) - 1 + group
+        group += int((per_class > 0).sum())
+        ia = np.tile(np.arange(ra.size), classes_b.size)
+        offsets = np.arange(total) - np.repeat(np.cumsum(n_pair) - n_pair, n_pair)
+        cb_rec = np.repeat(rows_b, n_pair)
+        pieces.append(
+            (
+                np.repeat(np.repeat(groups, ra.size), n_pair),
+                np.full(total, ca, dtype=np.int64),
+                ka[np.repeat(ia, n_pair)],
+                cb_rec,
+                index[cb_rec, np.repeat(first, n_pair) + offsets],
+            )
+        )
     if not pieces:
         empty_i = np.zeros(0, dtype=np.int64)
         empty_f = np.zeros((0, lim.rs1.size))
