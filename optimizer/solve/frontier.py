@@ -1,4 +1,5 @@
-"""Exact cost-ordered search for four discrete parts and for quad networks.
+"""Exact cost-ordered search for four discrete parts and for quad networks and pairs of duals
+(one dual with two discrete parts: ``optimizer.solve.mixed``).
 
 Why this exists
 ---------------
@@ -77,6 +78,7 @@ from .environment import LinearEnvironment, life_drift
 
 __all__ = [
     "RATING_SCREEN",
+    "Shared",
     "corner_screen",
     "discrete_frontier",
     "gain_threshold",
@@ -719,25 +721,48 @@ def _join(
     return np.concatenate(out_a), np.concatenate(out_b)
 
 
+class Shared:
+    """What the enumerations of one pick build alike (the usable discrete parts, the raw half
+    records of each side), built on first use and kept for the others: the four-discrete
+    search and the one-dual-two-discrete search (``optimizer.solve.mixed``) of one spec."""
+
+    def __init__(self) -> None:
+        self._parts: list[_Parts | None] = []
+        self._halves: dict[int, _Half] = {}
+
+    def parts(
+        self, catalog: Catalog, spec: Spec, env: LinearEnvironment, lim: _Limits
+    ) -> _Parts | None:
+        if not self._parts:
+            self._parts.append(_discrete_parts(catalog, spec, env, lim))
+        return self._parts[0]
+
+    def half(self, parts: _Parts, lim: _Limits, side: int) -> _Half:
+        if side not in self._halves:
+            self._halves[side] = _half_records(parts, lim, side)
+        return self._halves[side]
+
+
 def discrete_frontier(
     spec: Spec,
     catalog: Catalog,
     env: LinearEnvironment,
     should_stop: Callable[[], bool] = lambda: False,
+    shared: Shared | None = None,
 ) -> Iterator[Design]:
     """Four-discrete designs that meet the spec's worst-case CMRR and gain accuracy, in
     nondecreasing exact cost (``optimizer.cost``); the other checks are left to the caller's
     exact check. Exhaustive: when it ends, no further design passes those two — unless
-    ``should_stop`` (asked between steps: a clock, an interrupt) ended it early."""
+    ``should_stop`` (asked between steps: a clock, an interrupt) ended it early. ``shared``:
+    the parts and half records built by another enumeration of the same spec."""
     lim = _limits(spec, env)
     if lim.balance < 0.0:
         return
-    parts = _discrete_parts(catalog, spec, env, lim)
+    shared = shared if shared is not None else Shared()
+    parts = shared.parts(catalog, spec, env, lim)
     if parts is None:
         return
-    one = _half_records(parts, lim, 1)
-    two = _half_records(parts, lim, 2)
-    one, two = _prune(one, two, lim)
+    one, two = _prune(shared.half(parts, lim, 1), shared.half(parts, lim, 2), lim)
     if not (one.cost.size and two.cost.size):
         return
     order1, span1, cost1, spread1, cls1, _ = _group_table(one)

@@ -31,7 +31,8 @@ from ..spec import CmrrBasis, Objective, Spec, StockPolicy
 from .amplifier import amplifier_limits
 from .discrete import DiscreteBlock, build_discrete, value_constants
 from .environment import LinearEnvironment, linear_environment
-from .frontier import discrete_frontier, network_frontier
+from .frontier import Shared, discrete_frontier, network_frontier
+from .mixed import mixed_frontier
 from .model import COST_SCALE, BuiltModel, Limits, ModelVariant, build_model, limits_for
 from .options import ALL_SHAPES, DIVIDER_SHAPES, EQUAL_SHAPES, OptionTable, build_options
 from .ranking import binding_requirement, family_key, tie_key
@@ -187,6 +188,7 @@ class Problem:
     env: LinearEnvironment
     limits: Limits
     _parts: list[_ModelParts] = field(default_factory=list, compare=False, repr=False)
+    shared: Shared = field(default_factory=Shared, compare=False, repr=False)
 
     def _model_parts(self) -> _ModelParts:
         if not self._parts:
@@ -371,11 +373,12 @@ class _FrontierStream(_Progress):
         self.pair_shape: int | None = None
         spec, catalog, env = problem.spec, problem.catalog, problem.env
         self._out_of_time = False
-        self._source = (
-            discrete_frontier(spec, catalog, env, self._stop)
-            if topology is Topology.DISCRETE
-            else network_frontier(spec, catalog, env, topology)
-        )
+        if topology is Topology.DISCRETE:
+            self._source = discrete_frontier(spec, catalog, env, self._stop, problem.shared)
+        elif topology is Topology.PAIR_PLUS_DISCRETE:
+            self._source = mixed_frontier(spec, catalog, env, self._stop, problem.shared)
+        else:
+            self._source = network_frontier(spec, catalog, env, topology)
         self._clock: _Clock | None = None
         _Progress.__init__(self)
 
@@ -417,12 +420,12 @@ class _FrontierStream(_Progress):
 
 
 def _frontier_applies(spec: Spec, topology: Topology) -> bool:
-    """The exact enumeration serves the lowest-cost objective on the worst-case basis for four
-    discrete parts, quad networks and pairs of duals; one dual with two discrete parts, the
-    yield basis and the other objectives use the CP-SAT streams."""
+    """The exact enumeration serves the lowest-cost objective on the worst-case basis for every
+    topology (``optimizer.solve.frontier``, ``optimizer.solve.mixed``); the yield basis and the
+    other objectives use the CP-SAT streams."""
+    del topology
     return (
-        topology is not Topology.PAIR_PLUS_DISCRETE
-        and spec.preferences.objective is Objective.COST
+        spec.preferences.objective is Objective.COST
         and spec.requirements.cmrr_basis is CmrrBasis.WORST_CASE
     )
 

@@ -1,0 +1,603 @@
+"""Exact cost-ordered search for one dual network and two discrete parts (``pair_plus_discrete``).
+
+Why this exists
+---------------
+The dual sits at one of the six position pairs, in either element order: a few hundred
+*placements* in the built-in catalog. Once a placement is fixed, its two positions have known
+values and factor ranges, and only the two discrete positions are free, so the conditions of
+``optimizer.solve.frontier`` (balance ``|ln c − ln a| ≤ Λ`` and the gain limits at every
+environment vertex) decide each pair of discrete (class, value) choices exactly:
+
+* **Divider placements** (the dual at R1, R2 or at R3, R4): the discrete parts form the other
+  side's half, whose records (``frontier._half_records``) are built once; the dual's own side
+  term is one interval per vertex, so the partner's ``ln`` term at vertex 0 must lie within
+  ``[high − Λ, low + Λ]`` of it: a slice of the records sorted by that term.
+* **Crossed placements** (one dual element on each side): each side is one dual element and one
+  discrete part. The side term ``(B + u)/(A + w + B + u)`` (``A``: R1 or R3 with its source
+  impedance ``w``; ``B``: R2 or R4 with ``u`` = 0 or Rref) rises with ``B`` and falls with
+  ``A``, so the window of :func:`frontier._side_window` bounds each class's value from both
+  sides (:func:`value_window`); the two sides' candidates are paired and screened.
+
+Both candidate lists keep only pairs whose side terms can balance at vertex 0 (a side's width
+plus its partner's is at most ``2Λ``, the two balance conditions summed). Every candidate then
+passes :func:`frontier.corner_screen` with the dual's package factor at each of its two ends
+(points of the exact check's range, as the network search does), which is exact for
+independent parts and optimistic for the network, so nothing the exact check could accept is
+dropped; a placement's candidates are ordered and screened a chunk at a time, as the merge
+reaches them. A discrete class and value too wide to balance next to any dual
+(:func:`least_sensitivity`) does not lower a placement's bound.
+
+Placements are taken in the order of a lower bound of their cost (the network's cost with its
+placement and line, plus the cheapest usable discrete part of each free position and one
+line, or the cheapest record of the free side); their screened combinations enter a heap keyed
+by a lower bound of their cost (cheapest part of each class and value, one line per distinct
+class and value), which is replaced by the exact cost (``optimizer.cost``) before a design is
+emitted. Designs come out in nondecreasing exact cost; the caller runs the full exact check on
+each.
+"""
+
+from __future__ import annotations
+
+import heapq
+import itertools
+import math
+from collections.abc import Callable, Iterator
+from dataclasses import dataclass
+from typing import cast
+
+import numpy as np
+from numpy.typing import NDArray
+
+from ..catalog import Catalog
+from ..cost import parts_cost
+from ..design import Design, Placement
+from ..parts import DiscretePart, NetworkPart
+from ..spec import Spec
+from .environment import LinearEnvironment
+from .frontier import (
+    _BLOCK,
+    _BOUND,
+    _EXACT,
+    _JOIN_CHUNK,
+    Shared,
+    _cached_part,
+    _element_bounds,
+    _exact_key,
+    _Half,
+    _Limits,
+    _limits,
+    _package_extremes,
+    _Parts,
+    _rated,
+    _side_window,
+    _usable_networks,
+    corner_screen,
+    stress_floor,
+)
+from .options import ALL_SHAPES
+
+__all__ = ["mixed_frontier", "side_term", "value_window"]
+
+Array = NDArray[np.float64]
+IntArray = NDArray[np.int64]
+
+
+# --------------------------------------------------------------------------------------------
+# Formulas
+# --------------------------------------------------------------------------------------------
+
+
+def side_term(
+    top: Array | float, bottom: Array | float, w: Array | float, u: Array | float
+) -> Array:
+    """The bridge term of one side, ``(B + u)/(A + w + B + u)`` (dimensionless): ``c =
+    R2/(R1 + Rs1 + R2)`` with ``A = R1``, ``B = R2``, ``w = Rs1``, ``u = 0``, and ``a = (R4 +
+    Rref)/(R3 + Rs3 + R4 + Rref)`` with ``A = R3``, ``B = R4``, ``w = Rs3``, ``u = Rref`` (ohms;
+    voltage dividers, Ohm's law). It falls with ``A`` and rises with ``B``, so its upper bound
+    takes ``A`` low and ``B`` high."""
+    term: Array = np.asarray((bottom + u) / (top + w + bottom + u), dtype=float)
+    return term
+
+
+def value_window(
+    fixed_low: float,
+    fixed_high: float,
+    free_is_bottom: bool,
+    t_hi: float,
+    t_lo: float,
+    w: Array,
+    u: Array,
+) -> tuple[float, float]:
+    """Bounds ``(m_lo, m_hi)`` of the free resistance times its factor bound (ohms) that let
+    the side term stay inside the window ``term_hi ≤ t_hi``, ``term_lo ≥ t_lo``
+    (:func:`frontier._side_window`) at some environment vertex, the other resistance of the
+    side lying in ``[fixed_low, fixed_high]``. From :func:`side_term` solved for the free
+    resistance (it is linear in either): free ``B``: ``B·hi ≤ t_hi(A_low + w)/(1 − t_hi) − u``
+    and ``B·lo ≥ t_lo(A_high + w)/(1 − t_lo) − u``; free ``A``: ``A·lo ≥ (B_high + u)(1 −
+    t_hi)/t_hi − w`` and ``A·hi ≤ (B_low + u)(1 − t_lo)/t_lo − w``. ``m_hi`` bounds ``R·hi``
+    from above and ``m_lo`` bounds ``R·lo`` from below; the loosest vertex is taken, so the
+    window is a necessary condition."""
+    if free_is_bottom:
+        upper = float(np.max(t_hi * (fixed_low + w) / (1.0 - t_hi) - u)) if t_hi < 1.0 else math.inf
+        lower = float(np.min(t_lo * (fixed_high + w) / (1.0 - t_lo) - u)) if t_lo > 0.0 else 0.0
+        return lower, upper
+    if t_hi <= 0.0:
+        return math.inf, 0.0  # no term reaches it
+    lower = float(np.min((fixed_high + u) * (1.0 - t_hi) / t_hi - w)) if t_hi < 1.0 else 0.0
+    upper = float(np.max((fixed_low + u) * (1.0 - t_lo) / t_lo - w)) if t_lo > 0.0 else math.inf
+    return lower, upper
+
+
+def least_sensitivity(position: int, r_low: Array, t_hi: float, lim: _Limits) -> Array:
+    """A lower bound of ``∂ln term/∂ln R`` (dimensionless) for a resistance at ``position``
+    (0-based) no lower than ``r_low`` (ohms) while its side's term stays at most ``t_hi``. From
+    :func:`side_term`: for ``A`` (R1, R3) ``S = A/(A + w + B + u) = (1 − term)·A/(A + w)``, for
+    ``B`` (R2, R4) ``S = B/(B + u) − B/(A + w + B + u) = (1 − term)·B/(B + u)``;
+    ``1 − term ≥ 1 − t_hi`` and ``R/(R + s)`` rises with ``R`` and falls with the series
+    impedance ``s`` (its largest)."""
+    series = {0: lim.rs1, 1: np.zeros(1), 2: lim.rs3, 3: lim.rref}[position]
+    s_max = float(np.max(series))
+    share: Array = max(1.0 - t_hi, 0.0) * r_low / (r_low + s_max)
+    return share
+
+
+def _least_costs(parts: _Parts, lim: _Limits) -> list[float]:
+    """Per position: the least cost (part and placement) of a discrete part that can take it
+    next to any dual. A side's ``ln`` term spans at least ``S·ln(hi/lo)`` over the part's range
+    (:func:`least_sensitivity`; the other resistance of the side at a point only narrows it),
+    and the widths of both sides add up to at most ``2Λ`` (the two balance conditions summed),
+    so a class and value wider than ``2Λ`` on its own is never placed."""
+    least: list[float] = []
+    width = np.log(parts.hi / parts.lo)[:, None]  # (E, 1)
+    for position in range(4):
+        t_hi = _side_window(lim, 1 if position < 2 else 2)[0]
+        r_low = parts.values[None, :] * parts.lo[:, None]  # (E, K)
+        narrow = width * least_sensitivity(position, r_low, t_hi, lim) <= 2.0 * lim.balance
+        cost = np.where(narrow, parts.best_cost[position], np.inf)
+        least.append(float(cost.min()) if cost.size else math.inf)
+    return least
+
+
+# --------------------------------------------------------------------------------------------
+# Dual placements
+# --------------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class _Dual:
+    """One dual network at two positions in one element order."""
+
+    network: NetworkPart
+    positions: tuple[int, int]  # the dual's positions (0-based, ascending)
+    elements: tuple[int, int]  # element index at each of them
+    values: tuple[float, float]  # ohms
+    lo: float  # element factor bounds, the package at 0 (frontier._element_bounds)
+    hi: float
+    ends: tuple[float, float]  # the package's shared factor at its two ends
+    cost: float  # network, placement, line and stock penalty (optimizer.cost)
+
+    @property
+    def free(self) -> tuple[int, int]:
+        """The two discrete positions."""
+        rest = [p for p in range(4) if p not in self.positions]
+        return rest[0], rest[1]
+
+
+def _duals(spec: Spec, catalog: Catalog, env: LinearEnvironment, lim: _Limits) -> list[_Dual]:
+    floors = [stress_floor(spec, lim, p) for p in range(4)]
+    found: list[_Dual] = []
+    for network in _usable_networks(spec, catalog, env, 2):
+        lo, hi = _element_bounds(network, env)
+        ends = _package_extremes(network, spec, env)
+        cost = parts_cost([network], spec.preferences).total
+        # ``_rated`` judges each element at its position alone: once per value and position.
+        rated = {
+            (value, position): _rated(network, (value,), (position,), env, floors, lim)
+            for value in set(network.values_ohm)
+            for position in range(4)
+        }
+        for shape in ALL_SHAPES:
+            seen: set[tuple[float, ...]] = set()
+            for order in ((0, 1), (1, 0)):
+                values = (network.values_ohm[order[0]], network.values_ohm[order[1]])
+                if values in seen or not (
+                    rated[values[0], shape[0]] and rated[values[1], shape[1]]
+                ):
+                    continue
+                seen.add(values)
+                found.append(_Dual(network, shape, order, values, lo, hi, ends, cost))
+    return found
+
+
+# --------------------------------------------------------------------------------------------
+# Candidates of one placement
+# --------------------------------------------------------------------------------------------
+
+
+class _Candidates:
+    """Per discrete position: its usable (class, value) pairs, in a form that finds every pair
+    whose value lies in a per-class range at once (``count``: usable values of each class
+    below each global value index; ``index``: the value indices of each class in order)."""
+
+    def __init__(self, parts: _Parts) -> None:
+        self.parts = parts
+        self.count: list[IntArray] = []
+        self.index: list[IntArray] = []
+        n_classes, n_values = parts.lo.size, parts.values.size
+        for position in range(4):
+            usable = parts.best[position] >= 0
+            count = np.zeros((n_classes, n_values + 1), dtype=np.int64)
+            np.cumsum(usable, axis=1, out=count[:, 1:])
+            index = np.zeros((n_classes, n_values), dtype=np.int64)
+            cls, val = np.nonzero(usable)
+            starts = np.cumsum(count[:, -1]) - count[:, -1]
+            index[cls, np.arange(cls.size) - starts[cls]] = val
+            self.count.append(count)
+            self.index.append(index)
+
+    def within(self, position: int, m_lo: float, m_hi: float) -> tuple[IntArray, IntArray]:
+        """(class, value index) of every usable pair at ``position`` with ``R·lo ≥ m_lo`` and
+        ``R·hi ≤ m_hi`` (relative slack 1e-9)."""
+        parts = self.parts
+        if not m_lo <= m_hi:
+            empty = np.zeros(0, dtype=np.int64)
+            return empty, empty
+        low = m_lo * (1.0 - 1e-9) / parts.lo
+        high = m_hi * (1.0 + 1e-9) / parts.hi
+        first = np.searchsorted(parts.values, low, side="left")
+        last = np.searchsorted(parts.values, high, side="right")
+        classes = np.arange(parts.lo.size)
+        begin = self.count[position][classes, first]
+        n = np.maximum(self.count[position][classes, last] - begin, 0)
+        total = int(n.sum())
+        cls = np.repeat(classes, n)
+        offsets = np.arange(total) - np.repeat(np.cumsum(n) - n, n)
+        return cls, self.index[position][cls, np.repeat(begin, n) + offsets]
+
+
+@dataclass
+class _SortedHalf:
+    """A side's half records sorted by their ``ln`` term's low end at vertex 0 (``key``), with
+    their keys (class, value, class, value) and cost bounds (the cheapest part of each class and
+    value, one line per distinct class and value) in that order."""
+
+    key: Array
+    high: Array  # the ``ln`` term's high end at vertex 0
+    keys: IntArray
+    bound: Array
+
+
+def _sorted_half(half: _Half, parts: _Parts, lim: _Limits) -> _SortedHalf:
+    if half.cost.size == 0:
+        empty = np.zeros(0)
+        return _SortedHalf(empty, empty, np.zeros((0, 4), dtype=np.int64), empty)
+    # A record wider than 2Λ at vertex 0 balances nothing (the two balance conditions add up
+    # to: width of c plus width of a at most 2Λ).
+    fits = half.high[:, 0] - half.low[:, 0] <= 2.0 * lim.balance
+    low0, high0 = half.low[fits, 0], half.high[fits, 0]
+    order = np.argsort(low0, kind="stable")
+    rec = np.flatnonzero(fits)[order]
+    keys = np.column_stack([half.ca[rec], half.ka[rec], half.cb[rec], half.kb[rec]])
+    return _SortedHalf(low0[order], high0[order], keys, half.cost[rec] + _lines(keys, parts))
+
+
+def _lines(keys: IntArray, parts: _Parts) -> Array:
+    """Per key (class, value, class, value): one line charge per distinct class and value."""
+    same = (keys[:, 0] == keys[:, 2]) & (keys[:, 1] == keys[:, 3])
+    lines: Array = parts.line_charge[keys[:, 0], keys[:, 1]] + np.where(
+        same, 0.0, parts.line_charge[keys[:, 2], keys[:, 3]]
+    )
+    return lines
+
+
+def _dual_term(dual: _Dual, side_positions: tuple[int, int], end: float, lim: _Limits) -> tuple[
+    Array, Array
+]:  # fmt: skip
+    """``(ln term_lo, ln term_hi)`` per vertex of the side the dual fills alone (divider
+    placement), its package factor at ``end``."""
+    r_top, r_bottom = (v * end for v in dual.values)
+    if side_positions == (0, 1):
+        w, u = lim.rs1, np.zeros_like(lim.rs1)
+    else:
+        w, u = lim.rs3, lim.rref
+    high = side_term(r_top * dual.lo, r_bottom * dual.hi, w, u)
+    low = side_term(r_top * dual.hi, r_bottom * dual.lo, w, u)
+    return np.log(low), np.log(high)
+
+
+def _divider_candidates(
+    dual: _Dual, halves: dict[int, _SortedHalf], parts: _Parts, lim: _Limits
+) -> tuple[IntArray, Array]:
+    """Keys (class, value, class, value) and cost bounds of the discrete half records of the
+    side the dual leaves free whose term can balance the dual's side at vertex 0 for both
+    package ends (views into the side's sorted records)."""
+    free_side = 2 if dual.positions == (0, 1) else 1
+    sh = halves[free_side]  # built by mixed_frontier for every side a dual leaves free
+    from_key, to_key = -math.inf, math.inf
+    for end in dual.ends:
+        low, high = _dual_term(dual, dual.positions, end, lim)
+        from_key = max(from_key, float(high[0]) - lim.balance)
+        to_key = min(to_key, float(low[0]) + lim.balance)
+    first = int(np.searchsorted(sh.key, from_key - 1e-12, side="left"))
+    last = max(int(np.searchsorted(sh.key, to_key + 1e-12, side="right")), first)
+    fits = sh.high[first:last] <= to_key + 1e-12
+    return sh.keys[first:last][fits], sh.bound[first:last][fits]
+
+
+def _crossed_candidates(dual: _Dual, cands: _Candidates, lim: _Limits) -> IntArray:
+    """Keys of discrete pairs for a dual with one element on each side: per side, the classes
+    and values :func:`value_window` allows next to the dual's element, paired across sides."""
+    parts = cands.parts
+    picks: list[tuple[IntArray, IntArray, Array, Array]] = []
+    for side, (top, bottom) in ((1, (0, 1)), (2, (2, 3))):
+        t_hi, t_lo = _side_window(lim, side)
+        w = lim.rs1 if side == 1 else lim.rs3
+        u = np.zeros_like(lim.rs1) if side == 1 else lim.rref
+        fixed_at = top if top in dual.positions else bottom
+        value = dual.values[dual.positions.index(fixed_at)]
+        fixed_low = value * min(dual.ends) * dual.lo
+        fixed_high = value * max(dual.ends) * dual.hi
+        free = bottom if fixed_at == top else top
+        m_lo, m_hi = value_window(fixed_low, fixed_high, free == bottom, t_hi, t_lo, w, u)
+        cls, val = cands.within(free, m_lo, m_hi)
+        # The side's term at vertex 0 with the package at its first end: a point of the range.
+        fixed = value * dual.ends[0] * np.array([dual.lo, dual.hi])
+        r = parts.values[val]
+        free_lo, free_hi = r * parts.lo[cls], r * parts.hi[cls]
+        if free == bottom:
+            high = side_term(fixed[0], free_hi, w[0], u[0])
+            low = side_term(fixed[1], free_lo, w[0], u[0])
+        else:
+            high = side_term(free_lo, fixed[1], w[0], u[0])
+            low = side_term(free_hi, fixed[0], w[0], u[0])
+        picks.append((cls, val, np.log(low), np.log(high)))
+    (c1, k1, lo1, hi1), (c2, k2, lo2, hi2) = picks
+    if c1.size == 0 or c2.size == 0:
+        return np.zeros((0, 4), dtype=np.int64)
+    # Balance at that point: ln c_hi − ln a_lo ≤ Λ and ln a_hi − ln c_lo ≤ Λ.
+    lam = lim.balance * (1.0 + 1e-9) + 1e-12
+    i1, i2 = np.nonzero((hi1[:, None] - lo2[None, :] <= lam) & (hi2[None, :] - lo1[:, None] <= lam))
+    return np.column_stack([c1[i1], k1[i1], c2[i2], k2[i2]])
+
+
+def _screen(dual: _Dual, keys: IntArray, parts: _Parts, lim: _Limits) -> NDArray[np.bool_]:
+    """The mask of the keys (class, value at the first free position, then the second) that
+    pass :func:`frontier.corner_screen` with the dual's package at either end."""
+    i, j = dual.free
+    p, q = dual.positions
+    ok = np.zeros(keys.shape[0], dtype=bool)
+    for start in range(0, keys.shape[0], _JOIN_CHUNK):
+        part = keys[start : start + _JOIN_CHUNK]
+        n = part.shape[0]
+        nominal = np.empty((n, 4))
+        low = np.empty((n, 4))
+        high = np.empty((n, 4))
+        for position, cls, val in ((i, part[:, 0], part[:, 1]), (j, part[:, 2], part[:, 3])):
+            nominal[:, position] = parts.values[val]
+            low[:, position] = parts.lo[cls]
+            high[:, position] = parts.hi[cls]
+        low[:, [p, q]] = dual.lo
+        high[:, [p, q]] = dual.hi
+        alive = np.arange(n)
+        for end in dual.ends:
+            scaled = nominal[alive]
+            scaled[:, p] = dual.values[0] * end
+            scaled[:, q] = dual.values[1] * end
+            alive = alive[corner_screen(scaled, low[alive], high[alive], lim)]
+            if alive.size == 0:
+                break
+        ok[start + alive] = True
+    return ok
+
+
+def _candidates(
+    dual: _Dual,
+    parts: _Parts,
+    lim: _Limits,
+    cands: _Candidates,
+    halves: dict[int, _SortedHalf],
+) -> tuple[IntArray, Array]:
+    """The candidate keys of one placement (not yet screened, in no particular order) with the
+    cost bound of each less the network's cost: the cheapest part of each class and value, one
+    line per distinct class and value (``_Parts.line_charge``)."""
+    if dual.positions in ((0, 1), (2, 3)):
+        return _divider_candidates(dual, halves, parts, lim)
+    keys = _crossed_candidates(dual, cands, lim)
+    i, j = dual.free
+    bound = (
+        parts.best_cost[i][keys[:, 0], keys[:, 1]]
+        + parts.best_cost[j][keys[:, 2], keys[:, 3]]
+        + _lines(keys, parts)
+    )
+    return keys, bound
+
+
+#: Candidates screened at once, at most (chunks double from 64 up to this).
+_SCREEN_CHUNK = 8192
+
+
+class _Block:
+    """The candidates of one placement, put in bound order and screened (:func:`_screen`) a
+    chunk at a time as the merge reaches them (chunks double from 64 up to
+    :data:`_SCREEN_CHUNK`; each chunk holds the smallest bounds left, ties by key): most
+    placements are left after their first few entries. ``bound(at)`` includes the network."""
+
+    def __init__(
+        self, dual: _Dual, keys: IntArray, lbs: Array, parts: _Parts, lim: _Limits
+    ) -> None:
+        self.dual, self.keys, self.lbs, self.parts, self.lim = dual, keys, lbs, parts, lim
+        self.rest = np.arange(keys.shape[0])  # entries not yet ordered
+        self.order = np.zeros(0, dtype=np.int64)  # ordered entries (a prefix)
+        self.ok = np.zeros(0, dtype=bool)
+
+    def least(self) -> float:
+        """A lower bound of every entry's cost (inf when there is none)."""
+        return self.dual.cost + float(self.lbs.min()) if self.lbs.size else math.inf
+
+    def bound(self, at: int) -> float:
+        return self.dual.cost + float(self.lbs[self.order[at]])
+
+    def key(self, at: int) -> list[int]:
+        return [int(v) for v in self.keys[self.order[at]]]
+
+    def _extend(self) -> None:
+        step = min(_SCREEN_CHUNK, max(64, self.order.size))
+        rest = self.rest
+        if rest.size > step:
+            split = np.argpartition(self.lbs[rest], step)
+            take, self.rest = rest[split[:step]], rest[split[step:]]
+        else:
+            take, self.rest = rest, rest[:0]
+        k = self.keys[take]
+        take = take[np.lexsort((k[:, 3], k[:, 2], k[:, 1], k[:, 0], self.lbs[take]))]
+        ok = _screen(self.dual, self.keys[take], self.parts, self.lim)
+        self.order = np.concatenate([self.order, take])
+        self.ok = np.concatenate([self.ok, ok])
+
+    def usable(self, at: int) -> int | None:
+        """The first entry from ``at`` on that passes the screen, or None."""
+        while True:
+            while at >= self.order.size:
+                if self.rest.size == 0:
+                    return None
+                self._extend()
+            ahead = np.flatnonzero(self.ok[at:])
+            if ahead.size:
+                return at + int(ahead[0])
+            at = self.order.size
+
+
+# --------------------------------------------------------------------------------------------
+# The search
+# --------------------------------------------------------------------------------------------
+
+
+def mixed_frontier(
+    spec: Spec,
+    catalog: Catalog,
+    env: LinearEnvironment,
+    should_stop: Callable[[], bool] = lambda: False,
+    shared: Shared | None = None,
+) -> Iterator[Design]:
+    """One-dual-two-discrete designs that meet the spec's worst-case CMRR and gain accuracy at
+    the screen's points (module docstring), in nondecreasing exact cost (``optimizer.cost``);
+    the other checks are left to the caller's exact check. Exhaustive: when it ends, no further
+    design passes the screen, unless ``should_stop`` (asked between steps) ended it early.
+    ``shared``: the parts and half records built by another enumeration of the same spec."""
+    lim = _limits(spec, env)
+    if lim.balance < 0.0:
+        return
+    shared = shared if shared is not None else Shared()
+    parts = shared.parts(catalog, spec, env, lim)
+    if parts is None:
+        return
+    duals = _duals(spec, catalog, env, lim)
+    least = _least_costs(parts, lim)
+    one_line = float(np.min(parts.line_charge))
+    halves: dict[int, _SortedHalf] = {}
+    for side, positions in ((2, (0, 1)), (1, (2, 3))):
+        if any(d.positions == positions for d in duals):
+            halves[side] = _sorted_half(shared.half(parts, lim, side), parts, lim)
+    side_least = {side: float(h.bound.min()) if h.bound.size else math.inf
+                  for side, h in halves.items()}  # fmt: skip
+
+    def coarse(d: _Dual) -> float:
+        if d.positions == (0, 1):
+            return d.cost + side_least[2]
+        if d.positions == (2, 3):
+            return d.cost + side_least[1]
+        return d.cost + least[d.free[0]] + least[d.free[1]] + one_line
+
+    bounds = np.array([coarse(d) for d in duals])
+    usable = np.isfinite(bounds)
+    if not usable.any():
+        return
+    keep = np.flatnonzero(usable)
+    by_bound = keep[np.argsort(bounds[keep], kind="stable")]
+    yield from _emit(spec, catalog, parts, lim, [duals[k] for k in by_bound],
+                     bounds[by_bound], halves, should_stop)  # fmt: skip
+
+
+def _emit(
+    spec: Spec,
+    catalog: Catalog,
+    parts: _Parts,
+    lim: _Limits,
+    duals: list[_Dual],
+    bounds: Array,
+    halves: dict[int, _SortedHalf],
+    should_stop: Callable[[], bool],
+) -> Iterator[Design]:
+    """Merge the placements (taken in order of their bound) into one stream of designs in exact
+    cost order (the scheme of ``frontier._emit``: bound entries, replaced by exact costs, with
+    the other parts of the same class and value as successors)."""
+    cands = _Candidates(parts)
+    part_cache: dict[int, DiscretePart] = {}
+    heap: list[tuple[float, int, int, object]] = []
+    tick = itertools.count()
+    seen: set[tuple[object, ...]] = set()
+    blocks: list[_Block] = []
+    next_dual = 0
+    while not should_stop():
+        top = heap[0][0] if heap else math.inf
+        top_exact = bool(heap) and heap[0][1] == _EXACT
+        if next_dual < len(duals) and (
+            bounds[next_dual] < top or (bounds[next_dual] == top and not top_exact)
+        ):
+            keys, lbs = _candidates(duals[next_dual], parts, lim, cands, halves)
+            block = _Block(duals[next_dual], keys, lbs, parts, lim)
+            blocks.append(block)
+            if keys.shape[0]:  # ordered and screened when the merge reaches it
+                heapq.heappush(heap, (block.least(), _BLOCK, next(tick), (next_dual, -1)))
+            next_dual += 1
+            continue
+        if not heap:
+            return
+        key, kind, _, payload = heapq.heappop(heap)
+        if kind == _BLOCK:
+            d, at = cast(tuple[int, int], payload)
+            block = blocks[d]
+            if at < 0:  # a fresh block: its first usable entry, at its own bound
+                first = block.usable(0)
+                if first is not None:
+                    heapq.heappush(heap, (block.bound(first), _BLOCK, next(tick), (d, first)))
+                continue
+            after = block.usable(at + 1)
+            if after is not None:
+                heapq.heappush(heap, (block.bound(after), _BLOCK, next(tick), (d, after)))
+            k = block.key(at)
+            electrical = ((k[0], k[1]), (k[2], k[3]))
+            heapq.heappush(heap, (key, _BOUND, next(tick), (d, electrical, (0, 0))))
+            continue
+        d, electrical, choice = cast(
+            tuple[int, tuple[tuple[int, int], tuple[int, int]], tuple[int, int]], payload
+        )
+        dual = duals[d]
+        lists = [parts.variants(dual.free[n], electrical[n]) for n in range(2)]
+        rows = (lists[0][choice[0]][1], lists[1][choice[1]][1])
+        if kind == _EXACT:
+            yield _design(dual, rows, catalog, part_cache)
+            continue
+        picked = [_cached_part(catalog, row, part_cache) for row in rows]
+        cost = parts_cost([dual.network, *picked], spec.preferences).total
+        heapq.heappush(heap, (_exact_key(cost, key), _EXACT, next(tick), (d, electrical, choice)))
+        lines = parts.lines_charge(electrical)
+        for n in range(2):
+            if choice[n] + 1 < len(lists[n]):
+                nxt = (choice[0] + (n == 0), choice[1] + (n == 1))
+                if (d, electrical, nxt) in seen:
+                    continue
+                seen.add((d, electrical, nxt))
+                bound_next = dual.cost + lists[0][nxt[0]][0] + lists[1][nxt[1]][0] + lines
+                heapq.heappush(heap, (bound_next, _BOUND, next(tick), (d, electrical, nxt)))
+
+
+def _design(
+    dual: _Dual, rows: tuple[int, int], catalog: Catalog, cache: dict[int, DiscretePart]
+) -> Design:
+    placed: dict[int, Placement] = {}
+    for position, element in zip(dual.positions, dual.elements, strict=True):
+        placed[position] = Placement(f"R{position + 1}", dual.network, element, 0)
+    for position, row in zip(dual.free, rows, strict=True):
+        placed[position] = Placement(f"R{position + 1}", _cached_part(catalog, row, cache))
+    return Design((placed[0], placed[1], placed[2], placed[3]))
