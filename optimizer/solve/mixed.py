@@ -412,15 +412,12 @@ def _candidates(
     return keys, bound
 
 
-#: Candidates screened at once, at most (chunks double from 64 up to this).
-_SCREEN_CHUNK = 8192
-
-
 class _Block:
     """The candidates of one placement, put in bound order and screened (:func:`_screen`) a
-    chunk at a time as the merge reaches them (chunks double from 64 up to
-    :data:`_SCREEN_CHUNK`; each chunk holds the smallest bounds left, ties by key): most
-    placements are left after their first few entries. ``bound(at)`` includes the network."""
+    chunk at a time as the merge reaches them (each chunk holds the smallest bounds left, ties
+    by key; chunks double from 64, so a block of N candidates is partitioned about log2(N/64)
+    times at most): most placements are left after their first few entries. ``bound(at)``
+    includes the network."""
 
     def __init__(
         self, dual: _Dual, keys: IntArray, lbs: Array, parts: _Parts, lim: _Limits
@@ -441,7 +438,7 @@ class _Block:
         return [int(v) for v in self.keys[self.order[at]]]
 
     def _extend(self) -> None:
-        step = min(_SCREEN_CHUNK, max(64, self.order.size))
+        step = max(64, self.order.size)
         rest = self.rest
         if rest.size > step:
             split = np.argpartition(self.lbs[rest], step)
