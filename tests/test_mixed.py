@@ -18,7 +18,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from optimizer.solve.frontier import _Limits
-from optimizer.solve.mixed import least_sensitivity, side_term, value_window
+from optimizer.solve.mixed import c_gain_room, least_sensitivity, side_term, value_window
 
 ohms = st.floats(min_value=10.0, max_value=1e6)
 small = st.floats(min_value=0.0, max_value=500.0)
@@ -97,3 +97,45 @@ def test_least_sensitivity_is_below_the_true_slope(
         side_term(np.array([top]), np.array([bottom]), np.array([a_w]), np.array([side_u]))[0]
         == term
     )
+
+
+@settings(max_examples=400, deadline=None)
+@given(
+    st.floats(0.01, 0.99),
+    st.floats(0.0, 0.02),
+    st.floats(0.01, 0.99),
+    st.floats(0.0, 0.02),
+    st.floats(0.1, 200.0),
+    st.floats(0.0, 0.05),
+    st.sampled_from([0.0, 1e-5, -1e-5]),
+    st.sampled_from([0.0, 1e-6]),
+)
+def test_c_gain_room_holds_every_gain_that_meets_the_limits(
+    a: float, a_spread: float, c: float, c_spread: float, gain: float, accuracy: float,
+    e: float, inv_a: float,
+) -> None:  # fmt: skip
+    """Terms whose differential gain, written out from the bridge (``Adm = (a(1+ε) + c(1−ε)) /
+    (2(1/A + (1−c)(1−ε)))``, the superposition of the two inputs through an amplifier of
+    finite gain A and common-mode error ε), meets both gain limits have ``ln c_lo`` inside
+    :func:`c_gain_room`."""
+    a_lo, a_hi = a * (1 - a_spread), min(a * (1 + a_spread), 0.999)
+    c_lo, c_hi = c * (1 - c_spread), min(c * (1 + c_spread), 0.999)
+
+    def adm(a_: float, c_: float, eps: float, inv: float) -> float:
+        return (a_ * (1 + eps) + c_ * (1 - eps)) / (2 * (inv + (1 - c_) * (1 - eps)))
+
+    eps = (e, -e) if e else (0.0,)
+    g_top = max(adm(a_hi, c_hi, x, 0.0) for x in eps)
+    g_bottom = min(adm(a_lo, c_lo, x, inv_a) for x in eps)
+    if g_bottom > g_top:
+        return
+    g_min = min(gain * (1 - accuracy), g_bottom)
+    g_max = max(gain * (1 + accuracy), g_top)
+    zero = np.zeros(1)
+    lim = _Limits(
+        balance=0.01, gain_max=g_max, gain_min=g_min, eps=eps, inv_a=inv_a,
+        rs1=zero, rs3=zero, rref=zero, min_impedance=0.0,
+    )  # fmt: skip
+    low, high = c_gain_room(a_lo, a_hi, lim)
+    assert low <= math.log(c_lo) + 1e-9
+    assert math.log(c_lo) <= high + 1e-9

@@ -641,7 +641,7 @@ def _gain_room(c_lo: Array, c_hi: Array, lim: _Limits) -> tuple[Array, Array]:
         high_a = 2.0 * lim.gain_max * (1.0 - c_hi) * (1.0 - e) - c_hi * (1.0 - e)
         least = np.maximum(least, low_a.max(axis=1) / (1.0 + e))
         most = np.minimum(most, high_a.min(axis=1) / (1.0 + e))
-    with np.errstate(divide="ignore"):
+    with np.errstate(divide="ignore", invalid="ignore"):
         a_least = np.where(least > 0.0, np.log(least * (1.0 - 1e-12)), -np.inf)
         a_most = np.where(most > 0.0, np.log(most * (1.0 + 1e-12)), -np.inf)
     return a_least, a_most

@@ -60,9 +60,11 @@ from .frontier import (
     _EXACT,
     _JOIN_CHUNK,
     Shared,
+    _adm,
     _cached_part,
     _element_bounds,
     _exact_key,
+    _gain_room,
     _Half,
     _Limits,
     _limits,
@@ -76,7 +78,7 @@ from .frontier import (
 )
 from .options import ALL_SHAPES
 
-__all__ = ["mixed_frontier", "side_term", "value_window"]
+__all__ = ["c_gain_room", "least_sensitivity", "mixed_frontier", "side_term", "value_window"]
 
 Array = NDArray[np.float64]
 IntArray = NDArray[np.int64]
@@ -156,6 +158,26 @@ def _least_costs(parts: _Parts, lim: _Limits) -> list[float]:
         cost = np.where(narrow, parts.best_cost[position], np.inf)
         least.append(float(cost.min()) if cost.size else math.inf)
     return least
+
+
+def c_gain_room(a_lo: float, a_hi: float, lim: _Limits) -> tuple[float, float]:
+    """``(ln c_min, ln c_max)``: the gain conditions hold only if the partner's ``ln c_lo`` lies
+    in between, for a side-2 term in ``[a_lo, a_hi]`` (dimensionless). ``Adm = (a(1+ε) +
+    c(1−ε))/(2(1/A + (1−c)(1−ε)))`` (``analysis.worstcase.differential_gain_from_terms``)
+    rises with ``c``; solved for ``c``: ``Adm(a_lo, c_lo, ε, 1/A) ≥ G_min`` gives ``c_lo ≥
+    (2·G_min(1/A + 1 − ε) − a_lo(1 + ε))/((1 − ε)(1 + 2·G_min))`` and ``Adm(a_hi, c_hi, ε, 0)
+    ≤ G_max`` gives ``c_lo ≤ c_hi ≤ (2·G_max(1 − ε) − a_hi(1 + ε))/((1 − ε)(1 + 2·G_max))``,
+    for every sign of ``ε``; widened by 1e-12 against rounding (the mirror of
+    ``frontier._gain_room``)."""
+    least, most = 0.0, math.inf
+    for e in lim.eps:
+        low_c = 2.0 * lim.gain_min * (lim.inv_a + 1.0 - e) - a_lo * (1.0 + e)
+        high_c = 2.0 * lim.gain_max * (1.0 - e) - a_hi * (1.0 + e)
+        least = max(least, low_c / ((1.0 - e) * (1.0 + 2.0 * lim.gain_min)))
+        most = min(most, high_c / ((1.0 - e) * (1.0 + 2.0 * lim.gain_max)))
+    c_least = math.log(least * (1.0 - 1e-12)) if least > 0.0 else -math.inf
+    c_most = math.log(most * (1.0 + 1e-12)) if most > 0.0 else -math.inf
+    return c_least, c_most
 
 
 # --------------------------------------------------------------------------------------------
@@ -318,6 +340,13 @@ def _divider_candidates(
         low, high = _dual_term(dual, dual.positions, end, lim)
         from_key = max(from_key, float(high[0]) - lim.balance)
         to_key = min(to_key, float(low[0]) + lim.balance)
+        # The gain conditions at vertex 0 bound the partner's low end too.
+        if free_side == 2:
+            g_lo, g_hi = _gain_room(np.exp(low[None, :1]), np.exp(high[None, :1]), lim)
+            room = (float(g_lo[0]), float(g_hi[0]))
+        else:
+            room = c_gain_room(math.exp(float(low[0])), math.exp(float(high[0])), lim)
+        from_key, to_key = max(from_key, room[0]), min(to_key, room[1])
     first = int(np.searchsorted(sh.key, from_key - 1e-12, side="left"))
     last = max(int(np.searchsorted(sh.key, to_key + 1e-12, side="right")), first)
     fits = sh.high[first:last] <= to_key + 1e-12
@@ -357,6 +386,13 @@ def _crossed_candidates(dual: _Dual, cands: _Candidates, lim: _Limits) -> IntArr
     # Balance at that point: ln c_hi − ln a_lo ≤ Λ and ln a_hi − ln c_lo ≤ Λ.
     lam = lim.balance * (1.0 + 1e-9) + 1e-12
     i1, i2 = np.nonzero((hi1[:, None] - lo2[None, :] <= lam) & (hi2[None, :] - lo1[:, None] <= lam))
+    # The gain conditions at the same point (widened by 1e-12 against the logs' rounding).
+    c_hi, c_lo, a_hi, a_lo = np.exp(hi1[i1]), np.exp(lo1[i1]), np.exp(hi2[i2]), np.exp(lo2[i2])
+    ok = np.ones(i1.size, dtype=bool)
+    for e in lim.eps:
+        ok &= _adm(a_hi, c_hi, e, 0.0) <= lim.gain_max * (1.0 + 1e-12)
+        ok &= _adm(a_lo, c_lo, e, lim.inv_a) >= lim.gain_min * (1.0 - 1e-12)
+    i1, i2 = i1[ok], i2[ok]
     return np.column_stack([c1[i1], k1[i1], c2[i2], k2[i2]])
 
 
