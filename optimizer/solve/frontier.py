@@ -791,13 +791,14 @@ def discrete_frontier(
     )
     bound = cost1[g1] + cost2[g2] + distinct
     pair_order = np.argsort(bound, kind="stable")
-    yield from _emit(spec, catalog, parts, lim, one, two, order1, span1, order2, span2,
+    yield from _emit(spec, catalog, env, parts, lim, one, two, order1, span1, order2, span2,
                      g1[pair_order], g2[pair_order], bound[pair_order], should_stop)  # fmt: skip
 
 
 def _emit(
     spec: Spec,
     catalog: Catalog,
+    env: LinearEnvironment,
     parts: _Parts,
     lim: _Limits,
     one: _Half,
@@ -837,6 +838,25 @@ def _emit(
             if pk * (1.0 - 1e-9) > p.max_voltage_v:
                 return False
         return True
+
+    def lot_screen(rows: tuple[int, ...]) -> bool:
+        """With same-lot tracking: the corner screen of the design's own parts, each part whose
+        id is placed once with its own tempco (independent, as without tracking), the others
+        at a shared tempco of zero (a point of their shared range): necessary for the exact
+        check, and much tighter than the class screen, which zeroes every tempco."""
+        picked = [_cached_part(catalog, row, part_cache) for row in rows]
+        ids = [p.part_id for p in picked]
+        tc = np.array([p.tempco_per_k if ids.count(p.part_id) == 1 else 0.0 for p in picked])
+        t = np.array([p.tolerance for p in picked])
+        d_lo, d_hi = drift_factor_bounds(
+            life_drift(np.array([p.drift_1000h for p in picked]), env.life_h),
+            spec.requirements.drift_model,
+        )
+        swing = tc * env.delta_t_k
+        low = ((1.0 - t) * (1.0 - swing) * d_lo)[None, :]
+        high = ((1.0 + t) * (1.0 + swing) * d_hi)[None, :]
+        nominal = np.array([[p.resistance_ohm for p in picked]])
+        return bool(corner_screen(nominal, low, high, lim)[0])
 
     sorted_cache: dict[tuple[int, int], tuple[IntArray, Array]] = {}
     # Per (class, value) quadruple: its stress at the screen's corners (``_rated_combinations``).
@@ -893,7 +913,8 @@ def _emit(
         # below this entry's bound, so taking successors now keeps the order exact (a
         # successor can cost less than this design itself, when it shares a line).
         known = stress_of.get(electrical)
-        if rated(rows) if known is None else parts.bears(rows, *known):
+        lots_ok = parts.exact_spread or lot_screen(rows)
+        if lots_ok and (rated(rows) if known is None else parts.bears(rows, *known)):
             heapq.heappush(
                 heap, (_exact_key(cost_of(rows), key), _EXACT, next(tick), (electrical, choice))
             )
@@ -932,6 +953,8 @@ class _Block:
     def usable(self, at: int) -> int | None:
         """The first entry from ``at`` on that passes the screen, or None."""
         n = self.keys.shape[0]
+        if not self.screened:  # (every entry passes)
+            return at if at < n else None
         while at < n:
             while self.screened and at >= self.done:
                 # Chunks double from 64 up to _STRESS_CHUNK: most blocks need only a few.
