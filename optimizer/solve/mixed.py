@@ -511,12 +511,15 @@ def mixed_frontier(
     env: LinearEnvironment,
     should_stop: Callable[[], bool] = lambda: False,
     shared: Shared | None = None,
+    ceiling: Callable[[], float] = lambda: math.inf,
 ) -> Iterator[Design]:
     """One-dual-two-discrete designs that meet the spec's worst-case CMRR and gain accuracy at
     the screen's points (module docstring), in nondecreasing exact cost (``optimizer.cost``);
     the other checks are left to the caller's exact check. Exhaustive: when it ends, no further
     design passes the screen, unless ``should_stop`` (asked between steps) ended it early.
-    ``shared``: the parts and half records built by another enumeration of the same spec."""
+    ``shared``: the parts and half records built by another enumeration of the same spec.
+    ``ceiling`` (asked between steps): designs dearer than it are not wanted, so the stream
+    ends once every design left costs more."""
     lim = _limits(spec, env)
     if lim.balance < 0.0:
         return
@@ -548,7 +551,7 @@ def mixed_frontier(
     keep = np.flatnonzero(usable)
     by_bound = keep[np.argsort(bounds[keep], kind="stable")]
     yield from _emit(spec, catalog, parts, lim, [duals[k] for k in by_bound],
-                     bounds[by_bound], halves, should_stop)  # fmt: skip
+                     bounds[by_bound], halves, should_stop, ceiling)  # fmt: skip
 
 
 def _emit(
@@ -560,6 +563,7 @@ def _emit(
     bounds: Array,
     halves: dict[int, _SortedHalf],
     should_stop: Callable[[], bool],
+    ceiling: Callable[[], float],
 ) -> Iterator[Design]:
     """Merge the placements (taken in order of their bound) into one stream of designs in exact
     cost order (the scheme of ``frontier._emit``: bound entries, replaced by exact costs, with
@@ -574,6 +578,8 @@ def _emit(
     while not should_stop():
         top = heap[0][0] if heap else math.inf
         top_exact = bool(heap) and heap[0][1] == _EXACT
+        if min(top, bounds[next_dual] if next_dual < len(duals) else math.inf) > ceiling():
+            return  # every design left is dearer than the caller wants
         if next_dual < len(duals) and (
             bounds[next_dual] < top or (bounds[next_dual] == top and not top_exact)
         ):

@@ -373,10 +373,13 @@ class _FrontierStream(_Progress):
         self.pair_shape: int | None = None
         spec, catalog, env = problem.spec, problem.catalog, problem.env
         self._out_of_time = False
+        self.cost_ceiling = math.inf  # set by the merge (one dual and two discrete parts only)
         if topology is Topology.DISCRETE:
             self._source = discrete_frontier(spec, catalog, env, self._stop, problem.shared)
         elif topology is Topology.PAIR_PLUS_DISCRETE:
-            self._source = mixed_frontier(spec, catalog, env, self._stop, problem.shared)
+            self._source = mixed_frontier(
+                spec, catalog, env, self._stop, problem.shared, lambda: self.cost_ceiling
+            )
         else:
             self._source = network_frontier(spec, catalog, env, topology)
         self._clock: _Clock | None = None
@@ -595,17 +598,28 @@ def _bound_cp_sat_streams(
     distinct: bool = False,
 ) -> None:
     """Take the wanted number of designs from the exact enumerations first (kept in ``replay``
-    for the merge); the cost of the last of them bounds every CP-SAT stream's objective from
-    above: a design dearer than it cannot enter the ranking, so the bound removes nothing the
-    ranking needs and gives CP-SAT a tight bound from its first solve. Only where the model's
-    objective is the exact cost (lowest cost; no per-line stock penalty, which the model
-    charges per placement)."""
+    for the merge); the cost of the last of them bounds the CP-SAT streams' objective and the
+    one-dual-two-discrete enumeration from above: a design dearer than it cannot enter the
+    ranking, so the bound removes nothing the ranking needs, gives CP-SAT a tight bound from
+    its first solve and spares the enumeration the placements above it. CP-SAT streams are
+    bounded only where the model's objective is the exact cost (lowest cost; no per-line stock
+    penalty, which the model charges per placement)."""
     prefs = spec.preferences
-    cp_sat = [s for s in streams if isinstance(s, _Stream)]
-    fronts = [i for i, s in enumerate(streams) if isinstance(s, _FrontierStream)]
-    if not cp_sat or not fronts or prefs.objective is not Objective.COST:
+    if prefs.objective is not Objective.COST:
         return
-    if prefs.stock is StockPolicy.PREFER and prefs.stock_penalty > 0.0:
+    exact_cost = not (prefs.stock is StockPolicy.PREFER and prefs.stock_penalty > 0.0)
+    bounded = [
+        s
+        for s in streams
+        if (isinstance(s, _Stream) and exact_cost)
+        or (isinstance(s, _FrontierStream) and Topology.PAIR_PLUS_DISCRETE in s.topologies)
+    ]
+    fronts = [
+        i
+        for i, s in enumerate(streams)
+        if isinstance(s, _FrontierStream) and Topology.PAIR_PLUS_DISCRETE not in s.topologies
+    ]
+    if not bounded or not fronts:
         return
     heads = {i: streams[i].next(verifier, clock, workers) for i in fronts}
     taken = 0
@@ -628,7 +642,7 @@ def _bound_cp_sat_streams(
             replay[i].append(head)
     if taken < wanted:
         return
-    for stream in cp_sat:
+    for stream in bounded:
         stream.cost_ceiling = last
 
 
