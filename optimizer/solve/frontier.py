@@ -724,11 +724,13 @@ def _join(
 class Shared:
     """What the enumerations of one pick build alike (the usable discrete parts, the raw half
     records of each side), built on first use and kept for the others: the four-discrete
-    search and the one-dual-two-discrete search (``optimizer.solve.mixed``) of one spec."""
+    search and the one-dual-two-discrete search (``optimizer.solve.mixed``) of one spec. The
+    half records are kept only with ``keep_halves`` (they are large on loose specs)."""
 
-    def __init__(self) -> None:
+    def __init__(self, keep_halves: bool = True) -> None:
         self._parts: list[_Parts | None] = []
         self._halves: dict[int, _Half] = {}
+        self._keep = keep_halves  # False: no other search reads them (their memory is freed)
 
     def parts(
         self, catalog: Catalog, spec: Spec, env: LinearEnvironment, lim: _Limits
@@ -738,9 +740,12 @@ class Shared:
         return self._parts[0]
 
     def half(self, parts: _Parts, lim: _Limits, side: int) -> _Half:
-        if side not in self._halves:
-            self._halves[side] = _half_records(parts, lim, side)
-        return self._halves[side]
+        if side in self._halves:
+            return self._halves[side]
+        half = _half_records(parts, lim, side)
+        if self._keep:
+            self._halves[side] = half
+        return half
 
 
 def discrete_frontier(

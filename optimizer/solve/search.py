@@ -189,6 +189,8 @@ class Problem:
     limits: Limits
     _parts: list[_ModelParts] = field(default_factory=list, compare=False, repr=False)
     shared: Shared = field(default_factory=Shared, compare=False, repr=False)
+    """The exact enumerations' shared parts (:func:`prepare` keeps the half records only when
+    the one-dual-two-discrete search will read them)."""
 
     def _model_parts(self) -> _ModelParts:
         if not self._parts:
@@ -437,7 +439,10 @@ def prepare(spec: Spec, catalog: Catalog) -> Problem:
     """The environment and limits of the linear model; its options, discrete block and value
     constants follow on first use (:class:`Problem`)."""
     env = linear_environment(spec)
-    return Problem(spec, catalog, env, limits_for(spec, env))
+    keep = Topology.PAIR_PLUS_DISCRETE in spec.preferences.topologies and any(
+        network.elements == 2 for network in catalog.networks
+    )
+    return Problem(spec, catalog, env, limits_for(spec, env), shared=Shared(keep_halves=keep))
 
 
 def pick(
