@@ -82,6 +82,7 @@ __all__ = [
     "corner_screen",
     "discrete_frontier",
     "gain_threshold",
+    "limits_and_parts",
     "log_balance_limit",
     "network_frontier",
 ]
@@ -748,6 +749,20 @@ class Shared:
         return half
 
 
+def limits_and_parts(
+    spec: Spec, catalog: Catalog, env: LinearEnvironment, shared: Shared | None
+) -> tuple[_Limits, _Parts, Shared] | None:
+    """The screen's limits and the usable discrete parts (from ``shared`` when another search of
+    the same spec built them), or None when no balance meets the floor or no part is usable:
+    the start of every enumeration with discrete parts."""
+    lim = _limits(spec, env)
+    if lim.balance < 0.0:
+        return None
+    shared = shared if shared is not None else Shared()
+    parts = shared.parts(catalog, spec, env, lim)
+    return None if parts is None else (lim, parts, shared)
+
+
 def discrete_frontier(
     spec: Spec,
     catalog: Catalog,
@@ -760,13 +775,10 @@ def discrete_frontier(
     exact check. Exhaustive: when it ends, no further design passes those two — unless
     ``should_stop`` (asked between steps: a clock, an interrupt) ended it early. ``shared``:
     the parts and half records built by another enumeration of the same spec."""
-    lim = _limits(spec, env)
-    if lim.balance < 0.0:
+    start = limits_and_parts(spec, catalog, env, shared)
+    if start is None:
         return
-    shared = shared if shared is not None else Shared()
-    parts = shared.parts(catalog, spec, env, lim)
-    if parts is None:
-        return
+    lim, parts, shared = start
     one, two = _prune(shared.half(parts, lim, 1), shared.half(parts, lim, 2), lim)
     if not (one.cost.size and two.cost.size):
         return

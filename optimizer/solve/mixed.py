@@ -67,13 +67,13 @@ from .frontier import (
     _gain_room,
     _Half,
     _Limits,
-    _limits,
     _package_extremes,
     _Parts,
     _rated,
     _side_window,
     _usable_networks,
     corner_screen,
+    limits_and_parts,
     stress_floor,
 )
 from .options import ALL_SHAPES
@@ -520,13 +520,10 @@ def mixed_frontier(
     ``shared``: the parts and half records built by another enumeration of the same spec.
     ``ceiling`` (asked between steps): designs dearer than it are not wanted, so the stream
     ends once every design left costs more."""
-    lim = _limits(spec, env)
-    if lim.balance < 0.0:
+    start = limits_and_parts(spec, catalog, env, shared)
+    if start is None:
         return
-    shared = shared if shared is not None else Shared()
-    parts = shared.parts(catalog, spec, env, lim)
-    if parts is None:
-        return
+    lim, parts, shared = start
     duals = _duals(spec, catalog, env, lim)
     least = _least_costs(parts, lim)
     one_line = float(np.min(parts.line_charge))
