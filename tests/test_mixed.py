@@ -17,8 +17,8 @@ import numpy as np
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from optimizer.solve.frontier import _Limits
-from optimizer.solve.mixed import c_gain_room, least_sensitivity, side_term, value_window
+from optimizer.solve.frontier import _Limits, value_window
+from optimizer.solve.mixed import c_gain_room, least_sensitivity, side_term
 
 ohms = st.floats(min_value=10.0, max_value=1e6)
 small = st.floats(min_value=0.0, max_value=500.0)
@@ -47,8 +47,8 @@ def test_value_window_keeps_every_design_inside_the_window(
     t_hi, t_lo = min(t_high * (1 + margin), 0.999999), t_low * (1 - margin)
     assert t_low <= t_high <= t_hi
     m_lo, m_hi = value_window(f_lo, f_hi, free_is_bottom, t_hi, t_lo, np.array([w]), np.array([u]))
-    assert r_lo >= m_lo * (1 - 1e-9)
-    assert r_hi <= m_hi * (1 + 1e-9)
+    assert r_lo >= float(m_lo) * (1 - 1e-9)
+    assert r_hi <= float(m_hi) * (1 + 1e-9)
 
 
 def test_value_window_excludes_a_value_outside() -> None:

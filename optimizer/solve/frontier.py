@@ -85,6 +85,8 @@ __all__ = [
     "limits_and_parts",
     "log_balance_limit",
     "network_frontier",
+    "value_lists",
+    "value_window",
 ]
 
 Array = NDArray[np.float64]
@@ -436,6 +438,63 @@ def _side_window(lim: _Limits, side: int) -> tuple[float, float]:
     return upper, lower
 
 
+def value_lists(usable: NDArray[np.bool_]) -> tuple[IntArray, IntArray]:
+    """Per class (rows of ``usable``, (E, K): which values a position can take in each class):
+    ``count[c, j]``, how many of its usable values lie below global value index ``j`` (E, K+1),
+    and ``index[c, i]``, the global index of its ``i``-th usable value (E, K). A search in a
+    class's own value list is then a search in the global list read through ``count``."""
+    n_classes, n_values = usable.shape
+    count = np.zeros((n_classes, n_values + 1), dtype=np.int64)
+    np.cumsum(usable, axis=1, out=count[:, 1:])
+    index = np.zeros((n_classes, n_values), dtype=np.int64)
+    cls, val = np.nonzero(usable)
+    starts = np.cumsum(count[:, -1]) - count[:, -1]
+    index[cls, np.arange(cls.size) - starts[cls]] = val
+    return count, index
+
+
+def value_window(
+    fixed_low: Array | float,
+    fixed_high: Array | float,
+    free_is_bottom: bool,
+    t_hi: float,
+    t_lo: float,
+    w: Array,
+    u: Array,
+) -> tuple[Array, Array]:
+    """Bounds ``(m_lo, m_hi)`` of the free resistance times its factor bound (ohms) that let
+    the side term ``(B + u)/(A + w + B + u)`` stay inside the window ``term_hi ≤ t_hi``,
+    ``term_lo ≥ t_lo`` (:func:`_side_window`) at some environment vertex (``w``, ``u``: (V,)),
+    the other resistance of the side lying in ``[fixed_low, fixed_high]`` (one range or an
+    array of them: the result has their shape). The term is linear in either resistance: free
+    ``B``: ``B·hi ≤ t_hi(A_low + w)/(1 − t_hi) − u`` and ``B·lo ≥ t_lo(A_high + w)/(1 − t_lo)
+    − u``; free ``A``: ``A·lo ≥ (B_high + u)(1 − t_hi)/t_hi − w`` and ``A·hi ≤ (B_low + u)(1 −
+    t_lo)/t_lo − w``. ``m_hi`` bounds ``R·hi`` from above and ``m_lo`` bounds ``R·lo`` from
+    below; the loosest vertex is taken, so the window is a necessary condition."""
+    low = np.asarray(fixed_low, dtype=float)[..., None]
+    high = np.asarray(fixed_high, dtype=float)[..., None]
+    shape = low.shape[:-1]
+    if free_is_bottom:
+        upper = (
+            np.max(t_hi * (low + w) / (1.0 - t_hi) - u, axis=-1)
+            if t_hi < 1.0
+            else np.full(shape, np.inf)
+        )
+        lower = (
+            np.min(t_lo * (high + w) / (1.0 - t_lo) - u, axis=-1) if t_lo > 0.0 else np.zeros(shape)
+        )
+        return lower, upper
+    if t_hi <= 0.0:
+        return np.full(shape, np.inf), np.zeros(shape)  # no term reaches it
+    lower = np.min((high + u) * (1.0 - t_hi) / t_hi - w, axis=-1) if t_hi < 1.0 else np.zeros(shape)
+    upper = (
+        np.max((low + u) * (1.0 - t_lo) / t_lo - w, axis=-1)
+        if t_lo > 0.0
+        else np.full(shape, np.inf)
+    )
+    return lower, upper
+
+
 def _half_records(parts: _Parts, lim: _Limits, side: int) -> _Half:
     """Every (class, value, class, value) of one side inside the gain and balance window."""
     pa, pb = (0, 1) if side == 1 else (2, 3)
@@ -450,17 +509,8 @@ def _half_records(parts: _Parts, lim: _Limits, side: int) -> _Half:
     pieces: list[tuple[IntArray, ...]] = []
     n_classes = parts.lo.size
     avail_a = [np.flatnonzero(parts.best[pa][c] >= 0) for c in range(n_classes)]
-    # Per class at position pb: how many of its usable values lie below each global value
-    # index (``count[c, j]``: usable values among values[:j]), and their indices in order
-    # (``index[c, i]``: the i-th usable value). A search in the class's own value list is
-    # then a search in the global list read through ``count``.
-    usable_b = parts.best[pb] >= 0  # (E, K)
-    count = np.zeros((n_classes, values.size + 1), dtype=np.int64)
-    np.cumsum(usable_b, axis=1, out=count[:, 1:])
-    index = np.zeros((n_classes, values.size), dtype=np.int64)
-    cls_b, val_b = np.nonzero(usable_b)
-    starts = np.cumsum(count[:, -1]) - count[:, -1]
-    index[cls_b, np.arange(cls_b.size) - starts[cls_b]] = val_b
+    # The usable values of each class at position pb, searched through the global list.
+    count, index = value_lists(parts.best[pb] >= 0)
     classes_b = np.flatnonzero(count[:, -1] > 0)
     group = 0
     for ca in range(n_classes):
@@ -469,37 +519,13 @@ def _half_records(parts: _Parts, lim: _Limits, side: int) -> _Half:
             continue
         ra = values[ka]
         hi_b, lo_b = parts.hi[classes_b][:, None], parts.lo[classes_b][:, None]
-        if side == 1:
-            # c_hi ≤ t_hi: R2·hi2·(1 − t) ≤ t·(R1·lo1 + Rs1); c_lo ≥ t_lo likewise.
-            top = (
-                np.max(t_hi * (ra[:, None] * parts.lo[ca] + series_a[None, :]), axis=1)[None, :]
-                / ((1.0 - t_hi) * hi_b)
-                if t_hi < 1.0
-                else np.full((classes_b.size, ra.size), np.inf)
-            )
-            bottom = np.min(t_lo * (ra[:, None] * parts.hi[ca] + series_a[None, :]), axis=1)[
-                None, :
-            ] / ((1.0 - t_lo) * lo_b)
-        else:
-            # a_hi ≤ t_hi: (R4·hi4 + Rref)(1 − t) ≤ t·(R3·lo3 + Rs3); a_lo ≥ t_lo likewise.
-            top = (
-                np.max(
-                    t_hi * (ra[:, None] * parts.lo[ca] + series_a[None, :]) / (1.0 - t_hi)
-                    - series_b[None, :],
-                    axis=1,
-                )[None, :]
-                / hi_b
-                if t_hi < 1.0
-                else np.full((classes_b.size, ra.size), np.inf)
-            )
-            bottom = (
-                np.min(
-                    t_lo * (ra[:, None] * parts.hi[ca] + series_a[None, :]) / (1.0 - t_lo)
-                    - series_b[None, :],
-                    axis=1,
-                )[None, :]
-                / lo_b
-            )
+        # c_hi ≤ t_hi and c_lo ≥ t_lo (side 1), or the same for a (side 2), solved for the
+        # partner's resistance (R2 or R4) next to each value of a.
+        lower, upper = value_window(
+            ra * parts.lo[ca], ra * parts.hi[ca], True, t_hi, t_lo, series_a, series_b
+        )
+        top = upper[None, :] / hi_b
+        bottom = lower[None, :] / lo_b
         # (partner class, value of a): the partner's value window, as positions in its list
         # (rows: partner classes; columns: the values of a).
         g_first = np.searchsorted(values, (bottom * (1.0 - 1e-9)).ravel(), side="left")

@@ -16,7 +16,7 @@ environment vertex) decide each pair of discrete (class, value) choices exactly:
   discrete part. The side term ``(B + u)/(A + w + B + u)`` (``A``: R1 or R3 with its source
   impedance ``w``; ``B``: R2 or R4 with ``u`` = 0 or Rref) rises with ``B`` and falls with
   ``A``, so the window of :func:`frontier._side_window` bounds each class's value from both
-  sides (:func:`value_window`); the two sides' candidates are paired and screened.
+  sides (:func:`frontier.value_window`); the two sides' candidates are paired and screened.
 
 Both candidate lists keep only pairs whose side terms can balance at vertex 0 (a side's width
 plus its partner's is at most ``2Λ``, the two balance conditions summed). Every candidate then
@@ -75,10 +75,12 @@ from .frontier import (
     corner_screen,
     limits_and_parts,
     stress_floor,
+    value_lists,
+    value_window,
 )
 from .options import ALL_SHAPES
 
-__all__ = ["c_gain_room", "least_sensitivity", "mixed_frontier", "side_term", "value_window"]
+__all__ = ["c_gain_room", "least_sensitivity", "mixed_frontier", "side_term"]
 
 Array = NDArray[np.float64]
 IntArray = NDArray[np.int64]
@@ -99,35 +101,6 @@ def side_term(
     takes ``A`` low and ``B`` high."""
     term: Array = np.asarray((bottom + u) / (top + w + bottom + u), dtype=float)
     return term
-
-
-def value_window(
-    fixed_low: float,
-    fixed_high: float,
-    free_is_bottom: bool,
-    t_hi: float,
-    t_lo: float,
-    w: Array,
-    u: Array,
-) -> tuple[float, float]:
-    """Bounds ``(m_lo, m_hi)`` of the free resistance times its factor bound (ohms) that let
-    the side term stay inside the window ``term_hi ≤ t_hi``, ``term_lo ≥ t_lo``
-    (:func:`frontier._side_window`) at some environment vertex, the other resistance of the
-    side lying in ``[fixed_low, fixed_high]``. From :func:`side_term` solved for the free
-    resistance (it is linear in either): free ``B``: ``B·hi ≤ t_hi(A_low + w)/(1 − t_hi) − u``
-    and ``B·lo ≥ t_lo(A_high + w)/(1 − t_lo) − u``; free ``A``: ``A·lo ≥ (B_high + u)(1 −
-    t_hi)/t_hi − w`` and ``A·hi ≤ (B_low + u)(1 − t_lo)/t_lo − w``. ``m_hi`` bounds ``R·hi``
-    from above and ``m_lo`` bounds ``R·lo`` from below; the loosest vertex is taken, so the
-    window is a necessary condition."""
-    if free_is_bottom:
-        upper = float(np.max(t_hi * (fixed_low + w) / (1.0 - t_hi) - u)) if t_hi < 1.0 else math.inf
-        lower = float(np.min(t_lo * (fixed_high + w) / (1.0 - t_lo) - u)) if t_lo > 0.0 else 0.0
-        return lower, upper
-    if t_hi <= 0.0:
-        return math.inf, 0.0  # no term reaches it
-    lower = float(np.min((fixed_high + u) * (1.0 - t_hi) / t_hi - w)) if t_hi < 1.0 else 0.0
-    upper = float(np.max((fixed_low + u) * (1.0 - t_lo) / t_lo - w)) if t_lo > 0.0 else math.inf
-    return lower, upper
 
 
 def least_sensitivity(position: int, r_low: Array, t_hi: float, lim: _Limits) -> Array:
@@ -243,19 +216,9 @@ class _Candidates:
 
     def __init__(self, parts: _Parts) -> None:
         self.parts = parts
-        self.count: list[IntArray] = []
-        self.index: list[IntArray] = []
-        n_classes, n_values = parts.lo.size, parts.values.size
-        for position in range(4):
-            usable = parts.best[position] >= 0
-            count = np.zeros((n_classes, n_values + 1), dtype=np.int64)
-            np.cumsum(usable, axis=1, out=count[:, 1:])
-            index = np.zeros((n_classes, n_values), dtype=np.int64)
-            cls, val = np.nonzero(usable)
-            starts = np.cumsum(count[:, -1]) - count[:, -1]
-            index[cls, np.arange(cls.size) - starts[cls]] = val
-            self.count.append(count)
-            self.index.append(index)
+        lists = [value_lists(parts.best[position] >= 0) for position in range(4)]
+        self.count = [count for count, _ in lists]
+        self.index = [index for _, index in lists]
 
     def within(self, position: int, m_lo: float, m_hi: float) -> tuple[IntArray, IntArray]:
         """(class, value index) of every usable pair at ``position`` with ``R·lo ≥ m_lo`` and
@@ -355,7 +318,8 @@ def _divider_candidates(
 
 def _crossed_candidates(dual: _Dual, cands: _Candidates, lim: _Limits) -> IntArray:
     """Keys of discrete pairs for a dual with one element on each side: per side, the classes
-    and values :func:`value_window` allows next to the dual's element, paired across sides."""
+    and values :func:`frontier.value_window` allows next to the dual's element, paired across
+    sides."""
     parts = cands.parts
     picks: list[tuple[IntArray, IntArray, Array, Array]] = []
     for side, (top, bottom) in ((1, (0, 1)), (2, (2, 3))):
@@ -368,7 +332,7 @@ def _crossed_candidates(dual: _Dual, cands: _Candidates, lim: _Limits) -> IntArr
         fixed_high = value * max(dual.ends) * dual.hi
         free = bottom if fixed_at == top else top
         m_lo, m_hi = value_window(fixed_low, fixed_high, free == bottom, t_hi, t_lo, w, u)
-        cls, val = cands.within(free, m_lo, m_hi)
+        cls, val = cands.within(free, float(m_lo), float(m_hi))
         # The side's term at vertex 0 with the package at its first end: a point of the range.
         fixed = value * dual.ends[0] * np.array([dual.lo, dual.hi])
         r = parts.values[val]
