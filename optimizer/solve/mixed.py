@@ -275,13 +275,11 @@ def _lines(keys: IntArray, parts: _Parts) -> Array:
     return lines
 
 
-def _dual_term(dual: _Dual, side_positions: tuple[int, int], end: float, lim: _Limits) -> tuple[
-    Array, Array
-]:  # fmt: skip
+def _dual_term(dual: _Dual, end: float, lim: _Limits) -> tuple[Array, Array]:
     """``(ln term_lo, ln term_hi)`` per vertex of the side the dual fills alone (divider
     placement), its package factor at ``end``."""
     r_top, r_bottom = (v * end for v in dual.values)
-    if side_positions == (0, 1):
+    if dual.positions == (0, 1):
         w, u = lim.rs1, np.zeros_like(lim.rs1)
     else:
         w, u = lim.rs3, lim.rref
@@ -300,7 +298,7 @@ def _divider_candidates(
     sh = halves[free_side]  # built by mixed_frontier for every side a dual leaves free
     from_key, to_key = -math.inf, math.inf
     for end in dual.ends:
-        low, high = _dual_term(dual, dual.positions, end, lim)
+        low, high = _dual_term(dual, end, lim)
         from_key = max(from_key, float(high[0]) - lim.balance)
         to_key = min(to_key, float(low[0]) + lim.balance)
         # The gain conditions at vertex 0 bound the partner's low end too.

@@ -492,7 +492,7 @@ def pick(
             return replay[i].pop(0)
         return streams[i].next(verifier, clock, workers)
 
-    _bound_cp_sat_streams(streams, replay, wanted, spec, verifier, clock, workers, distinct)
+    _bound_later_streams(streams, replay, wanted, spec, verifier, clock, workers, distinct)
     heads: list[tuple[float, Candidate] | None] = [advance(i) for i in range(len(streams))]
     taken: list[tuple[float, Candidate]] = []
     families: set[tuple[object, ...]] = set()
@@ -592,7 +592,7 @@ def _order(
     return found, tuple(choices)
 
 
-def _bound_cp_sat_streams(
+def _bound_later_streams(
     streams: list[_Stream | _FrontierStream],
     replay: list[list[tuple[float, Candidate]]],
     wanted: int,
