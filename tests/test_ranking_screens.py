@@ -38,7 +38,7 @@ from optimizer.solve.ranking import (
     tie_key,
     unbalanced_pairs,
 )
-from optimizer.solve.search import pick
+from optimizer.solve.search import PickResult, SearchStatus, pick
 from optimizer.solve.trade import KindBest, Trade, cost_per_db, kind_trade
 from optimizer.spec import Preferences
 from optimizer.specfile import load_spec
@@ -301,32 +301,60 @@ def test_trade_line_says_the_numbers() -> None:
     # 7.50 dB more for 14.570 more: 14.57 / 7.5 = 1.943 per dB (by hand).
     assert "extra 7.50 dB cost 14.570 more (1.943 per dB)" in text
     none = Trade(
-        KindBest("four discrete", False, 380.23, 74.7),
+        KindBest("four discrete", False, 380.23, 74.7, floor_db=74.0, out_of_reach_db=77.0),
         KindBest("network", True, 34.57, 82.24),
         80.0,
     )
     assert (
-        "no four-discrete design reaches 80 dB; the best reaches 74.70 dB worst case at cost 380.230"
-        in trade_text(none, spec)
+        "no four-discrete design reaches 80 dB (nor 77 dB); the cheapest at 74 dB costs 380.230 "
+        "with 74.70 dB worst case" in trade_text(none, spec)
+    )
+    nothing = Trade(
+        KindBest("four discrete", False, None, None, out_of_reach_db=50.0),
+        KindBest("network", True, 34.57, 82.24),
+        80.0,
+    )
+    assert "no four-discrete design reaches 80 dB (nor 50 dB), nor any lower floor tried" in (
+        trade_text(nothing, spec)
     )
 
 
 def test_trade_on_the_example_searches_the_missing_kind() -> None:
     """Motor shunt: no discrete design meets the 80 dB floor (the ranking holds networks only),
-    so the bounded search reports the best discrete CMRR, below the floor; the network figures
-    are the winner's."""
+    so the trade picks the cheapest discrete design at the first relaxed floor that has one; the
+    network figures are the winner's. Checked against the pick itself run at each floor: the
+    floors above the one reported have no discrete design, and the reported one is the pick's
+    optimum there."""
     spec = load_spec(EXAMPLE)
     catalog = load_catalogs(list(spec.preferences.catalogs))
     result = _report().result
-    trade = kind_trade(spec, catalog, verify, result, time_limit_s=3.0)
+    trade = kind_trade(spec, catalog, verify, result, time_limit_s=30.0)
     assert trade is not None
     winner = _report().ranked[0]
     assert trade.network.meets and trade.network.cost == winner.cost.total
     assert trade.network.cmrr_db == winner.verification.worst_case.cmrr_db
-    assert not trade.discrete.meets
-    if trade.discrete.cmrr_db is not None:
-        assert trade.discrete.cmrr_db < 80.0
-        assert trade.discrete.cost is not None and trade.discrete.cost > 0.0
+    d = trade.discrete
+    assert not d.meets and not d.timed_out
+    assert d.floor_db is not None and d.out_of_reach_db is not None
+    assert d.floor_db < d.out_of_reach_db <= 80.0
+    assert d.cmrr_db is not None and d.floor_db <= d.cmrr_db < d.out_of_reach_db
+
+    def discrete_at(floor: float) -> PickResult:
+        req = dataclasses.replace(spec.requirements, cmrr_floor_db=floor)
+        prefs = dataclasses.replace(spec.preferences, topologies=(Topology.DISCRETE,))
+        return pick(
+            dataclasses.replace(spec, requirements=req, preferences=prefs),
+            catalog,
+            verify,
+            top=1,
+            time_limit_s=30.0,
+        )
+
+    above = discrete_at(d.out_of_reach_db)
+    assert above.status is SearchStatus.INFEASIBLE and not above.ranked
+    at = discrete_at(d.floor_db)
+    assert at.status is SearchStatus.OPTIMAL
+    assert d.cost == pytest.approx(at.ranked[0].cost.total, rel=1e-12)
 
 
 # ---------------------------------------------------------------------------------------------

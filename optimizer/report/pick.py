@@ -22,8 +22,10 @@ unit in the key name; fractions are plain fractions, 0.001 = 0.1 %)::
                          the choice's rank, statistics null (no Monte Carlo run)
     kind_trade          null unless the spec allows both kinds: {text, four_discrete, network},
                          each {meets_spec, cost, cmrr_db (worst case, or at the yield target),
-                         search_timed_out}; a kind that meets nothing gives its best CMRR
-                         below the floor from a search bounded to 3 s (null if none found)
+                         search_timed_out, relaxed_floor_db, out_of_reach_db}; a kind that
+                         meets nothing gives its cheapest design at the first relaxed floor
+                         (relaxed_floor_db) that has one, and the lowest floor shown to have
+                         none (out_of_reach_db); null figures if none found
     other_kind          [design]  the best design of a kind (four discrete parts, or a
                          network) the ranking lacks although the spec allows it
     diagnosis           null unless infeasible: {binding: [requirement names],
@@ -530,13 +532,17 @@ def _kind_words(best: KindBest, floor_db: float, basis: str) -> str:
     if best.meets and best.cost is not None and best.cmrr_db is not None:
         return f"{best.kind}: cheapest at cost {best.cost:.3f} with {best.cmrr_db:.2f} dB {basis}"
     dash = best.kind.replace(" ", "-")
-    if best.cost is None or best.cmrr_db is None:
-        within = " within the search's time bound" if best.timed_out else ""
-        return f"no {dash} design reaches {floor_db:g} dB, and none was found{within}"
+    unreached = best.out_of_reach_db
+    nor = f" (nor {unreached:g} dB)" if unreached is not None and unreached < floor_db else ""
+    head = f"no {dash} design reaches {floor_db:g} dB{nor}"
+    if best.cost is None or best.cmrr_db is None or best.floor_db is None:
+        if best.timed_out:
+            return f"{head}, and none was found within the search's time bound"
+        return f"{head}, nor any lower floor tried"
     found = " (best found within the search's time bound)" if best.timed_out else ""
     return (
-        f"no {dash} design reaches {floor_db:g} dB; the best reaches {best.cmrr_db:.2f} dB "
-        f"{basis} at cost {best.cost:.3f}{found}"
+        f"{head}; the cheapest at {best.floor_db:g} dB costs {best.cost:.3f} with "
+        f"{best.cmrr_db:.2f} dB {basis}{found}"
     )
 
 
@@ -759,6 +765,8 @@ def pick_to_json(report: PickReport, warnings: Sequence[str] = ()) -> dict[str, 
                     "cost": b.cost,
                     "cmrr_db": b.cmrr_db,
                     "search_timed_out": b.timed_out,
+                    "relaxed_floor_db": b.floor_db,
+                    "out_of_reach_db": b.out_of_reach_db,
                 }
                 for key, b in (
                     ("four_discrete", report.trade.discrete),

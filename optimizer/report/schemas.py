@@ -227,6 +227,8 @@ PICK_SCHEMA: Final[dict[str, Any]] = {
                                 "cost": _NUM_N,
                                 "cmrr_db": _NUM_N,
                                 "search_timed_out": _BOOL,
+                                "relaxed_floor_db": _NUM_N,
+                                "out_of_reach_db": _NUM_N,
                             }
                         )
                         for k in ("four_discrete", "network")

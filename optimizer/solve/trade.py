@@ -1,28 +1,32 @@
 """The discrete-versus-network trade in one line: for each kind the spec allows, its best
-cost and CMRR, or (when no design of the kind meets the spec) the best CMRR the kind reaches
-and at what cost; and what the extra decibels of the better kind cost.
+cost and CMRR, or (when no design of the kind meets the spec) the cheapest design of that kind
+at the first relaxed CMRR floor where one exists; and what the extra decibels of the better
+kind cost.
 
 The best design of each kind comes from the pick (the ranking and its ``extras``). For a kind
-with none, a bounded search (``TRADE_TIME_LIMIT_S``) restricted to that kind, with the CMRR
-floor relaxed as the diagnosis relaxes it (``optimizer.solve.diagnose``), ranks by the most
-CMRR margin. Pure: no printing, no files.
+with none, the pick restricted to that kind runs again at the floors the diagnosis relaxes to
+(the asked floor less 3, 6, 12, 20, 30 dB, ``optimizer.solve.diagnose``), lowest cost first,
+until one has a design: on the worst-case basis each of these is the exact enumeration, so the
+line states a proven cheapest design at that floor and the floors proven out of reach. The
+whole trade is bounded in time (``TRADE_TIME_LIMIT_S``). Pure: no printing, no files.
 """
 
 from __future__ import annotations
 
 import math
+import time
 from dataclasses import dataclass, replace
 
 from ..catalog import Catalog
 from ..design import Topology
 from ..spec import CmrrBasis, Objective, Spec
-from .diagnose import _relaxed_floor
+from .diagnose import CMRR_STEPS_DB
 from .search import Candidate, PickResult, SearchStatus, Verifier, pick
 
 __all__ = ["TRADE_TIME_LIMIT_S", "KindBest", "Trade", "cost_per_db", "kind_trade"]
 
-#: Seconds for the search of one kind that has no design meeting the spec (it adds to every
-#: pick where one kind meets nothing, so it is kept short; tests pass their own bound).
+#: Seconds for the searches of one kind that has no design meeting the spec (they add to every
+#: pick where one kind meets nothing, so the bound is short; tests pass their own bound).
 TRADE_TIME_LIMIT_S = 1.0
 
 NETWORK_TOPOLOGIES = tuple(t for t in Topology if t is not Topology.DISCRETE)
@@ -30,15 +34,19 @@ NETWORK_TOPOLOGIES = tuple(t for t in Topology if t is not Topology.DISCRETE)
 
 @dataclass(frozen=True)
 class KindBest:
-    """The best design of one kind: ``meets`` the spec (then the cheapest), or not (then the
-    one with the most CMRR found, ``cmrr_db`` below the floor); None figures when the bounded
-    search found nothing (``timed_out`` says whether it ran out of time)."""
+    """The best design of one kind: ``meets`` the spec (then the cheapest), or not: then the
+    cheapest at ``floor_db``, the first relaxed floor (dB) where the kind has a design, and
+    ``out_of_reach_db``, the lowest floor at which the kind was shown to have none (the asked
+    floor or a relaxed one); None figures when no relaxed floor gave a design (``timed_out``
+    says whether the searches ran out of time)."""
 
     kind: str  # "four discrete" or "network"
     meets: bool
     cost: float | None
     cmrr_db: float | None
     timed_out: bool = False
+    floor_db: float | None = None
+    out_of_reach_db: float | None = None
 
 
 @dataclass(frozen=True)
@@ -71,21 +79,48 @@ def _is_discrete(candidate: Candidate) -> bool:
     return candidate.design.topology is Topology.DISCRETE
 
 
-def _best_below_floor(
+def _relaxed_floors(asked_db: float) -> tuple[float, ...]:
+    """The floors (dB) the trade tries for a kind that meets nothing: the asked floor less each
+    step of the diagnosis, at least 1 dB, without repeats."""
+    out: list[float] = []
+    for step in CMRR_STEPS_DB:
+        floor = max(1.0, asked_db - step)
+        if floor < asked_db and floor not in out:
+            out.append(floor)
+    return tuple(out)
+
+
+def _cheapest_below_floor(
     spec: Spec, catalog: Catalog, verifier: Verifier, kind: tuple[Topology, ...], time_s: float
-) -> tuple[Candidate | None, bool]:
-    """The design of ``kind`` with the most CMRR once the floor is relaxed (bounded search)."""
+) -> KindBest:
+    """The cheapest design of ``kind`` at the first relaxed floor that has one, as a
+    :class:`KindBest` without its label (no figures when none has); each search gets the time
+    left of ``time_s``."""
     req = spec.requirements
-    relaxed = replace(
-        spec,
-        requirements=replace(req, cmrr_floor_db=_relaxed_floor(req.cmrr_floor_db)),
-        preferences=replace(
-            spec.preferences, topologies=kind, objective=Objective.CMRR_MARGIN, cost_cap=None
-        ),
-    )
-    result = pick(relaxed, catalog, verifier, top=1, time_limit_s=time_s)
-    found = result.ranked[0] if result.ranked else None
-    return found, result.status is SearchStatus.TIME_LIMIT
+    deadline = time.perf_counter() + time_s
+    out_of_reach = req.cmrr_floor_db
+    for floor in _relaxed_floors(req.cmrr_floor_db):
+        left = deadline - time.perf_counter()
+        if left <= 0.0:
+            return KindBest("", False, None, None, True, None, out_of_reach)
+        relaxed = replace(
+            spec,
+            requirements=replace(req, cmrr_floor_db=floor),
+            preferences=replace(
+                spec.preferences, topologies=kind, objective=Objective.COST, cost_cap=None
+            ),
+        )
+        result = pick(relaxed, catalog, verifier, top=1, time_limit_s=left)
+        timed_out = result.status is SearchStatus.TIME_LIMIT
+        if result.ranked:
+            best = result.ranked[0]
+            return KindBest(
+                "", False, best.cost.total, _cmrr(best, spec), timed_out, floor, out_of_reach
+            )
+        if timed_out:
+            return KindBest("", False, None, None, True, None, out_of_reach)
+        out_of_reach = floor
+    return KindBest("", False, None, None, False, None, out_of_reach)
 
 
 def kind_trade(
@@ -113,9 +148,6 @@ def kind_trade(
             best = min(mine, key=lambda c: c.cost.total)
             bests.append(KindBest(label, True, best.cost.total, _cmrr(best, spec)))
             continue
-        found, timed_out = _best_below_floor(spec, catalog, verifier, kind, time_limit_s)
-        if found is None:
-            bests.append(KindBest(label, False, None, None, timed_out))
-        else:
-            bests.append(KindBest(label, False, found.cost.total, _cmrr(found, spec), timed_out))
+        found = _cheapest_below_floor(spec, catalog, verifier, kind, time_limit_s)
+        bests.append(replace(found, kind=label))
     return Trade(bests[0], bests[1], spec.requirements.cmrr_floor_db)
