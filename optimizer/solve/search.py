@@ -17,11 +17,10 @@ import time
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field, replace
 from enum import Enum
-from typing import Protocol
+from typing import TYPE_CHECKING, Protocol
 
 import numpy as np
 from numpy.typing import NDArray
-from ortools.sat.python import cp_model
 
 from .. import interrupt
 from ..catalog import Catalog
@@ -32,10 +31,15 @@ from .amplifier import amplifier_limits
 from .discrete import DiscreteBlock, build_discrete, value_constants
 from .environment import LinearEnvironment, linear_environment
 from .frontier import Shared, discrete_frontier, network_frontier
+from .limits import Limits, limits_for
 from .mixed import mixed_frontier
-from .model import COST_SCALE, BuiltModel, Limits, ModelVariant, build_model, limits_for
 from .options import ALL_SHAPES, DIVIDER_SHAPES, EQUAL_SHAPES, OptionTable, build_options
 from .ranking import binding_requirement, family_key, tie_key
+
+if TYPE_CHECKING:  # CP-SAT loads on first use: the exact enumerations never need it
+    from ortools.sat.python import cp_model
+
+    from .model import BuiltModel, ModelVariant
 
 __all__ = [
     "Candidate",
@@ -114,6 +118,8 @@ class PickResult:
 
 def solver_parameters(time_limit_s: float, workers: int = 1, seed: int = 0) -> cp_model.CpSolver:
     """A CP-SAT solver with fixed parameters: time limit, worker count, seed."""
+    from ortools.sat.python import cp_model
+
     solver = cp_model.CpSolver()
     solver.parameters.max_time_in_seconds = max(time_limit_s, 0.001)
     solver.parameters.num_workers = workers
@@ -222,6 +228,8 @@ class Problem:
         return bool(self._parts)
 
     def build(self, variant: ModelVariant) -> BuiltModel:
+        from .model import build_model
+
         return build_model(
             self.options, self.block, self.spec, self.env, self.limits, variant, self.constants
         )
@@ -292,6 +300,8 @@ class _Stream(_Progress):
 
     def _model(self, clock: _Clock) -> BuiltModel:
         if self._built is None:
+            from .model import ModelVariant
+
             started = time.perf_counter()
             self._built = self.problem.build(
                 ModelVariant(
@@ -307,6 +317,8 @@ class _Stream(_Progress):
         self, verifier: Verifier, clock: _Clock, workers: int
     ) -> tuple[float, Candidate] | None:
         """The next verified design with its ranking key (lower is better), or None."""
+        from ortools.sat.python import cp_model
+
         spec = self.problem.spec
         while not self.exhausted:
             if clock.remaining() <= 0.0:
@@ -794,6 +806,8 @@ class OrderedDesigns:
             if ceiling <= stream.cost_ceiling or i in self._extended:
                 continue
             self._extended.add(i)
+            from .model import COST_SCALE
+
             fresh = _Stream(self._problem, stream.topologies, stream.objective, stream.pair_shape)
             fresh.cost_ceiling = ceiling
             built = fresh._model(self._clock)
