@@ -110,20 +110,30 @@ def values_in_range(series: ESeries, low: float, high: float) -> Iterator[float]
                 yield value
 
 
-def _neighbourhood(series: ESeries, value: float) -> list[float]:
+def _neighbourhood(series: ESeries, value: float) -> tuple[float, ...]:
     if not (value > 0.0 and math.isfinite(value)):
         raise UnitError(value, "a finite value above zero", "cannot look up an E-series value")
-    exponent = _decade_of(value)
+    return _three_decades(series, _decade_of(value))
+
+
+@cache
+def _three_decades(series: ESeries, exponent: int) -> tuple[float, ...]:
+    """The series values of decades ``exponent`` − 1 to + 1, ascending (cached: the ranking
+    asks for the same decades many times)."""
     out: list[float] = []
     for e in (exponent - 1, exponent, exponent + 1):
         out.extend(_value(s, e, series) for s in _significands(series))
-    return out
+    return tuple(out)
 
 
 def nearest(series: ESeries, value: float) -> float:
-    """The series value nearest to ``value`` on a logarithmic scale (ratio distance)."""
+    """The series value nearest to ``value`` on a logarithmic scale (ratio distance; a tie goes
+    to the smaller value). The values are ascending, so the nearest is one of the two around
+    ``value``."""
     candidates = _neighbourhood(series, value)
-    return min(candidates, key=lambda v: (abs(math.log(v / value)), v))
+    index = bisect.bisect_left(candidates, value)
+    around = candidates[max(index - 1, 0) : index + 1]
+    return min(around, key=lambda v: (abs(math.log(v / value)), v))
 
 
 def next_above(series: ESeries, value: float) -> float:
