@@ -24,17 +24,20 @@ import random
 
 import pytest
 from battery import spec_text
-from test_oracle import random_case
+from test_oracle import e_value, random_case
 
 from optimizer.analysis.worstcase import common_mode_error_worst_sign, worst_case
-from optimizer.catalog import builtin_catalog
+from optimizer.catalog import builtin_catalog, catalog_from_parts
 from optimizer.cost import design_cost
 from optimizer.design import Design, Placement, Topology
+from optimizer.eseries import ESeries
+from optimizer.parts import DiscretePart
+from optimizer.solve import frontier as frontier_module
 from optimizer.solve.enumerate import reference_search
 from optimizer.solve.environment import linear_environment
 from optimizer.solve.frontier import discrete_frontier, gain_threshold, log_balance_limit
 from optimizer.solve.search import SearchStatus, pick
-from optimizer.spec import CmrrBasis, DriftModel, Objective, Spec, StockPolicy
+from optimizer.spec import CmrrBasis, DriftModel, Objective, SourceImpedance, Spec, StockPolicy
 from optimizer.userdesign import design_from_parts
 from optimizer.verify import verify
 
@@ -74,8 +77,25 @@ def _frontier_case(seed: int) -> tuple[Spec, object]:
     return dataclasses.replace(spec, preferences=prefs, requirements=req), case.catalog
 
 
-@pytest.mark.parametrize("seed", range(60))
-def test_top_k_costs_match_the_exhaustive_reference(seed: int) -> None:
+def _hold_records(records: str, monkeypatch: pytest.MonkeyPatch) -> None:
+    """Both ways the four-discrete search holds its half records: all written out and pruned
+    (what the small catalogs here use), or each group written out when the search reaches it
+    (what large record counts use), each group pair then joined one side-1 record at a time at
+    first (the runs double from there)."""
+    if records == "on demand":
+        monkeypatch.setattr(frontier_module, "LAZY_RECORDS", 0)
+        monkeypatch.setattr(frontier_module, "_FIRST_RUN", 1)
+
+
+#: Every seed with the records written out; every second one with them written on demand.
+TOP_K_CASES = [(s, "written out") for s in range(60)] + [(s, "on demand") for s in range(0, 60, 2)]
+
+
+@pytest.mark.parametrize(("seed", "records"), TOP_K_CASES)
+def test_top_k_costs_match_the_exhaustive_reference(
+    seed: int, records: str, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    _hold_records(records, monkeypatch)
     spec, catalog = _frontier_case(seed)
     ref = reference_search(spec, catalog, verify, top=TOP)  # type: ignore[arg-type]
     result = pick(spec, catalog, verify, top=TOP, time_limit_s=60.0)  # type: ignore[arg-type]
@@ -88,6 +108,76 @@ def test_top_k_costs_match_the_exhaustive_reference(seed: int) -> None:
         assert result.status is SearchStatus.INFEASIBLE
     for candidate in result.ranked:
         assert verify(candidate.design, spec).passed
+
+
+def _two_size_case(seed: int) -> tuple[Spec, object]:
+    """Two to six values near 160 Ω to 1.6 kΩ, each in one grade and two sizes: a cheap one
+    rated 30 mW to 0.2 W and a dearer one rated 1 W, under an output swing of ±3 V to ±10 V, so that the cheap
+    size cannot bear the stress at some positions and a design must pay for the larger one
+    there (the search's *lift*, ``frontier._rated_combinations``). The spec is one of the
+    oracle's (``test_oracle.random_case``) with this catalog and a larger signal."""
+    rng = random.Random(seed)
+    case = random_case(seed)
+    gain = rng.choice([1.0, 2.0])
+    base = [e_value(10 ** rng.uniform(2.2, 2.9)) for _ in range(rng.choice([2, 2, 3]))]
+    values = sorted({*base, *(e_value(b * gain, ESeries.E192) for b in base)})
+    parts = []
+    for i, ohms in enumerate(values):
+        tol, tc = rng.choice([(0.001, 25e-6), (0.0025, 25e-6), (0.001, 10e-6)])
+        small = round(rng.uniform(0.01, 0.05), 2)
+        dearer = round(rng.uniform(0.005, 0.03), 3)
+        rating = round(rng.uniform(0.03, 0.2), 3)
+        for j, (size, watts, extra) in enumerate((("0603", rating, 0.0), ("2512", 1.0, dearer))):
+            parts.append(DiscretePart(f"S{i}{j}", ohms, tol, tc, size, watts, 150.0, small + extra))
+    catalog = catalog_from_parts(parts, [], source="two-size test")
+    spec = case.spec
+    vd = rng.uniform(3.0, 10.0) / gain
+    signal = dataclasses.replace(
+        spec.signal, differential_min_v=-vd, differential_max_v=vd, source=SourceImpedance()
+    )
+    req = dataclasses.replace(
+        spec.requirements,
+        gain=gain,
+        gain_accuracy=0.02,
+        cmrr_floor_db=rng.choice([40.0, 46.0, 52.0]),
+        cmrr_basis=CmrrBasis.WORST_CASE,
+        min_input_impedance_ohm=0.0,
+        max_output_noise_v_rms=None,
+    )
+    prefs = dataclasses.replace(
+        spec.preferences,
+        topologies=(Topology.DISCRETE,),
+        objective=Objective.COST,
+        stock=StockPolicy.ANY,
+        resistance_min_ohm=1.0,
+        resistance_max_ohm=1e7,
+    )
+    return dataclasses.replace(spec, signal=signal, requirements=req, preferences=prefs), catalog
+
+
+#: Seeds of :func:`_two_size_case` whose optimum needs the larger size somewhere (of 0 to 15;
+#: in the others the cheap size bears every stress, or nothing meets the spec). In 0 and 8 the
+#: cheap size passes the per-position screen and fails only at the design's corners, where the
+#: search lifts the combination's bound (a lift overstated by 0.5 fails both).
+TWO_SIZE_SEEDS = (0, 1, 2, 3, 4, 5, 7, 8, 11, 12, 13, 14, 15)
+
+
+@pytest.mark.parametrize("records", ["written out", "on demand"])
+@pytest.mark.parametrize("seed", TWO_SIZE_SEEDS)
+def test_a_part_too_small_for_its_stress_costs_its_larger_size(
+    seed: int, records: str, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """Top-k costs against the exhaustive reference where the cheapest size of a value fails
+    its rating at some positions (the reference tries every design through the exact check)."""
+    _hold_records(records, monkeypatch)
+    spec, catalog = _two_size_case(seed)
+    ref = reference_search(spec, catalog, verify, top=TOP)  # type: ignore[arg-type]
+    result = pick(spec, catalog, verify, top=TOP, time_limit_s=60.0)  # type: ignore[arg-type]
+    want = [cost.total for cost, _, _ in ref.ranked]
+    got = [c.cost.total for c in result.ranked]
+    assert got == pytest.approx(want, rel=1e-9, abs=1e-12), (seed, got, want)
+    large = [p for c in result.ranked for p in c.design.placements if p.part.size == "2512"]
+    assert want and large, "the case must need the larger size somewhere"
 
 
 def _all_discrete_designs(catalog: object) -> list[Design]:
@@ -108,8 +198,12 @@ def _meets_cmrr_and_gain(design: Design, spec: Spec) -> bool:
 SMALL_SEEDS = (1, 2, 6, 7, 8, 10, 14, 15, 19, 20, 23, 25, 26, 27)
 
 
+@pytest.mark.parametrize("records", ["written out", "on demand"])
 @pytest.mark.parametrize("seed", SMALL_SEEDS)
-def test_screen_is_a_relaxation_and_exact_for_independent_parts(seed: int) -> None:
+def test_screen_is_a_relaxation_and_exact_for_independent_parts(
+    seed: int, records: str, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    _hold_records(records, monkeypatch)
     spec, catalog = _frontier_case(seed)
     spec = dataclasses.replace(
         spec,

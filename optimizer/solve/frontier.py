@@ -33,12 +33,20 @@ The search
    class and value at each position carries the cost (other parts of the same class and value,
    e.g. other sizes, are emitted later as variants of the same electrical design).
 2. Half records ``(class, value, class, value)`` are generated per class pair inside the value
-   window that the gain and balance conditions allow (:func:`_side_window`), then pruned by the
-   least spread any partner half reaches (a necessary condition).
+   window that the gain and balance conditions allow (:func:`_side_window`): first as windows
+   (per value of the first position, a run of the partner class's values), then written out
+   and pruned by the least spread any partner half reaches (a necessary condition). When the
+   records are many (:data:`LAZY_RECORDS`, loose floors), only the groups the search reaches
+   are written out, from bounds of each group's least cost and spread computed on the windows
+   (:func:`_group_bounds`).
 3. Pairs of half groups (class pairs) are taken in the order of their lowest possible cost; a
    group pair whose least spreads already exceed ``2Λ`` at some vertex is skipped; the others
-   are joined exactly and every feasible combination enters a heap keyed by a lower bound of its
-   cost, which is replaced by the exact cost (``optimizer.cost``) before it is emitted.
+   are joined exactly, a run of side-1 records at a time (cheapest first, runs doubling; the
+   rest waits in the heap at the least cost it can reach), and every feasible combination
+   enters a heap keyed by a lower bound of its cost, which is replaced by the exact cost
+   (``optimizer.cost``) before it is emitted. A combination whose cheapest part at some
+   position cannot bear the stress at the rating screen's corners enters at its bound plus the
+   least extra a higher-rated part of that class and value costs (its *lift*).
 
 Designs come out in nondecreasing exact cost; the stream that consumes them runs the full exact
 check (``optimizer.verify``) on each, so every check besides CMRR and gain (noise, ranges,
@@ -98,8 +106,11 @@ RATING_SCREEN = 0.5
 #: Relative widening of the screen's limits against rounding (keeps the screen optimistic).
 _SLACK = 1e-9
 # Heap entry kinds, in the order they are taken at equal keys: an exact cost first (it can be
-# emitted), then a bound of one design, then a block of a group pair's combinations.
-_EXACT, _BOUND, _BLOCK = 0, 1, 2
+# emitted), then a bound of one design, then a block of a group pair's combinations, then the
+# rest of a group pair not joined yet.
+_EXACT, _BOUND, _BLOCK, _PAIR = 0, 1, 2, 3
+#: Side-1 records of a group pair joined at first; each later run doubles, up to the whole.
+_FIRST_RUN = 64
 #: Combinations joined at once (bounds the memory of one join step).
 _JOIN_CHUNK = 400_000
 
@@ -281,6 +292,10 @@ class _Parts:
     exact_spread: bool  # ``spread`` is every part's own δ (false with same-lot tracking)
     line_charge: Array  # (E, K): least per-line cost of a part id of that class and value
     class_charge: Array  # (E,): least line_charge over the class's values
+    # Per position (E, K): the least cost of a usable part rated above the cheapest one (more
+    # power or more voltage; inf: none): what a design pays at least where the cheapest part
+    # cannot bear its stress.
+    up_cost: tuple[Array, ...]
 
     def bears(self, rows: Sequence[int], power: Array, peak: Array) -> bool:
         """Whether the parts ``rows`` (catalog rows at R1..R4) bear ``power`` (W) and ``peak``
@@ -345,6 +360,7 @@ def _discrete_parts(
     best, best_cost, kept_rows, kept_costs, spans = [], [], [], [], []
     top_w: list[Array] = []
     top_v: list[Array] = []
+    up_cost: list[Array] = []
     in_stock = frame["stock_qty"].to_numpy()[rows] > 0
     stocked = np.zeros(shape, dtype=bool)
     for position in range(4):
@@ -375,6 +391,7 @@ def _discrete_parts(
             if sel.size:
                 top[class_of[heads], value_of[heads]] = np.maximum.reduceat(rating[sel], starts)
             tops.append(top)
+        up_cost.append(_up_cost(sel, starts, stops, class_of, value_of, power, volts, cost, shape))
         best.append(table)
         best_cost.append(table_cost)
         kept_rows.append(rows[sel])
@@ -387,7 +404,32 @@ def _discrete_parts(
         tuple(spans), classes[:, 0] + classes[:, 1] * _temperature_span(spec),
         rated_w, frame["max_voltage_v"].to_numpy(float), tuple(top_w), tuple(top_v),
         not prefs.same_lot_tracking, charge, np.min(np.where(usable_any, charge, np.inf), axis=1),
+        tuple(up_cost),
     )  # fmt: skip
+
+
+def _up_cost(
+    sel: IntArray,
+    starts: IntArray,
+    stops: IntArray,
+    class_of: IntArray,
+    value_of: IntArray,
+    power: Array,
+    volts: Array,
+    cost: Array,
+    shape: tuple[int, int],
+) -> Array:
+    """Per (class, value) (``shape``): the least cost among its usable parts ``sel`` (sorted by
+    class, value and cost; runs ``starts``..``stops``) rated above the run's first, cheapest
+    part in power or in voltage; inf where none is."""
+    out = np.full(shape, np.inf)
+    if sel.size == 0:
+        return out
+    head = np.repeat(sel[starts], stops - starts)
+    above = (power[sel] > power[head]) | (volts[sel] > volts[head])
+    least = np.minimum.reduceat(np.where(above, cost[sel], np.inf), starts)
+    out[class_of[sel[starts]], value_of[sel[starts]]] = least
+    return out
 
 
 def line_charges(
@@ -495,32 +537,48 @@ def value_window(
     return lower, upper
 
 
-def _half_records(parts: _Parts, lim: _Limits, side: int) -> _Half:
-    """Every (class, value, class, value) of one side inside the gain and balance window."""
+@dataclass
+class _Windows:
+    """The half records of one side before they are written out: per (class pair, value of
+    the first position) a *window*, the run of the partner class's own usable values (its
+    list ``index``, :func:`value_lists`) that the gain and balance window allows. Windows are
+    ordered by group (class pair), the groups numbered in order; ``starts`` holds each group's
+    first window (G + 1 entries). Records: ``count.sum()``."""
+
+    group: IntArray
+    ca: IntArray
+    ka: IntArray
+    cb: IntArray
+    first: IntArray  # position of the window's first partner value in its class's own list
+    count: IntArray  # partner values in the window (at least one)
+    index: IntArray  # (E, K) global value index of each class's i-th usable partner value
+    starts: IntArray
+
+    @property
+    def records(self) -> int:
+        return int(self.count.sum())
+
+
+def _windows(parts: _Parts, lim: _Limits, side: int) -> _Windows:
+    """The windows of one side (:class:`_Windows`): for each value of the first position
+    (R1 or R3) and each class of the second (R2 or R4), the run of the second's values that
+    keep the side's term inside :func:`_side_window`, solved for the partner's resistance
+    (:func:`value_window`)."""
     pa, pb = (0, 1) if side == 1 else (2, 3)
     t_hi, t_lo = _side_window(lim, side)
-    if side == 1:
-        series_a = lim.rs1
-        series_b = np.zeros_like(lim.rs1)
-    else:
-        series_a = lim.rs3
-        series_b = lim.rref
+    series_a, series_b = (lim.rs1, np.zeros_like(lim.rs1)) if side == 1 else (lim.rs3, lim.rref)
     values = parts.values
-    pieces: list[tuple[IntArray, ...]] = []
     n_classes = parts.lo.size
-    avail_a = [np.flatnonzero(parts.best[pa][c] >= 0) for c in range(n_classes)]
-    # The usable values of each class at position pb, searched through the global list.
     count, index = value_lists(parts.best[pb] >= 0)
     classes_b = np.flatnonzero(count[:, -1] > 0)
+    pieces: list[tuple[IntArray, ...]] = []
     group = 0
     for ca in range(n_classes):
-        ka = avail_a[ca]
+        ka = np.flatnonzero(parts.best[pa][ca] >= 0)
         if ka.size == 0 or classes_b.size == 0:
             continue
         ra = values[ka]
         hi_b, lo_b = parts.hi[classes_b][:, None], parts.lo[classes_b][:, None]
-        # c_hi ≤ t_hi and c_lo ≥ t_lo (side 1), or the same for a (side 2), solved for the
-        # partner's resistance (R2 or R4) next to each value of a.
         lower, upper = value_window(
             ra * parts.lo[ca], ra * parts.hi[ca], True, t_hi, t_lo, series_a, series_b
         )
@@ -534,50 +592,110 @@ def _half_records(parts: _Parts, lim: _Limits, side: int) -> _Half:
         first = count[rows_b, g_first]
         n_pair = np.maximum(count[rows_b, g_last] - first, 0)
         per_class = n_pair.reshape(classes_b.size, ra.size).sum(axis=1)
-        total = int(per_class.sum())
-        if total == 0:
+        if not per_class.any():
             continue
         groups = np.cumsum(per_class > 0) - 1 + group
         group += int((per_class > 0).sum())
-        ia = np.tile(np.arange(ra.size), classes_b.size)
-        offsets = np.arange(total) - np.repeat(np.cumsum(n_pair) - n_pair, n_pair)
-        cb_rec = np.repeat(rows_b, n_pair)
+        keep = n_pair > 0
         pieces.append(
             (
-                np.repeat(np.repeat(groups, ra.size), n_pair),
-                np.full(total, ca, dtype=np.int64),
-                ka[np.repeat(ia, n_pair)],
-                cb_rec,
-                index[cb_rec, np.repeat(first, n_pair) + offsets],
+                np.repeat(groups, ra.size)[keep],
+                np.full(int(keep.sum()), ca, dtype=np.int64),
+                np.tile(ka, classes_b.size)[keep],
+                rows_b[keep],
+                first[keep],
+                n_pair[keep],
             )
         )
-    if not pieces:
-        empty_i = np.zeros(0, dtype=np.int64)
-        empty_f = np.zeros((0, lim.rs1.size))
-        return _Half(empty_i, empty_i, empty_i, empty_i, empty_i, np.zeros(0), empty_f, empty_f)
-    g, ca_, ka_, cb_, kb_ = (np.concatenate(p) for p in zip(*pieces, strict=True))
-    ra_ = values[ka_][:, None]
-    rb_ = values[kb_][:, None]
+    if pieces:
+        g, ca_, ka_, cb_, first_, n_ = (np.concatenate(p) for p in zip(*pieces, strict=True))
+    else:
+        g = ca_ = ka_ = cb_ = first_ = n_ = np.zeros(0, dtype=np.int64)
+    starts = np.searchsorted(g, np.arange(group + 1), side="left")
+    return _Windows(g, ca_, ka_, cb_, first_, n_, index, starts)
+
+
+def _terms(
+    parts: _Parts, lim: _Limits, side: int, ca: IntArray, ka: IntArray, cb: IntArray, kb: IntArray
+) -> tuple[Array, Array]:
+    """``(ln term_lo, ln term_hi)`` per record and vertex (N, V): ``c`` (side 1) or ``a``
+    (side 2) at the corners of the module docstring."""
+    values = parts.values
+    ra_ = values[ka][:, None]
+    rb_ = values[kb][:, None]
     if side == 1:
         rs = lim.rs1[None, :]
         high = (
             rb_
-            * parts.hi[cb_][:, None]
-            / (ra_ * parts.lo[ca_][:, None] + rs + rb_ * parts.hi[cb_][:, None])
+            * parts.hi[cb][:, None]
+            / (ra_ * parts.lo[ca][:, None] + rs + rb_ * parts.hi[cb][:, None])
         )
         low = (
             rb_
-            * parts.lo[cb_][:, None]
-            / (ra_ * parts.hi[ca_][:, None] + rs + rb_ * parts.lo[cb_][:, None])
+            * parts.lo[cb][:, None]
+            / (ra_ * parts.hi[ca][:, None] + rs + rb_ * parts.lo[cb][:, None])
         )
     else:
         rs, rr = lim.rs3[None, :], lim.rref[None, :]
-        num_hi = rb_ * parts.hi[cb_][:, None] + rr
-        num_lo = rb_ * parts.lo[cb_][:, None] + rr
-        high = num_hi / (ra_ * parts.lo[ca_][:, None] + rs + num_hi)
-        low = num_lo / (ra_ * parts.hi[ca_][:, None] + rs + num_lo)
+        num_hi = rb_ * parts.hi[cb][:, None] + rr
+        num_lo = rb_ * parts.lo[cb][:, None] + rr
+        high = num_hi / (ra_ * parts.lo[ca][:, None] + rs + num_hi)
+        low = num_lo / (ra_ * parts.hi[ca][:, None] + rs + num_lo)
+    return np.log(low), np.log(high)
+
+
+def _materialise(parts: _Parts, lim: _Limits, side: int, win: _Windows, sel: IntArray) -> _Half:
+    """The half records of the windows ``sel`` (indices into ``win``, in order): one record per
+    partner value of each window."""
+    pa, pb = (0, 1) if side == 1 else (2, 3)
+    n = win.count[sel]
+    total = int(n.sum())
+    w = np.repeat(sel, n)
+    offsets = np.arange(total) - np.repeat(np.cumsum(n) - n, n)
+    ca_, ka_, cb_ = win.ca[w], win.ka[w], win.cb[w]
+    kb_ = win.index[cb_, win.first[w] + offsets]
+    low, high = _terms(parts, lim, side, ca_, ka_, cb_, kb_)
     cost = parts.best_cost[pa][ca_, ka_] + parts.best_cost[pb][cb_, kb_]
-    return _Half(g, ca_, ka_, cb_, kb_, cost, np.log(low), np.log(high))
+    return _Half(win.group[w], ca_, ka_, cb_, kb_, cost, low, high)
+
+
+def _half_records(parts: _Parts, lim: _Limits, side: int) -> _Half:
+    """Every (class, value, class, value) of one side inside the gain and balance window."""
+    win = _windows(parts, lim, side)
+    return _materialise(parts, lim, side, win, np.arange(win.group.size))
+
+
+def _group_bounds(parts: _Parts, lim: _Limits, side: int, win: _Windows) -> tuple[Array, Array]:
+    """Per group of ``win``, without writing its records out: a lower bound of its least
+    record cost (the first position's cost plus the partner class's cheapest usable value) and
+    of its least spread ``ln term_hi − ln term_lo`` per vertex (G, V). The spread is exact on
+    side 1: it falls as the partner R2 grows (``ln(hi₂/lo₂) + ln(R1·hi₁ + Rs1 + R2·lo₂) −
+    ln(R1·lo₁ + Rs1 + R2·hi₂)``, derivative of the sign of ``lo₂·K₂ − hi₂·K₁ ≤ 0``), so each
+    window's least is at its largest partner value. On side 2 the spread is
+    ``ln((R4·hi₄ + Rref)/(R4·lo₄ + Rref))``, rising with R4, plus ``ln((K₁ + R4·lo₄)/(K₂ +
+    R4·hi₄))``, falling: the first at the window's smallest R4 plus the second at its largest
+    is a lower bound (exact without REF impedance)."""
+    pa, pb = (0, 1) if side == 1 else (2, 3)
+    if win.group.size == 0:
+        return np.zeros(0), np.zeros((0, lim.rs1.size))
+    cheapest_b = np.min(parts.best_cost[pb], axis=1)  # inf for a class with no usable value
+    cost = parts.best_cost[pa][win.ca, win.ka] + cheapest_b[win.cb]
+    k_last = win.index[win.cb, win.first + win.count - 1]
+    low, high = _terms(parts, lim, side, win.ca, win.ka, win.cb, k_last)
+    spread = high - low
+    if side == 2 and np.any(lim.rref > 0.0):
+        k_first = win.index[win.cb, win.first]
+        rb = parts.values[k_first][:, None]
+        hi_b, lo_b = parts.hi[win.cb][:, None], parts.lo[win.cb][:, None]
+        rr = lim.rref[None, :]
+        exact_rise = np.log((rb * hi_b + rr) / (rb * lo_b + rr))
+        r_last = parts.values[k_last][:, None]
+        rise_at_last = np.log((r_last * hi_b + rr) / (r_last * lo_b + rr))
+        spread = spread - rise_at_last + exact_rise
+    starts = win.starts[:-1]
+    least_cost = np.minimum.reduceat(cost, starts)
+    least_spread = np.minimum.reduceat(spread, starts, axis=0) - 1e-12
+    return least_cost, np.maximum(least_spread, 0.0)
 
 
 def _keep(half: _Half, mask: NDArray[np.bool_]) -> _Half:
@@ -681,14 +799,14 @@ def _join(
     idx_two: IntArray,
     lim: _Limits,
     parts: _Parts,
-    sorted_cache: dict[tuple[int, int], tuple[IntArray, Array]] | None = None,
+    sorted_cache: dict[int, tuple[IntArray, Array]] | None = None,
+    key: int = -1,
 ) -> tuple[IntArray, IntArray]:
     """Exact join of side-1 records ``idx_one`` with side-2 records ``idx_two``: the pairs that
     meet balance and gain at every vertex (and the input impedance floor at nominal values).
-    ``sorted_cache`` keeps each side-2 group sorted by its ``ln a_lo`` at vertex 0 (a group is
-    joined with many side-1 groups)."""
+    ``sorted_cache`` keeps each side-2 group (its number ``key``) sorted by its ``ln a_lo`` at
+    vertex 0 (a group is joined with many side-1 groups)."""
     lam = lim.balance
-    key = (int(idx_two[0]), int(idx_two.size))
     cached = sorted_cache.get(key) if sorted_cache is not None else None
     if cached is None:
         q0 = two.low[idx_two, 0]
@@ -749,15 +867,17 @@ def _join(
 
 
 class Shared:
-    """What the enumerations of one pick build alike (the usable discrete parts, the raw half
-    records of each side), built on first use and kept for the others: the four-discrete
-    search and the one-dual-two-discrete search (``optimizer.solve.mixed``) of one spec. The
-    half records are kept only with ``keep_halves`` (they are large on loose specs)."""
+    """What the enumerations of one pick build alike (the usable discrete parts, the windows
+    and the raw half records of each side), built on first use and kept for the others: the
+    four-discrete search and the one-dual-two-discrete search (``optimizer.solve.mixed``) of
+    one spec. The half records are kept only with ``keep_halves`` (they are large on loose
+    specs)."""
 
     def __init__(self, keep_halves: bool = True) -> None:
         self._parts: list[_Parts | None] = []
+        self._windows: dict[int, _Windows] = {}
         self._halves: dict[int, _Half] = {}
-        self._keep = keep_halves  # False: no other search reads them (their memory is freed)
+        self.keeps_halves = keep_halves  # False: no other search reads them (memory is freed)
 
     def parts(
         self, catalog: Catalog, spec: Spec, env: LinearEnvironment, lim: _Limits
@@ -766,13 +886,66 @@ class Shared:
             self._parts.append(_discrete_parts(catalog, spec, env, lim))
         return self._parts[0]
 
+    def windows(self, parts: _Parts, lim: _Limits, side: int) -> _Windows:
+        if side not in self._windows:
+            self._windows[side] = _windows(parts, lim, side)
+        return self._windows[side]
+
     def half(self, parts: _Parts, lim: _Limits, side: int) -> _Half:
         if side in self._halves:
             return self._halves[side]
-        half = _half_records(parts, lim, side)
-        if self._keep:
+        win = self.windows(parts, lim, side)
+        half = _materialise(parts, lim, side, win, np.arange(win.group.size))
+        if self.keeps_halves:
             self._halves[side] = half
         return half
+
+
+#: Records of both sides above which the four-discrete search writes out only the groups it
+#: reaches (:class:`_LazyGroups`) instead of all of them, pruned (:class:`_EagerGroups`).
+LAZY_RECORDS = 1_000_000
+
+
+class _EagerGroups:
+    """Every record of one side written out and pruned; a group's records are a slice."""
+
+    def __init__(self, half: _Half) -> None:
+        self.half = half
+        self.order, self.span, self.cost, self.spread, self.classes, _ = _group_table(half)
+
+    def least_span(self, vertex_groups: list[IntArray]) -> Array:
+        """Per group and vertex group: the least width of a record's union of intervals there
+        (:func:`_spans`)."""
+        spans = _spans(self.half, vertex_groups)[self.order]
+        return np.minimum.reduceat(spans, self.span[:, 0], axis=0)
+
+    def records(self, g: int) -> tuple[_Half, IntArray]:
+        return self.half, self.order[self.span[g, 0] : self.span[g, 1]]
+
+
+class _LazyGroups:
+    """One side's groups by their windows: bounds from :func:`_group_bounds`, and a group's
+    records written out the first time the search reaches it."""
+
+    def __init__(self, parts: _Parts, lim: _Limits, side: int, win: _Windows) -> None:
+        self.parts, self.lim, self.side, self.win = parts, lim, side, win
+        self.cost, self.spread = _group_bounds(parts, lim, side, win)
+        heads = win.starts[:-1]
+        self.classes = np.column_stack([win.ca[heads], win.cb[heads]])
+        self._made: dict[int, _Half] = {}
+
+    def least_span(self, vertex_groups: list[IntArray]) -> Array:
+        """A lower bound of :meth:`_EagerGroups.least_span`: a record's union over a vertex
+        group is at least as wide as its interval at each vertex of it."""
+        return np.column_stack([self.spread[:, g].max(axis=1) for g in vertex_groups])
+
+    def records(self, g: int) -> tuple[_Half, IntArray]:
+        half = self._made.get(g)
+        if half is None:
+            window = np.arange(self.win.starts[g], self.win.starts[g + 1])
+            half = _materialise(self.parts, self.lim, self.side, self.win, window)
+            self._made[g] = half
+        return half, np.arange(half.cost.size)
 
 
 def limits_and_parts(
@@ -805,37 +978,51 @@ def discrete_frontier(
     if start is None:
         return
     lim, parts, shared = start
-    one, two = _prune(shared.half(parts, lim, 1), shared.half(parts, lim, 2), lim)
-    if not (one.cost.size and two.cost.size):
+    groups = _sides(parts, lim, shared)
+    if groups is None:
         return
-    order1, span1, cost1, spread1, cls1, _ = _group_table(one)
-    order2, span2, cost2, spread2, cls2, _ = _group_table(two)
+    one, two = groups
     # Group pairs: feasible by least spreads (over the vertices that share the partner's term,
     # as in ``_prune``), keyed by their least cost.
-    fits = np.ones((spread1.shape[0], spread2.shape[0]), dtype=bool)
-    for one_side, other, groups, other_spread in (
-        (one, order1, _vertex_groups(np.column_stack([lim.rs3, lim.rref])), spread2),
-        (two, order2, _vertex_groups(lim.rs1[:, None]), spread1),
+    fits = np.ones((one.spread.shape[0], two.spread.shape[0]), dtype=bool)
+    for this, other, vertex_groups in (
+        (one, two, _vertex_groups(np.column_stack([lim.rs3, lim.rref]))),
+        (two, one, _vertex_groups(lim.rs1[:, None])),
     ):
-        span = _spans(one_side, groups)[other]
-        starts = (span1 if one_side is one else span2)[:, 0]
-        least = np.minimum.reduceat(span, starts, axis=0)  # (groups of records, vertex groups)
-        partner = other_spread[:, [g[0] for g in groups]]
-        pair = least[:, None, :] + partner[None, :, :] <= 2.0 * lim.balance
-        fits &= np.all(pair, axis=2) if one_side is one else np.all(pair, axis=2).T
+        least = this.least_span(vertex_groups)  # (groups of this side, vertex groups)
+        partner = other.spread[:, [g[0] for g in vertex_groups]]
+        pair = np.all(least[:, None, :] + partner[None, :, :] <= 2.0 * lim.balance, axis=2)
+        fits &= pair if this is one else pair.T
     g1, g2 = np.nonzero(fits)
     if g1.size == 0:
         return
-    classes = np.column_stack([cls1[g1], cls2[g2]])
+    classes = np.column_stack([one.classes[g1], two.classes[g2]])
     # Lines: one per distinct electrical class at least (a part id has one class), each at
     # least the class's least per-line charge (line cost and stock penalty).
     distinct = np.array(
         [sum(parts.class_charge[c] for c in set(row)) for row in classes.tolist()], dtype=float
     )
-    bound = cost1[g1] + cost2[g2] + distinct
+    bound = one.cost[g1] + two.cost[g2] + distinct
     pair_order = np.argsort(bound, kind="stable")
-    yield from _emit(spec, catalog, env, parts, lim, one, two, order1, span1, order2, span2,
-                     g1[pair_order], g2[pair_order], bound[pair_order], should_stop)  # fmt: skip
+    yield from _emit(spec, catalog, env, parts, lim, one, two, g1[pair_order], g2[pair_order],
+                     bound[pair_order], should_stop)  # fmt: skip
+
+
+def _sides(
+    parts: _Parts, lim: _Limits, shared: Shared
+) -> tuple[_EagerGroups | _LazyGroups, _EagerGroups | _LazyGroups] | None:
+    """Both sides' groups: all records written out and pruned when they are few or another
+    search keeps them anyway, else each group written out when the search reaches it; None
+    when a side has none."""
+    win1, win2 = shared.windows(parts, lim, 1), shared.windows(parts, lim, 2)
+    if win1.group.size == 0 or win2.group.size == 0:
+        return None
+    if not shared.keeps_halves and win1.records + win2.records > LAZY_RECORDS:
+        return _LazyGroups(parts, lim, 1, win1), _LazyGroups(parts, lim, 2, win2)
+    one, two = _prune(shared.half(parts, lim, 1), shared.half(parts, lim, 2), lim)
+    if not (one.cost.size and two.cost.size):
+        return None
+    return _EagerGroups(one), _EagerGroups(two)
 
 
 def _emit(
@@ -844,12 +1031,8 @@ def _emit(
     env: LinearEnvironment,
     parts: _Parts,
     lim: _Limits,
-    one: _Half,
-    two: _Half,
-    order1: IntArray,
-    span1: IntArray,
-    order2: IntArray,
-    span2: IntArray,
+    one: _EagerGroups | _LazyGroups,
+    two: _EagerGroups | _LazyGroups,
     g1: IntArray,
     g2: IntArray,
     bound: Array,
@@ -901,11 +1084,45 @@ def _emit(
         nominal = np.array([[p.resistance_ohm for p in picked]])
         return bool(corner_screen(nominal, low, high, lim)[0])
 
-    sorted_cache: dict[tuple[int, int], tuple[IntArray, Array]] = {}
+    sorted_cache: dict[int, tuple[IntArray, Array]] = {}
     # Per (class, value) quadruple: its stress at the screen's corners (``_rated_combinations``).
     stress_of: dict[tuple[tuple[int, int], ...], tuple[Array, Array]] = {}
     heap: list[tuple[float, int, int, object]] = []
     tick = itertools.count()
+
+    def join_next(pair: _Pair) -> None:
+        """Join the pair's next run of side-1 records (cheapest first) with its side-2 group;
+        the combinations enter the heap as a block, and the pair again at the least cost its
+        records left can reach."""
+        h1, a_idx = pair.next_run()
+        h2, b_idx = two.records(pair.g2)
+        if not pair.done:
+            heapq.heappush(heap, (pair.least_left(), _PAIR, next(tick), pair))
+        ja, jb = _join(h1, a_idx, h2, b_idx, lim, parts, sorted_cache, pair.g2)
+        if ja.size == 0:
+            return
+        keys = np.column_stack([h1.ca[ja], h1.ka[ja], h1.cb[ja], h1.kb[ja],
+                                h2.ca[jb], h2.ka[jb], h2.cb[jb], h2.kb[jb]])  # fmt: skip
+        lb = h1.cost[ja] + h2.cost[jb] + _distinct_charge(keys, parts.line_charge)
+        sort = np.lexsort((*(keys[:, i] for i in range(7, -1, -1)), lb))
+        # The run's combinations, in bound order, enter the heap one at a time.
+        block = _Block(keys[sort], lb[sort], parts, spec)
+        at = block.usable(0)
+        if at is not None:
+            heapq.heappush(heap, (float(block.lbs[at]), _BLOCK, next(tick), (block, at)))
+        push_lifted(block)
+
+    def push_lifted(block: _Block) -> None:
+        """Each entry the block's screen lifted enters the heap as a bound entry at its bound
+        plus its lift: a lower bound of every design of it (``_rated_combinations``)."""
+        for j in block.lifted:
+            k = [int(v) for v in block.keys[j]]
+            first = tuple((k[2 * i], k[2 * i + 1]) for i in range(4))
+            stress_of[first] = (block.power[j], block.peak[j])
+            key = float(block.lbs[j] + block.lift[j])
+            heapq.heappush(heap, (key, _BOUND, next(tick), (first, (0, 0, 0, 0))))
+        block.lifted.clear()
+
     next_pair = 0
     seen: set[tuple[object, ...]] = set()
     while not should_stop():
@@ -914,30 +1131,25 @@ def _emit(
         if next_pair < bound.size and (
             bound[next_pair] < top or (bound[next_pair] == top and not top_exact)
         ):
-            a_idx = order1[span1[g1[next_pair], 0] : span1[g1[next_pair], 1]]
-            b_idx = order2[span2[g2[next_pair], 0] : span2[g2[next_pair], 1]]
+            g_two = int(g2[next_pair])
+            pair = _Pair(
+                int(g1[next_pair]), g_two, float(bound[next_pair]), one, float(two.cost[g_two])
+            )
             next_pair += 1
-            ja, jb = _join(one, a_idx, two, b_idx, lim, parts, sorted_cache)
-            if ja.size == 0:
-                continue
-            keys = np.column_stack([one.ca[ja], one.ka[ja], one.cb[ja], one.kb[ja],
-                                    two.ca[jb], two.ka[jb], two.cb[jb], two.kb[jb]])  # fmt: skip
-            lb = one.cost[ja] + two.cost[jb] + _distinct_charge(keys, parts.line_charge)
-            sort = np.lexsort((*(keys[:, i] for i in range(7, -1, -1)), lb))
-            # The pair's combinations, in bound order, enter the heap one at a time.
-            block = _Block(keys[sort], lb[sort], parts, spec)
-            at = block.usable(0)
-            if at is not None:
-                heapq.heappush(heap, (float(block.lbs[at]), _BLOCK, next(tick), (block, at)))
+            join_next(pair)
             continue
         if not heap:
             return
         key, kind, _, payload = heapq.heappop(heap)
+        if kind == _PAIR:
+            join_next(cast(_Pair, payload))
+            continue
         if kind == _BLOCK:
             block, at = cast(tuple[_Block, int], payload)
             after = block.usable(at + 1)
             if after is not None:
                 heapq.heappush(heap, (float(block.lbs[after]), _BLOCK, next(tick), (block, after)))
+            push_lifted(block)
             k = [int(v) for v in block.keys[at]]
             first = tuple((k[2 * i], k[2 * i + 1]) for i in range(4))
             if block.screened:
@@ -972,6 +1184,41 @@ def _emit(
                 heapq.heappush(heap, (bound_next, _BOUND, next(tick), (electrical, nxt)))
 
 
+class _Pair:
+    """A group pair being joined a run at a time: its side-1 records sorted by cost, the
+    position reached, and the least per-line charge of any design of it (``lines``: the pair's
+    bound less both groups' least costs)."""
+
+    def __init__(
+        self, g1: int, g2: int, bound: float, one: _EagerGroups | _LazyGroups, least_two: float
+    ) -> None:
+        self.g1, self.g2 = g1, g2
+        self.half, idx = one.records(g1)
+        self.order = idx[np.argsort(self.half.cost[idx], kind="stable")]
+        self.least_two = least_two  # least cost of a record of the side-2 group
+        self.lines = bound - float(one.cost[g1]) - least_two
+        self.at = 0
+        self.run = _FIRST_RUN
+
+    @property
+    def done(self) -> bool:
+        return self.at >= self.order.size
+
+    def next_run(self) -> tuple[_Half, IntArray]:
+        """The next run of side-1 records (the run after it is twice as long)."""
+        run = self.order[self.at : self.at + self.run]
+        self.at += run.size
+        self.run *= 2
+        return self.half, run
+
+    def least_left(self) -> float:
+        """A lower bound of every design of the records not joined yet: the least cost of a
+        side-1 record left (they are sorted by cost), the side-2 group's least cost and the
+        pair's least line charge, less a relative 1e-12 (the sums' rounding)."""
+        rest = float(self.half.cost[self.order[self.at]]) + self.least_two + self.lines
+        return rest - 1e-12 * abs(rest)
+
+
 #: Resistor ends of the block-level rating screen (``analysis.checks.rating_corners``): R1 low
 #: and R2 high (the largest current through both), R3 and R4 at every end.
 _SCREEN_ENDS = ((0, 1, 0, 0), (0, 1, 0, 1), (0, 1, 1, 0), (0, 1, 1, 1))
@@ -991,10 +1238,15 @@ class _Block:
         self.ok = np.ones(n, dtype=bool)
         self.power = np.zeros((n, 4))
         self.peak = np.zeros((n, 4))
+        self.lift = np.zeros(n)
         self.done = 0  # entries screened so far (a prefix)
+        # Screened entries that pass only with a dearer part somewhere (lift > 0): taken out of
+        # the block's order, to enter the merge at their bound plus lift (see ``_emit``).
+        self.lifted: list[int] = []
 
     def usable(self, at: int) -> int | None:
-        """The first entry from ``at`` on that passes the screen, or None."""
+        """The first entry from ``at`` on that passes the screen with its cheapest parts, or
+        None (entries that pass only with dearer parts are listed in ``lifted``)."""
         n = self.keys.shape[0]
         if not self.screened:  # (every entry passes)
             return at if at < n else None
@@ -1003,8 +1255,11 @@ class _Block:
                 # Chunks double from 64 up to _STRESS_CHUNK: most blocks need only a few.
                 step = min(_STRESS_CHUNK, max(64, self.done))
                 part = slice(self.done, min(self.done + step, n))
-                ok, power, peak = _rated_combinations(self.keys[part], self.parts, self.spec)
-                self.ok[part], self.power[part], self.peak[part] = ok, power, peak
+                ok, power, peak, lift = _rated_combinations(self.keys[part], self.parts, self.spec)
+                lifted = ok & (lift > 0.0)
+                self.ok[part], self.power[part], self.peak[part] = ok & ~lifted, power, peak
+                self.lift[part] = lift
+                self.lifted.extend((np.flatnonzero(lifted) + part.start).tolist())
                 self.done = part.stop
             ahead = np.flatnonzero(self.ok[at : self.done if self.screened else n])
             if ahead.size:
@@ -1015,13 +1270,17 @@ class _Block:
 
 def _rated_combinations(
     keys: IntArray, parts: _Parts, spec: Spec
-) -> tuple[NDArray[np.bool_], Array, Array]:
+) -> tuple[NDArray[np.bool_], Array, Array, Array]:
     """For combinations ``keys`` (columns: class, value for R1..R4): the mask of those whose
     best-rated part at every position (``_Parts.top_w``, ``top_v``) bears its stress at the
-    corners :data:`_SCREEN_ENDS` of ``analysis.checks.rating_corners``, and that stress
-    ``(power, peak)`` (N, 4). Those corners are points of the exact rating check (every part
-    of a class has the class's δ when ``parts.exact_spread``), so a combination left out fails
-    it with every part of its classes and values (relative slack 1e-9)."""
+    corners :data:`_SCREEN_ENDS` of ``analysis.checks.rating_corners``, that stress
+    ``(power, peak)`` (N, 4), and the *lift* of each: the sum over the positions where the
+    cheapest part does not bear its stress of ``up_cost − cost`` (a part that bears it is rated
+    above the cheapest one, so it costs at least ``_Parts.up_cost``). Those corners are points
+    of the exact rating check (every part of a class has the class's δ when
+    ``parts.exact_spread``), so a combination left out fails it with every part of its classes
+    and values, and every design of a combination costs at least its bound plus its lift
+    (relative slack 1e-9)."""
     n = keys.shape[0]
     power = np.empty((n, 4))
     peak = np.empty((n, 4))
@@ -1033,10 +1292,17 @@ def _rated_combinations(
         )
         power[part], peak[part] = resistor_stress(corners, spec)
     ok = np.ones(n, dtype=bool)
+    lift = np.zeros(n)
     for i in range(4):
-        ok &= power[:, i] * (1.0 - 1e-9) <= parts.top_w[i][cls[:, i], val[:, i]]
-        ok &= peak[:, i] * (1.0 - 1e-9) <= parts.top_v[i][cls[:, i], val[:, i]]
-    return ok, power, peak
+        c, v = cls[:, i], val[:, i]
+        ok &= power[:, i] * (1.0 - 1e-9) <= parts.top_w[i][c, v]
+        ok &= peak[:, i] * (1.0 - 1e-9) <= parts.top_v[i][c, v]
+        head = parts.best[i][c, v]
+        head_bears = (parts.power_w[head] >= power[:, i] * (1.0 - 1e-9)) & (
+            parts.volts[head] >= peak[:, i] * (1.0 - 1e-9)
+        )
+        lift += np.where(head_bears, 0.0, parts.up_cost[i][c, v] - parts.best_cost[i][c, v])
+    return ok, power, peak, lift
 
 
 #: Relative difference below which a design's exact cost counts as equal to its bound: the two
