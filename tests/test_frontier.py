@@ -22,8 +22,11 @@ import itertools
 import math
 import random
 
+import numpy as np
 import pytest
 from battery import spec_text
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from test_oracle import e_value, random_case
 
 from optimizer.analysis.worstcase import common_mode_error_worst_sign, worst_case
@@ -35,7 +38,13 @@ from optimizer.parts import DiscretePart
 from optimizer.solve import frontier as frontier_module
 from optimizer.solve.enumerate import reference_search
 from optimizer.solve.environment import linear_environment
-from optimizer.solve.frontier import discrete_frontier, gain_threshold, log_balance_limit
+from optimizer.solve.frontier import (
+    _Limits,
+    discrete_frontier,
+    gain_spread_ratio,
+    gain_threshold,
+    log_balance_limit,
+)
 from optimizer.solve.search import SearchStatus, pick
 from optimizer.spec import CmrrBasis, DriftModel, Objective, SourceImpedance, Spec, StockPolicy
 from optimizer.userdesign import design_from_parts
@@ -273,6 +282,58 @@ def test_gain_threshold_solves_the_gain_equation(
     assert adm == pytest.approx(gain, rel=1e-12)
     if k == 1.0 and eps == 0.0 and inv_a == 0.0:
         assert t == pytest.approx(gain / (1 + gain))
+
+
+def _adm(a: float, c: float, eps: float, inv_a: float) -> float:
+    """The differential gain from the two divider terms, written out again (superposition of
+    both inputs through an amplifier of open-loop gain A and common-mode error ε)."""
+    return (a * (1 + eps) + c * (1 - eps)) / (2 * (inv_a + (1 - c) * (1 - eps)))
+
+
+@settings(max_examples=400, deadline=None)
+@given(
+    st.floats(0.01, 0.999),
+    st.floats(0.0, 0.02),
+    st.floats(0.01, 0.995),
+    st.floats(0.0, 0.02),
+    st.sampled_from([0.0, 1e-5, -1e-5, 1e-3]),
+    st.sampled_from([0.0, 1e-6, 1e-3]),
+)
+def test_gain_spread_ratio_never_exceeds_what_a_design_meeting_the_gain_shows(
+    a: float, a_spread: float, c: float, c_spread: float, e: float, inv_a: float
+) -> None:
+    """Any terms ``a_lo ≤ a_hi``, ``c_lo ≤ c_hi``: the design meets the gain limits
+    ``G_max = max Adm(a_hi, c_hi, ε, 0)`` and ``G_min = min Adm(a_lo, c_lo, ε, 1/A)`` (the
+    tightest it meets), so the search's bound must stay within ``G_max/G_min``."""
+    a_lo, a_hi = a * (1 - a_spread), min(a * (1 + a_spread), 0.9999)
+    c_lo, c_hi = c * (1 - c_spread), min(c * (1 + c_spread), 0.999)
+    eps = (e, -e) if e else (0.0,)
+    g_max = max(_adm(a_hi, c_hi, x, 0.0) for x in eps)
+    g_min = min(_adm(a_lo, c_lo, x, inv_a) for x in eps)
+    zero = np.zeros(1)
+    lim = _Limits(
+        balance=0.01, gain_max=g_max, gain_min=g_min, eps=eps, inv_a=inv_a,
+        rs1=zero, rs3=zero, rref=zero, min_impedance=0.0,
+    )  # fmt: skip
+    bound = float(gain_spread_ratio(np.array([c_lo]), np.array([c_hi]), lim)[0])
+    assert bound <= g_max / g_min * (1 + 1e-12)
+
+
+def test_gain_spread_ratio_rejects_a_loose_inverting_side_at_high_gain() -> None:
+    """Not vacuous: G = 20 with 1 % parts at R1 = 1 kΩ and R2 = 20 kΩ (no impedances, ideal
+    amplifier). By hand: c_hi = 20 200/21 190 = 0.95328, c_lo = 19 800/20 810 = 0.95147, so
+    (1 − c_lo)/(1 − c_hi) = 1.0388 and (1 + c_hi)/(1 + c_lo) = 1.0009: a ratio of about
+    1.040, more than the 1.005/0.995 = 1.010 a ±0.5 % gain accuracy leaves."""
+    c_hi = 20e3 * 1.01 / (1e3 * 0.99 + 20e3 * 1.01)
+    c_lo = 20e3 * 0.99 / (1e3 * 1.01 + 20e3 * 0.99)
+    zero = np.zeros(1)
+    lim = _Limits(
+        balance=0.01, gain_max=20 * 1.005, gain_min=20 * 0.995, eps=(0.0,), inv_a=0.0,
+        rs1=zero, rs3=zero, rref=zero, min_impedance=0.0,
+    )  # fmt: skip
+    ratio = float(gain_spread_ratio(np.array([c_lo]), np.array([c_hi]), lim)[0])
+    assert ratio == pytest.approx(1.040, abs=0.001)
+    assert ratio > lim.gain_max / lim.gain_min
 
 
 # ---------------------------------------------------------------------------------------------

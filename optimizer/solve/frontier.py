@@ -615,38 +615,73 @@ def _windows(parts: _Parts, lim: _Limits, side: int) -> _Windows:
     return _Windows(g, ca_, ka_, cb_, first_, n_, index, starts)
 
 
+def _side_columns(lim: _Limits, side: int) -> tuple[Array, Array, IntArray]:
+    """The distinct impedances the side's term depends on (``Rs1``; or ``Rs3`` with ``Rref``)
+    as ``(series, top, inverse)``: per distinct column the series and top impedance, and for
+    every vertex its column (the term is the same at vertices that share them)."""
+    if side == 1:
+        keys = lim.rs1[:, None]
+        top = np.zeros_like(lim.rs1)
+    else:
+        keys = np.column_stack([lim.rs3, lim.rref])
+        top = lim.rref
+    _, first, inverse = np.unique(keys, axis=0, return_index=True, return_inverse=True)
+    series = lim.rs1 if side == 1 else lim.rs3
+    return series[first], top[first], inverse.reshape(-1).astype(np.int64)
+
+
+def _term_bounds(
+    parts: _Parts, lim: _Limits, side: int, ca: IntArray, ka: IntArray, cb: IntArray, kb: IntArray
+) -> tuple[Array, Array, IntArray]:
+    """``(term_lo, term_hi, inverse)``: ``c`` (side 1) or ``a`` (side 2) at the corners of the
+    module docstring per record and distinct impedance column (N, U), and each vertex's column
+    (:func:`_side_columns`)."""
+    values = parts.values
+    series, top, inverse = _side_columns(lim, side)
+    ra = values[ka]
+    rb = values[kb]
+    bounds = []
+    for a_end, b_end in ((parts.hi, parts.lo), (parts.lo, parts.hi)):  # term_lo, then term_hi
+        b = (rb * b_end[cb])[:, None] + top[None, :] if top.any() else (rb * b_end[cb])[:, None]
+        term = (ra * a_end[ca])[:, None] + series[None, :]
+        term += b  # (in place: these arrays are the largest of the search)
+        np.divide(b, term, out=term)
+        bounds.append(term)
+    return bounds[0], bounds[1], inverse
+
+
 def _terms(
     parts: _Parts, lim: _Limits, side: int, ca: IntArray, ka: IntArray, cb: IntArray, kb: IntArray
 ) -> tuple[Array, Array]:
-    """``(ln term_lo, ln term_hi)`` per record and vertex (N, V): ``c`` (side 1) or ``a``
-    (side 2) at the corners of the module docstring."""
-    values = parts.values
-    ra_ = values[ka][:, None]
-    rb_ = values[kb][:, None]
-    if side == 1:
-        rs = lim.rs1[None, :]
-        high = (
-            rb_
-            * parts.hi[cb][:, None]
-            / (ra_ * parts.lo[ca][:, None] + rs + rb_ * parts.hi[cb][:, None])
-        )
-        low = (
-            rb_
-            * parts.lo[cb][:, None]
-            / (ra_ * parts.hi[ca][:, None] + rs + rb_ * parts.lo[cb][:, None])
-        )
-    else:
-        rs, rr = lim.rs3[None, :], lim.rref[None, :]
-        num_hi = rb_ * parts.hi[cb][:, None] + rr
-        num_lo = rb_ * parts.lo[cb][:, None] + rr
-        high = num_hi / (ra_ * parts.lo[ca][:, None] + rs + num_hi)
-        low = num_lo / (ra_ * parts.hi[ca][:, None] + rs + num_lo)
-    return np.log(low), np.log(high)
+    """``(ln term_lo, ln term_hi)`` per record and vertex (N, V) (:func:`_term_bounds`)."""
+    t_lo, t_hi, inverse = _term_bounds(parts, lim, side, ca, ka, cb, kb)
+    return np.log(t_lo)[:, inverse], np.log(t_hi)[:, inverse]
+
+
+def gain_spread_ratio(c_lo: Array, c_hi: Array, lim: _Limits) -> Array:
+    """Per side-1 record and vertex (the shape of ``c_lo``, ``c_hi``): the least ratio
+    ``Adm(a_hi, c_hi, ε, 0) / Adm(a_lo, c_lo, ε, 1/A)`` over every partner, the largest over
+    the signs ``ε``; the gain conditions (``Adm(a_hi, c_hi) ≤ G_max``, ``Adm(a_lo, c_lo) ≥
+    G_min``, module docstring) need it at most ``G_max/G_min``. ``Adm`` rises with ``a``
+    (:func:`_adm`), so the ratio is at least its value with ``a_hi = a_lo = a``:
+    ``(1/A + (1 − c_lo)(1 − ε)) / ((1 − c_hi)(1 − ε)) · (a(1+ε) + c_hi(1−ε)) /
+    (a(1+ε) + c_lo(1−ε))``, whose second factor falls with ``a`` and is least at ``a = 1``.
+    The first factor carries the ``1/(1 − c) ≈ 1 + G`` sensitivity of the gain to the
+    inverting side: at high gain a loose class there cannot hold a tight gain accuracy,
+    whatever the partner. Dimensionless. (On side 2 the same bound gains little: a partner
+    ``c`` near 1 leaves only the ratio's spread in ``a``, about half as sensitive.)"""
+    worst = np.zeros(np.shape(c_lo))
+    for e in lim.eps:
+        ratio = (lim.inv_a + (1.0 - c_lo) * (1.0 - e)) / ((1.0 - c_hi) * (1.0 - e))
+        ratio *= (1.0 + e + c_hi * (1.0 - e)) / (1.0 + e + c_lo * (1.0 - e))
+        worst = np.maximum(worst, ratio)
+    return worst
 
 
 def _materialise(parts: _Parts, lim: _Limits, side: int, win: _Windows, sel: IntArray) -> _Half:
     """The half records of the windows ``sel`` (indices into ``win``, in order): one record per
-    partner value of each window."""
+    partner value of each window, less (side 1) those whose own spread already leaves no room
+    for the gain accuracy at some vertex (:func:`gain_spread_ratio`)."""
     pa, pb = (0, 1) if side == 1 else (2, 3)
     n = win.count[sel]
     total = int(n.sum())
@@ -654,9 +689,16 @@ def _materialise(parts: _Parts, lim: _Limits, side: int, win: _Windows, sel: Int
     offsets = np.arange(total) - np.repeat(np.cumsum(n) - n, n)
     ca_, ka_, cb_ = win.ca[w], win.ka[w], win.cb[w]
     kb_ = win.index[cb_, win.first[w] + offsets]
-    low, high = _terms(parts, lim, side, ca_, ka_, cb_, kb_)
+    t_lo, t_hi, inverse = _term_bounds(parts, lim, side, ca_, ka_, cb_, kb_)
     cost = parts.best_cost[pa][ca_, ka_] + parts.best_cost[pb][cb_, kb_]
-    return _Half(win.group[w], ca_, ka_, cb_, kb_, cost, low, high)
+    g = win.group[w]
+    room = lim.gain_max / lim.gain_min * (1.0 + 1e-12)
+    ok = np.all(gain_spread_ratio(t_lo, t_hi, lim) <= room, axis=1) if side == 1 else None
+    if ok is not None and not ok.all():
+        g, ca_, ka_, cb_, kb_, cost = g[ok], ca_[ok], ka_[ok], cb_[ok], kb_[ok], cost[ok]
+        t_lo, t_hi = t_lo[ok], t_hi[ok]
+    low, high = np.log(t_lo)[:, inverse], np.log(t_hi)[:, inverse]
+    return _Half(g, ca_, ka_, cb_, kb_, cost, low, high)
 
 
 def _half_records(parts: _Parts, lim: _Limits, side: int) -> _Half:
@@ -901,9 +943,11 @@ class Shared:
         return half
 
 
-#: Records of both sides above which the four-discrete search writes out only the groups it
-#: reaches (:class:`_LazyGroups`) instead of all of them, pruned (:class:`_EagerGroups`).
-LAZY_RECORDS = 1_000_000
+#: Records of both sides times environment vertices (the size of their term bounds) above which
+#: the four-discrete search writes out only the groups it reaches (:class:`_LazyGroups`)
+#: instead of all of them, pruned (:class:`_EagerGroups`). Measured on the canonical battery
+#: and a sweep of floors: below it, pruning everything first is faster.
+LAZY_RECORDS = 2_000_000
 
 
 class _EagerGroups:
@@ -927,12 +971,27 @@ class _LazyGroups:
     """One side's groups by their windows: bounds from :func:`_group_bounds`, and a group's
     records written out the first time the search reaches it."""
 
-    def __init__(self, parts: _Parts, lim: _Limits, side: int, win: _Windows) -> None:
+    def __init__(
+        self, parts: _Parts, lim: _Limits, side: int, win: _Windows, span_groups: list[IntArray]
+    ) -> None:
         self.parts, self.lim, self.side, self.win = parts, lim, side, win
         self.cost, self.spread = _group_bounds(parts, lim, side, win)
         heads = win.starts[:-1]
         self.classes = np.column_stack([win.ca[heads], win.cb[heads]])
+        self.span_groups = span_groups  # the vertices that share the partner's term
         self._made: dict[int, _Half] = {}
+        self._exact: dict[int, tuple[Array, Array]] = {}
+
+    def exact(self, g: int) -> tuple[Array, Array]:
+        """The group's least span over each of ``span_groups`` and least spread per vertex,
+        from its records (what :class:`_EagerGroups` holds, before pruning)."""
+        if g not in self._exact:
+            half, _ = self.records(g)
+            self._exact[g] = (
+                _spans(half, self.span_groups).min(axis=0),
+                (half.high - half.low).min(axis=0),
+            )
+        return self._exact[g]
 
     def least_span(self, vertex_groups: list[IntArray]) -> Array:
         """A lower bound of :meth:`_EagerGroups.least_span`: a record's union over a vertex
@@ -1017,8 +1076,10 @@ def _sides(
     win1, win2 = shared.windows(parts, lim, 1), shared.windows(parts, lim, 2)
     if win1.group.size == 0 or win2.group.size == 0:
         return None
-    if not shared.keeps_halves and win1.records + win2.records > LAZY_RECORDS:
-        return _LazyGroups(parts, lim, 1, win1), _LazyGroups(parts, lim, 2, win2)
+    if not shared.keeps_halves and (win1.records + win2.records) * lim.rs1.size > LAZY_RECORDS:
+        by_a = _vertex_groups(np.column_stack([lim.rs3, lim.rref]))
+        by_c = _vertex_groups(lim.rs1[:, None])
+        return _LazyGroups(parts, lim, 1, win1, by_a), _LazyGroups(parts, lim, 2, win2, by_c)
     one, two = _prune(shared.half(parts, lim, 1), shared.half(parts, lim, 2), lim)
     if not (one.cost.size and two.cost.size):
         return None
@@ -1132,6 +1193,10 @@ def _emit(
             bound[next_pair] < top or (bound[next_pair] == top and not top_exact)
         ):
             g_two = int(g2[next_pair])
+            if isinstance(one, _LazyGroups) and isinstance(two, _LazyGroups):
+                if not _fits_exactly(one, two, int(g1[next_pair]), g_two, lim.balance):
+                    next_pair += 1
+                    continue
             pair = _Pair(
                 int(g1[next_pair]), g_two, float(bound[next_pair]), one, float(two.cost[g_two])
             )
@@ -1182,6 +1247,22 @@ def _emit(
                 seen.add((electrical, nxt))
                 bound_next = sum(lists[j][nxt[j]][0] for j in range(4)) + lines
                 heapq.heappush(heap, (bound_next, _BOUND, next(tick), (electrical, nxt)))
+
+
+def _fits_exactly(one: _LazyGroups, two: _LazyGroups, g1: int, g2: int, balance: float) -> bool:
+    """The group pair test of ``discrete_frontier`` on the two groups' own records: over the
+    vertices that share one side's partner term, the side's least span plus the partner's
+    least spread there stays within ``2Λ``."""
+    if one.records(g1)[0].cost.size == 0 or two.records(g2)[0].cost.size == 0:
+        return False
+    span1, spread1 = one.exact(g1)
+    span2, spread2 = two.exact(g2)
+    heads_a = [g[0] for g in one.span_groups]
+    heads_c = [g[0] for g in two.span_groups]
+    return bool(
+        np.all(span1 + spread2[heads_a] <= 2.0 * balance)
+        and np.all(span2 + spread1[heads_c] <= 2.0 * balance)
+    )
 
 
 class _Pair:
