@@ -92,7 +92,7 @@ def _hold_records(records: str, monkeypatch: pytest.MonkeyPatch) -> None:
     (what large record counts use), each group pair then joined one side-1 record at a time at
     first (the runs double from there)."""
     if records == "on demand":
-        monkeypatch.setattr(frontier_module, "LAZY_RECORDS", 0)
+        monkeypatch.setattr(frontier_module, "LAZY_CELLS", 0)
         monkeypatch.setattr(frontier_module, "_FIRST_RUN", 1)
 
 

@@ -64,8 +64,9 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from fractions import Fraction
+from functools import cached_property
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -315,7 +316,8 @@ class WorstCase:
     the differential gain ``|Adm|``; ``gain_error_min``/``gain_error_max``: the same as signed
     errors relative to ``target_gain``; ``nominal_gain``/``nominal_cmrr_db``: nominal values,
     no source or REF impedance, ideal amplifier; ``budget``: one :class:`BudgetItem` per entry
-    of :data:`BUDGET_NAMES`; ``corner_count``: corners evaluated."""
+    of :data:`BUDGET_NAMES`, worked out on first use (the search's exact checks of designs it
+    rejects never read it); ``corner_count``: corners evaluated."""
 
     cmrr_db: float
     cmrr_resistors_db: float
@@ -326,8 +328,14 @@ class WorstCase:
     nominal_gain: float
     nominal_cmrr_db: float
     target_gain: float
-    budget: tuple[BudgetItem, ...]
     corner_count: int
+    #: What :attr:`budget` is worked out from: the variation, the environment, the target gain.
+    budget_inputs: tuple[Variation, Environment, float] = field(repr=False, compare=False)
+
+    @cached_property
+    def budget(self) -> tuple[BudgetItem, ...]:
+        """Each contributor alone (:func:`_budget`), computed once, on first use."""
+        return _budget(*self.budget_inputs)
 
     @property
     def gain_error_worst(self) -> float:
@@ -812,8 +820,8 @@ def worst_case_from_variation(
         nominal_gain=float(abs(adm)),
         nominal_cmrr_db=float(rejection_db(_nominal_common_mode_error(variation))),
         target_gain=float(target_gain),
-        budget=_budget(variation, environment, target_gain),
         corner_count=ext.corners,
+        budget_inputs=(variation, environment, float(target_gain)),
     )
 
 

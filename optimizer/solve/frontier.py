@@ -35,9 +35,11 @@ The search
 2. Half records ``(class, value, class, value)`` are generated per class pair inside the value
    window that the gain and balance conditions allow (:func:`_side_window`): first as windows
    (per value of the first position, a run of the partner class's values), then written out
-   and pruned by the least spread any partner half reaches (a necessary condition). When the
-   records are many (:data:`LAZY_RECORDS`, loose floors), only the groups the search reaches
-   are written out, from bounds of each group's least cost and spread computed on the windows
+   (less the (R1, R2) records too loose for the gain accuracy on their own,
+   :func:`gain_spread_ratio`) and pruned by the least spread any partner half reaches (a
+   necessary condition). When the records are many (:data:`LAZY_CELLS`: records times
+   environment vertices; loose floors), only the groups the search reaches are written out,
+   from bounds of each group's least cost and spread computed on the windows
    (:func:`_group_bounds`).
 3. Pairs of half groups (class pairs) are taken in the order of their lowest possible cost; a
    group pair whose least spreads already exceed ``2Λ`` at some vertex is skipped; the others
@@ -947,7 +949,7 @@ class Shared:
 #: the four-discrete search writes out only the groups it reaches (:class:`_LazyGroups`)
 #: instead of all of them, pruned (:class:`_EagerGroups`). Measured on the canonical battery
 #: and a sweep of floors: below it, pruning everything first is faster.
-LAZY_RECORDS = 2_000_000
+LAZY_CELLS = 2_000_000
 
 
 class _EagerGroups:
@@ -1076,7 +1078,7 @@ def _sides(
     win1, win2 = shared.windows(parts, lim, 1), shared.windows(parts, lim, 2)
     if win1.group.size == 0 or win2.group.size == 0:
         return None
-    if not shared.keeps_halves and (win1.records + win2.records) * lim.rs1.size > LAZY_RECORDS:
+    if not shared.keeps_halves and (win1.records + win2.records) * lim.rs1.size > LAZY_CELLS:
         by_a = _vertex_groups(np.column_stack([lim.rs3, lim.rref]))
         by_c = _vertex_groups(lim.rs1[:, None])
         return _LazyGroups(parts, lim, 1, win1, by_a), _LazyGroups(parts, lim, 2, win2, by_c)
