@@ -28,7 +28,7 @@ from .spec import Spec
 from .specfile import load_spec
 from .sweep import SweepAxis, SweepResult
 from .sweep import sweep as _sweep
-from .verify import Verification, verify
+from .verify import Verification, verify, verify_candidate
 
 __all__ = [
     "PickResult",
@@ -67,7 +67,9 @@ def pick(
     command line ranks): ``top`` counts distinct choices and ``ranked`` holds every member of
     each, numbered in ``choices``; False counts single designs."""
     chosen = catalog if catalog is not None else spec_catalogs(spec)
-    return search.pick(spec, chosen, verify, top=top, time_limit_s=time_limit_s, distinct=distinct)
+    return search.pick(
+        spec, chosen, verify_candidate, top=top, time_limit_s=time_limit_s, distinct=distinct
+    )
 
 
 def check(

@@ -372,7 +372,7 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
     from .solve.search import SearchStatus, pick, with_objective
     from .spec import Objective, StockPolicy
     from .specfile import load_spec
-    from .verify import verify
+    from .verify import verify_candidate
 
     _check_outputs(args)
     _stage("spec")
@@ -401,7 +401,7 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
         result = pick(
             spec,
             catalog,
-            verify,
+            verify_candidate,
             top=top,
             time_limit_s=args.time_limit,
             distinct=True,
@@ -414,7 +414,7 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
 
         limit = min(DIAGNOSIS_TIME_LIMIT_S, args.time_limit)
         with interrupt.winding_down():
-            diagnosis = diagnose(spec, catalog, verify, time_limit_s=limit)
+            diagnosis = diagnose(spec, catalog, verify_candidate, time_limit_s=limit)
         interrupt.check()
     trade = None
     if not stopped and result.ranked:
@@ -422,7 +422,7 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
 
         with interrupt.winding_down():
             limit = min(TRADE_TIME_LIMIT_S, args.time_limit)
-            trade = kind_trade(spec, catalog, verify, result, time_limit_s=limit)
+            trade = kind_trade(spec, catalog, verify_candidate, result, time_limit_s=limit)
     _stage("statistics")
     report = build_pick_report(
         spec,
@@ -904,7 +904,7 @@ def _board(args: argparse.Namespace, console: Console) -> int:
     )
     from .report.exports import render_report, report_format
     from .safewrite import STDOUT, OutputError, check_outputs
-    from .verify import verify
+    from .verify import verify_candidate
 
     def outputs_allowed(inputs: list[str]) -> None:
         if args.report is not None and args.report != STDOUT and not report_format(args.report):
@@ -924,7 +924,9 @@ def _board(args: argparse.Namespace, console: Console) -> int:
     _catalog_notes(args, console, catalog)
     top = args.top if args.top is not None else board.purchasing.alternatives
     with interrupt.winding_down():
-        result = board_search(board, catalog, verify, top=top, time_limit_s=args.time_limit)
+        result = board_search(
+            board, catalog, verify_candidate, top=top, time_limit_s=args.time_limit
+        )
     stopped = interrupt.cancelled()
     diagnoses = []
     if result.status is BoardStatus.INFEASIBLE and not stopped:
@@ -934,7 +936,9 @@ def _board(args: argparse.Namespace, console: Console) -> int:
         with interrupt.winding_down():
             for index in result.infeasible:
                 spec = result.specs[index]
-                diagnoses.append((index, diagnose(spec, catalog, verify, time_limit_s=limit)))
+                diagnoses.append(
+                    (index, diagnose(spec, catalog, verify_candidate, time_limit_s=limit))
+                )
         interrupt.check()
     cautions = list(dict.fromkeys(c for a in board.amplifiers for c in safety_cautions(a.spec)))
     report = build_board_report(

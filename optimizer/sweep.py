@@ -16,7 +16,7 @@ from .design import Topology
 from .errors import SpecError
 from .solve.search import PickResult, SearchStatus, pick
 from .spec import Objective, Spec
-from .verify import verify
+from .verify import verify_candidate
 
 __all__ = [
     "DISCRETE_TOPOLOGIES",
@@ -130,7 +130,9 @@ def _series(
         else replace(spec.requirements, gain_accuracy=level),
         preferences=replace(spec.preferences, topologies=allowed, objective=Objective.COST),
     )
-    result: PickResult = pick(point_spec, catalog, verify, top=1, time_limit_s=time_limit_s)
+    result: PickResult = pick(
+        point_spec, catalog, verify_candidate, top=1, time_limit_s=time_limit_s
+    )
     if not result.ranked:
         return SeriesPoint(None, result.status, None)
     best = result.ranked[0]

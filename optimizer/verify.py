@@ -26,7 +26,7 @@ from .analysis.worstcase import WorstCase, worst_case
 from .design import Design
 from .spec import CmrrBasis, Spec
 
-__all__ = ["Margin", "Verification", "verify"]
+__all__ = ["Margin", "Verification", "verify", "verify_candidate"]
 
 
 @dataclass(frozen=True)
@@ -101,6 +101,20 @@ def yield_margin(result: MonteCarloResult, spec: Spec) -> Margin:
     )
 
 
+def verify_candidate(design: Design, spec: Spec) -> Verification:
+    """The exact check as the search runs it on each candidate: :func:`verify`, except that on
+    the worst-case basis a design whose exact worst-case CMRR or gain accuracy fails is
+    returned at once with those two requirements only (it fails whatever the other checks
+    say, and the search only counts it). A design that passes gets the whole check."""
+    if spec.requirements.cmrr_basis is CmrrBasis.WORST_CASE:
+        worst = worst_case(design, spec)
+        cmrr, gain = cmrr_margin(worst, spec), gain_margin(worst, spec)
+        if not (cmrr.passed and gain.passed):
+            return Verification(worst, None, (), (cmrr, gain), safety_cautions(spec))
+        return _complete(design, spec, worst, None, None)
+    return verify(design, spec)
+
+
 def verify(
     design: Design, spec: Spec, *, statistics: bool | None = None, samples: int | None = None
 ) -> Verification:
@@ -108,7 +122,17 @@ def verify(
 
     ``statistics``: run the Monte Carlo (default: only when the CMRR basis is a yield, where it
     decides the outcome; on the worst-case basis it is informative only)."""
-    worst = worst_case(design, spec)
+    return _complete(design, spec, worst_case(design, spec), statistics, samples)
+
+
+def _complete(
+    design: Design,
+    spec: Spec,
+    worst: WorstCase,
+    statistics: bool | None,
+    samples: int | None,
+) -> Verification:
+    """:func:`verify` from the design's worst case (computed once by the caller)."""
     yield_basis = spec.requirements.cmrr_basis is CmrrBasis.YIELD
     run_mc = yield_basis if statistics is None else statistics
     result = monte_carlo(design, spec, samples=samples) if run_mc or yield_basis else None

@@ -63,7 +63,7 @@ from optimizer.spec import (
     Spec,
     StockPolicy,
 )
-from optimizer.verify import verify
+from optimizer.verify import verify, verify_candidate
 
 #: Random cases in the sweep; every 12th (seed ≡ 5 mod 12) is judged on the yield basis.
 CASES = 200
@@ -765,3 +765,24 @@ def test_noise_limit_with_gain_below_target() -> None:
     assert verify(design, spec).passed
     ref, _ = compare("noise-gain", Case(spec, catalog, "noise at target gain"))
     assert ref.ranked[0][1] == design
+
+
+@pytest.mark.parametrize("seed", range(0, 40, 2))
+def test_the_search_check_decides_as_the_full_check(seed: int) -> None:
+    """``verify_candidate`` (what the search runs on each candidate: a design failing the exact
+    worst-case CMRR or gain returned at once) passes and fails exactly the designs ``verify``
+    does, and gives a design that passes the very same requirements, on random designs of the
+    seeded catalogs (four discrete parts, both CMRR bases)."""
+    case = random_case(seed)
+    rng = random.Random(seed)
+    parts = [case.catalog.discrete_part(i) for i in range(case.catalog.discrete_count)]
+    combos = list(itertools.product(parts, repeat=4))
+    decided = {True: 0, False: 0}
+    for combo in rng.sample(combos, min(25, len(combos))):
+        design = Design(tuple(Placement(f"R{i + 1}", p) for i, p in enumerate(combo)))  # type: ignore[arg-type]
+        full, quick = verify(design, case.spec), verify_candidate(design, case.spec)
+        assert quick.passed == full.passed, (seed, combo)
+        if full.passed:
+            assert quick.requirements == full.requirements
+        decided[full.passed] += 1
+    assert decided[False] > 0  # the early answer is exercised

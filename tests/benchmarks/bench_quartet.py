@@ -415,7 +415,7 @@ def bench_examples(runs: int, paths: Sequence[str]) -> list[dict[str, Any]]:
     example names (the built-in catalog; the ``_stock`` variants add the house stock). Each
     run's status is checked against :data:`EXPECTED_EXAMPLE_STATUS`."""
     from optimizer.solve.search import pick
-    from optimizer.verify import verify
+    from optimizer.verify import verify_candidate as verify  # what the CLI runs
 
     rows = []
     for path in paths:
@@ -471,7 +471,7 @@ def bench_battery(runs: int, tmp: str) -> list[dict[str, Any]]:
     pick's own time (enumeration and model building, CP-SAT, exact checks), without the Monte
     Carlo of the shown designs."""
     from optimizer.solve.search import pick
-    from optimizer.verify import verify
+    from optimizer.verify import verify_candidate as verify  # what the CLI runs
 
     tests_dir = os.path.join(os.path.dirname(os.path.abspath(__file__)), os.pardir)
     if tests_dir not in sys.path:
@@ -583,7 +583,7 @@ def bench_board(runs: int) -> list[dict[str, Any]]:
     from optimizer.board import Board, BoardAmplifier, Purchasing, board_search
     from optimizer.board.boardfile import load_board
     from optimizer.catalog import builtin_catalog
-    from optimizer.verify import verify
+    from optimizer.verify import verify_candidate as verify  # what the CLI runs
 
     specs = [load_spec(os.path.join(REPO, "examples", f"{n}.yaml")) for n in BOARD_KINDS]
     purchasing = Purchasing(line_cost=BOARD_LINE_COST, placement_cost=BOARD_PLACEMENT_COST)
@@ -753,7 +753,7 @@ def bench_oracle(runs: int, sizes: Sequence[int], stop_s: float, tmp: str) -> li
     optimal at the enumerator's optimum cost. A failed size ends the sweep."""
     from optimizer.solve.enumerate import TooManyDesigns, reference_search
     from optimizer.solve.search import pick
-    from optimizer.verify import verify
+    from optimizer.verify import verify, verify_candidate
 
     base = workload_spec()
     rows = []
@@ -777,7 +777,9 @@ def bench_oracle(runs: int, sizes: Sequence[int], stop_s: float, tmp: str) -> li
             ref_cost = ref.ranked[0][0].total
             picks = []
             for k in range(runs):
-                wall, result = timed(pick, spec, catalog, verify, top=1, time_limit_s=TIME_LIMIT[0])
+                wall, result = timed(
+                    pick, spec, catalog, verify_candidate, top=1, time_limit_s=TIME_LIMIT[0]
+                )
                 status = status_name(result.status)
                 if status != PROVEN:
                     raise RunFailed(f"pick run {k + 1}: status {status}, expected {PROVEN}")
@@ -833,7 +835,7 @@ def scale_child(path: str, runs: int) -> dict[str, Any]:
     peak RSS. Raises :class:`RunFailed` when a pick's status is not the expected one (top 10:
     :data:`EXPECTED_SCALING_TOP10`; top 1: proven optimal)."""
     from optimizer.solve.search import pick
-    from optimizer.verify import verify
+    from optimizer.verify import verify_candidate as verify  # what the CLI runs
 
     spec = with_catalog(workload_spec(), [path], builtin=False)
     reads: list[float] = []
