@@ -45,7 +45,7 @@ from optimizer.solve.frontier import (
     gain_threshold,
     log_balance_limit,
 )
-from optimizer.solve.search import SearchStatus, pick
+from optimizer.solve.search import PickResult, SearchStatus, pick
 from optimizer.spec import CmrrBasis, DriftModel, Objective, SourceImpedance, Spec, StockPolicy
 from optimizer.userdesign import design_from_parts
 from optimizer.verify import verify
@@ -96,6 +96,19 @@ def _hold_records(records: str, monkeypatch: pytest.MonkeyPatch) -> None:
         monkeypatch.setattr(frontier_module, "_FIRST_RUN", 1)
 
 
+def _pick_against_the_reference(
+    spec: Spec, catalog: object, seed: int
+) -> tuple[PickResult, list[float]]:
+    """The pick's top-k costs asserted equal to the exhaustive reference's (which tries every
+    design in cost order through the exact check); the pick's result and the reference's costs."""
+    ref = reference_search(spec, catalog, verify, top=TOP)  # type: ignore[arg-type]
+    result = pick(spec, catalog, verify, top=TOP, time_limit_s=60.0)  # type: ignore[arg-type]
+    want = [cost.total for cost, _, _ in ref.ranked]
+    got = [c.cost.total for c in result.ranked]
+    assert got == pytest.approx(want, rel=1e-9, abs=1e-12), (seed, got, want)
+    return result, want
+
+
 #: Every seed with the records written out; every second one with them written on demand.
 TOP_K_CASES = [(s, "written out") for s in range(60)] + [(s, "on demand") for s in range(0, 60, 2)]
 
@@ -106,11 +119,7 @@ def test_top_k_costs_match_the_exhaustive_reference(
 ) -> None:
     _hold_records(records, monkeypatch)
     spec, catalog = _frontier_case(seed)
-    ref = reference_search(spec, catalog, verify, top=TOP)  # type: ignore[arg-type]
-    result = pick(spec, catalog, verify, top=TOP, time_limit_s=60.0)  # type: ignore[arg-type]
-    want = [cost.total for cost, _, _ in ref.ranked]
-    got = [c.cost.total for c in result.ranked]
-    assert got == pytest.approx(want, rel=1e-9, abs=1e-12), (seed, got, want)
+    result, want = _pick_against_the_reference(spec, catalog, seed)
     if want:
         assert result.status is SearchStatus.OPTIMAL
     else:
@@ -180,11 +189,7 @@ def test_a_part_too_small_for_its_stress_costs_its_larger_size(
     its rating at some positions (the reference tries every design through the exact check)."""
     _hold_records(records, monkeypatch)
     spec, catalog = _two_size_case(seed)
-    ref = reference_search(spec, catalog, verify, top=TOP)  # type: ignore[arg-type]
-    result = pick(spec, catalog, verify, top=TOP, time_limit_s=60.0)  # type: ignore[arg-type]
-    want = [cost.total for cost, _, _ in ref.ranked]
-    got = [c.cost.total for c in result.ranked]
-    assert got == pytest.approx(want, rel=1e-9, abs=1e-12), (seed, got, want)
+    result, want = _pick_against_the_reference(spec, catalog, seed)
     large = [p for c in result.ranked for p in c.design.placements if p.part.size == "2512"]
     assert want and large, "the case must need the larger size somewhere"
 

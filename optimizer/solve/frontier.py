@@ -703,12 +703,6 @@ def _materialise(parts: _Parts, lim: _Limits, side: int, win: _Windows, sel: Int
     return _Half(g, ca_, ka_, cb_, kb_, cost, low, high)
 
 
-def _half_records(parts: _Parts, lim: _Limits, side: int) -> _Half:
-    """Every (class, value, class, value) of one side inside the gain and balance window."""
-    win = _windows(parts, lim, side)
-    return _materialise(parts, lim, side, win, np.arange(win.group.size))
-
-
 def _group_bounds(parts: _Parts, lim: _Limits, side: int, win: _Windows) -> tuple[Array, Array]:
     """Per group of ``win``, without writing its records out: a lower bound of its least
     record cost (the first position's cost plus the partner class's cheapest usable value) and

@@ -9,7 +9,7 @@ values and factor ranges, and only the two discrete positions are free, so the c
 environment vertex) decide each pair of discrete (class, value) choices exactly:
 
 * **Divider placements** (the dual at R1, R2 or at R3, R4): the discrete parts form the other
-  side's half, whose records (``frontier._half_records``) are built once; the dual's own side
+  side's half, whose records (``frontier.Shared.half``) are built once; the dual's own side
   term is one interval per vertex, so the partner's ``ln`` term at vertex 0 must lie within
   ``[high − Λ, low + Λ]`` of it: a slice of the records sorted by that term.
 * **Crossed placements** (one dual element on each side): each side is one dual element and one
