@@ -12,7 +12,7 @@ from dataclasses import dataclass, replace
 from typing import Literal
 
 from .catalog import Catalog
-from .design import Topology
+from .design import Design, Topology
 from .errors import SpecError
 from .solve.search import PickResult, SearchStatus, pick
 from .spec import Objective, Spec
@@ -112,6 +112,25 @@ class SweepResult:
         return b > a if self.axis == "cmrr" else b < a
 
 
+def _point_spec(spec: Spec, axis: SweepAxis, level: float, allowed: tuple[Topology, ...]) -> Spec:
+    return replace(
+        spec,
+        requirements=replace(spec.requirements, cmrr_floor_db=level)
+        if axis == "cmrr"
+        else replace(spec.requirements, gain_accuracy=level),
+        preferences=replace(spec.preferences, topologies=allowed, objective=Objective.COST),
+    )
+
+
+@dataclass(frozen=True)
+class _Proven:
+    """The proven outcome of a kind at a looser level: its cheapest design (None when proven
+    infeasible) and what the point showed."""
+
+    design: Design | None
+    point: SeriesPoint
+
+
 def _series(
     spec: Spec,
     catalog: Catalog,
@@ -119,24 +138,33 @@ def _series(
     level: float,
     kinds: Sequence[Topology],
     time_limit_s: float,
-) -> SeriesPoint:
+    looser: _Proven | None,
+) -> tuple[SeriesPoint, _Proven | None]:
+    """The kind's point at ``level`` and, when proven, what a tighter level may inherit.
+
+    Inheritance (set inclusion): every check is monotone in the swept requirement, so the
+    designs meeting a tighter level are a subset of those meeting a looser one. A kind proven
+    infeasible at a looser level is infeasible here; a proven cheapest design of a looser level
+    that passes the exact check here is the cheapest here too (nothing cheaper met even the
+    looser level). Only then is the search skipped; the design is always checked here."""
     allowed = tuple(t for t in spec.preferences.topologies if t in kinds)
     if not allowed:
-        return SeriesPoint(None, None, None)
-    point_spec = replace(
-        spec,
-        requirements=replace(spec.requirements, cmrr_floor_db=level)
-        if axis == "cmrr"
-        else replace(spec.requirements, gain_accuracy=level),
-        preferences=replace(spec.preferences, topologies=allowed, objective=Objective.COST),
-    )
+        return SeriesPoint(None, None, None), None
+    point_spec = _point_spec(spec, axis, level, allowed)
+    if looser is not None:
+        if looser.design is None:
+            return looser.point, looser
+        if verify_candidate(looser.design, point_spec).passed:
+            return looser.point, looser
     result: PickResult = pick(
         point_spec, catalog, verify_candidate, top=1, time_limit_s=time_limit_s
     )
     if not result.ranked:
-        return SeriesPoint(None, result.status, None)
+        point = SeriesPoint(None, result.status, None)
+        return point, (_Proven(None, point) if result.status is SearchStatus.INFEASIBLE else None)
     best = result.ranked[0]
-    return SeriesPoint(best.cost.total, result.status, best.design.topology)
+    point = SeriesPoint(best.cost.total, result.status, best.design.topology)
+    return point, (_Proven(best.design, point) if result.status is SearchStatus.OPTIMAL else None)
 
 
 def sweep(
@@ -150,9 +178,11 @@ def sweep(
 ) -> SweepResult:
     """The cheapest discrete and network designs at each of ``levels`` (CMRR floors in dB for
     ``axis="cmrr"``, gain accuracies as fractions for ``"gain_accuracy"``); each search is
-    limited to ``time_limit_s`` seconds. ``progress(done, level)`` is called after each
-    level. Bad levels (e.g. a gain accuracy of 0) raise :class:`optimizer.errors.ModelError`
-    before any search."""
+    limited to ``time_limit_s`` seconds. The levels are worked from the loosest (the lowest
+    floor, the widest accuracy) to the tightest, so that a tighter level can inherit a looser
+    level's proven outcome (:func:`_series`); the points come back in the order asked.
+    ``progress(done, level)`` is called after each level, in the order worked. Bad levels (e.g.
+    a gain accuracy of 0) raise :class:`optimizer.errors.ModelError` before any search."""
     if axis not in ("cmrr", "gain_accuracy"):
         raise ValueError(f"unknown sweep axis {axis!r}")
     for level in levels:  # validate every level first: no half-done sweep on bad input
@@ -160,14 +190,23 @@ def sweep(
             replace(spec.requirements, cmrr_floor_db=level)
         else:
             replace(spec.requirements, gain_accuracy=level)
-    points = []
-    for index, level in enumerate(levels):
-        discrete = _series(spec, catalog, axis, level, DISCRETE_TOPOLOGIES, time_limit_s)
-        network = _series(spec, catalog, axis, level, NETWORK_TOPOLOGIES, time_limit_s)
-        points.append(SweepPoint(float(level), discrete, network))
+    sign = 1.0 if axis == "cmrr" else -1.0
+    order = sorted(range(len(levels)), key=lambda i: sign * float(levels[i]))
+    points: dict[int, SweepPoint] = {}
+    proven_d: _Proven | None = None
+    proven_n: _Proven | None = None
+    for done, index in enumerate(order, start=1):
+        level = float(levels[index])
+        discrete, proven_d = _series(
+            spec, catalog, axis, level, DISCRETE_TOPOLOGIES, time_limit_s, proven_d
+        )
+        network, proven_n = _series(
+            spec, catalog, axis, level, NETWORK_TOPOLOGIES, time_limit_s, proven_n
+        )
+        points[index] = SweepPoint(level, discrete, network)
         if progress is not None:
-            progress(index + 1, float(level))
-    return SweepResult(tuple(points), time_limit_s, axis)
+            progress(done, level)
+    return SweepResult(tuple(points[i] for i in range(len(levels))), time_limit_s, axis)
 
 
 def sweep_cmrr(

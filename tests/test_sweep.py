@@ -13,6 +13,7 @@ from __future__ import annotations
 import io
 import itertools
 import xml.etree.ElementTree as ET
+from dataclasses import replace
 from pathlib import Path
 
 import pytest
@@ -176,3 +177,56 @@ def test_gain_accuracy_sweep() -> None:
 def test_gain_accuracy_of_zero_is_refused() -> None:
     code, _, err = _run(["sweep", INDUSTRIAL, "--gain-accuracy", "0:0.1:0.05"])
     assert code == 2 and "gain_accuracy" in err
+
+
+MOTOR = str(EXAMPLES / "motor_shunt.yaml")
+
+
+@pytest.mark.parametrize(
+    ("axis", "levels"),
+    [("cmrr", (62.0, 58.0, 60.0, 86.0, 84.0)), ("gain_accuracy", (0.001, 0.004, 0.002))],
+)
+def test_a_sweep_point_is_the_pick_at_that_level(
+    axis: str, levels: tuple[float, ...], monkeypatch: pytest.MonkeyPatch
+) -> None:
+    # Set inclusion (common practice): the designs meeting a tighter level are a subset of those
+    # meeting a looser one, so a looser level's proven cheapest design that still passes is the
+    # cheapest, and a kind proven infeasible stays so. The sweep leans on that to skip searches;
+    # here every point is compared with a search of its own at that level.
+    import optimizer.sweep as sweep_module
+    from optimizer.solve.search import pick
+    from optimizer.spec import Objective
+    from optimizer.sweep import DISCRETE_TOPOLOGIES, NETWORK_TOPOLOGIES
+    from optimizer.verify import verify_candidate
+
+    spec = load_spec(MOTOR)
+    catalog = spec_catalogs(spec)
+    searches: list[float] = []
+
+    def counted(*args: object, **kwargs: object) -> object:
+        searches.append(1.0)
+        return pick(*args, **kwargs)  # type: ignore[arg-type]
+
+    monkeypatch.setattr(sweep_module, "pick", counted)
+    result = sweep(spec, catalog, axis, levels, time_limit_s=20.0)  # type: ignore[arg-type]
+    assert [p.level for p in result.points] == list(levels)
+    assert len(searches) < 2 * len(levels)  # some level was inherited
+    for point in result.points:
+        for kinds, shown in ((DISCRETE_TOPOLOGIES, point.discrete), (NETWORK_TOPOLOGIES,
+                             point.network)):  # fmt: skip
+            allowed = tuple(t for t in spec.preferences.topologies if t in kinds)
+            one = replace(
+                spec,
+                requirements=replace(spec.requirements, cmrr_floor_db=point.level)
+                if axis == "cmrr"
+                else replace(spec.requirements, gain_accuracy=point.level),
+                preferences=replace(spec.preferences, topologies=allowed,
+                                    objective=Objective.COST),
+            )  # fmt: skip
+            own = pick(one, catalog, verify_candidate, top=1, time_limit_s=20.0)
+            assert own.status is shown.status
+            if own.ranked:
+                assert shown.cost == pytest.approx(own.ranked[0].cost.total, abs=1e-9)
+                assert shown.topology is own.ranked[0].design.topology
+            else:
+                assert shown.cost is None
