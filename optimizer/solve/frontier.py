@@ -68,7 +68,7 @@ import heapq
 import itertools
 import math
 from collections.abc import Callable, Iterator, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import cast
 
 import numpy as np
@@ -196,6 +196,13 @@ def _limits(spec: Spec, env: LinearEnvironment) -> _Limits:
         rref=env.vertices[:, 2].copy(),
         min_impedance=req.min_input_impedance_ohm * (1.0 - _SLACK),
     )
+
+
+def at_vertex(lim: _Limits, vertex: int) -> _Limits:
+    """``lim`` with one environment vertex of impedances kept: the conditions at that vertex
+    alone, a subset of those at every vertex (so whatever fails them fails the screen)."""
+    cut = slice(vertex, vertex + 1)
+    return replace(lim, rs1=lim.rs1[cut], rs3=lim.rs3[cut], rref=lim.rref[cut])
 
 
 # --------------------------------------------------------------------------------------------
@@ -905,17 +912,15 @@ def _join(
 
 
 class Shared:
-    """What the enumerations of one pick build alike (the usable discrete parts, the windows
-    and the raw half records of each side), built on first use and kept for the others: the
-    four-discrete search and the one-dual-two-discrete search (``optimizer.solve.mixed``) of
-    one spec. The half records are kept only with ``keep_halves`` (they are large on loose
-    specs)."""
+    """What the enumerations of one pick build alike (the usable discrete parts and the windows
+    of each side), built on first use and kept for the others: the four-discrete search and the
+    one-dual-two-discrete search (``optimizer.solve.mixed``) of one spec. The half records
+    themselves are written out by each search as it needs them (they are large on loose
+    specs, and the two searches need different columns of them)."""
 
-    def __init__(self, keep_halves: bool = True) -> None:
+    def __init__(self) -> None:
         self._parts: list[_Parts | None] = []
         self._windows: dict[int, _Windows] = {}
-        self._halves: dict[int, _Half] = {}
-        self.keeps_halves = keep_halves  # False: no other search reads them (memory is freed)
 
     def parts(
         self, catalog: Catalog, spec: Spec, env: LinearEnvironment, lim: _Limits
@@ -929,14 +934,12 @@ class Shared:
             self._windows[side] = _windows(parts, lim, side)
         return self._windows[side]
 
-    def half(self, parts: _Parts, lim: _Limits, side: int) -> _Half:
-        if side in self._halves:
-            return self._halves[side]
+    def half(self, parts: _Parts, lim: _Limits, side: int, vertex: int | None = None) -> _Half:
+        """Every half record of ``side``, its terms at every vertex, or at ``vertex`` only
+        (:func:`at_vertex`: one column, and only that vertex's conditions drop records)."""
         win = self.windows(parts, lim, side)
-        half = _materialise(parts, lim, side, win, np.arange(win.group.size))
-        if self.keeps_halves:
-            self._halves[side] = half
-        return half
+        at = lim if vertex is None else at_vertex(lim, vertex)
+        return _materialise(parts, at, side, win, np.arange(win.group.size))
 
 
 #: Records of both sides times environment vertices (the size of their term bounds) above which
@@ -1072,7 +1075,7 @@ def _sides(
     win1, win2 = shared.windows(parts, lim, 1), shared.windows(parts, lim, 2)
     if win1.group.size == 0 or win2.group.size == 0:
         return None
-    if not shared.keeps_halves and (win1.records + win2.records) * lim.rs1.size > LAZY_CELLS:
+    if (win1.records + win2.records) * lim.rs1.size > LAZY_CELLS:
         by_a = _vertex_groups(np.column_stack([lim.rs3, lim.rref]))
         by_c = _vertex_groups(lim.rs1[:, None])
         return _LazyGroups(parts, lim, 1, win1, by_a), _LazyGroups(parts, lim, 2, win2, by_c)

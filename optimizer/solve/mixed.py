@@ -492,7 +492,9 @@ def mixed_frontier(
     halves: dict[int, _SortedHalf] = {}
     for side, positions in ((2, (0, 1)), (1, (2, 3))):
         if any(d.positions == positions for d in duals):
-            halves[side] = _sorted_half(shared.half(parts, lim, side), parts, lim)
+            # The candidates are chosen at vertex 0 (the screen decides the rest): the
+            # records' terms there only.
+            halves[side] = _sorted_half(shared.half(parts, lim, side, vertex=0), parts, lim)
     side_least = {side: float(h.bound.min()) if h.bound.size else math.inf
                   for side, h in halves.items()}  # fmt: skip
 

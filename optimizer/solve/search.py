@@ -451,10 +451,7 @@ def prepare(spec: Spec, catalog: Catalog) -> Problem:
     """The environment and limits of the linear model; its options, discrete block and value
     constants follow on first use (:class:`Problem`)."""
     env = linear_environment(spec)
-    keep = Topology.PAIR_PLUS_DISCRETE in spec.preferences.topologies and any(
-        network.elements == 2 for network in catalog.networks
-    )
-    return Problem(spec, catalog, env, limits_for(spec, env), shared=Shared(keep_halves=keep))
+    return Problem(spec, catalog, env, limits_for(spec, env), shared=Shared())
 
 
 def pick(
