@@ -1437,24 +1437,31 @@ def corner_screen(nominal: Array, low: Array, high: Array, lim: _Limits) -> NDAr
     exact worst case for independent parts. For network elements ``low``/``high`` hold the
     element's own range only (the package's shared error at zero): a subset of the exact
     check's variables, so the screen never rejects a design the exact check accepts."""
-    lo = nominal * low
-    hi = nominal * high
-    ok = np.ones(nominal.shape[0], dtype=bool)
+    alive = np.arange(nominal.shape[0])
+    if lim.min_impedance > 0.0:
+        alive = alive[nominal[:, 0] + nominal[:, 2] >= lim.min_impedance]
+    lo = nominal[alive] * low[alive]
+    hi = nominal[alive] * high[alive]
     lam = lim.balance
+    # Vertex by vertex, each on the designs the ones before it kept (most fail at the first).
     for v in range(lim.rs1.size):
+        if alive.size == 0:
+            break
         rs1, rs3, rref = lim.rs1[v], lim.rs3[v], lim.rref[v]
         c_hi = hi[:, 1] / (lo[:, 0] + rs1 + hi[:, 1])
         c_lo = lo[:, 1] / (hi[:, 0] + rs1 + lo[:, 1])
         a_hi = (hi[:, 3] + rref) / (lo[:, 2] + rs3 + hi[:, 3] + rref)
         a_lo = (lo[:, 3] + rref) / (hi[:, 2] + rs3 + lo[:, 3] + rref)
-        ok &= np.log(c_hi / a_lo) <= lam
+        ok = np.log(c_hi / a_lo) <= lam
         ok &= np.log(c_lo / a_hi) >= -lam
         for e in lim.eps:
             ok &= _adm(a_hi, c_hi, e, 0.0) <= lim.gain_max
             ok &= _adm(a_lo, c_lo, e, lim.inv_a) >= lim.gain_min
-    if lim.min_impedance > 0.0:
-        ok &= nominal[:, 0] + nominal[:, 2] >= lim.min_impedance
-    return ok
+        if not ok.all():
+            alive, lo, hi = alive[ok], lo[ok], hi[ok]
+    passed = np.zeros(nominal.shape[0], dtype=bool)
+    passed[alive] = True
+    return passed
 
 
 def _element_bounds(network: NetworkPart, env: LinearEnvironment) -> tuple[float, float]:
@@ -1544,31 +1551,34 @@ def _network_of(design: Design) -> NetworkPart:
 _Layout = tuple[Design, tuple[float, ...], tuple[float, ...], tuple[float, ...]]
 
 
-def _rated(
-    network: NetworkPart,
-    values: Sequence[float],
-    positions: Sequence[int],
-    env: LinearEnvironment,
-    floors: Sequence[float],
-    lim: _Limits,
-) -> bool:
-    """The element ratings against the estimated stress (loosely, :data:`RATING_SCREEN`) and
-    against the least voltage any passing design puts across each position
-    (:func:`stress_floor` times the element's share at its lowest resistance)."""
+def element_ratings(
+    network: NetworkPart, env: LinearEnvironment, floors: Sequence[float], lim: _Limits
+) -> dict[tuple[float, int], bool]:
+    """Per (element value, position): whether an element of ``network`` with that value can
+    take that position, its ratings against the estimated stress (loosely,
+    :data:`RATING_SCREEN`) and against the least voltage any passing design puts across the
+    position (:func:`stress_floor` times the element's share at its lowest resistance,
+    :func:`stress_share`). Each element is judged alone, so a placement is rated when each of
+    its elements is."""
     power = network.power_per_element_w * env.derating
     lo, hi = _element_bounds(network, env)
     shared = (1.0 - network.abs_tolerance) * (1.0 - network.abs_tempco_per_k * env.delta_t_k)
     shared *= 1.0 - float(life_drift(network.drift_1000h, env.life_h))
-    for r, p in zip(values, positions, strict=True):
-        stress = float(env.stress_v[p])
-        if power * r < RATING_SCREEN * stress**2:
-            return False
-        r_low = np.array([r * lo * shared])
-        least = floors[p] * float(stress_share(lim, p, r_low)[0]) * (1.0 - 1e-9)
-        top = r * hi * (2.0 - shared)
-        if network.max_voltage_v < least or power * top < least**2:
-            return False
-    return True
+    series = (float(lim.rs1.max()), 0.0, float(lim.rs3.max()), float(lim.rref.max()))
+    stresses = [float(v) for v in env.stress_v]
+    table: dict[tuple[float, int], bool] = {}
+    for r in set(network.values_ohm):
+        for p in range(4):
+            stress = stresses[p]
+            r_low = r * lo * shared
+            least = floors[p] * (r_low / (r_low + series[p])) * (1.0 - 1e-9)
+            top = r * hi * (2.0 - shared)
+            table[r, p] = not (
+                power * r < RATING_SCREEN * stress**2
+                or network.max_voltage_v < least
+                or power * top < least**2
+            )
+    return table
 
 
 def _quad_layouts(
@@ -1578,10 +1588,11 @@ def _quad_layouts(
     layouts: list[_Layout] = []
     for network in _usable_networks(spec, catalog, env, 4):
         lo, hi = _element_bounds(network, env)
+        rated = element_ratings(network, env, floors, lim)
         seen: set[tuple[float, ...]] = set()
         for order in itertools.permutations(range(4)):
             values = tuple(network.values_ohm[e] for e in order)
-            if values in seen or not _rated(network, values, range(4), env, floors, lim):
+            if values in seen or not all(rated[v, p] for p, v in enumerate(values)):
                 continue
             seen.add(values)
             placements = tuple(Placement(f"R{i + 1}", network, order[i]) for i in range(4))
@@ -1600,13 +1611,19 @@ def _pair_frontier(
     duals = _usable_networks(spec, catalog, env, 2)
     floors = [stress_floor(spec, lim, p) for p in range(4)]
     slots: list[list[tuple[NetworkPart, tuple[int, int], float, float]]] = [[], []]
+    ratings: dict[str, dict[tuple[float, int], bool]] = {}
     for slot, positions in enumerate((first, second)):
         for network in duals:
             lo, hi = _element_bounds(network, env)
+            if network.part_id not in ratings:
+                ratings[network.part_id] = element_ratings(network, env, floors, lim)
+            rated = ratings[network.part_id]
             seen: set[tuple[float, ...]] = set()
             for order in ((0, 1), (1, 0)):
                 values = tuple(network.values_ohm[e] for e in order)
-                if values in seen or not _rated(network, values, positions, env, floors, lim):
+                if values in seen or not all(
+                    rated[v, p] for v, p in zip(values, positions, strict=True)
+                ):
                     continue
                 seen.add(values)
                 slots[slot].append((network, (order[0], order[1]), lo, hi))

@@ -69,10 +69,10 @@ from .frontier import (
     _Limits,
     _package_extremes,
     _Parts,
-    _rated,
     _side_window,
     _usable_networks,
     corner_screen,
+    element_ratings,
     limits_and_parts,
     stress_floor,
     value_lists,
@@ -185,12 +185,7 @@ def _duals(spec: Spec, catalog: Catalog, env: LinearEnvironment, lim: _Limits) -
         lo, hi = _element_bounds(network, env)
         ends = _package_extremes(network, spec, env)
         cost = parts_cost([network], spec.preferences).total
-        # ``_rated`` judges each element at its position alone: once per value and position.
-        rated = {
-            (value, position): _rated(network, (value,), (position,), env, floors, lim)
-            for value in set(network.values_ohm)
-            for position in range(4)
-        }
+        rated = element_ratings(network, env, floors, lim)
         for shape in ALL_SHAPES:
             seen: set[tuple[float, ...]] = set()
             for order in ((0, 1), (1, 0)):
