@@ -14,6 +14,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
+import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -139,3 +140,56 @@ def test_c_gain_room_holds_every_gain_that_meets_the_limits(
     low, high = c_gain_room(a_lo, a_hi, lim)
     assert low <= math.log(c_lo) + 1e-9
     assert math.log(c_lo) <= high + 1e-9
+
+
+@pytest.mark.parametrize(
+    ("example", "floor_db"),
+    [("motor_shunt", 40.0), ("motor_shunt", 70.0), ("industrial_input", 50.0),
+     ("bridge_front_end", None)],
+)  # fmt: skip
+def test_a_placement_dropped_before_the_merge_has_no_candidate(
+    example: str, floor_db: float | None
+) -> None:
+    """The placements the search drops at once (:func:`mixed._crossed_open`, the divider key
+    ranges) are exactly those whose candidate list, worked out one placement at a time as the
+    merge does, is empty or (a divider whose range holds only records too wide) holds no
+    record whose high end fits: dropping them loses nothing."""
+    from dataclasses import replace
+
+    from helpers import EXAMPLES
+
+    from optimizer.api import spec_catalogs
+    from optimizer.solve import mixed
+    from optimizer.solve.environment import linear_environment
+    from optimizer.solve.frontier import limits_and_parts
+    from optimizer.specfile import load_spec
+
+    spec = load_spec(EXAMPLES / f"{example}.yaml")
+    if floor_db is not None:
+        spec = replace(spec, requirements=replace(spec.requirements, cmrr_floor_db=floor_db))
+    catalog = spec_catalogs(spec)
+    env = linear_environment(spec)
+    start = limits_and_parts(spec, catalog, env, None)
+    assert start is not None
+    lim, parts, shared = start
+    duals = mixed._duals(spec, catalog, env, lim)
+    halves = {
+        side: mixed._sorted_half(shared.half(parts, lim, side, vertex=0), parts, lim)
+        for side in (1, 2)
+    }
+    cands = mixed._Candidates(parts)
+    opened = mixed._crossed_open(duals, cands, lim)
+    from_key, to_key = mixed._divider_keys(duals, lim)
+    dropped = 0
+    for k, dual in enumerate(duals):
+        window = (float(from_key[k]), float(to_key[k]))
+        keys, _ = mixed._candidates(dual, window, parts, lim, cands, halves)
+        if dual.positions in ((0, 1), (2, 3)):
+            _, first, last = mixed._divider_slice(dual, window, halves)
+            kept = last > first
+        else:
+            kept = bool(opened[k])
+        if not kept:
+            dropped += 1
+            assert keys.shape[0] == 0, (k, dual.positions, dual.values)
+    assert dropped > 0  # the screen does drop placements here
