@@ -885,14 +885,22 @@ def _join(
             offsets = np.arange(total) - np.repeat(np.cumsum(c) - c, c)
             ib = sorted_two[np.repeat(first[start:stop], c) + offsets]
             a_rec = idx_one[ia]
-            ok = np.ones(total, dtype=bool)
-            p_hi, p_lo = one.high[a_rec], one.low[a_rec]
-            q_hi, q_lo = two.high[ib], two.low[ib]
-            ok &= np.all(p_hi - q_lo <= lam, axis=1) & np.all(p_lo - q_hi >= -lam, axis=1)
-            c_hi, c_lo, a_hi, a_lo = np.exp(p_hi), np.exp(p_lo), np.exp(q_hi), np.exp(q_lo)
-            for e in lim.eps:
-                ok &= np.all(_adm(a_hi, c_hi, e, 0.0) <= lim.gain_max, axis=1)
-                ok &= np.all(_adm(a_lo, c_lo, e, lim.inv_a) >= lim.gain_min, axis=1)
+            # Vertex by vertex, each on the pairs the vertices before it kept.
+            alive = np.arange(total)
+            for v in range(lim.rs1.size):
+                ra, rb = a_rec[alive], ib[alive]
+                p_hi, p_lo = one.high[ra, v], one.low[ra, v]
+                q_hi, q_lo = two.high[rb, v], two.low[rb, v]
+                fit = (p_hi - q_lo <= lam) & (p_lo - q_hi >= -lam)
+                c_hi, c_lo, a_hi, a_lo = np.exp(p_hi), np.exp(p_lo), np.exp(q_hi), np.exp(q_lo)
+                for e in lim.eps:
+                    fit &= _adm(a_hi, c_hi, e, 0.0) <= lim.gain_max
+                    fit &= _adm(a_lo, c_lo, e, lim.inv_a) >= lim.gain_min
+                alive = alive[fit]
+                if alive.size == 0:
+                    break
+            ok = np.zeros(total, dtype=bool)
+            ok[alive] = True
             if lim.min_impedance > 0.0:
                 r1 = parts.values[one.ka[a_rec]]
                 r2 = parts.values[one.kb[a_rec]]
