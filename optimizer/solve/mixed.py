@@ -225,36 +225,36 @@ class _Candidates:
         self.count = [count for count, _ in lists]
         self.index = [index for _, index in lists]
 
+    def _runs(self, position: int, m_lo: Array, m_hi: Array) -> tuple[IntArray, IntArray]:
+        """Per window (the shape of ``m_lo``) and class (a last axis): the run ``[begin, end)``
+        of the class's own usable values at ``position`` with ``R·lo ≥ m_lo`` and ``R·hi ≤
+        m_hi`` (relative slack 1e-9), as positions in its list (``value_lists``)."""
+        parts = self.parts
+        low = m_lo[..., None] * (1.0 - 1e-9) / parts.lo
+        high = m_hi[..., None] * (1.0 + 1e-9) / parts.hi
+        first = np.searchsorted(parts.values, low.ravel(), side="left").reshape(low.shape)
+        last = np.searchsorted(parts.values, high.ravel(), side="right").reshape(high.shape)
+        classes = np.arange(parts.lo.size)
+        count = self.count[position]
+        return count[classes, first], count[classes, last]
+
     def within(self, position: int, m_lo: float, m_hi: float) -> tuple[IntArray, IntArray]:
         """(class, value index) of every usable pair at ``position`` with ``R·lo ≥ m_lo`` and
         ``R·hi ≤ m_hi`` (relative slack 1e-9)."""
-        parts = self.parts
         if not m_lo <= m_hi:
             empty = np.zeros(0, dtype=np.int64)
             return empty, empty
-        low = m_lo * (1.0 - 1e-9) / parts.lo
-        high = m_hi * (1.0 + 1e-9) / parts.hi
-        first = np.searchsorted(parts.values, low, side="left")
-        last = np.searchsorted(parts.values, high, side="right")
-        classes = np.arange(parts.lo.size)
-        begin = self.count[position][classes, first]
-        n = np.maximum(self.count[position][classes, last] - begin, 0)
+        begin, end = self._runs(position, np.asarray(m_lo), np.asarray(m_hi))
+        n = np.maximum(end - begin, 0)
         total = int(n.sum())
-        cls = np.repeat(classes, n)
+        cls = np.repeat(np.arange(self.parts.lo.size), n)
         offsets = np.arange(total) - np.repeat(np.cumsum(n) - n, n)
         return cls, self.index[position][cls, np.repeat(begin, n) + offsets]
 
     def any_within(self, position: int, m_lo: Array, m_hi: Array) -> NDArray[np.bool_]:
-        """Per window ``(m_lo[i], m_hi[i])``: whether :meth:`within` finds any pair there
-        (the same bounds and slack, for many windows at once)."""
-        parts = self.parts
-        low = m_lo[:, None] * (1.0 - 1e-9) / parts.lo[None, :]
-        high = m_hi[:, None] * (1.0 + 1e-9) / parts.hi[None, :]
-        first = np.searchsorted(parts.values, low.ravel(), side="left").reshape(low.shape)
-        last = np.searchsorted(parts.values, high.ravel(), side="right").reshape(high.shape)
-        classes = np.arange(parts.lo.size)[None, :]
-        count = self.count[position]
-        found: NDArray[np.bool_] = np.any(count[classes, last] > count[classes, first], axis=1)
+        """Per window ``(m_lo[i], m_hi[i])``: whether :meth:`within` finds any pair there."""
+        begin, end = self._runs(position, m_lo, m_hi)
+        found: NDArray[np.bool_] = np.any(end > begin, axis=1)
         return found & (m_lo <= m_hi)
 
 
@@ -348,19 +348,30 @@ def _divider_candidates(
     return sh.keys[first:last][fits], sh.bound[first:last][fits]
 
 
+def _side_roles(side: int, positions: tuple[int, int]) -> tuple[int, int]:
+    """For a crossed placement at ``positions``: the position of ``side`` the dual's element
+    holds and the free one."""
+    top, bottom = (0, 1) if side == 1 else (2, 3)
+    return (top, bottom) if top in positions else (bottom, top)
+
+
+def _side_impedances(side: int, lim: _Limits) -> tuple[Array, Array]:
+    """``(w, u)`` per vertex of :func:`side_term`: ``Rs1`` and 0 on side 1, ``Rs3`` and
+    ``Rref`` on side 2."""
+    return (lim.rs1, np.zeros_like(lim.rs1)) if side == 1 else (lim.rs3, lim.rref)
+
+
 def _crossed_window(duals: list[_Dual], side: int, lim: _Limits) -> tuple[Array, Array]:
     """Per crossed placement (all with the dual's element of ``side`` at the same position):
     the window ``(m_lo, m_hi)`` of the free resistance of ``side`` next to that element
     (:func:`frontier.value_window`, the element over its range and both package ends)."""
-    top, bottom = (0, 1) if side == 1 else (2, 3)
     t_hi, t_lo = _side_window(lim, side)
-    w = lim.rs1 if side == 1 else lim.rs3
-    u = np.zeros_like(lim.rs1) if side == 1 else lim.rref
-    fixed_at = top if top in duals[0].positions else bottom
+    w, u = _side_impedances(side, lim)
+    fixed_at, free = _side_roles(side, duals[0].positions)
     value = np.array([d.values[d.positions.index(fixed_at)] for d in duals])
     fixed_low = value * np.array([min(d.ends) * d.lo for d in duals])
     fixed_high = value * np.array([max(d.ends) * d.hi for d in duals])
-    return value_window(fixed_low, fixed_high, fixed_at == top, t_hi, t_lo, w, u)
+    return value_window(fixed_low, fixed_high, free > fixed_at, t_hi, t_lo, w, u)
 
 
 def _crossed_open(duals: list[_Dual], cands: _Candidates, lim: _Limits) -> NDArray[np.bool_]:
@@ -375,8 +386,8 @@ def _crossed_open(duals: list[_Dual], cands: _Candidates, lim: _Limits) -> NDArr
         if not at:
             continue
         group = [duals[i] for i in at]
-        for side, (top, bottom) in ((1, (0, 1)), (2, (2, 3))):
-            free = bottom if top in shape else top
+        for side in (1, 2):
+            _, free = _side_roles(side, shape)
             m_lo, m_hi = _crossed_window(group, side, lim)
             open_[at] &= cands.any_within(free, m_lo, m_hi)
     return open_
@@ -388,12 +399,10 @@ def _crossed_candidates(dual: _Dual, cands: _Candidates, lim: _Limits) -> IntArr
     sides."""
     parts = cands.parts
     picks: list[tuple[IntArray, IntArray, Array, Array]] = []
-    for side, (top, bottom) in ((1, (0, 1)), (2, (2, 3))):
-        w = lim.rs1 if side == 1 else lim.rs3
-        u = np.zeros_like(lim.rs1) if side == 1 else lim.rref
-        fixed_at = top if top in dual.positions else bottom
+    for side in (1, 2):
+        w, u = _side_impedances(side, lim)
+        fixed_at, free = _side_roles(side, dual.positions)
         value = dual.values[dual.positions.index(fixed_at)]
-        free = bottom if fixed_at == top else top
         m_lo, m_hi = _crossed_window([dual], side, lim)
         cls, val = cands.within(free, float(m_lo[0]), float(m_hi[0]))
         if cls.size == 0:
@@ -402,7 +411,7 @@ def _crossed_candidates(dual: _Dual, cands: _Candidates, lim: _Limits) -> IntArr
         fixed = value * dual.ends[0] * np.array([dual.lo, dual.hi])
         r = parts.values[val]
         free_lo, free_hi = r * parts.lo[cls], r * parts.hi[cls]
-        if free == bottom:
+        if free > fixed_at:  # the free part is R2 or R4
             high = side_term(fixed[0], free_hi, w[0], u[0])
             low = side_term(fixed[1], free_lo, w[0], u[0])
         else:
@@ -410,8 +419,6 @@ def _crossed_candidates(dual: _Dual, cands: _Candidates, lim: _Limits) -> IntArr
             low = side_term(free_hi, fixed[0], w[0], u[0])
         picks.append((cls, val, np.log(low), np.log(high)))
     (c1, k1, lo1, hi1), (c2, k2, lo2, hi2) = picks
-    if c1.size == 0 or c2.size == 0:
-        return np.zeros((0, 4), dtype=np.int64)
     # Balance at that point: ln c_hi − ln a_lo ≤ Λ and ln a_hi − ln c_lo ≤ Λ.
     lam = lim.balance * (1.0 + 1e-9) + 1e-12
     i1, i2 = np.nonzero((hi1[:, None] - lo2[None, :] <= lam) & (hi2[None, :] - lo1[:, None] <= lam))
