@@ -214,10 +214,7 @@ def _add_check_command(commands: argparse._SubParsersAction[_Parser]) -> None:
         "--network", action="append", default=[], metavar="ID:E1,E2,E3,E4",
         help="one network package: the element at R1..R4 (1-based, - for none); repeatable",
     )  # fmt: skip
-    check.add_argument(
-        "--catalog", action="append", default=[], metavar="PATH",
-        help="extra catalog file for the ids (repeatable); the spec's catalogs are always read",
-    )  # fmt: skip
+    _add_catalog_option(check, what=" for the ids")
     check.add_argument(
         "--samples", type=_whole_number(1, MAX_SAMPLES), metavar="N",
         help=f"Monte-Carlo builds (at most {MAX_SAMPLES:,})",
@@ -333,10 +330,7 @@ def _add_pick_command(commands: argparse._SubParsersAction[_Parser]) -> None:
         "bad input, 3 when the time limit ended the search first.",
     )
     pick.add_argument("spec", metavar="SPEC", help="spec file (YAML)")
-    pick.add_argument(
-        "--catalog", action="append", default=[], metavar="PATH",
-        help="extra catalog file (repeatable); the spec's catalogs are always read",
-    )  # fmt: skip
+    _add_catalog_option(pick)
     pick.add_argument(
         "--top", type=_whole_number(1), metavar="N",
         help="how many designs to rank (default: the spec's alternatives)",
@@ -351,10 +345,7 @@ def _add_pick_command(commands: argparse._SubParsersAction[_Parser]) -> None:
         "--objective", choices=[o.value for o in Objective],
         help="what to rank by (default: the spec's objective)",
     )  # fmt: skip
-    pick.add_argument(
-        "--time-limit", type=_seconds, default=PICK_TIME_LIMIT_S, metavar="S",
-        help=f"seconds for the search (default {PICK_TIME_LIMIT_S:g})",
-    )  # fmt: skip
+    _add_time_limit_option(pick, PICK_TIME_LIMIT_S)
     pick.add_argument("--json", action="store_true", help="write the result as JSON")
     _add_export_options(pick, "the best design (rank 1)")
     pick.add_argument(
@@ -490,6 +481,28 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
 # ---------------------------------------------------------------------------------------------
 # exports and the simulator cross-check (pick and check)
 # ---------------------------------------------------------------------------------------------
+
+
+def _add_catalog_option(
+    parser: argparse.ArgumentParser, *, source: str = "spec", what: str = ""
+) -> None:
+    """The repeatable ``--catalog PATH`` of every command that reads catalogs: extra files read
+    after the ones ``source`` (the spec or the board file) names."""
+    parser.add_argument(
+        "--catalog", action="append", default=[], metavar="PATH",
+        help=f"extra catalog file{what} (repeatable); the {source}'s catalogs are always read",
+    )  # fmt: skip
+
+
+def _add_time_limit_option(
+    parser: argparse.ArgumentParser, default_s: float, *, each: bool = False
+) -> None:
+    """``--time-limit S`` of the commands that search (``each``: one limit per search)."""
+    which = "each search" if each else "the search"
+    parser.add_argument(
+        "--time-limit", type=_seconds, default=default_s, metavar="S",
+        help=f"seconds for {which} (default {default_s:g})",
+    )  # fmt: skip
 
 
 def _add_export_options(parser: argparse.ArgumentParser, what: str) -> None:
@@ -779,14 +792,8 @@ def _add_sweep_command(commands: argparse._SubParsersAction[_Parser]) -> None:
         "--gain-accuracy", metavar="START:STOP:STEP",
         help="gain accuracies in percent, e.g. 0.05:0.5:0.05",
     )  # fmt: skip
-    sweep.add_argument(
-        "--catalog", action="append", default=[], metavar="PATH",
-        help="extra catalog file (repeatable); the spec's catalogs are always read",
-    )  # fmt: skip
-    sweep.add_argument(
-        "--time-limit", type=_seconds, default=SWEEP_TIME_LIMIT_S, metavar="S",
-        help=f"seconds for each search (default {SWEEP_TIME_LIMIT_S:g})",
-    )  # fmt: skip
+    _add_catalog_option(sweep)
+    _add_time_limit_option(sweep, SWEEP_TIME_LIMIT_S, each=True)
     sweep.add_argument("--plot", metavar="FILE.png|FILE.svg", help="write the cost curves")
     sweep.add_argument("--force", action="store_true", help="replace a plot file that exists")
     sweep.set_defaults(handler=_sweep)
@@ -867,18 +874,12 @@ def _add_board_command(commands: argparse._SubParsersAction[_Parser]) -> None:
         "diagnosis), 2 on bad input, 3 when the time limit ended the search first.",
     )
     board.add_argument("board", metavar="BOARD", help="board file (YAML)")
-    board.add_argument(
-        "--catalog", action="append", default=[], metavar="PATH",
-        help="extra catalog file (repeatable); the board's catalogs are always read",
-    )  # fmt: skip
+    _add_catalog_option(board, source="board")
     board.add_argument(
         "--top", type=_whole_number(1, 100), metavar="N",
         help="how many boards to rank (default: the board's purchasing.alternatives)",
     )  # fmt: skip
-    board.add_argument(
-        "--time-limit", type=_seconds, default=PICK_TIME_LIMIT_S, metavar="S",
-        help=f"seconds for the search (default {PICK_TIME_LIMIT_S:g})",
-    )  # fmt: skip
+    _add_time_limit_option(board, PICK_TIME_LIMIT_S)
     board.add_argument("--json", action="store_true", help="write the result as JSON")
     board.add_argument("--bom", metavar="FILE.csv", help="write the merged BOM of the best board")
     board.add_argument("--json-out", metavar="FILE", help="write the JSON document to a file")
