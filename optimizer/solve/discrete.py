@@ -55,10 +55,6 @@ class DiscreteBlock:
     avail: tuple[tuple[NDArray[np.int64], ...], ...]
     part_row: NDArray[np.int64]
 
-    @property
-    def class_count(self) -> int:
-        return int(self.cost.shape[0])
-
     def usable(self, position: int) -> list[int]:
         """Classes usable at ``position``."""
         return [c for c, ks in enumerate(self.avail[position]) if ks.size]

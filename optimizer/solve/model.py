@@ -83,7 +83,6 @@ class BuiltModel:
     grade: list[dict[int, cp_model.IntVar]]
     options: OptionTable
     cuts: int = 0
-    margin_var: cp_model.IntVar | None = None
     #: Proven infeasible while building (the model holds an empty clause): no solve is needed.
     infeasible: bool = False
     #: The objective expression and its sense (+1 minimise, −1 maximise), for ``no_better``.
@@ -121,10 +120,6 @@ class BuiltModel:
         """No-good cut: forbid this exact set of decisions from appearing together again."""
         self.model.add_bool_or([lit.Not() for lit in chosen])
         self.cuts += 1
-
-
-def _ints(values: NDArray[np.float64], scale: float) -> list[int]:
-    return [int(v) for v in np.rint(values * scale)]
 
 
 class _Sum:
@@ -520,7 +515,6 @@ def build_model(
         value=value,
         grade=grade,
         options=options,
-        margin_var=worst_margin,
         goal=goal,
         sense=sense,
     )
@@ -1033,17 +1027,6 @@ def _couple_halves(
         )
 
 
-def _merge_windows(windows: list[tuple[float, float]]) -> list[tuple[float, float]]:
-    """Union of closed intervals as sorted, disjoint intervals."""
-    merged: list[tuple[float, float]] = []
-    for lo, hi in sorted(windows):
-        if merged and lo <= merged[-1][1]:
-            merged[-1] = (merged[-1][0], max(merged[-1][1], hi))
-        else:
-            merged.append((lo, hi))
-    return merged
-
-
 def _infeasible(model: cp_model.CpModel, options: OptionTable) -> BuiltModel:
     """The model of a stream found infeasible while building: one empty clause, no literals."""
     model.add_bool_or([])
@@ -1167,9 +1150,6 @@ class ExtremeVertices:
     delta_low: tuple[int, ...]
     gain_high: tuple[int, ...]
     gain_low: tuple[int, ...]
-
-    def all(self) -> tuple[int, ...]:
-        return tuple(sorted(set(self.delta_high + self.delta_low + self.gain_high + self.gain_low)))
 
 
 def extreme_vertices(vertices: NDArray[np.float64], gain: float) -> ExtremeVertices:
