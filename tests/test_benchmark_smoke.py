@@ -4,7 +4,7 @@ on purpose is reported FAILED, with no figure, as a missed target and a non-zero
 assertions (speed targets are checked by the benchmark itself, never by tests: project rule).
 
 Sources of the values checked beyond the file's shape: the optimum of the exhaustive
-reference enumerator (``optimizer.solve.enumerate.reference_search``; the minimum over a
+reference enumerator (``optimizer.solve.exhaustive.reference_search``; the minimum over a
 finite set, exact by construction) must equal the CP-SAT pick's on the benchmark's 6-part
 catalog; a spec that is not valid YAML gets exit code 2 from every command (README, "Exit
 codes"). Generated catalogs are invented demo data.

@@ -3,7 +3,7 @@
 The reference shares no code with the board search (``optimizer.board.search``,
 ``optimizer.board.combine``, ``optimizer.solve.frontier``, ``optimizer.solve.search``): for
 each amplifier kind it lists every design the spec allows with
-``optimizer.solve.enumerate.reference_search`` (which verifies every design its exact-check
+``optimizer.solve.exhaustive.reference_search`` (which verifies every design its exact-check
 screens let through with ``optimizer.verify.verify``), keeps the ones that pass, and then tries
 every combination of one passing design per kind, costing each board with its own few lines
 of arithmetic over the part fields below (the board cost rule: README "Board pick"). The
@@ -28,7 +28,7 @@ from optimizer.board.search import alone_spec
 from optimizer.catalog import Catalog, catalog_from_parts
 from optimizer.design import Design, Topology
 from optimizer.parts import Amplifier, DiscretePart, NetworkPart, RailSpan
-from optimizer.solve.enumerate import reference_search
+from optimizer.solve.exhaustive import reference_search
 from optimizer.spec import Preferences, Rails, Reference, Requirements, Signal, Spec, StockPolicy
 from optimizer.verify import verify
 

@@ -1,6 +1,6 @@
 """The exact cost-ordered search (``optimizer.solve.frontier``) against outside references.
 
-* **Top-k against the exhaustive reference** (``optimizer.solve.enumerate``, an independent code
+* **Top-k against the exhaustive reference** (``optimizer.solve.exhaustive``, an independent code
   path that tries every design in cost order through the exact check) on seeded random small
   catalogs, for the two topologies the frontier serves, with dominated parts, same-lot tracking,
   unbalanced values, source and REF impedance, noise and impedance floors, line and placement
@@ -36,8 +36,8 @@ from optimizer.design import Design, Placement, Topology
 from optimizer.eseries import ESeries
 from optimizer.parts import DiscretePart
 from optimizer.solve import frontier as frontier_module
-from optimizer.solve.enumerate import reference_search
 from optimizer.solve.environment import linear_environment
+from optimizer.solve.exhaustive import reference_search
 from optimizer.solve.frontier import (
     _Limits,
     discrete_frontier,
@@ -450,7 +450,7 @@ NETWORK_ONLY = [
 def test_network_specs_match_the_reference_over_the_builtin_catalog(
     tmp_path: object, purpose: str, fields: dict[str, object]
 ) -> None:
-    """The ten cheapest costs equal the exhaustive reference's (``solve.enumerate``, every
+    """The ten cheapest costs equal the exhaustive reference's (``solve.exhaustive``, every
     design through the exact check) over the whole built-in catalog."""
     from pathlib import Path
 

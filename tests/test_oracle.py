@@ -1,6 +1,6 @@
 """The CP-SAT pick against the exhaustive reference enumerator (the oracle).
 
-The reference (``optimizer.solve.enumerate``) shares no code with the CP-SAT model: it lists
+The reference (``optimizer.solve.exhaustive``) shares no code with the CP-SAT model: it lists
 every design the spec allows, verifies them cheapest first with ``optimizer.verify.verify``
 (the single definition of "meets the spec") and costs them with ``optimizer.cost.design_cost``
 (the single definition of cost). Where the two disagree, one of them is wrong:
@@ -37,7 +37,7 @@ from optimizer.cost import design_cost
 from optimizer.design import Design, Placement, Topology
 from optimizer.eseries import ESeries, nearest
 from optimizer.parts import Amplifier, DiscretePart, NetworkPart, RailSpan
-from optimizer.solve.enumerate import (
+from optimizer.solve.exhaustive import (
     MAX_DESIGNS,
     ReferenceResult,
     TooManyDesigns,

@@ -21,7 +21,7 @@ from helpers import run_cli
 from optimizer.catalog import load_catalogs
 from optimizer.cli import EXIT_OK
 from optimizer.cost import design_cost
-from optimizer.solve.enumerate import reference_search
+from optimizer.solve.exhaustive import reference_search
 from optimizer.solve.search import pick
 from optimizer.specfile import load_spec
 from optimizer.userdesign import design_from_parts
@@ -115,7 +115,7 @@ def test_adding_a_part_never_raises_the_optimum(tmp_path: Path) -> None:
     """Case 6: a catalog that holds every part of another (plus one) can only do as well or
     better; before the fix the larger catalog made the pick exit 1 while the smaller proved
     29.46. The noise ceiling now also holds at the end of life (drift applied), so the named
-    design fails; the outside reference is the exhaustive search (``solve.enumerate``: every
+    design fails; the outside reference is the exhaustive search (``solve.exhaustive``: every
     design of these small catalogs through the exact check), which the pick must match on
     both catalogs."""
     folder = _case(tmp_path, "6_add_part_makes_infeasible")

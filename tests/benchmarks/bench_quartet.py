@@ -751,7 +751,7 @@ def bench_oracle(runs: int, sizes: Sequence[int], stop_s: float, tmp: str) -> li
     (it is the slow side); the pick's figure is the median of ``runs``. The workload is meant to
     be feasible: the enumerator must find a passing design, and every pick must be proven
     optimal at the enumerator's optimum cost. A failed size ends the sweep."""
-    from optimizer.solve.enumerate import TooManyDesigns, reference_search
+    from optimizer.solve.exhaustive import TooManyDesigns, reference_search
     from optimizer.solve.search import pick
     from optimizer.verify import verify, verify_candidate
 
