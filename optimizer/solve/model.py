@@ -42,6 +42,8 @@ from .options import (
     C_DELTA,
     DIVIDER_SHAPES,
     EQUAL_SHAPES,
+    PAIR,
+    QUAD,
     OptionTable,
     gain_coefficients,
 )
@@ -175,7 +177,7 @@ def build_model(
     discrete_allowed = bool(allowed & {Topology.DISCRETE, Topology.PAIR_PLUS_DISCRETE})
     usable_options = _usable_options(options, allowed)
     if variant.pair_shape is not None:
-        usable_options &= (options.kind == 2) & (options.shape == variant.pair_shape)
+        usable_options &= (options.positions == PAIR) & (options.shape == variant.pair_shape)
     if constants is None:
         constants = value_constants(block, spec, env)
     usable, classes = _prune(
@@ -227,7 +229,7 @@ def build_model(
             return _infeasible(model, options)
 
     x = [model.new_bool_var(f"o{i}") for i in range(n)]
-    kinds = options.kind
+    positions = options.positions
     value: list[dict[int, cp_model.IntVar]] = []
     grade: list[dict[int, cp_model.IntVar]] = []
     placed: list[cp_model.LinearExpr | int] = []  # 1 when position i holds a discrete part
@@ -256,7 +258,7 @@ def build_model(
     for position in range(4):
         covering = [x[i] for i in np.flatnonzero(options.covers[:, position])]
         model.add(_total(covering) + placed[position] == 1)
-    quads = [x[i] for i in np.flatnonzero(kinds == 4)]
+    quads = [x[i] for i in np.flatnonzero(positions == QUAD)]
     model.add(_total(quads) == t.get(Topology.QUAD, 0))
     mixed = {s: model.new_bool_var(f"mixed{s}") for s in range(len(ALL_SHAPES))}
     if Topology.PAIR_PLUS_DISCRETE in t:
@@ -265,7 +267,7 @@ def build_model(
         for var in mixed.values():
             model.add(var == 0)
     for s, shape in enumerate(ALL_SHAPES):
-        pairs = [x[i] for i in np.flatnonzero((kinds == 2) & (options.shape == s))]
+        pairs = [x[i] for i in np.flatnonzero((positions == PAIR) & (options.shape == s))]
         fixed = t.get(Topology.EQUAL_PAIRS, 0) if shape in EQUAL_SHAPES else 0
         fixed = t.get(Topology.DIVIDER_PAIRS, 0) if shape in DIVIDER_SHAPES else fixed
         model.add(_total(pairs) == fixed + mixed[s])
@@ -831,7 +833,9 @@ def _half_pairs(
             if len(a_keys) > MAX_HALF_PAIRS:
                 return None
         else:
-            members = np.flatnonzero(usable & (options.kind == 2) & (options.shape == first))
+            members = np.flatnonzero(
+                usable & (options.positions == PAIR) & (options.shape == first)
+            )
             a_keys = np.column_stack([members, np.full(members.size, -1)])
             a_delta, a_gain = options.delta[members], options.gain[members]
             a_members = members
@@ -1049,8 +1053,8 @@ def _usable_options(options: OptionTable, allowed: set[Topology]) -> NDArray[np.
         shapes.update(ALL_SHAPES.index(s) for s in DIVIDER_SHAPES)
     if Topology.PAIR_PLUS_DISCRETE in allowed:
         shapes.update(range(len(ALL_SHAPES)))
-    pair_ok = (options.kind == 2) & np.isin(options.shape, sorted(shapes))
-    quad_ok = (options.kind == 4) & (Topology.QUAD in allowed)
+    pair_ok = (options.positions == PAIR) & np.isin(options.shape, sorted(shapes))
+    quad_ok = (options.positions == QUAD) & (Topology.QUAD in allowed)
     return np.asarray(pair_ok | quad_ok, dtype=bool)
 
 
@@ -1127,7 +1131,7 @@ def _prune(
                         keep &= ~bad
                         changed = True
     if not yield_basis:
-        quads = keep & (options.kind == 4)
+        quads = keep & (options.positions == QUAD)
         log_g = math.log(req.gain)
         for v in range(env.vertices.shape[0]):
             mismatch = np.abs(options.delta[:, v]) + options.w_delta[:, v] > limits.cmrr_budget

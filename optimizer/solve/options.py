@@ -36,7 +36,11 @@ from .environment import LinearEnvironment, life_drift, series_impedance
 #: verifies the real stress of the chosen design).
 RATING_RELAXATION = 0.97
 
-__all__ = ["C_DELTA", "OptionTable", "build_options", "gain_coefficients"]
+__all__ = ["C_DELTA", "PAIR", "QUAD", "OptionTable", "build_options", "gain_coefficients"]
+
+#: ``OptionTable.positions`` of a pair network option and of a quad network option.
+PAIR = 2
+QUAD = 4
 
 C_DELTA = np.array([1.0, -1.0, -1.0, 1.0])
 
@@ -79,11 +83,12 @@ def variance(
 class OptionTable:
     """Options with their constants; arrays of length n (options) or shape (n, V) (vertices).
 
-    ``kind``: 0 discrete, 2 pair, 4 quad; ``covers``: (n, 4) booleans; ``shape``: index into
-    :data:`ALL_SHAPES` for pairs, else −1; ``line``: an id per part number (for line cost);
-    ``cost``: part cost plus placement cost plus stock penalty (relative units)."""
+    ``positions``: how many of R1..R4 the package covers (:data:`PAIR` or :data:`QUAD`);
+    ``covers``: (n, 4) booleans; ``shape``: index into :data:`ALL_SHAPES` for pairs, else −1;
+    ``line``: an id per part number (for line cost); ``cost``: part cost plus placement cost
+    plus stock penalty (relative units)."""
 
-    kind: NDArray[np.int64]
+    positions: NDArray[np.int64]
     covers: NDArray[np.bool_]
     shape: NDArray[np.int64]
     line: NDArray[np.int64]
@@ -100,13 +105,13 @@ class OptionTable:
     line_names: tuple[str, ...]
 
     def __len__(self) -> int:
-        return int(self.kind.shape[0])
+        return int(self.positions.shape[0])
 
     def subset(self, mask: NDArray[np.bool_]) -> OptionTable:
         """The options where ``mask`` is true (same line ids and names)."""
         index = np.flatnonzero(mask)
         return OptionTable(
-            kind=self.kind[index],
+            positions=self.positions[index],
             covers=self.covers[index],
             shape=self.shape[index],
             line=self.line[index],
@@ -128,7 +133,7 @@ class OptionTable:
 class _Rows:
     """Accumulator of per-option rows before they are stacked into an :class:`OptionTable`."""
 
-    kind: list[int]
+    positions: list[int]
     covers: list[tuple[bool, bool, bool, bool]]
     shape: list[int]
     line: list[int]
@@ -238,7 +243,7 @@ def _network_rows(
                 upper = [0.0] * 4
                 for p, r in zip(shape, layout, strict=True):
                     resist[p], own[p], own_v[p], upper[p] = r, own_dev, own_var, r * grow
-                rows.kind.append(len(shape))
+                rows.positions.append(len(shape))
                 rows.covers.append(tuple(i in shape for i in range(4)))  # type: ignore[arg-type]
                 rows.shape.append(ALL_SHAPES.index(shape) if len(shape) == 2 else -1)  # type: ignore[arg-type,unused-ignore]
                 rows.line.append(line)
@@ -264,11 +269,11 @@ def build_options(catalog: Catalog, spec: Spec, env: LinearEnvironment) -> Optio
     lines: dict[str, int] = {}
     blocks: list[dict[str, NDArray[np.float64] | NDArray[np.int64] | NDArray[np.bool_]]] = []
     _network_rows(catalog, spec, env, rows, lines)
-    if rows.kind:
-        m = len(rows.kind)
+    if rows.positions:
+        m = len(rows.positions)
         blocks.append(
             {
-                "kind": np.array(rows.kind, dtype=np.int64),
+                "positions": np.array(rows.positions, dtype=np.int64),
                 "covers": np.array(rows.covers, dtype=bool).reshape(m, 4),
                 "shape": np.array(rows.shape, dtype=np.int64),
                 "line": np.array(rows.line, dtype=np.int64),
@@ -284,7 +289,7 @@ def build_options(catalog: Catalog, spec: Spec, env: LinearEnvironment) -> Optio
     makers = tuple(rows.makers)
     if not blocks:
         empty = {
-            "kind": np.zeros(0, dtype=np.int64),
+            "positions": np.zeros(0, dtype=np.int64),
             "covers": np.zeros((0, 4), dtype=bool),
             "shape": np.zeros(0, dtype=np.int64),
             "line": np.zeros(0, dtype=np.int64),
@@ -332,7 +337,7 @@ def _stack(
     gain, w_gain, s_gain = project(cg)
     noise = _noise_terms(resist, covered, spec, env)
     return OptionTable(
-        kind=np.asarray(rows["kind"], dtype=np.int64),
+        positions=np.asarray(rows["positions"], dtype=np.int64),
         covers=np.asarray(rows["covers"], dtype=bool),
         shape=np.asarray(rows["shape"], dtype=np.int64),
         line=np.asarray(rows["line"], dtype=np.int64),

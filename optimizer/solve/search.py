@@ -33,7 +33,15 @@ from .environment import LinearEnvironment, linear_environment
 from .frontier import Shared, discrete_frontier, network_frontier
 from .limits import Limits, limits_for
 from .mixed import mixed_frontier
-from .options import ALL_SHAPES, DIVIDER_SHAPES, EQUAL_SHAPES, OptionTable, build_options
+from .options import (
+    ALL_SHAPES,
+    DIVIDER_SHAPES,
+    EQUAL_SHAPES,
+    PAIR,
+    QUAD,
+    OptionTable,
+    build_options,
+)
 from .ranking import binding_requirement, family_key, tie_key
 
 if TYPE_CHECKING:  # CP-SAT loads on first use: the exact enumerations never need it
@@ -673,21 +681,25 @@ def _streams(problem: Problem, spec: Spec) -> list[_Stream | _FrontierStream]:
         if _frontier_applies(spec, topology):
             streams.append(_FrontierStream(problem, topology))
             continue
-        kind, shape_of = problem.options.kind, problem.options.shape
+        covered, shape_of = problem.options.positions, problem.options.shape
         has_discrete = [bool(problem.block.usable(i)) for i in range(4)]
         if topology is Topology.PAIR_PLUS_DISCRETE:
             for shape in range(len(ALL_SHAPES)):
                 rest = [i for i in range(4) if i not in ALL_SHAPES[shape]]
-                if ((kind == 2) & (shape_of == shape)).any() and all(has_discrete[i] for i in rest):
+                if ((covered == PAIR) & (shape_of == shape)).any() and all(
+                    has_discrete[i] for i in rest
+                ):
                     streams.append(_Stream(problem, frozenset({topology}), objective, shape))
             continue
         if topology is Topology.DISCRETE:
             possible = all(has_discrete)
         elif topology is Topology.QUAD:
-            possible = bool((kind == 4).any())
+            possible = bool((covered == QUAD).any())
         else:
             shapes = EQUAL_SHAPES if topology is Topology.EQUAL_PAIRS else DIVIDER_SHAPES
-            possible = all(((kind == 2) & (shape_of == ALL_SHAPES.index(s))).any() for s in shapes)
+            possible = all(
+                ((covered == PAIR) & (shape_of == ALL_SHAPES.index(s))).any() for s in shapes
+            )
         if possible:
             streams.append(_Stream(problem, frozenset({topology}), objective))
     return streams
