@@ -74,7 +74,7 @@ def test_streams_left_out_have_no_design(name: str) -> None:
                 pair_shape=shape,
             )
         )
-        solver = search_module.solver_parameters(20.0)
+        solver = search_module.configured_solver(20.0)
         status = solver.solve(built.model)
         assert status == cp_model.INFEASIBLE, f"{name}: {topology.value} shape {shape}"
 

@@ -6,7 +6,7 @@ solve only ever excludes designs already seen, the k-th verified design of a run
 solves is the k-th cheapest design that passes the exact check: the ranking is proven, not
 heuristic. When the time limit stops a solve early the status says so, with the gap.
 
-Solver parameters are fixed (``solver_parameters``): a fixed seed and a single search worker
+The solver is configured once (``configured_solver``): a fixed seed and a single search worker
 by default, so the same inputs give the same designs in the same order on every run.
 """
 
@@ -55,8 +55,8 @@ __all__ = [
     "PickResult",
     "SearchProgress",
     "SearchStatus",
+    "configured_solver",
     "pick",
-    "solver_parameters",
 ]
 
 DEFAULT_TIME_LIMIT_S = 30.0
@@ -124,7 +124,7 @@ class PickResult:
     ties_cut: bool = False
 
 
-def solver_parameters(time_limit_s: float, workers: int = 1, seed: int = 0) -> cp_model.CpSolver:
+def configured_solver(time_limit_s: float, workers: int = 1, seed: int = 0) -> cp_model.CpSolver:
     """A CP-SAT solver with fixed parameters: time limit, worker count, seed."""
     from ortools.sat.python import cp_model
 
@@ -248,7 +248,7 @@ class Problem:
             len(self.block.value_indices(i)) + len(self.block.usable(i)) for i in range(4)
         )
 
-    def read(
+    def decode(
         self, solver: cp_model.CpSolver, built: BuiltModel
     ) -> tuple[list[cp_model.IntVar], Design]:
         """The chosen decision literals and the design they make."""
@@ -340,7 +340,7 @@ class _Stream(_Progress):
             if remaining <= 0.0:
                 self.timed_out, self.optimal, self.exhausted = True, False, True
                 return None
-            solver = solver_parameters(remaining, workers)
+            solver = configured_solver(remaining, workers)
             started = time.perf_counter()
             status = solver.solve(built.model)
             clock.solve += time.perf_counter() - started
@@ -356,7 +356,7 @@ class _Stream(_Progress):
                 self.optimal, self.timed_out, self.exhausted = False, True, True
                 objective, bound = solver.objective_value, solver.best_objective_bound
                 self.gap = abs(objective - bound) / max(abs(objective), 1e-12)
-            chosen, design = self.problem.read(solver, built)
+            chosen, design = self.problem.decode(solver, built)
             built.exclude(chosen)
             if status == cp_model.OPTIMAL:
                 built.no_better(solver.objective_value)
