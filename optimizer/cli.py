@@ -363,6 +363,7 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
     from .solve.search import SearchStatus, pick, with_objective
     from .spec import Objective, StockPolicy
     from .specfile import load_spec
+    from .statistics import with_statistics
     from .verify import verify_candidate
 
     _check_outputs(args)
@@ -415,9 +416,11 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
             limit = min(TRADE_TIME_LIMIT_S, args.time_limit)
             trade = kind_trade(spec, catalog, verify_candidate, result, time_limit_s=limit)
     _stage("statistics")
+    result, statistics_s = with_statistics(result, spec)
     report = build_pick_report(
         spec,
         result,
+        statistics_seconds=statistics_s,
         designs_asked=top,
         time_limit_s=args.time_limit,
         cautions=safety_cautions(spec),
@@ -905,6 +908,7 @@ def _board(args: argparse.Namespace, console: Console) -> int:
     )
     from .report.exports import render_report, report_format
     from .safewrite import STDOUT, OutputError, check_outputs
+    from .statistics import board_statistics
     from .verify import verify_candidate
 
     def outputs_allowed(inputs: list[str]) -> None:
@@ -942,9 +946,11 @@ def _board(args: argparse.Namespace, console: Console) -> int:
                 )
         interrupt.check()
     cautions = list(dict.fromkeys(c for a in board.amplifiers for c in safety_cautions(a.spec)))
+    verifications, statistics_s = board_statistics(result)
     report = build_board_report(
         board, result, boards_asked=top, time_limit_s=args.time_limit, cautions=cautions,
-        diagnoses=diagnoses, interrupted=stopped,
+        diagnoses=diagnoses, interrupted=stopped, verifications=verifications,
+        statistics_seconds=statistics_s,
     )  # fmt: skip
     json_text = board_json_text(board_to_json(report, _all_warnings(args)))
     if args.json:

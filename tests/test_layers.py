@@ -3,7 +3,7 @@
 Data flows one way::
 
     errors → units, eseries → parts / design / spec → specfile, catalog → analysis → verify
-    → solve → report → cli
+    → solve → statistics → report → cli
 
 Each module of ``optimizer`` is given its layer below; a module may import from its own layer
 and from lower ones only. The analysis and the solver never print, never open files and never
@@ -47,6 +47,7 @@ LAYERS: dict[str, int] = {
     "optimizer.solve": 6,
     "optimizer.sweep": 6,
     "optimizer.board": 6,
+    "optimizer.statistics": 6,
     "optimizer.report": 7,
     "optimizer.api": 7,
     "optimizer.cli": 8,
@@ -138,6 +139,41 @@ def test_the_analysis_and_the_solver_stay_quiet(path: Path) -> None:
             if any(n == "rich" or n.startswith("rich.") for n in names):
                 found.append(f"{path.name}:{node.lineno}: imports Rich")
     assert found == []
+
+
+#: What computes, and so has no place in the render layer: the exact analyses, the solver's
+#: entry points, and threads (the project's rule, DEVELOPERS.md "Data flow").
+COMPUTING = {
+    "monte_carlo", "monte_carlo_from_variation", "worst_case", "worst_case_from_variation",
+    "verify", "verify_candidate", "pick", "sweep", "board_search", "run_checks",
+    "ThreadPoolExecutor",
+}  # fmt: skip
+
+
+def _computing_imports(source: str) -> list[str]:
+    found = []
+    for node in ast.walk(ast.parse(source)):
+        if isinstance(node, ast.ImportFrom):
+            found += [
+                f"{node.lineno}: imports {a.name} from {node.module}"
+                for a in node.names
+                if a.name in COMPUTING
+            ]
+    return found
+
+
+@pytest.mark.parametrize(
+    "path",
+    [p for p in MODULES if _module_name(p).startswith("optimizer.report")],
+    ids=lambda p: _module_name(p),
+)
+def test_the_report_layer_only_renders(path: Path) -> None:
+    assert _computing_imports(path.read_text(encoding="utf-8")) == []
+
+
+def test_the_render_rule_can_fail() -> None:
+    source = "from ..analysis.montecarlo import MonteCarloResult, monte_carlo\n"
+    assert _computing_imports(source) == ["1: imports monte_carlo from analysis.montecarlo"]
 
 
 def test_the_contract_can_fail() -> None:

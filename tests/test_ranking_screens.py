@@ -42,6 +42,7 @@ from optimizer.solve.search import PickResult, SearchStatus, pick
 from optimizer.solve.trade import KindBest, Trade, cost_per_db, kind_trade
 from optimizer.spec import Preferences
 from optimizer.specfile import load_spec
+from optimizer.statistics import with_statistics
 from optimizer.verify import verify
 
 EXAMPLE = Path(__file__).resolve().parent.parent / "examples" / "motor_shunt.yaml"
@@ -205,9 +206,11 @@ def _report() -> PickReport:
         list(spec.preferences.catalogs), include_builtin=spec.preferences.use_builtin_catalogs
     )
     result = pick(spec, catalog, verify, top=10, time_limit_s=60, distinct=True)
+    result, seconds = with_statistics(result, spec)
     return build_pick_report(
-        spec, result, designs_asked=10, time_limit_s=60, cautions=(), stock_known=False
-    )
+        spec, result, designs_asked=10, time_limit_s=60, cautions=(), stock_known=False,
+        statistics_seconds=seconds,
+    )  # fmt: skip
 
 
 def _screen(width: int, stock: bool = False) -> str:

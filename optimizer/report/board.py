@@ -31,10 +31,7 @@ from __future__ import annotations
 
 import csv
 import io
-import os
-import time
 from collections.abc import Sequence
-from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, Final
 
@@ -51,7 +48,7 @@ from ..units import format_fraction, format_resistance, format_tempco
 from ..verify import Verification
 from .check import _cautions_panel, _db, _finite_only, _pct, _position_json, check_json_text
 from .exports import Block
-from .pick import TOPOLOGY_LABELS, Shown, _with_statistics, render_pick_table
+from .pick import TOPOLOGY_LABELS, Shown, render_pick_table
 
 if TYPE_CHECKING:
     from ..solve.diagnose import Diagnosis
@@ -117,26 +114,20 @@ def build_board_report(
     cautions: Sequence[str],
     diagnoses: Sequence[tuple[int, Diagnosis]] = (),
     interrupted: bool = False,
+    verifications: Sequence[Verification] = (),
+    statistics_seconds: float = 0.0,
 ) -> BoardReport:
-    """The report: runs the Monte Carlo of the best board's designs (each kind's spec)."""
-    started = time.perf_counter()
-    verifications: tuple[Verification, ...] = ()
-    best = result.boards[0] if result.boards else None
-    if best is not None:
-        jobs = list(zip(best.chosen, result.specs, strict=True))
-        workers = max(1, min(len(jobs), os.cpu_count() or 1, 4))
-        with ThreadPoolExecutor(workers) as pool:
-            verifications = tuple(
-                pool.map(lambda j: _with_statistics(j[0].verdict, j[0].design, j[1]), jobs)
-            )
+    """The report, computing nothing: ``verifications`` are the best board's verdicts with
+    their Monte Carlo (``optimizer.statistics.board_statistics``, whose seconds are
+    ``statistics_seconds``)."""
     return BoardReport(
         board,
         result,
-        verifications,
+        tuple(verifications),
         tuple(diagnoses),
         boards_asked,
         time_limit_s,
-        time.perf_counter() - started,
+        statistics_seconds,
         tuple(cautions),
         interrupted,
     )

@@ -1,8 +1,8 @@
 """The report of ``quartet pick``: the ranked table, the status line, the winner's full check
 report, and a JSON document.
 
-:func:`build_pick_report` gathers what the outputs show (it runs the Monte Carlo for the
-displayed designs only: the pick itself runs it only where the CMRR basis is a yield);
+:func:`build_pick_report` gathers what the outputs show (the Monte Carlo of the displayed
+designs is filled in before, by ``optimizer.statistics``; the report computes nothing);
 :func:`render_pick` returns Rich renderables (the CLI prints them) and :func:`pick_to_json` a
 plain ``dict`` ready for :func:`json.dumps` (write it with :func:`pick_json_text`).
 
@@ -54,11 +54,8 @@ unit in the key name; fractions are plain fractions, 0.001 = 0.1 %)::
 
 from __future__ import annotations
 
-import os
-import time
 from collections.abc import Sequence
-from concurrent.futures import ThreadPoolExecutor
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, Final
 
 from rich.console import Group, RenderableType
@@ -66,7 +63,6 @@ from rich.table import Table
 from rich.text import Text
 
 from .._version import __version__
-from ..analysis.montecarlo import monte_carlo
 from ..cost import CostBreakdown
 from ..design import Design, Topology
 from ..parts import DiscretePart, NetworkPart
@@ -194,23 +190,10 @@ class PickReport:
         return self.ranked[0] if self.ranked else None
 
 
-#: Most threads for the displayed designs' Monte Carlo runs.
-STATISTICS_THREADS = 4
-
-
 def _verification(verdict: object) -> Verification:
     if not isinstance(verdict, Verification):
         raise TypeError(f"expected the verdict of optimizer.verify.verify, got {type(verdict)}")
     return verdict
-
-
-def _with_statistics(verdict: object, design: Design, spec: Spec) -> Verification:
-    verdict = _verification(verdict)
-    if verdict.monte_carlo is not None:
-        return verdict
-    # On the worst-case basis the Monte Carlo is informative only: it changes no requirement,
-    # so the verdict with the result filled in equals verify(..., statistics=True).
-    return replace(verdict, monte_carlo=monte_carlo(design, spec))
 
 
 def build_pick_report(
@@ -224,10 +207,11 @@ def build_pick_report(
     interrupted: bool = False,
     stock_known: bool = False,
     trade: Trade | None = None,
+    statistics_seconds: float = 0.0,
 ) -> PickReport:
-    """The report of one pick: runs the Monte Carlo (``spec.preferences`` samples and seed)
-    for every displayed design that has none yet."""
-    started = time.perf_counter()
+    """The report of one pick, computing nothing: the displayed designs' Monte Carlo is filled
+    in beforehand (``optimizer.statistics.with_statistics``, whose seconds are
+    ``statistics_seconds``); a design without one shows "n/a" for its statistical figures."""
     choices = result.choices or tuple(range(1, len(result.ranked) + 1))
     leaders: list[Candidate] = []
     followers: dict[int, list[Candidate]] = {}
@@ -238,11 +222,7 @@ def build_pick_report(
             followers[number] = []
             leaders.append(candidate)
     shown = (*leaders, *result.extras)
-    # Each design's Monte Carlo has its own generator (seeded from the spec), so running them on
-    # the machine's cores in threads (numpy releases the GIL) gives the same results in order.
-    workers = max(1, min(len(shown), os.cpu_count() or 1, STATISTICS_THREADS))
-    with ThreadPoolExecutor(workers) as pool:
-        verdicts = list(pool.map(lambda c: _with_statistics(c.verdict, c.design, spec), shown))
+    verdicts = [_verification(c.verdict) for c in shown]
     count = len(leaders)
     ranked = tuple(
         Shown(i + 1, c.design, c.cost, v)
@@ -267,7 +247,7 @@ def build_pick_report(
         diagnosis=diagnosis,
         designs_asked=designs_asked,
         time_limit_s=time_limit_s,
-        statistics_seconds=time.perf_counter() - started,
+        statistics_seconds=statistics_seconds,
         cautions=tuple(cautions),
         interrupted=interrupted,
     )
