@@ -57,7 +57,8 @@ feasible point, so the result never overstates the worst case.
 Public entry points: :func:`worst_case` (a design and a spec), :func:`worst_case_from_variation`
 (a :class:`~optimizer.analysis.variation.Variation` and an environment) and
 :func:`worst_case_from_bounds` (independent parts given as per-resistor bounds, vectorised over
-many candidate designs, for the solver).
+many designs: a plain 16-corner box enumeration, which the tests hold :func:`worst_case` to; no
+search uses it).
 """
 
 from __future__ import annotations
