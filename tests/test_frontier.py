@@ -467,3 +467,62 @@ def test_network_specs_match_the_reference_over_the_builtin_catalog(
     ), purpose
     expected = SearchStatus.OPTIMAL if ref.ranked else SearchStatus.INFEASIBLE
     assert result.status is expected
+
+
+#: The yield basis for networks alone (``optimizer.solve.yieldbox``): the enumeration screens
+#: each network design on its box, the exact check runs the Monte Carlo. Each floor sits just
+#: below the CMRR at yield of the cheapest designs (measured with the pick at a 40 dB floor),
+#: so a box wider than the yield allows drops them (checked: the test fails with the box's
+#: half-width doubled). Purpose beside each.
+YIELD = ", cmrr_basis: yield, yield: {y} %"
+MONTE_CARLO = ", monte_carlo: {{samples: {n}, seed: 11{dist}}}"
+YIELD_NETWORKS = [
+    (
+        "G = 1, 66.6 dB at 99 %, quad only: the cheapest quads pass by about 0.1 dB",
+        dict(gain=1, floor=66.6, tmin=0, tmax=85, topologies="quad_network",
+             req=YIELD.format(y=99), prefs=MONTE_CARLO.format(n=4000, dist="")),
+    ),
+    (
+        "G = 10, 72.4 dB at 99.9 %, quad only, 5 years one-sided drift: the package at its mean",
+        dict(gain=10, floor=72.4, tmin=-40, tmax=85, life=", operating_life: 43800 h",
+             topologies="quad_network",
+             req=YIELD.format(y=99.9) + ", drift_model: one_sided",
+             prefs=MONTE_CARLO.format(n=4000, dist="")),
+    ),
+    (
+        "G = 1, 66.3 dB at 90 %, equal pairs, uniform parts: the uniform quantile rule",
+        dict(gain=1, floor=66.3, topologies="equal_pairs", req=YIELD.format(y=90),
+             prefs=MONTE_CARLO.format(n=2000, dist=", distribution: uniform")),
+    ),
+    (
+        "G = 10, 81.7 dB at 99 %, divider pairs, few samples: the sampling allowance",
+        dict(gain=10, floor=81.7, topologies="divider_pairs", req=YIELD.format(y=99),
+             prefs=MONTE_CARLO.format(n=500, dist="")),
+    ),
+]  # fmt: skip
+
+
+@pytest.mark.parametrize(("purpose", "fields"), YIELD_NETWORKS, ids=[b[0] for b in YIELD_NETWORKS])
+def test_yield_network_specs_match_the_reference_over_the_builtin_catalog(
+    tmp_path: object, purpose: str, fields: dict[str, object]
+) -> None:
+    """On the yield basis the network enumeration's ten cheapest costs equal the exhaustive
+    reference's (``solve.exhaustive``: every network design in cost order through the exact
+    check, the Monte Carlo included) over the whole built-in catalog, and the result is proven."""
+    from pathlib import Path
+
+    from optimizer.solve.search import _frontier_applies
+    from optimizer.specfile import load_spec
+
+    path = Path(str(tmp_path)) / "network.yaml"
+    path.write_text(spec_text(fields), encoding="utf-8")
+    spec = load_spec(str(path))
+    assert all(_frontier_applies(spec, t) for t in spec.preferences.topologies), purpose
+    catalog = builtin_catalog()
+    ref = reference_search(spec, catalog, verify, top=10)
+    result = pick(spec, catalog, verify, top=10, time_limit_s=120.0)
+    assert [c.cost.total for c in result.ranked] == pytest.approx(
+        [cost.total for cost, _, _ in ref.ranked], rel=1e-9
+    ), purpose
+    expected = SearchStatus.OPTIMAL if ref.ranked else SearchStatus.INFEASIBLE
+    assert result.status is expected

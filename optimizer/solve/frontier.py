@@ -85,6 +85,7 @@ from ..parts import DiscretePart, NetworkPart
 from ..spec import Preferences, Spec, StockPolicy
 from .discrete import allowed_rows
 from .environment import LinearEnvironment, life_drift
+from .yieldbox import box_factor, element_box, package_centre
 
 __all__ = [
     "RATING_SCREEN",
@@ -1472,7 +1473,19 @@ def corner_screen(nominal: Array, low: Array, high: Array, lim: _Limits) -> NDAr
     return passed
 
 
-def _element_bounds(network: NetworkPart, env: LinearEnvironment) -> tuple[float, float]:
+def _element_bounds(
+    network: NetworkPart, spec: Spec, env: LinearEnvironment
+) -> tuple[float, float]:
+    """``(low, high)`` factors of one element's own variables as the CMRR and gain conditions
+    take them: :func:`_element_range`, or on the yield basis the box of
+    ``optimizer.solve.yieldbox``."""
+    kappa = box_factor(spec)
+    if kappa is None:
+        return _element_range(network, env)
+    return element_box(network, spec, env, kappa)
+
+
+def _element_range(network: NetworkPart, env: LinearEnvironment) -> tuple[float, float]:
     """``(low, high)`` factors of one element's own variables (ratio tolerance, tracking tempco
     and ratio drift, each half the pair figure: ``analysis.variation``), the package at 0."""
     t = network.ratio_tolerance / 2.0
@@ -1486,7 +1499,10 @@ def _package_extremes(network: NetworkPart, spec: Spec, env: LinearEnvironment) 
 ]:  # fmt: skip
     """The package's shared factor ``(1 + e_abs)(1 + α_abs·ΔT)(1 + d_abs)`` at its two ends
     (``analysis.variation``): points of the exact check's range, so a design must pass the
-    screen at each."""
+    screen at each. On the yield basis both are its mean (``optimizer.solve.yieldbox``)."""
+    if box_factor(spec) is not None:
+        centre = package_centre(network, spec, env)
+        return centre, centre
     swing = network.abs_tempco_per_k * env.delta_t_k
     d_lo, d_hi = drift_factor_bounds(
         float(life_drift(network.drift_1000h, env.life_h)), spec.requirements.drift_model
@@ -1522,7 +1538,9 @@ def network_frontier(
 ) -> Iterator[Design]:
     """Every design of ``topology`` (a quad in each distinct element order, or two duals each in
     either order for equal or divider pairs; the same dual twice is two packages) that passes
-    :func:`corner_screen`, in nondecreasing exact cost (ties by part ids and element order)."""
+    :func:`corner_screen`, in nondecreasing exact cost (ties by part ids and element order). On
+    the yield basis the screen takes the box of ``optimizer.solve.yieldbox`` (element ranges
+    and package factor), which every design meeting the yield passes."""
     lim = _limits(spec, env)
     if lim.balance < 0.0:
         return
@@ -1569,7 +1587,7 @@ def element_ratings(
     :func:`stress_share`). Each element is judged alone, so a placement is rated when each of
     its elements is."""
     power = network.power_per_element_w * env.derating
-    lo, hi = _element_bounds(network, env)
+    lo, hi = _element_range(network, env)
     shared = (1.0 - network.abs_tolerance) * (1.0 - network.abs_tempco_per_k * env.delta_t_k)
     shared *= 1.0 - float(life_drift(network.drift_1000h, env.life_h))
     series = (float(lim.rs1.max()), 0.0, float(lim.rs3.max()), float(lim.rref.max()))
@@ -1595,7 +1613,7 @@ def _quad_layouts(
     floors = [stress_floor(spec, lim, p) for p in range(4)]
     layouts: list[_Layout] = []
     for network in _usable_networks(spec, catalog, env, 4):
-        lo, hi = _element_bounds(network, env)
+        lo, hi = _element_bounds(network, spec, env)
         rated = element_ratings(network, env, floors, lim)
         seen: set[tuple[float, ...]] = set()
         for order in itertools.permutations(range(4)):
@@ -1622,7 +1640,7 @@ def _pair_frontier(
     ratings: dict[str, dict[tuple[float, int], bool]] = {}
     for slot, positions in enumerate((first, second)):
         for network in duals:
-            lo, hi = _element_bounds(network, env)
+            lo, hi = _element_bounds(network, spec, env)
             if network.part_id not in ratings:
                 ratings[network.part_id] = element_ratings(network, env, floors, lim)
             rated = ratings[network.part_id]

@@ -192,7 +192,7 @@ def _duals(spec: Spec, catalog: Catalog, env: LinearEnvironment, lim: _Limits) -
     floors = [stress_floor(spec, lim, p) for p in range(4)]
     found: list[_Dual] = []
     for network in _usable_networks(spec, catalog, env, 2):
-        lo, hi = _element_bounds(network, env)
+        lo, hi = _element_bounds(network, spec, env)
         ends = _package_extremes(network, spec, env)
         cost = parts_cost([network], spec.preferences).total
         rated = element_ratings(network, env, floors, lim)

@@ -27,6 +27,7 @@ from ..catalog import Catalog
 from ..cost import CostBreakdown, design_cost
 from ..design import Design, Placement, Topology
 from ..spec import CmrrBasis, Objective, Spec, StockPolicy
+from . import yieldbox
 from .amplifier import amplifier_limits
 from .discrete import DiscreteBlock, build_discrete, value_constants
 from .environment import LinearEnvironment, linear_environment
@@ -122,6 +123,10 @@ class PickResult:
     #: The collection stopped at MAX_EXTRA_DESIGNS: the last tie group (or the lists of
     #: family members) may be incomplete; the cost order of what is shown stays exact.
     ties_cut: bool = False
+    #: Topologies whose search was given a cost ceiling (the cost of the last ranked design):
+    #: designs dearer than it were never looked for, so a kind missing from ``ranked`` and
+    #: ``extras`` may still have designs that meet the spec.
+    capped: frozenset[Topology] = field(default=frozenset())
 
 
 def configured_solver(time_limit_s: float, workers: int = 1, seed: int = 0) -> cp_model.CpSolver:
@@ -444,15 +449,21 @@ class _FrontierStream(_Progress):
         return None
 
 
+#: Topologies of networks alone: their yield-basis enumeration screens a few hundred options.
+NETWORK_ONLY = frozenset({Topology.QUAD, Topology.EQUAL_PAIRS, Topology.DIVIDER_PAIRS})
+
+
 def _frontier_applies(spec: Spec, topology: Topology) -> bool:
-    """The exact enumeration serves the lowest-cost objective on the worst-case basis for every
-    topology (``optimizer.solve.frontier``, ``optimizer.solve.mixed``); the yield basis and the
-    other objectives use the CP-SAT streams."""
-    del topology
-    return (
-        spec.preferences.objective is Objective.COST
-        and spec.requirements.cmrr_basis is CmrrBasis.WORST_CASE
-    )
+    """The exact enumeration serves the lowest-cost objective: on the worst-case basis for every
+    topology (``optimizer.solve.frontier``, ``optimizer.solve.mixed``), on the yield basis for
+    the network topologies through the box of ``optimizer.solve.yieldbox`` (no same-lot
+    tracking, a yield above one half). The other objectives, and the yield basis with discrete
+    parts, use the CP-SAT streams."""
+    if spec.preferences.objective is not Objective.COST:
+        return False
+    if spec.requirements.cmrr_basis is CmrrBasis.WORST_CASE:
+        return True
+    return topology in NETWORK_ONLY and yieldbox.serves(spec)
 
 
 def prepare(spec: Spec, catalog: Catalog) -> Problem:
@@ -565,6 +576,7 @@ def pick(
         rejected=tuple(rejected),
         choices=choices,
         ties_cut=ties_cut,
+        capped=frozenset(t for s in streams if math.isfinite(s.cost_ceiling) for t in s.topologies),
     )
 
 
