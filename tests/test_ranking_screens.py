@@ -360,6 +360,47 @@ def test_trade_on_the_example_searches_the_missing_kind() -> None:
     assert d.cost == pytest.approx(at.ranked[0].cost.total, rel=1e-12)
 
 
+def test_trade_of_a_kind_searched_below_a_ceiling_tries_the_asked_floor() -> None:
+    """A kind the pick searched only below the ranking's last cost (``PickResult.capped``: the
+    CP-SAT streams of discrete parts on the yield basis, bounded by the network enumeration)
+    may still meet the spec. Motor shunt at the first relaxed floor where a discrete design
+    exists, the ranking made of networks only: the trade must report the kind as meeting the
+    spec at the cost of the discrete pick's own optimum there (checked against that pick), and
+    not as out of reach; unsearched figures are said to be not found, not unreachable."""
+    spec = load_spec(EXAMPLE)
+    catalog = load_catalogs(list(spec.preferences.catalogs))
+    first = kind_trade(spec, catalog, verify, _report().result, time_limit_s=30.0)
+    assert first is not None and first.discrete.floor_db is not None
+    floor = first.discrete.floor_db
+    req = dataclasses.replace(spec.requirements, cmrr_floor_db=floor)
+    relaxed = dataclasses.replace(spec, requirements=req)
+    networks = tuple(t for t in relaxed.preferences.topologies if t is not Topology.DISCRETE)
+    only_networks = dataclasses.replace(
+        relaxed, preferences=dataclasses.replace(relaxed.preferences, topologies=networks)
+    )
+    result = pick(only_networks, catalog, verify, top=3, time_limit_s=30.0)
+    assert result.ranked and all(c.design.topology is not Topology.DISCRETE for c in result.ranked)
+    capped = dataclasses.replace(result, extras=(), capped=frozenset({Topology.DISCRETE}))
+    trade = kind_trade(relaxed, catalog, verify, capped, time_limit_s=30.0)
+    assert trade is not None
+    discrete_only = dataclasses.replace(
+        relaxed,
+        preferences=dataclasses.replace(relaxed.preferences, topologies=(Topology.DISCRETE,)),
+    )
+    truth = pick(discrete_only, catalog, verify, top=1, time_limit_s=30.0)
+    assert truth.status is SearchStatus.OPTIMAL and truth.ranked
+    assert trade.discrete.meets
+    assert trade.discrete.cost == pytest.approx(truth.ranked[0].cost.total, rel=1e-12)
+    unknown = Trade(
+        KindBest("four discrete", False, None, None, timed_out=True),
+        KindBest("network", True, 34.57, 82.24),
+        80.0,
+    )
+    text = trade_text(unknown, spec)
+    assert "no four-discrete design found at 80 dB within the search's time bound" in text
+    assert "reaches" not in text
+
+
 # ---------------------------------------------------------------------------------------------
 # user text is never read as markup or emoji
 # ---------------------------------------------------------------------------------------------

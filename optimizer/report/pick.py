@@ -25,7 +25,9 @@ unit in the key name; fractions are plain fractions, 0.001 = 0.1 %)::
                          search_timed_out, relaxed_floor_db, out_of_reach_db}; a kind that
                          meets nothing gives its cheapest design at the first relaxed floor
                          (relaxed_floor_db) that has one, and the lowest floor shown to have
-                         none (out_of_reach_db); null figures if none found
+                         none (out_of_reach_db: null when the pick searched the kind below the
+                         ranking's last cost only and the asked floor found none in time);
+                         null figures if none found
     other_kind          [design]  the best design of a kind (four discrete parts, or a
                          network) the ranking lacks although the spec allows it
     diagnosis           null unless infeasible: {binding: [requirement names],
@@ -515,7 +517,11 @@ def _kind_words(best: KindBest, floor_db: float, basis: str) -> str:
     unreached = best.out_of_reach_db
     nor = f" (nor {unreached:g} dB)" if unreached is not None and unreached < floor_db else ""
     head = f"no {dash} design reaches {floor_db:g} dB{nor}"
+    if unreached is None:  # searched below a cost ceiling only: the asked floor's reach unknown
+        head = f"no {dash} design found at {floor_db:g} dB within the search's time bound"
     if best.cost is None or best.cmrr_db is None or best.floor_db is None:
+        if unreached is None:
+            return head
         if best.timed_out:
             return f"{head}, and none was found within the search's time bound"
         return f"{head}, nor any lower floor tried"

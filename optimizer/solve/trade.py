@@ -91,15 +91,23 @@ def _relaxed_floors(asked_db: float) -> tuple[float, ...]:
 
 
 def _cheapest_below_floor(
-    spec: Spec, catalog: Catalog, verifier: Verifier, kind: tuple[Topology, ...], time_s: float
+    spec: Spec,
+    catalog: Catalog,
+    verifier: Verifier,
+    kind: tuple[Topology, ...],
+    time_s: float,
+    capped: bool = False,
 ) -> KindBest:
     """The cheapest design of ``kind`` at the first relaxed floor that has one, as a
     :class:`KindBest` without its label (no figures when none has); each search gets the time
-    left of ``time_s``."""
+    left of ``time_s``. ``capped``: the pick searched the kind only below a cost ceiling
+    (``PickResult.capped``), so the asked floor is tried first (a design there meets the spec;
+    none found in time leaves the asked floor's reach unknown: ``out_of_reach_db`` None)."""
     req = spec.requirements
     deadline = time.perf_counter() + time_s
-    out_of_reach = req.cmrr_floor_db
-    for floor in _relaxed_floors(req.cmrr_floor_db):
+    out_of_reach: float | None = None if capped else req.cmrr_floor_db
+    asked = (req.cmrr_floor_db,) if capped else ()
+    for floor in (*asked, *_relaxed_floors(req.cmrr_floor_db)):
         left = deadline - time.perf_counter()
         if left <= 0.0:
             return KindBest("", False, None, None, True, None, out_of_reach)
@@ -114,6 +122,8 @@ def _cheapest_below_floor(
         timed_out = result.status is SearchStatus.TIME_LIMIT
         if result.ranked:
             best = result.ranked[0]
+            if floor == req.cmrr_floor_db:  # meets the spec
+                return KindBest("", True, best.cost.total, _cmrr(best, spec), timed_out)
             return KindBest(
                 "", False, best.cost.total, _cmrr(best, spec), timed_out, floor, out_of_reach
             )
@@ -148,6 +158,7 @@ def kind_trade(
             best = min(mine, key=lambda c: c.cost.total)
             bests.append(KindBest(label, True, best.cost.total, _cmrr(best, spec)))
             continue
-        found = _cheapest_below_floor(spec, catalog, verifier, kind, time_limit_s)
+        capped = bool(set(kind) & result.capped)
+        found = _cheapest_below_floor(spec, catalog, verifier, kind, time_limit_s, capped)
         bests.append(replace(found, kind=label))
     return Trade(bests[0], bests[1], spec.requirements.cmrr_floor_db)
