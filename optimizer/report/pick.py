@@ -512,6 +512,11 @@ def render_status(report: PickReport) -> Text:
 
 def _kind_words(best: KindBest, floor_db: float, basis: str) -> str:
     if best.meets and best.cost is not None and best.cmrr_db is not None:
+        if best.timed_out:  # searched at the asked floor after the pick, and cut by the clock
+            return (
+                f"{best.kind}: best found within the search's time bound at cost "
+                f"{best.cost:.3f} with {best.cmrr_db:.2f} dB {basis}"
+            )
         return f"{best.kind}: cheapest at cost {best.cost:.3f} with {best.cmrr_db:.2f} dB {basis}"
     dash = best.kind.replace(" ", "-")
     unreached = best.out_of_reach_db

@@ -85,7 +85,7 @@ from ..parts import DiscretePart, NetworkPart
 from ..spec import Preferences, Spec, StockPolicy
 from .discrete import allowed_rows
 from .environment import LinearEnvironment, life_drift
-from .yieldbox import box_factor, element_box, package_centre
+from .yieldbox import box_factor, element_box, package_centre, part_box, part_spread
 
 __all__ = [
     "RATING_SCREEN",
@@ -359,6 +359,13 @@ def _discrete_parts(
     drift_low, drift_high = drift_factor_bounds(classes[:, 2], spec.requirements.drift_model)
     lo = (1.0 - classes[:, 0]) * (1.0 - swing) * drift_low
     hi = (1.0 + classes[:, 0]) * (1.0 + swing) * drift_high
+    # The CMRR and gain conditions take the yield basis' part box (``optimizer.solve.yieldbox``,
+    # for the one-dual search); the rating screen below keeps the true range.
+    kappa = box_factor(spec)
+    if kappa is None:
+        box_lo, box_hi = lo, hi
+    else:
+        box_lo, box_hi = part_box(*part_spread(classes[:, 0], swing, classes[:, 2], spec), kappa)
     cost = frame["unit_cost"].to_numpy(float)[rows] + prefs.placement_cost
     rated_w = derated_power(frame["power_w"].to_numpy(float), spec.requirements.temp_max_c)
     power = rated_w[rows]
@@ -410,7 +417,7 @@ def _discrete_parts(
     usable_any = np.any(np.stack([b >= 0 for b in best]), axis=0)
     charge = line_charges(usable_any, stocked, prefs)
     return _Parts(
-        values, lo, hi, tuple(best), tuple(best_cost), tuple(kept_rows), tuple(kept_costs),
+        values, box_lo, box_hi, tuple(best), tuple(best_cost), tuple(kept_rows), tuple(kept_costs),
         tuple(spans), classes[:, 0] + classes[:, 1] * _temperature_span(spec),
         rated_w, frame["max_voltage_v"].to_numpy(float), tuple(top_w), tuple(top_v),
         not prefs.same_lot_tracking, charge, np.min(np.where(usable_any, charge, np.inf), axis=1),

@@ -86,6 +86,7 @@ from .frontier import (
     value_window,
 )
 from .options import ALL_SHAPES
+from .yieldbox import DesignScreen, box_factor
 
 __all__ = ["c_gain_room", "least_sensitivity", "mixed_frontier", "side_term"]
 
@@ -550,6 +551,7 @@ def mixed_frontier(
     should_stop: Callable[[], bool] = lambda: False,
     shared: Shared | None = None,
     ceiling: Callable[[], float] = lambda: math.inf,
+    screen: DesignScreen | None = None,
 ) -> Iterator[Design]:
     """One-dual-two-discrete designs that meet the spec's worst-case CMRR and gain accuracy at
     the screen's points (module docstring), in nondecreasing exact cost (``optimizer.cost``);
@@ -557,7 +559,9 @@ def mixed_frontier(
     design passes the screen, unless ``should_stop`` (asked between steps) ended it early.
     ``shared``: the parts and half records built by another enumeration of the same spec.
     ``ceiling`` (asked between steps): designs dearer than it are not wanted, so the stream
-    ends once every design left costs more."""
+    ends once every design left costs more. ``screen`` (the yield basis): each electrical
+    design (the dual and the two free classes and values) is left out, with every part variant
+    of it, when it fails the linearised yield conditions (``optimizer.solve.yieldbox``)."""
     start = limits_and_parts(spec, catalog, env, shared)
     if start is None:
         return
@@ -595,7 +599,7 @@ def mixed_frontier(
     by_bound = keep[np.argsort(bounds[keep], kind="stable")]
     windows = [(float(from_key[k]), float(to_key[k])) for k in by_bound.tolist()]
     yield from _emit(spec, catalog, parts, lim, cands, [duals[k] for k in by_bound], windows,
-                     bounds[by_bound], halves, should_stop, ceiling)  # fmt: skip
+                     bounds[by_bound], halves, should_stop, ceiling, screen)  # fmt: skip
 
 
 def _emit(
@@ -610,11 +614,31 @@ def _emit(
     halves: dict[int, _SortedHalf],
     should_stop: Callable[[], bool],
     ceiling: Callable[[], float],
+    screen: DesignScreen | None = None,
 ) -> Iterator[Design]:
     """Merge the placements (taken in order of their bound) into one stream of designs in exact
     cost order (the scheme of ``frontier._emit``: bound entries, replaced by exact costs, with
-    the other parts of the same class and value as successors)."""
+    the other parts of the same class and value as successors); ``screen``: see
+    :func:`mixed_frontier`."""
     part_cache: dict[int, DiscretePart] = {}
+    kappa = box_factor(spec)
+
+    def electrical_passes(dual: _Dual, free: tuple[tuple[int, int], tuple[int, int]]) -> bool:
+        """The yield screen of one electrical design: the dual's elements as the screen takes
+        them, each free part at its class's mean and spread, read back from the part box
+        ``[μ·e^(−κσ), μ·e^(κσ)]``: ``μ = √(lo·hi)``, ``σ = ln(hi/lo)/(2κ)``."""
+        if screen is None or kappa is None or kappa <= 0.0:
+            return True
+        r = np.zeros(4)
+        sigma = np.zeros(4)
+        for position, element in zip(dual.positions, dual.elements, strict=True):
+            r[position], sigma[position] = screen.position(dual.network, element)
+        for position, (cls, val) in zip(dual.free, free, strict=True):
+            lo, hi = float(parts.lo[cls]), float(parts.hi[cls])
+            r[position] = float(parts.values[val]) * math.sqrt(lo * hi)
+            sigma[position] = math.log(hi / lo) / (2.0 * kappa)
+        return screen.passes_values(r, sigma)
+
     heap: list[tuple[float, int, int, object]] = []
     tick = itertools.count()
     seen: set[tuple[object, ...]] = set()
@@ -651,7 +675,8 @@ def _emit(
                 heapq.heappush(heap, (block.bound(after), _BLOCK, next(tick), (d, after)))
             k = block.key(at)
             electrical = ((k[0], k[1]), (k[2], k[3]))
-            heapq.heappush(heap, (key, _BOUND, next(tick), (d, electrical, (0, 0))))
+            if electrical_passes(duals[d], electrical):
+                heapq.heappush(heap, (key, _BOUND, next(tick), (d, electrical, (0, 0))))
             continue
         d, electrical, choice = cast(
             tuple[int, tuple[tuple[int, int], tuple[int, int]], tuple[int, int]], payload

@@ -31,7 +31,7 @@ from . import yieldbox
 from .amplifier import amplifier_limits
 from .discrete import DiscreteBlock, build_discrete, value_constants
 from .environment import LinearEnvironment, linear_environment
-from .frontier import Shared, discrete_frontier, network_frontier
+from .frontier import Shared, discrete_frontier, log_balance_limit, network_frontier
 from .limits import Limits, limits_for
 from .mixed import mixed_frontier
 from .options import (
@@ -401,11 +401,28 @@ class _FrontierStream(_Progress):
         spec, catalog, env = problem.spec, problem.catalog, problem.env
         self._out_of_time = False
         self.cost_ceiling = math.inf  # set by the merge (one dual and two discrete parts only)
+        # On the yield basis: the linearised yield conditions of each design before its Monte
+        # Carlo (``optimizer.solve.yieldbox.DesignScreen``), far cheaper than the exact check.
+        self._screen = (
+            yieldbox.DesignScreen(
+                spec,
+                env,
+                log_balance_limit(spec.requirements.cmrr_floor_db, spec.amplifier.cmrr_ratio),
+            )
+            if yieldbox.serves(spec)
+            else None
+        )
         if topology is Topology.DISCRETE:
             self._source = discrete_frontier(spec, catalog, env, self._stop, problem.shared)
         elif topology is Topology.PAIR_PLUS_DISCRETE:
             self._source = mixed_frontier(
-                spec, catalog, env, self._stop, problem.shared, lambda: self.cost_ceiling
+                spec,
+                catalog,
+                env,
+                self._stop,
+                problem.shared,
+                lambda: self.cost_ceiling,
+                self._screen,
             )
         else:
             self._source = network_frontier(spec, catalog, env, topology)
@@ -437,6 +454,8 @@ class _FrontierStream(_Progress):
                 self.exhausted = True
                 return None
             self.solves += 1
+            if self._screen is not None and not self._screen.passes(design):
+                continue  # cannot meet the yield: the exact check would reject it
             started = time.perf_counter()
             verdict = verifier(design, spec)
             clock.verify += time.perf_counter() - started
@@ -449,21 +468,22 @@ class _FrontierStream(_Progress):
         return None
 
 
-#: Topologies of networks alone: their yield-basis enumeration screens a few hundred options.
-NETWORK_ONLY = frozenset({Topology.QUAD, Topology.EQUAL_PAIRS, Topology.DIVIDER_PAIRS})
+#: Topologies the exact enumeration serves on the yield basis (``optimizer.solve.yieldbox``):
+#: every one with a network; four discrete parts stay with CP-SAT there.
+YIELD_ENUMERATED = frozenset(t for t in Topology if t is not Topology.DISCRETE)
 
 
 def _frontier_applies(spec: Spec, topology: Topology) -> bool:
     """The exact enumeration serves the lowest-cost objective: on the worst-case basis for every
     topology (``optimizer.solve.frontier``, ``optimizer.solve.mixed``), on the yield basis for
-    the network topologies through the box of ``optimizer.solve.yieldbox`` (no same-lot
-    tracking, a yield above one half). The other objectives, and the yield basis with discrete
-    parts, use the CP-SAT streams."""
+    every topology with a network, through the box and the design screen of
+    ``optimizer.solve.yieldbox`` (no same-lot tracking, a yield above one half). The other
+    objectives, and four discrete parts on the yield basis, use the CP-SAT streams."""
     if spec.preferences.objective is not Objective.COST:
         return False
     if spec.requirements.cmrr_basis is CmrrBasis.WORST_CASE:
         return True
-    return topology in NETWORK_ONLY and yieldbox.serves(spec)
+    return topology in YIELD_ENUMERATED and yieldbox.serves(spec)
 
 
 def prepare(spec: Spec, catalog: Catalog) -> Problem:
