@@ -102,17 +102,22 @@ def yield_margin(result: MonteCarloResult, spec: Spec) -> Margin:
 
 
 def verify_candidate(design: Design, spec: Spec) -> Verification:
-    """The exact check as the search runs it on each candidate: :func:`verify`, except that on
-    the worst-case basis a design whose exact worst-case CMRR or gain accuracy fails is
-    returned at once with those two requirements only (it fails whatever the other checks
-    say, and the search only counts it). A design that passes gets the whole check."""
+    """The exact check as the search runs it on each candidate: :func:`verify`, except that a
+    design whose exact worst-case CMRR or gain accuracy fails (worst-case basis), or whose
+    Monte Carlo yield fails (yield basis), is returned at once with that requirement only (it
+    fails whatever the other checks say, and the search only counts it). A design that passes
+    gets the whole check, the same as :func:`verify` gives."""
+    worst = worst_case(design, spec)
     if spec.requirements.cmrr_basis is CmrrBasis.WORST_CASE:
-        worst = worst_case(design, spec)
         cmrr, gain = cmrr_margin(worst, spec), gain_margin(worst, spec)
         if not (cmrr.passed and gain.passed):
             return Verification(worst, None, (), (cmrr, gain), safety_cautions(spec))
         return _complete(design, spec, worst, None, None)
-    return verify(design, spec)
+    result = monte_carlo(design, spec)
+    margin = yield_margin(result, spec)
+    if not margin.passed:
+        return Verification(worst, result, (), (margin,), safety_cautions(spec))
+    return _complete(design, spec, worst, None, None, result)
 
 
 def verify(
@@ -131,11 +136,14 @@ def _complete(
     worst: WorstCase,
     statistics: bool | None,
     samples: int | None,
+    result: MonteCarloResult | None = None,
 ) -> Verification:
-    """:func:`verify` from the design's worst case (computed once by the caller)."""
+    """:func:`verify` from the design's worst case (computed once by the caller) and, when the
+    caller ran it with the spec's own samples, its Monte Carlo ``result``."""
     yield_basis = spec.requirements.cmrr_basis is CmrrBasis.YIELD
     run_mc = yield_basis if statistics is None else statistics
-    result = monte_carlo(design, spec, samples=samples) if run_mc or yield_basis else None
+    if result is None and (run_mc or yield_basis):
+        result = monte_carlo(design, spec, samples=samples)
     checks = run_checks(design, spec)
     margins: list[Margin] = []
     if yield_basis:
