@@ -399,6 +399,14 @@ def test_trade_of_a_kind_searched_below_a_ceiling_tries_the_asked_floor() -> Non
     text = trade_text(unknown, spec)
     assert "no four-discrete design found at 80 dB within the search's time bound" in text
     assert "reaches" not in text
+    cut = Trade(
+        KindBest("four discrete", True, 247.03, 54.74, timed_out=True),
+        KindBest("network", True, 9.27, 54.46),
+        54.0,
+    )
+    assert "four discrete: best found within the search's time bound at cost 247.030" in (
+        trade_text(cut, spec)
+    )
 
 
 # ---------------------------------------------------------------------------------------------
