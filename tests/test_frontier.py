@@ -452,6 +452,15 @@ def test_network_specs_match_the_reference_over_the_builtin_catalog(
 ) -> None:
     """The ten cheapest costs equal the exhaustive reference's (``solve.exhaustive``, every
     design through the exact check) over the whole built-in catalog."""
+    _agrees_over_the_builtin_catalog(tmp_path, purpose, fields, 60.0)
+
+
+def _agrees_over_the_builtin_catalog(
+    tmp_path: object, purpose: str, fields: dict[str, object], time_limit_s: float
+) -> Spec:
+    """The battery spec ``fields`` picked over the whole built-in catalog: its ten cheapest
+    costs equal the exhaustive reference's and the status is proven (or infeasible when the
+    reference has nothing); the spec, for further checks."""
     from pathlib import Path
 
     from optimizer.specfile import load_spec
@@ -461,12 +470,13 @@ def test_network_specs_match_the_reference_over_the_builtin_catalog(
     spec = load_spec(str(path))
     catalog = builtin_catalog()
     ref = reference_search(spec, catalog, verify, top=10)
-    result = pick(spec, catalog, verify, top=10, time_limit_s=60.0)
+    result = pick(spec, catalog, verify, top=10, time_limit_s=time_limit_s)
     assert [c.cost.total for c in result.ranked] == pytest.approx(
         [cost.total for cost, _, _ in ref.ranked], rel=1e-9
     ), purpose
     expected = SearchStatus.OPTIMAL if ref.ranked else SearchStatus.INFEASIBLE
     assert result.status is expected
+    return spec
 
 
 #: The yield basis for networks alone (``optimizer.solve.yieldbox``): the enumeration screens
@@ -509,20 +519,8 @@ def test_yield_network_specs_match_the_reference_over_the_builtin_catalog(
     """On the yield basis the network enumeration's ten cheapest costs equal the exhaustive
     reference's (``solve.exhaustive``: every network design in cost order through the exact
     check, the Monte Carlo included) over the whole built-in catalog, and the result is proven."""
-    from pathlib import Path
-
     from optimizer.solve.search import _frontier_applies
-    from optimizer.specfile import load_spec
 
-    path = Path(str(tmp_path)) / "network.yaml"
-    path.write_text(spec_text(fields), encoding="utf-8")
-    spec = load_spec(str(path))
+    spec = _agrees_over_the_builtin_catalog(tmp_path, purpose, fields, 120.0)
+    # The path under test ran: the exact enumeration, not CP-SAT.
     assert all(_frontier_applies(spec, t) for t in spec.preferences.topologies), purpose
-    catalog = builtin_catalog()
-    ref = reference_search(spec, catalog, verify, top=10)
-    result = pick(spec, catalog, verify, top=10, time_limit_s=120.0)
-    assert [c.cost.total for c in result.ranked] == pytest.approx(
-        [cost.total for cost, _, _ in ref.ranked], rel=1e-9
-    ), purpose
-    expected = SearchStatus.OPTIMAL if ref.ranked else SearchStatus.INFEASIBLE
-    assert result.status is expected
