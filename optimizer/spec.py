@@ -167,7 +167,7 @@ class DriftModel(str, Enum):
     resistors is mostly one-signed and similar between parts of one kind (common practice, from
     memory), so it moves the gain more than the balance; the Monte Carlo draws it as a
     component shared by the parts of one kind plus an individual one
-    (:data:`optimizer.analysis.variation.DRIFT_SHARED_VARIANCE`). The ratio drift of a network's
+    (:data:`optimizer.analysis.drift.DRIFT_SHARED_VARIANCE`). The ratio drift of a network's
     elements is a mismatch and stays symmetric in both models."""
 
     SYMMETRIC = "symmetric"

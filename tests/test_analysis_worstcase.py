@@ -28,6 +28,7 @@ import sympy as sp
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
+from optimizer.analysis.drift import drift_bound
 from optimizer.analysis.environment import (
     IDEAL_ENVIRONMENT,
     Environment,
@@ -44,7 +45,6 @@ from optimizer.analysis.variation import (
     SharedGroup,
     Variation,
     discrete_factor_bounds,
-    drift_bound,
     variation_from_design,
 )
 from optimizer.analysis.worstcase import (

@@ -21,13 +21,15 @@ import math
 import numpy as np
 import pytest
 
-from optimizer.analysis.montecarlo import monte_carlo
-from optimizer.analysis.variation import (
+from optimizer.analysis.drift import (
     DRIFT_SHARED_VARIANCE,
-    discrete_factor_bounds,
     drift_factor_bounds,
     drift_interval,
     one_sided_drift_draw,
+)
+from optimizer.analysis.montecarlo import monte_carlo
+from optimizer.analysis.variation import (
+    discrete_factor_bounds,
     sample_values,
     variation_from_design,
 )

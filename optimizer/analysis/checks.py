@@ -42,6 +42,7 @@ from ..design import Design, Placement
 from ..parts import NetworkPart
 from ..spec import DriftModel, Spec
 from ..units import format_quantity
+from .drift import drift_bound, drift_interval
 from .formulas import (
     closed_loop_bandwidth,
     common_mode_input_resistance,
@@ -64,7 +65,6 @@ from .formulas import (
     value_spread,
 )
 from .transfer import coefficients, differential_gain, divider_ratio
-from .variation import drift_bound, drift_interval
 
 __all__ = [
     "ALL_ENDS",
@@ -171,7 +171,7 @@ def placement_life_drift(
     placement: Placement, life_s: float, model: DriftModel = DriftModel.SYMMETRIC
 ) -> tuple[float, float]:
     """End-of-life drift interval ``(d_low, d_high)`` (fractions) of one placement after
-    ``life_s`` seconds. A discrete part: :func:`~optimizer.analysis.variation.drift_interval`
+    ``life_s`` seconds. A discrete part: :func:`~optimizer.analysis.drift.drift_interval`
     of its drift bound ``D`` (``[−D, D]``, or ``[0, D]`` one-sided). A network element, the same
     convention as :func:`_placement_spread`: the package's shared drift interval plus half
     the ratio drift either way (a mismatch, symmetric in both models)."""

@@ -11,7 +11,7 @@ Method
   at ``k·σ`` (``k = Preferences.sigma_k``, default 3; the normal is not truncated). With the
   one-sided drift model (``Requirements.drift_model``) each drift lies on ``[0, D]`` and is a
   component shared by the parts of one kind plus its own
-  (:func:`~optimizer.analysis.variation.one_sided_drift_draw`).
+  (:func:`~optimizer.analysis.drift.one_sided_drift_draw`).
 * Each build is judged at its worst environment corner: both ends of the temperature range,
   the vertices of the source-impedance polygon, both ends of the REF impedance range, the
   amplifier's minimum CMRR at the worse sign; for the gain the open-loop gain at its minimum

@@ -52,8 +52,8 @@ from rich.text import Text
 
 from .._version import __version__
 from ..analysis.checks import CheckResult
+from ..analysis.drift import DRIFT_SHARED_VARIANCE, drift_model_summary
 from ..analysis.montecarlo import MonteCarloResult
-from ..analysis.variation import DRIFT_SHARED_VARIANCE, drift_model_summary
 from ..analysis.worstcase import BudgetItem, WorstCase
 from ..cost import CostBreakdown, design_cost
 from ..design import Design, Placement, Topology

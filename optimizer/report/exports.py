@@ -32,8 +32,8 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Final, Literal
 
+from ..analysis.drift import drift_model_summary
 from ..analysis.montecarlo import MonteCarloResult
-from ..analysis.variation import drift_model_summary
 from ..design import Design, Placement
 from ..parts import DiscretePart, NetworkPart
 from ..spec import Spec

@@ -11,9 +11,9 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
+from ..analysis.drift import drift_bound
 from ..analysis.environment import source_vertices
 from ..analysis.formulas import derated_power
-from ..analysis.variation import drift_bound
 from ..spec import Spec
 
 __all__ = [
@@ -104,6 +104,6 @@ def linear_environment(spec: Spec) -> LinearEnvironment:
 
 def life_drift(drift_1000h: NDArray[np.float64] | float, life_h: float) -> NDArray[np.float64]:
     """Drift bound over ``life_h`` hours from the 1000-hour figure (the square-root law of
-    :func:`optimizer.analysis.variation.drift_bound`, applied to an array)."""
+    :func:`optimizer.analysis.drift.drift_bound`, applied to an array)."""
     scale = drift_bound(1.0, max(life_h, 0.0) * 3600.0)
     return np.asarray(drift_1000h, dtype=float) * scale

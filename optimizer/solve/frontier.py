@@ -76,8 +76,8 @@ import pandas as pd
 from numpy.typing import NDArray
 
 from ..analysis.checks import rating_corners, resistor_stress
+from ..analysis.drift import drift_factor_bounds
 from ..analysis.formulas import derated_power, value_spread
-from ..analysis.variation import drift_factor_bounds
 from ..catalog import Catalog
 from ..cost import design_cost, parts_cost
 from ..design import Design, Placement, Topology
