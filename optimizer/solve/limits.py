@@ -13,7 +13,7 @@ from dataclasses import dataclass
 
 from ..spec import CmrrBasis, Distribution, Spec
 from .environment import LinearEnvironment
-from .options import noise_bandwidth, noise_floor, z_score
+from .options import noise_bandwidth, noise_floor, yield_quantile, z_score
 
 __all__ = ["COUPLING_BUDGET", "LOOSE_BUDGET", "SLACK", "Limits", "limits_for"]
 
@@ -71,10 +71,7 @@ def limits_for(spec: Spec, env: LinearEnvironment) -> Limits:
     if req.cmrr_basis is CmrrBasis.YIELD and spec.preferences.distribution is Distribution.NORMAL:
         z_two = z_score((1.0 + req.yield_target) / 2.0) * (1.0 - 4 * SLACK)
     if req.cmrr_basis is CmrrBasis.YIELD:
-        z = z_score(req.yield_target)
-        if spec.preferences.distribution is Distribution.UNIFORM:
-            z = min(z, (2.0 * req.yield_target - 1.0) * math.sqrt(3.0))
-        z *= 1.0 - 4 * SLACK
+        z = yield_quantile(req.yield_target, spec.preferences.distribution) * (1.0 - 4 * SLACK)
     noise_budget = None
     if req.max_output_noise_v_rms is not None:
         band = noise_bandwidth(spec)

@@ -424,3 +424,14 @@ def z_score(yield_target: float) -> float:
     from statistics import NormalDist
 
     return NormalDist().inv_cdf(yield_target)
+
+
+def yield_quantile(yield_target: float, distribution: Distribution) -> float:
+    """The one-sided quantile a yield ``Y`` needs of a sum of independent part deviations, per
+    standard deviation: ``Φ⁻¹(Y)`` (:func:`z_score`) for normal parts, and for uniform parts
+    the smaller of that and ``(2Y − 1)·√3``, the ``Y``-quantile of a uniform law of unit
+    variance (``solve.limits``, ``solve.yieldbox``)."""
+    z = z_score(yield_target)
+    if distribution is Distribution.UNIFORM:
+        z = min(z, (2.0 * yield_target - 1.0) * math.sqrt(3.0))
+    return z

@@ -412,6 +412,8 @@ class _FrontierStream(_Progress):
             if yieldbox.serves(spec)
             else None
         )
+        # The one-dual search screens each electrical design itself (its variants with it).
+        self._screen_each = None if topology is Topology.PAIR_PLUS_DISCRETE else self._screen
         if topology is Topology.DISCRETE:
             self._source = discrete_frontier(spec, catalog, env, self._stop, problem.shared)
         elif topology is Topology.PAIR_PLUS_DISCRETE:
@@ -454,7 +456,7 @@ class _FrontierStream(_Progress):
                 self.exhausted = True
                 return None
             self.solves += 1
-            if self._screen is not None and not self._screen.passes(design):
+            if self._screen_each and not self._screen_each.passes(design):
                 continue  # cannot meet the yield: the exact check would reject it
             started = time.perf_counter()
             verdict = verifier(design, spec)

@@ -75,7 +75,7 @@ from ..design import Design
 from ..parts import DiscretePart, NetworkPart
 from ..spec import CmrrBasis, Distribution, DriftModel, Spec
 from .environment import LinearEnvironment, life_drift
-from .options import variance, z_score
+from .options import variance, yield_quantile, z_score
 
 __all__ = [
     "SAMPLING_SIGMAS",
@@ -124,16 +124,12 @@ def lowered_yield(spec: Spec) -> float:
 
 
 def quantiles(spec: Spec) -> float | None:
-    """``z`` of the module docstring (dimensionless) at :func:`lowered_yield`: ``Φ⁻¹(Y')`` for
-    normal parts, ``min(Φ⁻¹(Y'), (2Y' − 1)·√3)`` for uniform parts (the rule of
-    ``solve.limits``). None on the worst-case basis."""
+    """``z`` of the module docstring (dimensionless) at :func:`lowered_yield`:
+    ``options.yield_quantile`` (``Φ⁻¹(Y')``, for uniform parts at most ``(2Y' − 1)·√3``).
+    None on the worst-case basis."""
     if spec.requirements.cmrr_basis is not CmrrBasis.YIELD:
         return None
-    y = lowered_yield(spec)
-    z = z_score(y)
-    if spec.preferences.distribution is Distribution.UNIFORM:
-        z = min(z, (2.0 * y - 1.0) * math.sqrt(3.0))
-    return z
+    return yield_quantile(lowered_yield(spec), spec.preferences.distribution)
 
 
 def two_sided_quantile(spec: Spec) -> float:
