@@ -15,6 +15,8 @@ not in stock when only stock may be used.
 
 from __future__ import annotations
 
+import math
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -26,7 +28,7 @@ from ..spec import CmrrBasis, DriftModel, Spec, StockPolicy
 from .environment import LinearEnvironment, life_drift, series_impedance
 from .options import RATING_RELAXATION, log_deviation, position_noise, variance
 
-__all__ = ["DiscreteBlock", "allowed_rows", "build_discrete"]
+__all__ = ["DiscreteBlock", "allowed_rows", "build_discrete", "least_cost"]
 
 #: Ratings this far above the estimated stress count as equally good when comparing classes.
 SAFE_RATING = 1.5
@@ -43,7 +45,8 @@ class DiscreteBlock:
 
     ``values``: (K,) distinct resistances in ohms, ascending; per class (C,): ``cost`` (with
     placement cost and stock penalty), ``own`` (log deviation, worst-case side), ``var``
-    (variance), ``tolerance``; ``avail[i][c]``: value indices where class c may sit at position
+    (variance), ``tolerance``, ``penalty`` (the stock penalty within ``cost``, per placement);
+    ``avail[i][c]``: value indices where class c may sit at position
     i (empty: not usable there); ``part_row[c, k]``: the catalog row of that part (−1: none)."""
 
     values: NDArray[np.float64]
@@ -52,6 +55,7 @@ class DiscreteBlock:
     var: NDArray[np.float64]
     tolerance: NDArray[np.float64]
     swing: NDArray[np.float64]
+    penalty: NDArray[np.float64]
     avail: tuple[tuple[NDArray[np.int64], ...], ...]
     part_row: NDArray[np.int64]
 
@@ -68,7 +72,8 @@ class DiscreteBlock:
 def _empty() -> DiscreteBlock:
     none: tuple[tuple[NDArray[np.int64], ...], ...] = tuple(() for _ in range(4))
     return DiscreteBlock(
-        np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0), none,
+        np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0),
+        np.zeros(0), none,
         np.zeros((0, 0), dtype=np.int64),
     )  # fmt: skip
 
@@ -167,6 +172,7 @@ def build_discrete(catalog: Catalog, spec: Spec, env: LinearEnvironment) -> Disc
         var=variance(dist, sigma_k, t, tc, d),
         tolerance=t,
         swing=t + tc,
+        penalty=np.where(stocked, 0.0, penalty),
         avail=tuple(avail),
         part_row=part_row,
     )
@@ -300,3 +306,39 @@ def value_constants(
     effective = r + series[None, :, :]
     noise = position_noise(np.repeat(block.values[:, None], 4, axis=1), spec, env)
     return np.log(effective), r / effective, noise
+
+
+def least_cost(
+    cost: NDArray[np.float64],
+    spread: NDArray[np.float64],
+    usable: Sequence[Sequence[int]],
+    weights: NDArray[np.float64],
+    budget: float,
+) -> float:
+    """The least ``Σᵢ cost[cᵢ]`` over one class ``cᵢ ∈ usable[i]`` per position ``i`` (four)
+    subject to ``Σᵢ weights[i]·spread[cᵢ] ≤ budget``; ``inf`` when no choice meets it.
+
+    The model's spread requirements for four discrete parts (``optimizer.solve.model``: at an
+    environment vertex, ``Wδ ≤ B − |δ_nom|`` on the worst-case basis, ``z²·Sδ ≤ (B − |δ_nom|)²``
+    on the yield basis) imply ``Σᵢ wᵢ·spreadᵢ ≤ budget`` with ``wᵢ`` the least weight of
+    position ``i`` (``|cᵢ|·f`` or its square; ``budget = B`` or ``(B/z)²``), whatever the
+    values, so this is a lower bound on the cost of every design the model admits (a
+    two-position knapsack solved exactly: the class pairs of each half sorted by spread with
+    the running least cost, joined by binary search; O(C² log C) for C classes)."""
+
+    def half(i: int, j: int) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+        a, b = np.asarray(usable[i], dtype=np.int64), np.asarray(usable[j], dtype=np.int64)
+        s = (weights[i] * spread[a][:, None] + weights[j] * spread[b][None, :]).ravel()
+        c = (cost[a][:, None] + cost[b][None, :]).ravel()
+        order = np.argsort(s, kind="stable")
+        return s[order], np.minimum.accumulate(c[order]) if c.size else c
+
+    if any(len(u) == 0 for u in usable):
+        return math.inf
+    s_low, c_low = half(0, 1)
+    s_high, c_high = half(2, 3)
+    at = np.searchsorted(s_high, budget - s_low, side="right") - 1
+    ok = at >= 0
+    if not ok.any():
+        return math.inf
+    return float((c_low[ok] + c_high[at[ok]]).min())

@@ -29,13 +29,14 @@ from ..design import Design, Placement, Topology
 from ..spec import CmrrBasis, Objective, Spec, StockPolicy
 from . import yieldbox
 from .amplifier import amplifier_limits
-from .discrete import DiscreteBlock, build_discrete, value_constants
+from .discrete import DiscreteBlock, build_discrete, least_cost, value_constants
 from .environment import LinearEnvironment, linear_environment
 from .frontier import Shared, discrete_frontier, log_balance_limit, network_frontier
-from .limits import Limits, limits_for
+from .limits import LOOSE_BUDGET, Limits, limits_for
 from .mixed import mixed_frontier
 from .options import (
     ALL_SHAPES,
+    C_DELTA,
     DIVIDER_SHAPES,
     EQUAL_SHAPES,
     PAIR,
@@ -62,6 +63,9 @@ __all__ = [
 
 DEFAULT_TIME_LIMIT_S = 30.0
 MAX_CUTS = 400
+#: Relative widening of the budget of ``Problem.discrete_cost_floor`` against the model's own
+#: rounding of its budget and spreads to integer units (the model stays the looser of the two).
+FLOOR_SLACK = 1e-6
 #: Most designs taken beyond the count asked for, to complete the tie group at the cut and (for
 #: distinct choices) the families: a bound on the work, reported as ``PickResult.ties_cut``.
 MAX_EXTRA_DESIGNS = 200
@@ -247,6 +251,36 @@ class Problem:
             self.options, self.block, self.spec, self.env, self.limits, variant, self.constants
         )
 
+    def discrete_cost_floor(self) -> float:
+        """A lower bound on the cost of every four-discrete design the CP-SAT model admits: at
+        each of the model's mismatch vertices, the least cost of four classes whose spreads,
+        at each position's least weight over its values, fit the model's budget
+        (``discrete.least_cost``), the largest over the vertices; 0 where the budget is loose.
+        Relative cost units: the parts and their placements (the model's per-placement stock
+        penalty left out: the cost charges it per line) and one BOM line."""
+        from .model import extreme_vertices
+
+        limits, block, spec = self.limits, self.block, self.spec
+        yield_basis = spec.requirements.cmrr_basis is CmrrBasis.YIELD
+        if not 0.0 < limits.cmrr_budget < LOOSE_BUDGET or (yield_basis and limits.z <= 0.0):
+            return 0.0
+        _, fraction, _ = self.constants
+        usable = [block.usable(i) for i in range(4)]
+        if not all(usable):
+            return math.inf
+        spread = block.var if yield_basis else block.own
+        limit = limits.cmrr_budget / limits.z if yield_basis else limits.cmrr_budget
+        budget = (limit**2 if yield_basis else limit) * (1.0 + FLOOR_SLACK)
+        sides = extreme_vertices(self.env.vertices, spec.requirements.gain)
+        cost = block.cost - block.penalty
+        floor = 0.0
+        for v in sorted(set(sides.delta_high + sides.delta_low)):
+            f = np.array([fraction[block.value_indices(i), v, i].min() for i in range(4)])
+            w = np.abs(C_DELTA) * f
+            weights = w**2 if yield_basis else w
+            floor = max(floor, least_cost(cost, spread, usable, weights, budget))
+        return floor + spec.preferences.line_cost
+
     @property
     def size(self) -> int:
         return len(self.options) + sum(
@@ -290,6 +324,7 @@ class _Progress:
         self.gap: float | None = None
         self.solves = 0
         self.rejected: list[tuple[Design, Verdict]] = []
+        self.capped = False  # searched only up to a cost ceiling from the other streams
 
 
 class _Stream(_Progress):
@@ -308,7 +343,9 @@ class _Stream(_Progress):
         self.objective = objective
         self.pair_shape = pair_shape
         self._built: BuiltModel | None = None
-        self.cost_ceiling = math.inf  # set by the merge: designs dearer cannot be ranked
+        self.cost_ceiling = math.inf  # set by the merge: bounds the model's objective
+        # Set by the merge: designs of a greater cost (the exact one) cannot be ranked.
+        self.rank_limit = math.inf
         _Progress.__init__(self)
 
     def _model(self, clock: _Clock) -> BuiltModel:
@@ -326,6 +363,22 @@ class _Stream(_Progress):
             clock.build += time.perf_counter() - started
         return self._built
 
+    def _below_floor(self, clock: _Clock) -> bool:
+        """Four discrete parts under a ranking limit, before the model is first built: whether
+        the limit is below every cost the model admits (``Problem.discrete_cost_floor``), so
+        the stream has nothing to rank and needs no model."""
+        if (
+            self._built is not None
+            or self.topologies != {Topology.DISCRETE}
+            or self.objective is not Objective.COST
+            or not math.isfinite(self.rank_limit)
+        ):
+            return False
+        started = time.perf_counter()
+        floor = self.problem.discrete_cost_floor()
+        clock.build += time.perf_counter() - started
+        return floor > self.rank_limit * (1.0 + 1e-9) + 1e-9
+
     def next(
         self, verifier: Verifier, clock: _Clock, workers: int
     ) -> tuple[float, Candidate] | None:
@@ -333,6 +386,9 @@ class _Stream(_Progress):
         from ortools.sat.python import cp_model
 
         spec = self.problem.spec
+        if self._below_floor(clock):
+            self.exhausted = self.capped = True  # proven: no design of it can be ranked
+            return None
         while not self.exhausted:
             if clock.remaining() <= 0.0:
                 self.timed_out, self.optimal, self.exhausted = True, False, True
@@ -598,7 +654,7 @@ def pick(
         rejected=tuple(rejected),
         choices=choices,
         ties_cut=ties_cut,
-        capped=frozenset(t for s in streams if math.isfinite(s.cost_ceiling) for t in s.topologies),
+        capped=frozenset(t for s in streams if s.capped for t in s.topologies),
     )
 
 
@@ -675,7 +731,7 @@ def _bound_later_streams(
         for i, s in enumerate(streams)
         if isinstance(s, _FrontierStream) and Topology.PAIR_PLUS_DISCRETE not in s.topologies
     ]
-    if not bounded or not fronts:
+    if not fronts or not (bounded or any(isinstance(s, _Stream) for s in streams)):
         return
     heads = {i: streams[i].next(verifier, clock, workers) for i in fronts}
     taken = 0
@@ -700,6 +756,10 @@ def _bound_later_streams(
         return
     for stream in bounded:
         stream.cost_ceiling = last
+        stream.capped = True
+    for stream in streams:
+        if isinstance(stream, _Stream):
+            stream.rank_limit = last
 
 
 def _streams(problem: Problem, spec: Spec) -> list[_Stream | _FrontierStream]:
