@@ -26,7 +26,7 @@ from .analysis.worstcase import WorstCase, worst_case
 from .design import Design
 from .spec import CmrrBasis, Spec
 
-__all__ = ["Margin", "Verification", "verify", "verify_candidate"]
+__all__ = ["Margin", "Rejection", "Verification", "verify", "verify_candidate"]
 
 
 @dataclass(frozen=True)
@@ -66,6 +66,25 @@ class Verification:
         return min(self.requirements, key=_relative_margin)
 
 
+@dataclass(frozen=True)
+class Rejection:
+    """A candidate the search's check turned down on its Monte Carlo yield (yield basis),
+    before the worst case and the other checks were worked out: ``requirements`` holds the
+    yield requirement alone. The search only counts such designs; none is shown."""
+
+    monte_carlo: MonteCarloResult
+    requirements: tuple[Margin, ...]
+    cautions: tuple[str, ...]
+
+    @property
+    def passed(self) -> bool:
+        return False
+
+    @property
+    def failures(self) -> tuple[str, ...]:
+        return tuple(m.name for m in self.requirements if not m.passed)
+
+
 def _relative_margin(margin: Margin) -> float:
     if not math.isfinite(margin.margin):
         return math.inf if margin.margin > 0 or math.isnan(margin.margin) else -math.inf
@@ -101,14 +120,15 @@ def yield_margin(result: MonteCarloResult, spec: Spec) -> Margin:
     )
 
 
-def verify_candidate(design: Design, spec: Spec) -> Verification:
+def verify_candidate(design: Design, spec: Spec) -> Verification | Rejection:
     """The exact check as the search runs it on each candidate: :func:`verify`, except that a
-    design whose exact worst-case CMRR or gain accuracy fails (worst-case basis), or whose
-    Monte Carlo yield fails (yield basis), is returned at once with that requirement only (it
-    fails whatever the other checks say, and the search only counts it). A design that passes
-    gets the whole check, the same as :func:`verify` gives."""
-    worst = worst_case(design, spec)
+    design whose exact worst-case CMRR or gain accuracy fails (worst-case basis) is returned at
+    once with those requirements only, and one whose Monte Carlo yield fails (yield basis) as
+    a :class:`Rejection`, before its worst case (it fails whatever the other checks say, and
+    the search only counts it). A design that passes gets the whole check, the same as
+    :func:`verify` gives."""
     if spec.requirements.cmrr_basis is CmrrBasis.WORST_CASE:
+        worst = worst_case(design, spec)
         cmrr, gain = cmrr_margin(worst, spec), gain_margin(worst, spec)
         if not (cmrr.passed and gain.passed):
             return Verification(worst, None, (), (cmrr, gain), safety_cautions(spec))
@@ -116,8 +136,8 @@ def verify_candidate(design: Design, spec: Spec) -> Verification:
     result = monte_carlo(design, spec)
     margin = yield_margin(result, spec)
     if not margin.passed:
-        return Verification(worst, result, (), (margin,), safety_cautions(spec))
-    return _complete(design, spec, worst, None, None, result)
+        return Rejection(result, (margin,), safety_cautions(spec))
+    return _complete(design, spec, worst_case(design, spec), None, None, result)
 
 
 def verify(
