@@ -113,6 +113,30 @@ BATTERY: list[tuple[str, dict[str, object], str]] = [
 ]  # fmt: skip
 
 
+#: Plain yield-basis specs over the whole built-in catalog, four discrete parts only (the
+#: class-quadruple search, ``optimizer.solve.classquads``); no reference runs here (each of its
+#: designs would need a Monte Carlo): the pick must prove its ten, every one passing the exact
+#: check (``tests/test_classquads.py``; the benchmark's ``yield`` section times them).
+YIELD_SAMPLES = ", monte_carlo: {samples: 2000}"
+YIELD_99 = ", cmrr_basis: yield, yield: 99 %"
+YIELD_BUILTIN: list[tuple[str, dict[str, object]]] = [
+    ("yield, G = 2, 50 dB, room", dict(gain=2, floor=50)),
+    ("yield, G = 10, 60 dB, industrial", dict(gain=10, floor=60, tmin=-20, tmax=85)),
+    ("yield, awkward gain 3.3, 56 dB, room", dict(gain=3.3, floor=56)),
+    ("yield, attenuation 0.47, 50 dB, automotive", dict(gain=0.47, floor=50, tmin=-40, tmax=125)),
+    ("yield, G = 100, 70 dB, small signal", dict(gain=100, floor=70, vd=0.1)),
+    ("yield, G = 1, 46 dB, automotive (CP-SAT: 60 s, 124.4 unproven)",
+     dict(gain=1, floor=46, tmin=-40, tmax=125)),
+    ("yield, G = 2, 56 dB, industrial, 5 years", dict(gain=2, floor=56, tmin=-20, tmax=85, life=FIVE_YEARS)),
+]  # fmt: skip
+
+
+def yield_fields(fields: dict[str, object]) -> dict[str, object]:
+    """A :data:`YIELD_BUILTIN` entry's fields with the yield basis, 2,000 builds and four
+    discrete parts filled in."""
+    return {"topologies": "four_discrete", "req": YIELD_99, "prefs": YIELD_SAMPLES, **fields}
+
+
 def spec_text(fields: dict[str, object]) -> str:
     """The spec text of one battery entry: :data:`SPEC` with the defaults filled in (ideal
     amplifier, ±1 V differential but at most ±5 V of output, 1 % gain accuracy, 25 °C)."""

@@ -519,8 +519,10 @@ def test_yield_network_specs_match_the_reference_over_the_builtin_catalog(
     """On the yield basis the network enumeration's ten cheapest costs equal the exhaustive
     reference's (``solve.exhaustive``: every network design in cost order through the exact
     check, the Monte Carlo included) over the whole built-in catalog, and the result is proven."""
+    from optimizer.solve.environment import linear_environment
     from optimizer.solve.search import _frontier_applies
 
     spec = _agrees_over_the_builtin_catalog(tmp_path, purpose, fields, 120.0)
     # The path under test ran: the exact enumeration, not CP-SAT.
-    assert all(_frontier_applies(spec, t) for t in spec.preferences.topologies), purpose
+    env = linear_environment(spec)
+    assert all(_frontier_applies(spec, t, env) for t in spec.preferences.topologies), purpose

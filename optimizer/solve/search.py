@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import math
 import time
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass, field, replace
 from enum import Enum
 from typing import TYPE_CHECKING, Protocol
@@ -27,8 +27,9 @@ from ..catalog import Catalog
 from ..cost import CostBreakdown, design_cost
 from ..design import Design, Placement, Topology
 from ..spec import CmrrBasis, Objective, Spec, StockPolicy
-from . import yieldbox
+from . import classquads, yieldbox
 from .amplifier import amplifier_limits
+from .classquads import ClassQuadSearch
 from .discrete import DiscreteBlock, build_discrete, least_cost, value_constants
 from .environment import LinearEnvironment, linear_environment
 from .frontier import Shared, discrete_frontier, log_balance_limit, network_frontier
@@ -456,7 +457,7 @@ class _FrontierStream(_Progress):
         self.pair_shape: int | None = None
         spec, catalog, env = problem.spec, problem.catalog, problem.env
         self._out_of_time = False
-        self.cost_ceiling = math.inf  # set by the merge (one dual and two discrete parts only)
+        self.cost_ceiling = math.inf  # set by the merge where the source takes it
         # On the yield basis: the linearised yield conditions of each design before its Monte
         # Carlo (``optimizer.solve.yieldbox.DesignScreen``), far cheaper than the exact check.
         self._screen = (
@@ -468,9 +469,16 @@ class _FrontierStream(_Progress):
             if yieldbox.serves(spec)
             else None
         )
-        # The one-dual search screens each electrical design itself (its variants with it).
+        # The one-dual and the class-quadruple searches screen each electrical design themselves
+        # (its variants with it).
         self._screen_each = None if topology is Topology.PAIR_PLUS_DISCRETE else self._screen
-        if topology is Topology.DISCRETE:
+        self._source: Iterator[Design]
+        if topology is Topology.DISCRETE and self._screen is not None:
+            self._source = ClassQuadSearch(
+                spec, catalog, env, problem.block, self._stop, lambda: self.cost_ceiling
+            )
+            self._screen_each = None
+        elif topology is Topology.DISCRETE:
             self._source = discrete_frontier(spec, catalog, env, self._stop, problem.shared)
         elif topology is Topology.PAIR_PLUS_DISCRETE:
             self._source = mixed_frontier(
@@ -486,6 +494,14 @@ class _FrontierStream(_Progress):
             self._source = network_frontier(spec, catalog, env, topology)
         self._clock: _Clock | None = None
         _Progress.__init__(self)
+
+    @property
+    def takes_ceiling(self) -> bool:
+        """The source reads :attr:`cost_ceiling` (one dual with two discrete parts, the class
+        quadruples): the merge runs it after the other enumerations have set it."""
+        return isinstance(self._source, ClassQuadSearch) or (
+            Topology.PAIR_PLUS_DISCRETE in self.topologies
+        )
 
     def _stop(self) -> bool:
         """Asked by the enumeration between steps: the clock ran out or the run was cancelled."""
@@ -527,20 +543,25 @@ class _FrontierStream(_Progress):
 
 
 #: Topologies the exact enumeration serves on the yield basis (``optimizer.solve.yieldbox``):
-#: every one with a network; four discrete parts stay with CP-SAT there.
+#: every one with a network; four discrete parts go through ``optimizer.solve.classquads``
+#: where its premises hold, else CP-SAT.
 YIELD_ENUMERATED = frozenset(t for t in Topology if t is not Topology.DISCRETE)
 
 
-def _frontier_applies(spec: Spec, topology: Topology) -> bool:
+def _frontier_applies(spec: Spec, topology: Topology, env: LinearEnvironment) -> bool:
     """The exact enumeration serves the lowest-cost objective: on the worst-case basis for every
-    topology (``optimizer.solve.frontier``, ``optimizer.solve.mixed``), on the yield basis for
+    topology (``optimizer.solve.frontier``, ``optimizer.solve.mixed``); on the yield basis for
     every topology with a network, through the box and the design screen of
-    ``optimizer.solve.yieldbox`` (no same-lot tracking, a yield above one half). The other
-    objectives, and four discrete parts on the yield basis, use the CP-SAT streams."""
+    ``optimizer.solve.yieldbox`` (no same-lot tracking, a yield above one half), and for four
+    discrete parts through the class quadruples of ``optimizer.solve.classquads`` (where
+    ``classquads.serves``: no source or REF impedance, no line cost, ...). The other
+    objectives, and the other four-discrete yield specs, use the CP-SAT streams."""
     if spec.preferences.objective is not Objective.COST:
         return False
     if spec.requirements.cmrr_basis is CmrrBasis.WORST_CASE:
         return True
+    if topology is Topology.DISCRETE:
+        return classquads.serves(spec, env)
     return topology in YIELD_ENUMERATED and yieldbox.serves(spec)
 
 
@@ -724,12 +745,10 @@ def _bound_later_streams(
         s
         for s in streams
         if (isinstance(s, _Stream) and exact_cost)
-        or (isinstance(s, _FrontierStream) and Topology.PAIR_PLUS_DISCRETE in s.topologies)
+        or (isinstance(s, _FrontierStream) and s.takes_ceiling)
     ]
     fronts = [
-        i
-        for i, s in enumerate(streams)
-        if isinstance(s, _FrontierStream) and Topology.PAIR_PLUS_DISCRETE not in s.topologies
+        i for i, s in enumerate(streams) if isinstance(s, _FrontierStream) and not s.takes_ceiling
     ]
     if not fronts or not (bounded or any(isinstance(s, _Stream) for s in streams)):
         return
@@ -772,7 +791,7 @@ def _streams(problem: Problem, spec: Spec) -> list[_Stream | _FrontierStream]:
     for topology in Topology:
         if topology not in spec.preferences.topologies:
             continue
-        if _frontier_applies(spec, topology):
+        if _frontier_applies(spec, topology, problem.env):
             streams.append(_FrontierStream(problem, topology))
             continue
         covered, shape_of = problem.options.positions, problem.options.shape

@@ -1,0 +1,276 @@
+"""Four discrete parts on the yield basis through the class quadruples
+(``optimizer.solve.classquads``).
+
+* **The shared-draw yield is the exact check's yield**: ``analysis.montecarlo.yield_fractions``
+  on the draws of ``build_factors`` equals ``monte_carlo_from_variation``'s yield fraction for
+  every nominal row, bit for bit, on random designs of the built-in catalog at floors around
+  their own CMRR at the yield (the Monte Carlo of ``optimizer.analysis`` is the reference).
+* **The build bound is an upper bound** (hypothesis): ``passing_counts`` never counts fewer
+  builds than the Monte Carlo passes on the CMRR floor, for ratios inside the bounded range
+  (checked to fail with the room narrowed to 0.9 Λ); the unit draws the search scales equal the
+  Monte Carlo's own draws of each class (to rounding).
+* **The vectorised screen is the design screen** at one vertex (``yieldbox.balance_conditions``).
+* **The pick equals the independent reference** (``tests/reference/cheapest.py``, which shares
+  no code with the pick and gates every design by the exact check) on an invented catalog of
+  five grades at two values, at four floors and temperature ranges.
+
+The parts are invented demo data (not check values); the check values come from the exact
+check and the reference.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import functools
+from pathlib import Path
+
+import numpy as np
+import pytest
+from battery import YIELD_BUILTIN, spec_text, yield_fields
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from reference.cheapest import cheapest
+
+from optimizer.analysis.environment import environment_from_spec
+from optimizer.analysis.montecarlo import (
+    build_factors,
+    monte_carlo,
+    monte_carlo_from_variation,
+    yield_fractions,
+)
+from optimizer.analysis.variation import sample_values, variation_from_design
+from optimizer.catalog import builtin_catalog, catalog_from_parts
+from optimizer.catalog.table import Catalog
+from optimizer.design import Design, Placement, Topology
+from optimizer.parts import DiscretePart
+from optimizer.solve.classquads import (
+    UNIT_BOUND,
+    ClassQuadSearch,
+    deviation_bounds,
+    passing_counts,
+    screen_pairs,
+)
+from optimizer.solve.environment import linear_environment
+from optimizer.solve.search import SearchStatus, _frontier_applies, pick, prepare
+from optimizer.solve.yieldbox import balance_conditions
+from optimizer.spec import Spec
+from optimizer.specfile import load_spec
+from optimizer.verify import verify
+
+YIELD = ", cmrr_basis: yield, yield: 99 %"
+SAMPLES = ", monte_carlo: {samples: 2000}"
+
+
+def _spec(tmp: Path, **fields: object) -> Spec:
+    base: dict[str, object] = dict(gain=1, floor=46, tmin=-40, tmax=125,
+                                   topologies="four_discrete", req=YIELD, prefs=SAMPLES)  # fmt: skip
+    base.update(fields)
+    (tmp / "s.yaml").write_text(spec_text(base), encoding="utf-8")
+    return load_spec(str(tmp / "s.yaml"))
+
+
+def _design(parts: list[DiscretePart]) -> Design:
+    return Design(tuple(Placement(f"R{i + 1}", p) for i, p in enumerate(parts)))  # type: ignore[arg-type]
+
+
+@functools.cache
+def _builtin() -> Catalog:
+    return builtin_catalog()
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_yield_fractions_equal_the_monte_carlo(tmp_path: Path, seed: int) -> None:
+    spec = _spec(tmp_path, gain=2)
+    cat = _builtin()
+    rng = np.random.default_rng(seed)
+    picked = [cat.discrete_part(int(r)) for r in rng.integers(0, cat.discrete_count, 4)]
+    values = (10e3, 20e3, 10e3, 20e3)
+    design = _design(
+        [dataclasses.replace(p, resistance_ohm=v) for p, v in zip(picked, values, strict=True)]
+    )
+    req, prefs = spec.requirements, spec.preferences
+    # The floor at the design's own CMRR at the yield: yields around the target, not 0 or 1.
+    at_yield = monte_carlo(design, spec).cmrr_at_yield_db
+    req = dataclasses.replace(req, cmrr_floor_db=at_yield, gain_accuracy=0.2)
+    variation = variation_from_design(design, req.life_s, False, req.drift_model)
+    factors = build_factors(variation, samples=prefs.samples, seed=prefs.seed,
+                            distribution=prefs.distribution, sigma_k=prefs.sigma_k)  # fmt: skip
+    r0 = np.array(design.resistances_ohm)
+    rows = np.array([r0, r0 * [1, 1.003, 1, 1], r0 * [2, 2, 3, 3], r0 * [1, 0.997, 1.0, 1.001]])
+    env = environment_from_spec(spec)
+    got = yield_fractions(factors, rows, env, req, chunk=1000)
+    for row, fraction in zip(rows, got, strict=True):
+        own = dataclasses.replace(variation, nominal_ohm=tuple(float(x) for x in row))
+        want = monte_carlo_from_variation(own, env, req, samples=prefs.samples, seed=prefs.seed,
+                                          distribution=prefs.distribution,
+                                          sigma_k=prefs.sigma_k).yield_fraction  # fmt: skip
+        assert fraction == want
+        # Stopped early against a target, it still decides as the Monte Carlo does.
+        for target in (want, want + 1.0 / prefs.samples, want - 1.0 / prefs.samples, 0.99):
+            early = yield_fractions(factors, row[None, :], env, req, chunk=500, target=target)
+            assert bool(early[0] >= target) == bool(want >= target)
+    assert 0.0 < got[0] < 1.0  # the comparison is not between two trivial answers
+
+
+@settings(max_examples=80, deadline=None)
+@given(
+    rows=st.lists(st.integers(0, 10**6), min_size=4, max_size=4),
+    gain=st.sampled_from([1.0, 2.0, 10.0]),
+    skew=st.lists(st.floats(-0.004, 0.004), min_size=2, max_size=2),
+    hot=st.booleans(),
+)
+def test_passing_counts_bound_the_monte_carlo(
+    tmp_path_factory: pytest.TempPathFactory,
+    rows: list[int],
+    gain: float,
+    skew: list[float],
+    hot: bool,
+) -> None:
+    """Random classes of the built-in catalog at ratios near the gain: the builds the bound
+    admits are at least the builds whose CMRR the Monte Carlo passes (floor at the design's
+    own median CMRR, so both outcomes occur)."""
+    tmp = tmp_path_factory.mktemp("count")
+    spec = _spec(tmp, gain=gain, tmin=50 if hot else -40, tmax=85 if hot else 125)
+    cat = _builtin()
+    picked = [cat.discrete_part(r % cat.discrete_count) for r in rows]
+    values = (10e3, 10e3 * gain * (1 + skew[0]), 10e3, 10e3 * gain * (1 + skew[1]))
+    parts = [dataclasses.replace(p, resistance_ohm=v) for p, v in zip(picked, values, strict=True)]
+    design = _design(parts)
+    req, prefs = spec.requirements, spec.preferences
+    median = dict(monte_carlo(design, spec).cmrr_percentiles_db)[50.0]
+    req = dataclasses.replace(req, cmrr_floor_db=median)
+    spec = dataclasses.replace(spec, requirements=req)
+    counted = round(monte_carlo(design, spec).cmrr_pass_fraction * prefs.samples)
+    variation = variation_from_design(design, req.life_s, False, req.drift_model)
+    f, alpha = build_factors(variation, samples=prefs.samples, seed=prefs.seed,
+                             distribution=prefs.distribution, sigma_k=prefs.sigma_k)  # fmt: skip
+    temps = np.array(environment_from_spec(spec).delta_t_k)
+    r = f[:, :, None] * (1.0 + alpha[:, :, None] * temps[None, None, :])
+    rho_a, rho_b = values[1] / values[0], values[3] / values[2]
+    first = deviation_bounds(r[:, 0], r[:, 1], (rho_a * 0.995, rho_a * 1.004))
+    second = deviation_bounds(r[:, 2], r[:, 3], (rho_b * 0.996, rho_b * 1.005))
+    m = np.log(rho_a / (1 + rho_a)) - np.log(rho_b / (1 + rho_b))
+    from optimizer.solve.frontier import log_balance_limit
+
+    balance = log_balance_limit(req.cmrr_floor_db, spec.amplifier.cmrr_ratio)
+    bound = int(passing_counts(first, second, np.array([m]), balance)[0])
+    assert bound >= counted
+
+
+def test_the_unit_draws_are_the_monte_carlo_draws(tmp_path: Path) -> None:
+    """The search scales one set of draws per pattern of non-zero variables; for random
+    classes of the built-in catalog they equal the Monte Carlo's draws of those classes."""
+    spec = _spec(tmp_path, life=", operating_life: 43800 h")
+    cat = _builtin()
+    problem = prepare(spec, cat)
+    search = ClassQuadSearch(spec, cat, problem.env, problem.block, lambda: False)
+    rng = np.random.default_rng(4)
+    block = problem.block
+    usable = [block.usable(i) for i in range(4)]
+    for _ in range(5):
+        quad = tuple(int(rng.choice(u)) for u in usable)
+        pattern = tuple(bool(x > 0.0) for c in quad for x in search._own[c])
+        unit = search._unit_values(pattern)
+        parts = [cat.discrete_part(int(block.part_row[c][block.part_row[c] >= 0][0])) for c in quad]
+        variation = variation_from_design(_design(parts), spec.requirements.life_s, False,
+                                          spec.requirements.drift_model)  # fmt: skip
+        prefs = spec.preferences
+        real = sample_values(variation, np.random.Generator(np.random.PCG64(prefs.seed)),
+                             prefs.samples, prefs.distribution, prefs.sigma_k)  # fmt: skip
+        for i, c in enumerate(quad):
+            t, tc, d = search._own[c]
+            np.testing.assert_allclose(
+                unit.own_error[:, i] * (t / UNIT_BOUND), real.own_error[:, i], rtol=1e-12
+            )
+            np.testing.assert_allclose(
+                unit.own_tempco[:, i] * (tc / UNIT_BOUND), real.own_tempco[:, i], rtol=1e-12
+            )
+            np.testing.assert_allclose(
+                unit.own_drift[:, i] * (d / UNIT_BOUND), real.own_drift[:, i], rtol=1e-12
+            )
+
+
+@settings(max_examples=200, deadline=None)
+@given(
+    c=st.floats(0.05, 0.95),
+    mismatch=st.floats(-0.02, 0.02),
+    sigma=st.lists(st.floats(1e-5, 5e-3), min_size=4, max_size=4),
+    z=st.floats(0.5, 3.5),
+    z_two=st.floats(0.0, 3.5),
+    balance=st.floats(1e-3, 3e-2),
+)
+def test_the_vectorised_screen_is_the_design_screen(
+    c: float, mismatch: float, sigma: list[float], z: float, z_two: float, balance: float
+) -> None:
+    a = c * np.exp(-mismatch)
+    if not 0.0 < a < 1.0:
+        return
+    spreads = np.array(sigma)
+    rho_a, rho_b = c / (1.0 - c), a / (1.0 - a)
+    narrow = 1.0 - (0.01 + 2.0 * float(spreads.max()))
+    want = balance_conditions(np.array([1.0, rho_a, 1.0, rho_b]), spreads, np.zeros((1, 3)),
+                              balance, z * narrow, z_two * narrow)  # fmt: skip
+    got = bool(screen_pairs(np.array([c]), np.array([a]), spreads, balance, z, z_two)[0])
+    assert got == want
+
+
+def _medium() -> Catalog:
+    """Five invented grades at two values each (demo data): every one of its designs may need
+    the Monte Carlo in the reference (no screen on the yield basis), so it stays small."""
+    grades = [("A", 0.01, 100e-6, 1.0), ("B", 0.005, 50e-6, 2.5), ("C", 0.0025, 25e-6, 4.0),
+              ("D", 0.001, 25e-6, 6.0), ("E", 0.0005, 10e-6, 11.0)]  # fmt: skip
+    return catalog_from_parts(
+        [
+            DiscretePart(f"MQ-{g}-{v:g}", v, t, tc, "0603", 0.1, 75.0, cost)
+            for g, t, tc, cost in grades
+            for v in (10e3, 20e3)
+        ],
+        (),
+        source="class-quads",
+    )
+
+
+#: (purpose, gain, floor dB, temperature range): floors where the cheapest designs sit at
+#: different grade mixes (measured with the reference: 600 to 4,200 exact checks each).
+REFERENCE_CASES = [
+    ("G = 1, 44 dB, automotive", 1.0, 44.0, (-40, 125)),
+    ("G = 1, 50 dB, industrial", 1.0, 50.0, (-20, 85)),
+    ("G = 2, 46 dB, industrial", 2.0, 46.0, (-20, 85)),
+    ("G = 2, 52 dB, industrial", 2.0, 52.0, (-20, 85)),
+]
+
+
+@pytest.mark.parametrize(("purpose", "gain", "floor", "temps"), REFERENCE_CASES,
+                         ids=[c[0] for c in REFERENCE_CASES])  # fmt: skip
+def test_the_pick_matches_the_independent_reference(
+    tmp_path: Path, purpose: str, gain: float, floor: float, temps: tuple[int, int]
+) -> None:
+    spec = _spec(tmp_path, gain=gain, floor=floor, tmin=temps[0], tmax=temps[1])
+    cat = _medium()
+    assert _frontier_applies(spec, Topology.DISCRETE, linear_environment(spec)), purpose
+    ref = cheapest(spec, cat, 5, max_checks=20000)
+    assert ref.complete, purpose
+    result = pick(spec, cat, verify, top=5, time_limit_s=120.0)
+    got = [c.cost.total for c in result.ranked]
+    assert got == pytest.approx(ref.costs, rel=1e-9), (purpose, got, ref.costs)
+    assert result.status is (SearchStatus.OPTIMAL if ref.designs else SearchStatus.INFEASIBLE)
+    assert all(verify(c.design, spec).passed for c in result.ranked)
+
+
+@pytest.mark.parametrize(("purpose", "fields"), YIELD_BUILTIN, ids=[y[0] for y in YIELD_BUILTIN])
+def test_plain_yield_specs_are_proven_over_the_builtin_catalog(
+    tmp_path: Path, purpose: str, fields: dict[str, object]
+) -> None:
+    """Plain yield-basis specs over the built-in catalog (``tests/battery.py``): proven, ten
+    designs, each passing the exact check, none cheaper than the model's cost floor
+    (``Problem.discrete_cost_floor``), through the class quadruples."""
+    (tmp_path / "s.yaml").write_text(spec_text(yield_fields(fields)), encoding="utf-8")
+    spec = load_spec(str(tmp_path / "s.yaml"))
+    cat = _builtin()
+    assert _frontier_applies(spec, Topology.DISCRETE, linear_environment(spec)), purpose
+    result = pick(spec, cat, verify, top=10, time_limit_s=120.0)
+    assert result.status is SearchStatus.OPTIMAL, purpose
+    assert len(result.ranked) == 10, purpose
+    floor = prepare(spec, cat).discrete_cost_floor()
+    assert all(c.cost.total >= floor for c in result.ranked), purpose
+    assert all(verify(c.design, spec).passed for c in result.ranked), purpose
