@@ -524,6 +524,51 @@ def bench_battery(runs: int, tmp: str) -> list[dict[str, Any]]:
     return rows
 
 
+def bench_yield(runs: int, tmp: str) -> list[dict[str, Any]]:
+    """``pick`` (top 10) on the plain yield-basis specs over the built-in catalog
+    (``tests/battery.py``, ``YIELD_BUILTIN``; four discrete parts, 2,000 builds): each must end
+    proven. No reference runs (each of its designs would need a Monte Carlo); "search" as in
+    the battery section."""
+    from optimizer.catalog import builtin_catalog
+    from optimizer.solve.search import pick
+    from optimizer.verify import verify_candidate as verify  # what the CLI runs
+
+    tests_dir = os.path.join(os.path.dirname(os.path.abspath(__file__)), os.pardir)
+    if tests_dir not in sys.path:
+        sys.path.insert(0, tests_dir)
+    from battery import YIELD_BUILTIN, spec_text, yield_fields
+
+    parts = builtin_catalog()
+    rows = []
+    for purpose, fields in YIELD_BUILTIN:
+        row: dict[str, Any] = {"spec": purpose}
+        searches: list[float] = []
+        try:
+            path = os.path.join(tmp, "yield.yaml")
+            with open(path, "w", encoding="utf-8") as handle:
+                handle.write(spec_text(yield_fields(fields)))
+            spec = load_spec(path)
+            for _ in range(runs):
+                _, result = timed(pick, spec, parts, verify, top=10, time_limit_s=60.0)
+                status = status_name(result.status)
+                check_status(status, len(result.ranked), (PROVEN,))
+                searches.append(result.solve_seconds + result.build_seconds + result.verify_seconds)
+        except Exception as exc:  # a failed run: shown, never measured
+            rows.append(failed_row({**row, "runs": len(searches)}, exc))
+            continue
+        rows.append(
+            {
+                **row,
+                "runs": len(searches),
+                "status": status,
+                "ranked": len(result.ranked),
+                "optimum": result.ranked[0].cost.total,
+                "search_s": median(searches),
+            }
+        )
+    return rows
+
+
 #: The sweep section: ``quartet sweep`` over 30 CMRR floors (issue #11: at most 10 s, cost
 #: curves monotone).
 SWEEP_SPEC = "motor_shunt"
@@ -1109,7 +1154,8 @@ def targets(result: dict[str, Any]) -> list[dict[str, Any]]:
 def failures(result: dict[str, Any]) -> list[str]:
     """Every failed row of every section, as "section key: message"."""
     out = []
-    for section, key in (("examples", "example"), ("battery", "spec"), ("cli", "command"),
+    for section, key in (("examples", "example"), ("battery", "spec"), ("yield", "spec"),
+                         ("cli", "command"),
                          ("sweep", "sweep"), ("oracle", "parts"),
                          ("scaling", "parts"), ("board", "board")):  # fmt: skip
         out += [f"{section} {r[key]}: {r['failed']}" for r in result.get(section, [])
@@ -1155,7 +1201,8 @@ def parse_args(argv: Sequence[str] | None) -> argparse.Namespace:
     parser.add_argument("--runs", type=int, default=None, help="runs per figure (default 5)")
     parser.add_argument("--json", metavar="OUT", help="write the figures as JSON to OUT")
     parser.add_argument(
-        "--sections", default="examples,battery,cli,sweep,oracle,scaling,montecarlo,board",
+        "--sections",
+        default="examples,battery,yield,cli,sweep,oracle,scaling,montecarlo,board",
         help="comma-separated sections to run",
     )  # fmt: skip
     parser.add_argument("--examples", help="comma-separated example names (default: all)")
@@ -1252,6 +1299,12 @@ def main(argv: Sequence[str] | None = None) -> int:
             print(section("\ncanonical battery against the reference (top 10)",
                           result["battery"], ["spec", "catalog", "runs", "status", "ranked",
                                               "optimum", "agrees", "search_s"], "spec"),
+                  flush=True)  # fmt: skip
+        if "yield" in sections:
+            result["yield"] = bench_yield(runs, tmp)
+            print(section("\nplain yield-basis specs over the built-in catalog (top 10, four "
+                          "discrete parts)", result["yield"],
+                          ["spec", "runs", "status", "ranked", "optimum", "search_s"], "spec"),
                   flush=True)  # fmt: skip
         if "cli" in sections:
             result["cli"] = bench_cli(runs, os.path.abspath(args.cli_spec), tmp)
