@@ -44,9 +44,7 @@ EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 
 @settings(max_examples=200, deadline=None)
 @given(
-    data=st.lists(
-        st.tuples(st.floats(0.0, 10.0), st.floats(0.0, 1.0)), min_size=1, max_size=7
-    ),
+    data=st.lists(st.tuples(st.floats(0.0, 10.0), st.floats(0.0, 1.0)), min_size=1, max_size=7),
     usable=st.lists(st.lists(st.integers(0, 6), min_size=0, max_size=4), min_size=4, max_size=4),
     weights=st.lists(st.floats(0.0, 2.0), min_size=4, max_size=4),
     budget=st.floats(0.0, 4.0),
