@@ -44,7 +44,8 @@ from yaml.nodes import MappingNode, Node
 from ..errors import ModelError, SpecError, quote
 from ..inputs import YamlTrouble, compose_yaml, is_file
 from ..spec import Spec, StockPolicy
-from ..specfile import _combined, _Schema, load_spec
+from ..specfile import _combined, load_spec
+from ..specfile.schema import _Schema
 from ..yamlread import Reader, Recorded, Section, node_line, read_document
 from .model import Board, BoardAmplifier, Purchasing
 

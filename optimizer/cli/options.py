@@ -123,7 +123,7 @@ def _add_export_options(parser: argparse.ArgumentParser, what: str) -> None:
 
 def _bare_fraction(option: str, text: str | None) -> str | None:
     """A warning for a fraction option written as a bare number of 0.05 or more."""
-    from ..specfile import BARE_FRACTION_WARNING
+    from ..specfile.keys import BARE_FRACTION_WARNING
 
     if text is None:
         return None
