@@ -45,7 +45,7 @@ feeds it the corners (:func:`vertex_values`) and the Monte Carlo the random draw
 (:func:`sample_values`).
 
 The environment (temperature, source and REF impedance, the amplifier) is
-:mod:`optimizer.analysis.environment`; :func:`passive_corners` combines the two.
+:mod:`optimizer.analysis.environment`; ``analysis.corners.passive_corners`` combines the two.
 """
 
 from __future__ import annotations
@@ -67,15 +67,12 @@ from .drift import (
     drift_interval,
     one_sided_drift_draw,
 )
-from .environment import Environment, temperature_offset_k
 
 __all__ = [
-    "PassiveCorners",
     "SharedGroup",
     "VariableValues",
     "Variation",
     "discrete_factor_bounds",
-    "passive_corners",
     "resistances",
     "sample_values",
     "sign_matrix",
@@ -573,55 +570,3 @@ def sample_values(
             if not normal:
                 out -= bounds[column]
     return values
-
-
-# --------------------------------------------------------------------------------------------
-# Corner arrays
-# --------------------------------------------------------------------------------------------
-
-
-@dataclass(frozen=True)
-class PassiveCorners:
-    """Every corner of the resistors and the passive environment, flattened: ``r`` is
-    ``(N, 4)`` ohms, ``rs1``, ``rs3``, ``rref`` and ``temperature_c`` are ``(N,)``."""
-
-    r: Array
-    rs1: Array
-    rs3: Array
-    rref: Array
-    temperature_c: Array
-
-    @property
-    def count(self) -> int:
-        return int(self.r.shape[0])
-
-
-def passive_corners(variation: Variation, environment: Environment) -> PassiveCorners:
-    """The product of the part vertices at each temperature (:func:`vertex_values`) with the
-    source-impedance vertices and the REF impedance ends. Raises :class:`ModelError` when a
-    corner resistance is zero or negative (bounds too wide for the temperature range)."""
-    source = np.array(environment.source_ohm, dtype=float)
-    ref = np.array(environment.ref_ohm, dtype=float)
-    blocks: list[tuple[Array, float]] = []
-    for temperature in environment.temperatures_c:
-        dt = float(temperature_offset_k(temperature))
-        r = resistances(variation, vertex_values(variation, dt), dt)
-        if np.any(r <= 0.0):
-            raise ModelError(
-                "variation",
-                "range",
-                f"at {temperature:g} °C tolerance, tempco and drift together reach -100 %: "
-                "a resistance would be zero or negative",
-            )
-        blocks.append((r, temperature))
-    # Corner order: temperature, then part vertex, then source vertex, then REF end.
-    env_count = source.shape[0] * ref.shape[0]
-    counts = [r.shape[0] for r, _ in blocks]
-    shape = (sum(counts), source.shape[0], ref.shape[0])
-    return PassiveCorners(
-        np.repeat(np.concatenate([r for r, _ in blocks]), env_count, axis=0),
-        np.broadcast_to(source[None, :, 0, None], shape).reshape(-1),
-        np.broadcast_to(source[None, :, 1, None], shape).reshape(-1),
-        np.broadcast_to(ref[None, None, :], shape).reshape(-1),
-        np.repeat([t for _, t in blocks], [n * env_count for n in counts]).astype(float),
-    )

@@ -75,6 +75,7 @@ from numpy.typing import ArrayLike, NDArray
 from ..design import Design
 from ..errors import ModelError
 from ..spec import Spec
+from .corners import passive_corners
 from .environment import (
     IDEAL_ENVIRONMENT,
     Environment,
@@ -89,7 +90,7 @@ from .transfer import (
     divider_ratio,
     feedback_factor,
 )
-from .variation import Variation, passive_corners, variation_from_design
+from .variation import Variation, variation_from_design
 
 __all__ = [
     "BUDGET_NAMES",
