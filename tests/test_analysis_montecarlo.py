@@ -265,6 +265,32 @@ def test_same_seed_gives_identical_results_whatever_the_chunking() -> None:
     assert a != c
 
 
+def test_the_build_cache_changes_nothing() -> None:
+    """The Monte Carlo keeps the builds of its latest variations (``_DRAWS``): a run from the
+    cache equals the same run with the cache emptied, for the same bounds at other nominal
+    values (a hit), for other bounds (a miss) and for a one-sided drift with part kinds."""
+    from optimizer.analysis import montecarlo
+
+    env = full_environment()
+    req = requirements(2.0, 60.0, 0.01)
+    base = Variation((1e4, 2e4, 1e4, 2e4), (1e-3,) * 4, (25e-6,) * 4, (5e-4,) * 4)
+    variations = [
+        base,
+        Variation((3e4, 6e4, 1e4, 2e4), (1e-3,) * 4, (25e-6,) * 4, (5e-4,) * 4),
+        Variation((1e4, 2e4, 1e4, 2e4), (2e-3,) + (1e-3,) * 3, (25e-6,) * 4, (5e-4,) * 4),
+        Variation((1e4, 2e4, 1e4, 2e4), (1e-3,) * 4, (25e-6,) * 4, (5e-4,) * 4,
+                  drift_low=(0.0,) * 4, drift_kind=(0, 0, 1, 1)),
+    ]  # fmt: skip
+    cached = []
+    for v in variations:
+        monte_carlo_from_variation(v, env, req, samples=5_000, seed=3)  # fills the cache
+        cached.append(monte_carlo_from_variation(v, env, req, samples=5_000, seed=3))
+    for v, result in zip(variations, cached, strict=True):
+        montecarlo._DRAWS.clear()
+        assert monte_carlo_from_variation(v, env, req, samples=5_000, seed=3) == result
+    assert cached[0] != cached[2] and cached[0] != cached[3]
+
+
 def _spec(prefs: Preferences) -> Spec:
     amp = Amplifier(
         "amp", 100.0, 110.0, 1e6, 1e6, 0.0, 0.0, 0.0, 0.0, RailSpan(0.0, 0.0), RailSpan(0.0, 0.0)

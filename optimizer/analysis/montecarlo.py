@@ -57,6 +57,7 @@ and returns per-build CMRR in dB and differential gain; it is what the benchmark
 from __future__ import annotations
 
 import math
+from collections import OrderedDict
 from dataclasses import dataclass, replace
 from typing import Literal
 
@@ -68,7 +69,13 @@ from ..errors import ModelError
 from ..spec import Distribution, Requirements, Spec
 from .environment import Environment, dominant_vertices, environment_from_spec
 from .transfer import divider_ratio
-from .variation import Variation, sample_values, static_and_tempco, variation_from_design
+from .variation import (
+    VariableValues,
+    Variation,
+    sample_values,
+    static_and_tempco,
+    variation_from_design,
+)
 from .worstcase import (
     bridge_terms,
     common_mode_error_from_terms,
@@ -327,6 +334,72 @@ def _passes(
     return ok_cm, ok_gain, err_low, err_high
 
 
+#: The builds of the latest few variations, kept for re-use (key: :func:`_draw_key`): a search
+#: checks many designs whose parts vary alike (other values of the same parts), and the draws
+#: do not depend on the values. Runs of more than :data:`CACHED_SAMPLES_MAX` builds are not
+#: kept (memory).
+_DRAWS: OrderedDict[tuple[object, ...], list[VariableValues]] = OrderedDict()
+DRAW_CACHE_SIZE = 4
+CACHED_SAMPLES_MAX = 200_000
+
+
+def _draw_key(
+    variation: Variation,
+    samples: int,
+    seed: int,
+    chunk: int,
+    distribution: Distribution,
+    sigma_k: float,
+) -> tuple[object, ...]:
+    """Everything ``variation.sample_values`` reads, with the run's count, seed and chunking:
+    equal keys give equal builds."""
+    groups = tuple(
+        (g.tolerance, g.tempco_per_k, g.drift, g.drift_min, g.drift_kind) for g in variation.groups
+    )
+    return (
+        variation.tolerance,
+        variation.tempco_per_k,
+        variation.drift,
+        variation.own_drift_low,
+        variation.drift_kind,
+        groups,
+        samples,
+        seed,
+        chunk,
+        distribution,
+        sigma_k,
+    )
+
+
+def _builds(
+    variation: Variation,
+    samples: int,
+    seed: int,
+    chunk: int,
+    distribution: Distribution,
+    sigma_k: float,
+) -> list[VariableValues]:
+    """The run's builds chunk by chunk (``sample_values`` on one seeded generator), from the
+    cache when the same bounds were drawn lately; the arrays are read-only."""
+    key = _draw_key(variation, samples, seed, chunk, distribution, sigma_k)
+    known = _DRAWS.get(key)
+    if known is not None:
+        _DRAWS.move_to_end(key)
+        return known
+    rng = np.random.Generator(np.random.PCG64(seed))
+    drawn = []
+    for start in range(0, samples, chunk):
+        values = sample_values(variation, rng, min(chunk, samples - start), distribution, sigma_k)
+        for array in vars(values).values():
+            array.flags.writeable = False
+        drawn.append(values)
+    if samples <= CACHED_SAMPLES_MAX:
+        _DRAWS[key] = drawn
+        while len(_DRAWS) > DRAW_CACHE_SIZE:
+            _DRAWS.popitem(last=False)
+    return drawn
+
+
 def build_factors(
     variation: Variation,
     *,
@@ -417,15 +490,14 @@ def monte_carlo_from_variation(
         raise ModelError(
             "monte carlo", "chunk", f"expected a whole number of 1 or more, got {chunk!r}"
         )
-    rng = np.random.Generator(np.random.PCG64(seed))
+    drawn = _builds(variation, samples, seed, chunk, distribution, sigma_k)
     cm_db = np.empty(samples)
     gain_err = np.empty(samples)
     cm_pass = 0
     gain_pass = 0
     both_pass = 0
-    for start in range(0, samples, chunk):
+    for start, values in zip(range(0, samples, chunk), drawn, strict=True):
         count = min(chunk, samples - start)
-        values = sample_values(variation, rng, count, distribution, sigma_k)
         base, alpha = static_and_tempco(variation, values)
         worst_cm, gain_low, gain_high = _judge(base, alpha, environment)
         ok_cm, ok_gain, err_low, err_high = _passes(worst_cm, gain_low, gain_high, requirements)
