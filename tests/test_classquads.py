@@ -214,38 +214,42 @@ def test_the_vectorised_screen_is_the_design_screen(
     assert got == want
 
 
-def _medium() -> Catalog:
+def _medium(dominated: bool = False) -> Catalog:
     """Five invented grades at two values each (demo data): every one of its designs may need
-    the Monte Carlo in the reference (no screen on the yield basis), so it stays small."""
+    the Monte Carlo in the reference (no screen on the yield basis), so it stays small.
+    ``dominated`` adds grade F: grade C's tolerance, tempco and ratings at a higher cost."""
     grades = [("A", 0.01, 100e-6, 1.0), ("B", 0.005, 50e-6, 2.5), ("C", 0.0025, 25e-6, 4.0),
               ("D", 0.001, 25e-6, 6.0), ("E", 0.0005, 10e-6, 11.0)]  # fmt: skip
-    return catalog_from_parts(
-        [
-            DiscretePart(f"MQ-{g}-{v:g}", v, t, tc, "0603", 0.1, 75.0, cost)
-            for g, t, tc, cost in grades
-            for v in (10e3, 20e3)
-        ],
-        (),
-        source="class-quads",
-    )
+    if dominated:
+        grades.append(("F", 0.0025, 25e-6, 4.5))
+    parts = [
+        DiscretePart(f"MQ-{g}-{v:g}", v, t, tc, "0603", 0.1, 75.0, cost)
+        for g, t, tc, cost in grades
+        for v in (10e3, 20e3)
+    ]
+    return catalog_from_parts(parts, (), source="class-quads")
 
 
-#: (purpose, gain, floor dB, temperature range): floors where the cheapest designs sit at
-#: different grade mixes (measured with the reference: 600 to 4,200 exact checks each).
+#: (purpose, gain, floor dB, temperature range, preferences): floors where the cheapest
+#: designs sit at different grade mixes (measured with the reference: 600 to 4,200 exact
+#: checks each), and a placement cost.
 REFERENCE_CASES = [
-    ("G = 1, 44 dB, automotive", 1.0, 44.0, (-40, 125)),
-    ("G = 1, 50 dB, industrial", 1.0, 50.0, (-20, 85)),
-    ("G = 2, 46 dB, industrial", 2.0, 46.0, (-20, 85)),
-    ("G = 2, 52 dB, industrial", 2.0, 52.0, (-20, 85)),
-]
+    ("G = 1, 44 dB, automotive", 1.0, 44.0, (-40, 125), ""),
+    ("G = 1, 50 dB, industrial", 1.0, 50.0, (-20, 85), ""),
+    ("G = 2, 46 dB, industrial", 2.0, 46.0, (-20, 85), ""),
+    ("G = 2, 52 dB, industrial", 2.0, 52.0, (-20, 85), ""),
+    ("G = 2, 46 dB, industrial, placement cost 0.2", 2.0, 46.0, (-20, 85),
+     ", placement_cost: 0.2"),
+]  # fmt: skip
 
 
-@pytest.mark.parametrize(("purpose", "gain", "floor", "temps"), REFERENCE_CASES,
+@pytest.mark.parametrize(("purpose", "gain", "floor", "temps", "prefs"), REFERENCE_CASES,
                          ids=[c[0] for c in REFERENCE_CASES])  # fmt: skip
 def test_the_pick_matches_the_independent_reference(
-    tmp_path: Path, purpose: str, gain: float, floor: float, temps: tuple[int, int]
+    tmp_path: Path, purpose: str, gain: float, floor: float, temps: tuple[int, int], prefs: str
 ) -> None:
-    spec = _spec(tmp_path, gain=gain, floor=floor, tmin=temps[0], tmax=temps[1])
+    spec = _spec(tmp_path, gain=gain, floor=floor, tmin=temps[0], tmax=temps[1],
+                 prefs=SAMPLES + prefs)  # fmt: skip
     cat = _medium()
     assert _frontier_applies(spec, Topology.DISCRETE, linear_environment(spec)), purpose
     ref = cheapest(spec, cat, 5, max_checks=20000)
@@ -274,3 +278,23 @@ def test_plain_yield_specs_are_proven_over_the_builtin_catalog(
     floor = prepare(spec, cat).discrete_cost_floor()
     assert all(c.cost.total >= floor for c in result.ranked), purpose
     assert all(verify(c.design, spec).passed for c in result.ranked), purpose
+
+
+def test_the_ranking_leaves_out_exactly_the_designs_with_a_dominated_part(
+    tmp_path: Path,
+) -> None:
+    """Grade F is grade C at a higher cost: every design with an F part has a design with C in
+    its place that passes as well and costs less. The ranking leaves out exactly those designs
+    (stated in ``optimizer/solve/classquads.py``): its four costs are the reference's cheapest
+    four without an F part, and the reference's own five hold at least one with F."""
+    spec = _spec(tmp_path, gain=2.0, floor=52.0, tmin=-20, tmax=85)
+    cat = _medium(dominated=True)
+    ref = cheapest(spec, cat, 12, max_checks=40000)
+    assert ref.complete
+    designs = [next(x for x in item if isinstance(x, Design)) for item in ref.designs]
+    uses_f = ["MQ-F-" in " ".join(p.part.part_id for p in d.placements) for d in designs]
+    assert any(uses_f[:5])  # the omission is exercised
+    want = [c for c, f in zip(ref.costs, uses_f, strict=True) if not f][:4]
+    assert len(want) == 4
+    result = pick(spec, cat, verify, top=4, time_limit_s=120.0)
+    assert [c.cost.total for c in result.ranked] == pytest.approx(want, rel=1e-9)

@@ -9,8 +9,7 @@ catalog: 60 s, 30 designs rejected, the best shown costing 124.4 while one at 19
 Yet the structure is simple:
 
 * A design's cost is the sum of its four parts' class costs (``solve.discrete``: a class is
-  every attribute of a part but its value, the cost included), when no BOM line cost and no
-  per-line stock penalty apply.
+  every attribute of a part but its value, the cost included, with the placement cost).
 * With no source and no REF impedance the exact check's Monte Carlo reads the values only
   through the two ratios ``ρ₁₂ = R2/R1`` and ``ρ₃₄ = R4/R3``: ``c = R2/(R1 + R2)`` and
   ``a = R4/(R3 + R4)`` scale out, and every design is judged on the same random draws (one
@@ -19,11 +18,13 @@ Yet the structure is simple:
 
 The search
 ----------
-1. Class quadruples come out in nondecreasing cost (a best-first merge of the two halves'
-   class pairs, each sorted by cost), only those whose summed variance can meet the yield at
-   all: ``z·s·√(Σσᵢ²) ≤ Λ`` with ``s`` the least sensitivity ``1/(1 + 1.25·ρ_max)`` over the
-   gain window (the design screen's conditions at zero mismatch, necessary). A quadruple
-   dearer than the ranking can use (``ceiling``) ends the search.
+1. Class quadruples come out in nondecreasing part cost (a best-first merge of the two
+   halves' class pairs, each sorted by cost), only those whose summed variance can meet the
+   yield at all: ``z·s·√(Σσᵢ²) ≤ Λ`` with ``s`` the least sensitivity ``1/(1 + ρ_max)`` over
+   the halves' ratios (the design screen's conditions at zero mismatch, necessary). One heap
+   orders the work by the least cost it can give (a quadruple at its parts plus one line per
+   distinct class), so designs leave it in exact cost order; work dearer than the ranking can
+   use (``ceiling``) ends the search.
 2. For a quadruple, every ratio pair its classes' values reach with a nominal gain inside the
    window (:func:`gain_window`) and a nominal mismatch ``|m| = |ln(c₀/a₀)| ≤ Λ`` is screened by
    the linearised yield conditions (:func:`screen_pairs`, ``yieldbox.balance_conditions`` at
@@ -35,9 +36,21 @@ The search
    pass. Exact, not statistical: the same builds the check draws.
 4. The rest get the Monte Carlo's yield itself on those draws (``analysis.montecarlo.
    yield_fractions``: equal to the check's yield for the pair's first value choice), best
-   balanced first, a few pairs at a time. Each pair that meets the yield yields its value
-   choices as designs (values nearest the middle of the resistance window first), all of one
-   cost; the stream's exact check still decides each (the ratings read the values).
+   balanced first, a few pairs at a time. Each pair that meets the yield gives its value
+   choices as designs, grouped by exact cost (``optimizer.cost``: the lines they place), each
+   group's values nearest the middle of the resistance window first; the stream's exact check
+   still decides each (the ratings read the values).
+
+What the ranking leaves out: designs with a part that another part dominates at its value
+(no cheaper, no tighter, rated no better, stocked if it is: ``solve.discrete``). Swapping it
+for its dominator at every position it fills gives a design that passes whenever it does and
+costs no more (no line cost is served), so the cheapest design is never lost; only such
+second-best designs are (``tests/test_classquads.py`` checks exactly this against the
+reference). Keeping the dominated classes costs several times the search on the built-in
+catalog (G = 2, 56 dB, five years: 3 s -> over 60 s), so they are dropped. With a BOM line
+cost or a per-line stock penalty that swap can cost more (a part dominated at one position
+only, or two placements of one unstocked part paying one penalty), so such specs stay with
+CP-SAT; the cost grouping below already counts lines for when they are served.
 
 Every step is a necessary condition of the exact check, so the k-th design the stream's exact
 check passes is the k-th cheapest (ties: any order; siblings of one ratio pair share its
@@ -45,8 +58,8 @@ yield up to the rounding of ``R2/R1`` in the last place). Served only where the 
 (:func:`serves`); elsewhere four discrete parts on the yield basis stay with CP-SAT.
 
 Measured (G = 1, 46 dB, −40…125 °C, 99 % of 2,000 builds, the built-in catalog): CP-SAT ended
-at 60 s with 124.4 unproven; this search proves 19.7 with ten designs in about 2 s (about
-15,000 quadruples screened, a hundred Monte Carlo batches).
+at 60 s with 124.4 unproven; this search proves 19.7 with ten designs in about 1 s (about
+2,000 quadruples screened past their variance, a hundred Monte Carlo batches).
 """
 
 from __future__ import annotations
@@ -54,6 +67,7 @@ from __future__ import annotations
 import heapq
 import math
 from collections.abc import Callable, Iterator
+from dataclasses import dataclass
 
 import numpy as np
 from numpy.typing import NDArray
@@ -92,6 +106,9 @@ SAME_RATIO = 1e-12
 RATIO_MARGIN = 1.25
 #: The bound the shared draws are made at (any value the variation accepts; they scale).
 UNIT_BOUND = 0.25
+#: At equal cost the search's work goes designs first, then pairs to expand, batches to judge,
+#: quadruples to screen (so it stops as soon as the ranking has what it needs).
+RANK = {"designs": 0, "pair": 1, "batch": 2, "quad": 3}
 #: Ratio pairs judged together by one vectorised Monte Carlo (``yield_fractions``).
 PAIR_BATCH = 16
 
@@ -99,7 +116,10 @@ PAIR_BATCH = 16
 def serves(spec: Spec, env: LinearEnvironment) -> bool:
     """Whether the premises of the module docstring hold: the yield box applies
     (``yieldbox.serves``), the lowest-cost objective, no source or REF impedance at any
-    vertex, no BOM line cost, no per-line stock penalty, no output-noise requirement and no
+    vertex, no BOM line cost and no per-line stock penalty (the classes it searches are those
+    no other class dominates at a value and position, ``solve.discrete``; swapping a dominated
+    part at one position can add a line when the part stays at another), no output-noise
+    requirement and no
     input-impedance floor (the checks that read the values themselves are then the ratings,
     left to the exact check), and no one-sided drift over a life (its draws are shared by parts
     of one id, so they depend on the values)."""
@@ -107,10 +127,10 @@ def serves(spec: Spec, env: LinearEnvironment) -> bool:
     return (
         yieldbox.serves(spec)
         and (req.drift_model is DriftModel.SYMMETRIC or env.life_h <= 0.0)
-        and prefs.objective is Objective.COST
-        and not np.any(env.vertices)
         and prefs.line_cost == 0.0
         and not (prefs.stock is StockPolicy.PREFER and prefs.stock_penalty > 0.0)
+        and prefs.objective is Objective.COST
+        and not np.any(env.vertices)
         and req.max_output_noise_v_rms is None
         and req.min_input_impedance_ohm <= 0.0
     )
@@ -199,6 +219,33 @@ class _Half:
         self.pairs = pairs
 
 
+@dataclass(frozen=True)
+class _Batch:
+    """Ratio pairs of one quadruple still to be judged (from ``at``), with the quadruple's
+    halves and, once drawn, the Monte Carlo's builds of its classes."""
+
+    quad: tuple[int, int, int, int]
+    first: _Half
+    second: _Half
+    pairs: list[tuple[int, int]]
+    at: int
+    factors: tuple[Array, Array] | None
+
+
+#: A ratio pair that meets the yield: its quadruple and the value-index pairs of its halves.
+_Pair = tuple[tuple[int, int, int, int], NDArray[np.int64], NDArray[np.int64]]
+
+
+@dataclass(frozen=True)
+class _Group:
+    """Value choices of one quadruple at one exact cost: value-index pairs of each half, row by
+    row."""
+
+    quad: tuple[int, int, int, int]
+    first: NDArray[np.int64]
+    second: NDArray[np.int64]
+
+
 class ClassQuadSearch:
     """Designs of four discrete parts in nondecreasing cost (module docstring), none dearer
     than ``ceiling()`` (read as the search goes; ``stop()`` ends it early)."""
@@ -255,13 +302,18 @@ class ClassQuadSearch:
         self._bounds: dict[tuple[tuple[bool, ...], int, int, int], tuple[Array, Array]] = {}
         self._z = yieldbox.quantiles(spec) or 0.0
         self._z_two = yieldbox.two_sided_quantile(spec)
-        self._designs = self._run()
+        self._penalty = prefs.stock_penalty if prefs.stock is StockPolicy.PREFER else 0.0
+        sigma_all = float(np.nanmax(np.where(np.isfinite(self._sigma), self._sigma, np.nan)))
+        self._window = gain_window(spec, sigma_all)
+        # The least sensitivity 1 − c = 1/(1 + ρ) over every ratio the half tables hold.
+        self._s_min = 1.0 / (1.0 + self._window[1] * math.exp(self._room(self._window[1])))
+        self._stream = self._run()
 
     def __iter__(self) -> Iterator[Design]:
         return self
 
     def __next__(self) -> Design:
-        return next(self._designs)
+        return next(self._stream)
 
     # -- the class quadruples ---------------------------------------------------------------
 
@@ -270,7 +322,8 @@ class ClassQuadSearch:
         a, b = self._usable[i], self._usable[j]
         ca = np.repeat(a, b.size)
         cb = np.tile(b, a.size)
-        cost = self._block.cost[ca] + self._block.cost[cb]
+        own = self._block.cost - self._block.penalty  # the penalty is charged per line
+        cost = own[ca] + own[cb]
         var = self._sigma[ca] ** 2 + self._sigma[cb] ** 2
         order = np.lexsort((var, cost))
         return cost[order], var[order], ca[order], cb[order]
@@ -346,81 +399,196 @@ class ClassQuadSearch:
         return half
 
     def _run(self) -> Iterator[Design]:
+        """The designs, cheapest first: one heap of work keyed by the least cost it can give
+        (a quadruple at its bound, its ratio pairs a batch at a time at the same bound, the
+        designs of a pair that meets the yield at their exact cost), fed by the quadruples in
+        order of their additive bound (never above their own bound)."""
+        quads = self._quads()
+        pending = next(quads, None)
+        heap: list[tuple[float, int, int, str, object]] = []
+        seq = 0
+        while True:
+            # Every quadruple whose additive bound is at most the heap's least key is in it.
+            while pending is not None and (not heap or pending[0] <= heap[0][0]):
+                _, quad = pending
+                heapq.heappush(heap, (self._bound(quad), RANK["quad"], seq, "quad", quad))
+                seq += 1
+                pending = next(quads, None)
+            if not heap or self._stop():
+                return
+            key, _, _, kind, payload = heapq.heappop(heap)
+            if key > self._ceiling() * (1.0 + 1e-9) + 1e-9:
+                return  # dearer than the ranking can use (all later work costs at least this)
+            if kind == "designs":
+                yield from self._designs(payload)  # type: ignore[arg-type]
+                continue
+            if kind == "pair":  # a pair that meets the yield: its designs by exact cost
+                for cost, group in self._cost_groups(*payload):  # type: ignore[misc]
+                    heapq.heappush(heap, (cost, RANK["designs"], seq, "designs", group))
+                    seq += 1
+                continue
+            work = self._pairs_of(payload) if kind == "quad" else payload  # type: ignore[arg-type]
+            if work is None:
+                continue
+            passing, more = self._judge_batch(work)  # type: ignore[arg-type]
+            for pair in passing:  # expanded when reached: its designs cost at least the key
+                heapq.heappush(heap, (key, RANK["pair"], seq, "pair", pair))
+                seq += 1
+            if more is not None:
+                heapq.heappush(heap, (key, RANK["batch"], seq, "batch", more))
+                seq += 1
+
+    def _bound(self, quad: tuple[int, int, int, int]) -> float:
+        """The least cost of a design of these classes: parts and placements, one BOM line per
+        distinct class, the stock penalty once per distinct unstocked class."""
+        block, prefs = self._block, self._spec.preferences
+        cost = float(sum(block.cost[c] - block.penalty[c] for c in quad))
+        distinct = set(quad)
+        unstocked = sum(1 for c in distinct if block.penalty[c] > 0.0)
+        return cost + prefs.line_cost * len(distinct) + self._penalty * unstocked
+
+    def _pairs_of(self, quad: tuple[int, int, int, int]) -> _Batch | None:
+        """The ratio pairs of one quadruple that pass the screens (module docstring, steps 2 and
+        3), best balanced first, or None."""
+        spec, balance = self._spec, self._balance
+        low, high = self._window
+        c1, c2, c3, c4 = quad
+        sigma = self._sigma[list(quad)]
+        # The screen's variance term alone, at the least sensitivity and this quad's own
+        # narrowing (the quads' filter takes the widest class of all).
+        narrow = 1.0 - yieldbox.first_order_slack(float(sigma.max()))
+        spread = math.sqrt(float(np.sum(sigma**2)))
+        if max(self._z, self._z_two) * narrow * self._s_min * spread > balance * (1 + 1e-9):
+            return None
+        first = self._half(0, c1, c2, low, high)
+        second = self._half(2, c3, c4, low, high)
+        if first.logs.size == 0 or second.logs.size == 0:
+            return None
+        rho_a = np.exp(first.logs)
+        cc = rho_a / (1.0 + rho_a)
+        rho_b = np.exp(second.logs)
+        aa = rho_b / (1.0 + rho_b)
+        # Ratio pairs with |ln c − ln a| ≤ Λ (a within [c·e^−Λ, c·e^Λ]), nominal gain inside
+        # the window, passing the linearised yield conditions.
+        lo_b = np.searchsorted(aa, cc * math.exp(-balance), side="left")
+        hi_b = np.searchsorted(aa, cc * math.exp(balance), side="right")
+        counts = np.maximum(hi_b - lo_b, 0)
+        ia_all = np.repeat(np.arange(cc.size), counts)
+        ib_all = (
+            np.arange(int(counts.sum())) - np.repeat(np.cumsum(counts) - counts, counts)
+        ) + np.repeat(lo_b, counts)
+        c_all, a_all = cc[ia_all], aa[ib_all]
+        adm = (a_all + c_all) / (2.0 * (1.0 - c_all))
+        keep = (adm >= low) & (adm <= high)
+        keep &= screen_pairs(c_all, a_all, sigma, balance, self._z, self._z_two)
+        if not keep.any():
+            return None
+        ia_all, ib_all = ia_all[keep], ib_all[keep]
+        signed = np.log(c_all[keep] / a_all[keep])
+        # The builds' own draws: pairs that cannot reach the yield whatever their values.
+        counts = passing_counts(
+            self._half_bounds(quad, 0, first), self._half_bounds(quad, 2, second), signed, balance
+        )
+        reach = counts / float(spec.preferences.samples) >= spec.requirements.yield_target
+        if not reach.any():
+            return None
+        ia_all, ib_all, signed = ia_all[reach], ib_all[reach], signed[reach]
+        order = np.argsort(np.abs(signed), kind="stable")
+        pairs = [(int(a), int(b)) for a, b in zip(ia_all[order], ib_all[order], strict=True)]
+        return _Batch(quad, first, second, pairs, 0, None)
+
+    def _judge_batch(self, work: _Batch) -> tuple[list[_Pair], _Batch | None]:
+        """The Monte Carlo's yield (on its shared draws) of the next :data:`PAIR_BATCH` pairs:
+        each pair that meets it (its quadruple and the value-index pairs of its halves), and
+        the rest of the work."""
         spec = self._spec
-        sigma_all = float(np.nanmax(np.where(np.isfinite(self._sigma), self._sigma, np.nan)))
-        low, high = gain_window(spec, sigma_all)
-        balance = self._balance
-        s_min = 1.0 / (1.0 + high * math.exp(self._room(high)))
-        z_most = max(self._z, self._z_two)
-        for cost, quad in self._quads():
+        quad, first, second = work.quad, work.first, work.second
+        batch = work.pairs[work.at : work.at + PAIR_BATCH]
+        factors = work.factors if work.factors is not None else self._factors(quad)
+        nominals = np.array(
+            [self._nominal(first.pairs[ia][0], second.pairs[ib][0]) for ia, ib in batch]
+        )
+        passed = yield_fractions(
+            factors, nominals, self._environment, spec.requirements,
+            target=spec.requirements.yield_target,
+        )  # fmt: skip
+        passing = [
+            (quad, first.pairs[ia], second.pairs[ib])
+            for (ia, ib), fraction in zip(batch, passed, strict=True)
+            if fraction >= spec.requirements.yield_target
+        ]
+        at = work.at + PAIR_BATCH
+        more = (
+            _Batch(quad, first, second, work.pairs, at, factors) if at < len(work.pairs) else None
+        )
+        return passing, more
+
+    def _cost_groups(
+        self, quad: tuple[int, int, int, int], first: NDArray[np.int64], second: NDArray[np.int64]
+    ) -> list[tuple[float, _Group]]:
+        """The value choices of one electrical design grouped by exact cost (``optimizer.cost``:
+        parts, placements, one line per distinct part id, the stock penalty per unstocked line),
+        each group's choices those nearest the middle of the resistance window first."""
+        block, prefs = self._block, self._spec.preferences
+        rows_a = np.column_stack([block.part_row[quad[0], first[:, 0]],
+                                  block.part_row[quad[1], first[:, 1]]])  # fmt: skip
+        rows_b = np.column_stack([block.part_row[quad[2], second[:, 0]],
+                                  block.part_row[quad[3], second[:, 1]]])  # fmt: skip
+        r1, r2 = rows_a[:, 0][:, None], rows_a[:, 1][:, None]
+        r3, r4 = rows_b[:, 0][None, :], rows_b[:, 1][None, :]
+        new = [
+            np.ones((first.shape[0], second.shape[0]), dtype=bool),
+            np.broadcast_to(r2 != r1, (first.shape[0], second.shape[0])),
+            (r3 != r1) & (r3 != r2),
+            (r4 != r1) & (r4 != r2) & (r4 != r3),
+        ]
+        unstocked = [block.penalty[c] > 0.0 for c in quad]
+        lines = sum(n.astype(float) for n in new)
+        unstocked_lines = sum(n.astype(float) for n, u in zip(new, unstocked, strict=True) if u)
+        parts = float(sum(block.cost[c] - block.penalty[c] for c in quad))
+        cost = parts + prefs.line_cost * lines + self._penalty * unstocked_lines
+        middle = math.log(self._middle_ohm)
+        near = (
+            np.abs(np.log(block.values[first[:, 0]]) - middle)[:, None]
+            + np.abs(np.log(block.values[second[:, 0]]) - middle)[None, :]
+        )
+        flat_cost, flat_near = np.ravel(cost), np.ravel(near)
+        order = np.lexsort((flat_near, flat_cost))
+        groups: list[tuple[float, _Group]] = []
+        levels = flat_cost[order]
+        starts = np.r_[0, np.flatnonzero(np.diff(levels) > 1e-12 * (1.0 + abs(levels[0]))) + 1]
+        ends = np.r_[starts[1:], levels.size]
+        for s, e in zip(starts.tolist(), ends.tolist(), strict=True):
+            picked = order[s:e]
+            ia, ib = np.divmod(picked, second.shape[0])
+            groups.append((float(levels[s]), _Group(quad, first[ia], second[ib])))
+        return groups
+
+    def _designs(self, group: _Group) -> Iterator[Design]:
+        """The designs of one cost group, in its order."""
+        for at in range(0, group.first.shape[0], 64):  # a few at a time: groups can be large
+            yield from self._designs_at(group, at, at + 64)
+
+    def _designs_at(self, group: _Group, start: int, stop: int) -> Iterator[Design]:
+        """Designs ``start`` to ``stop`` of one cost group."""
+        block, catalog = self._block, self._catalog
+        quad = group.quad
+        firsts, seconds = group.first[start:stop].tolist(), group.second[start:stop].tolist()
+        for (k1, k2), (k3, k4) in zip(firsts, seconds, strict=True):
             if self._stop():
                 return
-            if cost > self._ceiling() * (1.0 + 1e-9) + 1e-9:
-                return  # dearer than the ranking can use (quads come cheapest first)
-            c1, c2, c3, c4 = quad
-            sigma = self._sigma[list(quad)]
-            # The screen's variance term alone, at the least sensitivity and this quad's own
-            # narrowing (the quads' filter takes the widest class of all).
-            narrow = 1.0 - yieldbox.first_order_slack(float(sigma.max()))
-            if z_most * narrow * s_min * math.sqrt(float(np.sum(sigma**2))) > balance * (1 + 1e-9):
-                continue
-            first = self._half(0, c1, c2, low, high)
-            second = self._half(2, c3, c4, low, high)
-            if first.logs.size == 0 or second.logs.size == 0:
-                continue
-            rho_a = np.exp(first.logs)
-            cc = rho_a / (1.0 + rho_a)
-            rho_b = np.exp(second.logs)
-            aa = rho_b / (1.0 + rho_b)
-            # Ratio pairs with |ln c − ln a| ≤ Λ (a within [c·e^−Λ, c·e^Λ]), nominal gain
-            # inside the window, passing the linearised yield conditions; best balanced first.
-            lo_b = np.searchsorted(aa, cc * math.exp(-balance), side="left")
-            hi_b = np.searchsorted(aa, cc * math.exp(balance), side="right")
-            counts = np.maximum(hi_b - lo_b, 0)
-            ia_all = np.repeat(np.arange(cc.size), counts)
-            ib_all = (
-                np.arange(int(counts.sum())) - np.repeat(np.cumsum(counts) - counts, counts)
-            ) + np.repeat(lo_b, counts)
-            c_all, a_all = cc[ia_all], aa[ib_all]
-            adm = (a_all + c_all) / (2.0 * (1.0 - c_all))
-            keep = (adm >= low) & (adm <= high)
-            keep &= screen_pairs(c_all, a_all, sigma, balance, self._z, self._z_two)
-            if not keep.any():
-                continue
-            ia_all, ib_all = ia_all[keep], ib_all[keep]
-            signed = np.log(c_all[keep] / a_all[keep])
-            # The builds' own draws: pairs that cannot reach the yield whatever their values.
-            counts = passing_counts(
-                self._half_bounds(quad, 0, first), self._half_bounds(quad, 2, second),
-                signed, balance,
-            )  # fmt: skip
-            reach = counts / float(spec.preferences.samples) >= spec.requirements.yield_target
-            if not reach.any():
-                continue
-            ia_all, ib_all, signed = ia_all[reach], ib_all[reach], signed[reach]
-            mismatch = np.abs(signed)
-            order = np.argsort(mismatch, kind="stable")
-            pairs = [
-                (0.0, int(ia), int(ib)) for ia, ib in zip(ia_all[order], ib_all[order], strict=True)
-            ]
-            factors = self._factors(quad)
-            for at in range(0, len(pairs), PAIR_BATCH):
-                if self._stop():
-                    return
-                batch = pairs[at : at + PAIR_BATCH]
-                nominals = np.array(
-                    [
-                        self._nominal(quad, first.pairs[ia][0], second.pairs[ib][0])
-                        for _, ia, ib in batch
-                    ]
+            rows = (
+                block.part_row[quad[0], k1],
+                block.part_row[quad[1], k2],
+                block.part_row[quad[2], k3],
+                block.part_row[quad[3], k4],
+            )
+            yield Design(
+                tuple(  # type: ignore[arg-type]
+                    Placement(f"R{i + 1}", catalog.discrete_part(int(row)))
+                    for i, row in enumerate(rows)
                 )
-                passed = yield_fractions(
-                    factors, nominals, self._environment, spec.requirements,
-                    target=spec.requirements.yield_target,
-                )  # fmt: skip
-                for (_, ia, ib), fraction in zip(batch, passed, strict=True):
-                    if fraction >= spec.requirements.yield_target:
-                        yield from self._designs_of(quad, first.pairs[ia], second.pairs[ib])
+            )
 
     def _half_bounds(
         self, quad: tuple[int, int, int, int], i: int, half: _Half
@@ -486,9 +654,7 @@ class ClassQuadSearch:
             sigma_k=prefs.sigma_k,
         )
 
-    def _nominal(
-        self, quad: tuple[int, int, int, int], first: NDArray[np.int64], second: NDArray[np.int64]
-    ) -> list[float]:
+    def _nominal(self, first: NDArray[np.int64], second: NDArray[np.int64]) -> list[float]:
         """The nominal values (ohms) of one value choice: the resistances of its parts."""
         values = self._block.values
         return [
@@ -497,32 +663,3 @@ class ClassQuadSearch:
             float(values[second[0]]),
             float(values[second[1]]),
         ]
-
-    def _designs_of(
-        self,
-        quad: tuple[int, int, int, int],
-        first: NDArray[np.int64],
-        second: NDArray[np.int64],
-    ) -> Iterator[Design]:
-        """Every value choice of one electrical design, those nearest the middle of the
-        resistance window first (the ratings and the other value checks favour neither end)."""
-        block, catalog = self._block, self._catalog
-        middle = math.log(self._middle_ohm)
-        near_a = np.argsort(np.abs(np.log(block.values[first[:, 0]]) - middle), kind="stable")
-        near_b = np.argsort(np.abs(np.log(block.values[second[:, 0]]) - middle), kind="stable")
-        for k1, k2 in first[near_a].tolist():
-            for k3, k4 in second[near_b].tolist():
-                if self._stop():
-                    return
-                rows = (
-                    block.part_row[quad[0], k1],
-                    block.part_row[quad[1], k2],
-                    block.part_row[quad[2], k3],
-                    block.part_row[quad[3], k4],
-                )
-                yield Design(
-                    tuple(  # type: ignore[arg-type]
-                        Placement(f"R{i + 1}", catalog.discrete_part(int(row)))
-                        for i, row in enumerate(rows)
-                    )
-                )
