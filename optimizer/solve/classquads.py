@@ -9,7 +9,8 @@ catalog: 60 s, 30 designs rejected, the best shown costing 124.4 while one at 19
 Yet the structure is simple:
 
 * A design's cost is the sum of its four parts' class costs (``solve.discrete``: a class is
-  every attribute of a part but its value, the cost included, with the placement cost).
+  every attribute of a part but its value, the cost included, with the placement cost) plus
+  the line cost once per distinct part (at least once per distinct class).
 * With no source and no REF impedance the exact check's Monte Carlo reads the values only
   through the two ratios ``ρ₁₂ = R2/R1`` and ``ρ₃₄ = R4/R3``: ``c = R2/(R1 + R2)`` and
   ``a = R4/(R3 + R4)`` scale out, and every design is judged on the same random draws (one
@@ -44,13 +45,15 @@ The search
 What the ranking leaves out: designs with a part that another part dominates at its value
 (no cheaper, no tighter, rated no better, stocked if it is: ``solve.discrete``). Swapping it
 for its dominator at every position it fills gives a design that passes whenever it does and
-costs no more (no line cost is served), so the cheapest design is never lost; only such
-second-best designs are (``tests/test_classquads.py`` checks exactly this against the
-reference). Keeping the dominated classes costs several times the search on the built-in
-catalog (G = 2, 56 dB, five years: 3 s -> over 60 s), so they are dropped. With a BOM line
-cost or a per-line stock penalty that swap can cost more (a part dominated at one position
-only, or two placements of one unstocked part paying one penalty), so such specs stay with
-CP-SAT; the cost grouping below already counts lines for when they are served.
+costs no more (with a BOM line cost the dominance is judged alike at every position,
+``same_everywhere``, so the swap never adds a line; without one, position by position, which
+keeps fewer classes: G = 2, 56 dB, five years takes 3 s so, 20 s judged alike), so the
+cheapest design is never lost; only such second-best
+designs are (``tests/test_classquads.py`` checks exactly this against the reference).
+Keeping the dominated classes costs several times the search on the built-in catalog (G = 2,
+56 dB, five years: 3 s -> over 60 s), so they are dropped. With a per-line stock penalty the
+swap can cost more (two placements of one unstocked part pay one penalty), so such specs
+stay with CP-SAT.
 
 Every step is a necessary condition of the exact check, so the k-th design the stream's exact
 check passes is the k-th cheapest (ties: any order; siblings of one ratio pair share its
@@ -116,10 +119,9 @@ PAIR_BATCH = 16
 def serves(spec: Spec, env: LinearEnvironment) -> bool:
     """Whether the premises of the module docstring hold: the yield box applies
     (``yieldbox.serves``), the lowest-cost objective, no source or REF impedance at any
-    vertex, no BOM line cost and no per-line stock penalty (the classes it searches are those
-    no other class dominates at a value and position, ``solve.discrete``; swapping a dominated
-    part at one position can add a line when the part stays at another), no output-noise
-    requirement and no
+    vertex, no per-line stock penalty (the classes it searches are those no other class
+    dominates at a value, ``solve.discrete``, judged on the per-placement charge: two
+    placements of one unstocked part pay one penalty), no output-noise requirement and no
     input-impedance floor (the checks that read the values themselves are then the ratings,
     left to the exact check), and no one-sided drift over a life (its draws are shared by parts
     of one id, so they depend on the values)."""
@@ -127,7 +129,6 @@ def serves(spec: Spec, env: LinearEnvironment) -> bool:
     return (
         yieldbox.serves(spec)
         and (req.drift_model is DriftModel.SYMMETRIC or env.life_h <= 0.0)
-        and prefs.line_cost == 0.0
         and not (prefs.stock is StockPolicy.PREFER and prefs.stock_penalty > 0.0)
         and prefs.objective is Objective.COST
         and not np.any(env.vertices)

@@ -93,8 +93,15 @@ def allowed_rows(frame: pd.DataFrame, spec: Spec) -> NDArray[np.int64]:
     return rows
 
 
-def build_discrete(catalog: Catalog, spec: Spec, env: LinearEnvironment) -> DiscreteBlock:
-    """Factor the catalog's discrete parts into values and classes for ``spec``."""
+def build_discrete(
+    catalog: Catalog, spec: Spec, env: LinearEnvironment, *, same_everywhere: bool = False
+) -> DiscreteBlock:
+    """Factor the catalog's discrete parts into values and classes for ``spec``.
+
+    ``same_everywhere``: judge the dominance at every position at the largest stress of any
+    position, so that a part dropped anywhere is dominated at every position it could fill by
+    one part kept at all of them (a dominator is rated no worse, so it fits wherever the part
+    fits): swapping it everywhere then never adds a BOM line."""
     prefs = spec.preferences
     frame = catalog.discrete
     if frame.empty:
@@ -161,8 +168,9 @@ def build_discrete(catalog: Catalog, spec: Spec, env: LinearEnvironment) -> Disc
                 power[c] * values[ks] >= RATING_RELAXATION * stress**2
             )
             usable.append(ks[ok])
+        judged_at = float(np.max(env.stress_v)) if same_everywhere else stress
         avail.append(
-            tuple(_drop_dominated(usable, cost, spread, power, volts, stocked, values, stress))
+            tuple(_drop_dominated(usable, cost, spread, power, volts, stocked, values, judged_at))
         )
     dist, sigma_k = prefs.distribution, prefs.sigma_k
     return DiscreteBlock(

@@ -474,8 +474,15 @@ class _FrontierStream(_Progress):
         self._screen_each = None if topology is Topology.PAIR_PLUS_DISCRETE else self._screen
         self._source: Iterator[Design]
         if topology is Topology.DISCRETE and self._screen is not None:
+            # With a BOM line cost, its own block: dominance judged alike at every position, so
+            # swapping a dominated part never adds a line (``optimizer.solve.classquads``).
+            block = (
+                build_discrete(catalog, spec, env, same_everywhere=True)
+                if spec.preferences.line_cost > 0.0
+                else problem.block
+            )
             self._source = ClassQuadSearch(
-                spec, catalog, env, problem.block, self._stop, lambda: self.cost_ceiling
+                spec, catalog, env, block, self._stop, lambda: self.cost_ceiling
             )
             self._screen_each = None
         elif topology is Topology.DISCRETE:
