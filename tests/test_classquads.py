@@ -42,7 +42,7 @@ from optimizer.analysis.variation import sample_values, variation_from_design
 from optimizer.catalog import builtin_catalog, catalog_from_parts
 from optimizer.catalog.table import Catalog
 from optimizer.design import Design, Placement, Topology
-from optimizer.parts import DiscretePart
+from optimizer.parts import DiscretePart, NetworkPart
 from optimizer.solve.classquads import (
     UNIT_BOUND,
     ClassQuadSearch,
@@ -301,3 +301,16 @@ def test_the_ranking_leaves_out_exactly_the_designs_with_a_dominated_part(
     assert len(want) == 4
     result = pick(spec, cat, verify, top=4, time_limit_s=120.0)
     assert [c.cost.total for c in result.ranked] == pytest.approx(want, rel=1e-9)
+
+
+def test_a_catalog_without_discrete_parts_leaves_the_search_empty(tmp_path: Path) -> None:
+    """Four discrete parts allowed on the yield basis, but a catalog of one quad network only:
+    the class-quadruple search has no class and yields nothing (it raised on the empty spread
+    table before), the quad is ranked and the result proven."""
+    spec = _spec(tmp_path, gain=2, floor=46, tmin=25, tmax=25,
+                 topologies="four_discrete, quad_network")  # fmt: skip
+    quad = NetworkPart("NQ-1", (10e3, 20e3, 10e3, 20e3), 0.005, 0.001, 25e-6, 5e-6, 0.1, 80.0, 9.0)
+    result = pick(spec, catalog_from_parts([], [quad], source="x"), verify, top=3,
+                  time_limit_s=30.0)  # fmt: skip
+    assert result.status is SearchStatus.OPTIMAL
+    assert [c.design.topology for c in result.ranked] == [Topology.QUAD]

@@ -263,12 +263,10 @@ class ClassQuadSearch:
         self._spec, self._catalog, self._env, self._block = spec, catalog, env, block
         self._stop = stop
         self._ceiling = ceiling
-        self._screen = yieldbox.DesignScreen(
-            spec, env, log_balance_limit(spec.requirements.cmrr_floor_db, spec.amplifier.cmrr_ratio)
-        )
         self._balance = log_balance_limit(
             spec.requirements.cmrr_floor_db, spec.amplifier.cmrr_ratio
         )
+        self._screen = yieldbox.DesignScreen(spec, env, self._balance)
         self._usable = [np.array(block.usable(i), dtype=np.int64) for i in range(4)]
         n = block.cost.size
         self._centre = np.ones(n)
@@ -304,11 +302,16 @@ class ClassQuadSearch:
         self._z = yieldbox.quantiles(spec) or 0.0
         self._z_two = yieldbox.two_sided_quantile(spec)
         self._penalty = prefs.stock_penalty if prefs.stock is StockPolicy.PREFER else 0.0
-        sigma_all = float(np.nanmax(np.where(np.isfinite(self._sigma), self._sigma, np.nan)))
+        sigma_all = self._widest()
         self._window = gain_window(spec, sigma_all)
         # The least sensitivity 1 − c = 1/(1 + ρ) over every ratio the half tables hold.
         self._s_min = 1.0 / (1.0 + self._window[1] * math.exp(self._room(self._window[1])))
         self._stream = self._run()
+
+    def _widest(self) -> float:
+        """The largest spread σ of any class that has parts (0 when none has)."""
+        finite = self._sigma[np.isfinite(self._sigma)]
+        return float(finite.max()) if finite.size else 0.0
 
     def __iter__(self) -> Iterator[Design]:
         return self
@@ -333,7 +336,7 @@ class ClassQuadSearch:
         """Class quadruples in nondecreasing cost whose variance can meet the yield."""
         spec = self._spec
         z = max(yieldbox.quantiles(spec) or 0.0, yieldbox.two_sided_quantile(spec))
-        sigma_all = float(np.nanmax(np.where(np.isfinite(self._sigma), self._sigma, np.nan)))
+        sigma_all = self._widest()
         z *= 1.0 - yieldbox.first_order_slack(sigma_all)
         _, high = gain_window(spec, sigma_all)
         # The least sensitivity 1 − c = 1/(1 + ρ) over every ratio the half tables hold.
