@@ -231,12 +231,11 @@ def _medium(dominated: bool = False) -> Catalog:
 
 
 #: (purpose, gain, floor dB, temperature range, preferences): floors where the cheapest
-#: designs sit at different grade mixes (measured with the reference: 600 to 4,200 exact
+#: designs sit at different grade mixes (measured with the reference: 600 to 3,300 exact
 #: checks each), and BOM line costs, which make a design's cost depend on how many distinct
 #: parts it places.
 REFERENCE_CASES = [
     ("G = 1, 44 dB, automotive", 1.0, 44.0, (-40, 125), ""),
-    ("G = 1, 50 dB, industrial", 1.0, 50.0, (-20, 85), ""),
     ("G = 2, 46 dB, industrial", 2.0, 46.0, (-20, 85), ""),
     ("G = 2, 52 dB, industrial", 2.0, 52.0, (-20, 85), ""),
     ("G = 1, 44 dB, automotive, line cost 1.5", 1.0, 44.0, (-40, 125), ", line_cost: 1.5"),
@@ -282,15 +281,16 @@ def test_plain_yield_specs_are_proven_over_the_builtin_catalog(
     assert all(verify(c.design, spec).passed for c in result.ranked), purpose
 
 
-@pytest.mark.parametrize("prefs", ["", ", line_cost: 0.7"], ids=["no line cost", "line cost"])
 def test_the_ranking_leaves_out_exactly_the_designs_with_a_dominated_part(
-    tmp_path: Path, prefs: str
+    tmp_path: Path,
 ) -> None:
     """Grade F is grade C at a higher cost: every design with an F part has a design with C in
     its place that passes as well and costs less. The ranking leaves out exactly those designs
     (stated in ``optimizer/solve/classquads.py``): its four costs are the reference's cheapest
     four without an F part, and the reference's own five hold at least one with F."""
-    spec = _spec(tmp_path, gain=2.0, floor=52.0, tmin=-20, tmax=85, prefs=SAMPLES + prefs)
+    # With a line cost: the swap must not add a BOM line (dominance judged alike everywhere).
+    spec = _spec(tmp_path, gain=2.0, floor=52.0, tmin=-20, tmax=85,
+                 prefs=SAMPLES + ", line_cost: 0.7")  # fmt: skip
     cat = _medium(dominated=True)
     ref = cheapest(spec, cat, 12, max_checks=40000)
     assert ref.complete
