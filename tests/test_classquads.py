@@ -43,14 +43,9 @@ from optimizer.catalog import builtin_catalog, catalog_from_parts
 from optimizer.catalog.table import Catalog
 from optimizer.design import Design, Placement, Topology
 from optimizer.parts import DiscretePart, NetworkPart
-from optimizer.solve.classquads import (
-    UNIT_BOUND,
-    ClassQuadSearch,
-    deviation_bounds,
-    passing_counts,
-    screen_pairs,
-)
+from optimizer.solve.classquads import UNIT_BOUND, ClassQuadSearch
 from optimizer.solve.environment import linear_environment
+from optimizer.solve.pairbounds import deviation_bounds, passing_counts, screen_pairs
 from optimizer.solve.search import SearchStatus, _frontier_applies, pick, prepare
 from optimizer.solve.yieldbox import balance_conditions
 from optimizer.spec import Spec

@@ -27,13 +27,13 @@ The search
    distinct class), so designs leave it in exact cost order; work dearer than the ranking can
    use (``ceiling``) ends the search.
 2. For a quadruple, every ratio pair its classes' values reach with a nominal gain inside the
-   window (:func:`gain_window`) and a nominal mismatch ``|m| = |ln(c₀/a₀)| ≤ Λ`` is screened by
-   the linearised yield conditions (:func:`screen_pairs`, ``yieldbox.balance_conditions`` at
-   one vertex; necessary, as for the other enumerations).
+   window (``pairbounds.gain_window``) and a nominal mismatch ``|m| = |ln(c₀/a₀)| ≤ Λ`` is
+   screened by the linearised yield conditions (``pairbounds.screen_pairs``,
+   ``yieldbox.balance_conditions`` at one vertex; necessary, as for the other enumerations).
 3. The Monte Carlo's own draws bound each survivor's yield from above
-   (:func:`passing_counts`): a build passes the CMRR floor only if ``|m + ε_c − ε_a| ≤ Λ`` at
+   (``pairbounds.passing_counts``): a build passes the CMRR floor only if ``|m + ε_c − ε_a| ≤ Λ`` at
    every temperature, with the halves' log deviations ``ε`` bounded over the half's ratios
-   (:func:`deviation_bounds`); a pair whose count of such builds is below the yield cannot
+   (``pairbounds.deviation_bounds``); a pair whose count of such builds is below the yield cannot
    pass. Exact, not statistical: the same builds the check draws.
 4. The rest get the Monte Carlo's yield itself on those draws (``analysis.montecarlo.
    yield_fractions``: equal to the check's yield for the pair's first value choice), best
@@ -90,15 +90,9 @@ from . import yieldbox
 from .discrete import DiscreteBlock
 from .environment import LinearEnvironment
 from .frontier import log_balance_limit
+from .pairbounds import deviation_bounds, gain_window, passing_counts, screen_pairs
 
-__all__ = [
-    "ClassQuadSearch",
-    "deviation_bounds",
-    "gain_window",
-    "passing_counts",
-    "screen_pairs",
-    "serves",
-]
+__all__ = ["ClassQuadSearch", "serves"]
 
 Array = NDArray[np.float64]
 
@@ -135,80 +129,6 @@ def serves(spec: Spec, env: LinearEnvironment) -> bool:
         and req.max_output_noise_v_rms is None
         and req.min_input_impedance_ohm <= 0.0
     )
-
-
-def gain_window(spec: Spec, sigma_max: float) -> tuple[float, float]:
-    """``(low, high)`` bounds of the nominal differential gain ``Adm = (a + c)/(2(1 − c))``
-    (ideal amplifier, dimensionless) that a yield above one half allows: the spec's window
-    ``G(1 ± acc)`` widened by ``yieldbox.first_order_slack(σ_max)`` times the accuracy (the
-    gain's spread is symmetric to first order about its nominal, so a nominal outside the
-    window leaves at most about half the builds inside it)."""
-    req = spec.requirements
-    widen = yieldbox.first_order_slack(sigma_max) * req.gain_accuracy + 1e-9
-    return req.gain * (1.0 - req.gain_accuracy - widen), req.gain * (
-        1.0 + req.gain_accuracy + widen
-    )
-
-
-def screen_pairs(
-    c: Array, a: Array, sigma: Array, balance: float, z: float, z_two: float
-) -> NDArray[np.bool_]:
-    """``yieldbox.balance_conditions`` for many designs at once with no source or REF
-    impedance (one vertex): per design, ``c = R2/(R1 + R2)`` and ``a = R4/(R3 + R4)`` at the
-    mean resistances, ``m = ln(c/a)``, the sensitivities ``(1 − c)`` of R1, R2 and ``(1 − a)``
-    of R3, R4, ``σ_X² = (1 − c)²(σ₁² + σ₂²) + (1 − a)²(σ₃² + σ₄²)`` from the four positions'
-    spreads ``sigma``; True where ``|m| + z·σ_X ≤ Λ`` and ``z₂·σ_X ≤ Λ`` (the swing across
-    vertices is zero), ``z`` and ``z₂`` narrowed by ``yieldbox.first_order_slack`` of the widest
-    part as ``DesignScreen`` does. Dimensionless; ``balance`` = ``Λ`` (log units)."""
-    narrow = 1.0 - yieldbox.first_order_slack(float(np.max(sigma)))
-    m = np.log(c / a)
-    spread = np.sqrt(
-        (1.0 - c) ** 2 * (sigma[0] ** 2 + sigma[1] ** 2)
-        + (1.0 - a) ** 2 * (sigma[2] ** 2 + sigma[3] ** 2)
-    )
-    ok: NDArray[np.bool_] = (np.abs(m) + z * narrow * spread <= balance) & (
-        z_two * narrow * spread <= balance
-    )
-    return ok
-
-
-def deviation_bounds(r_low: Array, r_high: Array, rho: tuple[float, float]) -> tuple[Array, Array]:
-    """Bounds of ``ε = ln(ρ·r_high/(r_low + ρ·r_high)) − ln(ρ/(1 + ρ))`` over ``ρ`` in
-    ``[ρ₀, ρ₁]`` (``rho``), elementwise for the builds' factors ``r_low`` (R1 or R3) and
-    ``r_high`` (R2 or R4), ``(N, J)`` at J temperatures: the log deviation of one half's divider
-    ratio ``c = R2'/(R1' + R2')`` (or ``a``) from its nominal. ``dε/dρ = (r_low − r_high)/((1 +
-    ρ)(r_low + ρ·r_high))`` keeps its sign, so the two ends bound it. Dimensionless."""
-    ends = []
-    for value in rho:
-        ends.append(
-            np.log(value * r_high)
-            - np.log(r_low + value * r_high)
-            - math.log(value / (1.0 + value))
-        )
-    return np.minimum(ends[0], ends[1]), np.maximum(ends[0], ends[1])
-
-
-def passing_counts(
-    first: tuple[Array, Array], second: tuple[Array, Array], mismatch: Array, balance: float
-) -> NDArray[np.int64]:
-    """For each nominal mismatch ``m = ln(c₀/a₀)`` in ``mismatch``, how many builds can meet
-    ``|ln(c/a)| ≤ Λ`` at every temperature: ``ln(c/a) = m + ε_c − ε_a`` with ``ε_c``, ``ε_a``
-    in their bounds (:func:`deviation_bounds`, ``(N, J)`` each for the first and second half),
-    so a build can pass only if ``−Λ − min_j(ε_c,max − ε_a,min) ≤ m ≤ Λ − max_j(ε_c,min −
-    ε_a,max)``. An upper bound of the builds that pass the Monte Carlo's CMRR floor (the
-    Monte Carlo judges ``|ln x| ≤ Λ`` at its worst corner: ``yieldbox``), so of its yield."""
-    low_c, high_c = first
-    low_a, high_a = second
-    room = balance * (1.0 + 1e-9) + 1e-12
-    start = -room - (high_c - low_a).min(axis=1)
-    end = room - (low_c - high_a).max(axis=1)
-    possible = start <= end  # a build whose interval is empty never passes
-    start, end = np.sort(start[possible]), np.sort(end[possible])
-    # Of the non-empty intervals, those that start at or below m less those that end below it.
-    counts: NDArray[np.int64] = np.searchsorted(start, mismatch, side="right") - np.searchsorted(
-        end, mismatch, side="left"
-    )
-    return counts
 
 
 class _Half:
@@ -597,9 +517,9 @@ class ClassQuadSearch:
     def _half_bounds(
         self, quad: tuple[int, int, int, int], i: int, half: _Half
     ) -> tuple[Array, Array]:
-        """:func:`deviation_bounds` of the quad's classes at positions ``i`` and ``i + 1`` on the
-        Monte Carlo's draws (which depend on which variables of all four are non-zero), over
-        the half's ratios, at the Monte Carlo's temperatures."""
+        """``pairbounds.deviation_bounds`` of the quad's classes at positions ``i`` and
+        ``i + 1`` on the Monte Carlo's draws (which depend on which variables of all four are
+        non-zero), over the half's ratios, at the Monte Carlo's temperatures."""
         pattern = tuple(bool(x > 0.0) for c in quad for x in self._own[c])
         key = (pattern, i, quad[i], quad[i + 1])
         known = self._bounds.get(key)

@@ -1,0 +1,92 @@
+"""Necessary conditions on the ratio pairs of four discrete parts on the yield basis, with no
+source or REF impedance (``optimizer.solve.classquads``): the nominal gain window, the
+linearised yield conditions for many pairs at once, and an upper bound of the builds that can
+pass, on the Monte Carlo's own draws. Pure functions on arrays; dimensionless unless stated."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from numpy.typing import NDArray
+
+from ..spec import Spec
+from . import yieldbox
+
+__all__ = ["deviation_bounds", "gain_window", "passing_counts", "screen_pairs"]
+
+Array = NDArray[np.float64]
+
+
+def gain_window(spec: Spec, sigma_max: float) -> tuple[float, float]:
+    """``(low, high)`` bounds of the nominal differential gain ``Adm = (a + c)/(2(1 − c))``
+    (ideal amplifier, dimensionless) that a yield above one half allows: the spec's window
+    ``G(1 ± acc)`` widened by ``yieldbox.first_order_slack(σ_max)`` times the accuracy (the
+    gain's spread is symmetric to first order about its nominal, so a nominal outside the
+    window leaves at most about half the builds inside it)."""
+    req = spec.requirements
+    widen = yieldbox.first_order_slack(sigma_max) * req.gain_accuracy + 1e-9
+    return req.gain * (1.0 - req.gain_accuracy - widen), req.gain * (
+        1.0 + req.gain_accuracy + widen
+    )
+
+
+def screen_pairs(
+    c: Array, a: Array, sigma: Array, balance: float, z: float, z_two: float
+) -> NDArray[np.bool_]:
+    """``yieldbox.balance_conditions`` for many designs at once with no source or REF
+    impedance (one vertex): per design, ``c = R2/(R1 + R2)`` and ``a = R4/(R3 + R4)`` at the
+    mean resistances, ``m = ln(c/a)``, the sensitivities ``(1 − c)`` of R1, R2 and ``(1 − a)``
+    of R3, R4, ``σ_X² = (1 − c)²(σ₁² + σ₂²) + (1 − a)²(σ₃² + σ₄²)`` from the four positions'
+    spreads ``sigma``; True where ``|m| + z·σ_X ≤ Λ`` and ``z₂·σ_X ≤ Λ`` (the swing across
+    vertices is zero), ``z`` and ``z₂`` narrowed by ``yieldbox.first_order_slack`` of the widest
+    part as ``DesignScreen`` does. Dimensionless; ``balance`` = ``Λ`` (log units)."""
+    narrow = 1.0 - yieldbox.first_order_slack(float(np.max(sigma)))
+    m = np.log(c / a)
+    spread = np.sqrt(
+        (1.0 - c) ** 2 * (sigma[0] ** 2 + sigma[1] ** 2)
+        + (1.0 - a) ** 2 * (sigma[2] ** 2 + sigma[3] ** 2)
+    )
+    ok: NDArray[np.bool_] = (np.abs(m) + z * narrow * spread <= balance) & (
+        z_two * narrow * spread <= balance
+    )
+    return ok
+
+
+def deviation_bounds(r_low: Array, r_high: Array, rho: tuple[float, float]) -> tuple[Array, Array]:
+    """Bounds of ``ε = ln(ρ·r_high/(r_low + ρ·r_high)) − ln(ρ/(1 + ρ))`` over ``ρ`` in
+    ``[ρ₀, ρ₁]`` (``rho``), elementwise for the builds' factors ``r_low`` (R1 or R3) and
+    ``r_high`` (R2 or R4), ``(N, J)`` at J temperatures: the log deviation of one half's divider
+    ratio ``c = R2'/(R1' + R2')`` (or ``a``) from its nominal. ``dε/dρ = (r_low − r_high)/((1 +
+    ρ)(r_low + ρ·r_high))`` keeps its sign, so the two ends bound it. Dimensionless."""
+    ends = []
+    for value in rho:
+        ends.append(
+            np.log(value * r_high)
+            - np.log(r_low + value * r_high)
+            - math.log(value / (1.0 + value))
+        )
+    return np.minimum(ends[0], ends[1]), np.maximum(ends[0], ends[1])
+
+
+def passing_counts(
+    first: tuple[Array, Array], second: tuple[Array, Array], mismatch: Array, balance: float
+) -> NDArray[np.int64]:
+    """For each nominal mismatch ``m = ln(c₀/a₀)`` in ``mismatch``, how many builds can meet
+    ``|ln(c/a)| ≤ Λ`` at every temperature: ``ln(c/a) = m + ε_c − ε_a`` with ``ε_c``, ``ε_a``
+    in their bounds (:func:`deviation_bounds`, ``(N, J)`` each for the first and second half),
+    so a build can pass only if ``−Λ − min_j(ε_c,max − ε_a,min) ≤ m ≤ Λ − max_j(ε_c,min −
+    ε_a,max)``. An upper bound of the builds that pass the Monte Carlo's CMRR floor (the
+    Monte Carlo judges ``|ln x| ≤ Λ`` at its worst corner: ``yieldbox``), so of its yield."""
+    low_c, high_c = first
+    low_a, high_a = second
+    room = balance * (1.0 + 1e-9) + 1e-12
+    start = -room - (high_c - low_a).min(axis=1)
+    end = room - (low_c - high_a).max(axis=1)
+    possible = start <= end  # a build whose interval is empty never passes
+    start, end = np.sort(start[possible]), np.sort(end[possible])
+    # Of the non-empty intervals, those that start at or below m less those that end below it.
+    counts: NDArray[np.int64] = np.searchsorted(start, mismatch, side="right") - np.searchsorted(
+        end, mismatch, side="left"
+    )
+    return counts
