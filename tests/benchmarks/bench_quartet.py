@@ -463,6 +463,25 @@ def bench_examples(runs: int, paths: Sequence[str]) -> list[dict[str, Any]]:
     return rows
 
 
+def timed_searches(
+    spec: Spec, parts: Any, runs: int, expected: Sequence[str], searches: list[float]
+) -> tuple[Any, str]:
+    """``runs`` picks (top 10, 60 s, the CLI's exact check), each ending in an ``expected``
+    status; each one's search time (CP-SAT, building, exact checks) is appended to
+    ``searches`` as it is measured. The last result and its status."""
+    from optimizer.solve.search import pick
+    from optimizer.verify import verify_candidate as verify  # what the CLI runs
+
+    result: Any = None
+    status = ""
+    for _ in range(runs):
+        _, result = timed(pick, spec, parts, verify, top=10, time_limit_s=60.0)
+        status = status_name(result.status)
+        check_status(status, len(result.ranked), expected)
+        searches.append(result.solve_seconds + result.build_seconds + result.verify_seconds)
+    return result, status
+
+
 def bench_battery(runs: int, tmp: str) -> list[dict[str, Any]]:
     """``pick`` (top 10) on every spec of the canonical battery (``tests/battery.py``) over its
     catalog, against the independent reference search (``tests/reference/cheapest.py``, run
@@ -470,8 +489,6 @@ def bench_battery(runs: int, tmp: str) -> list[dict[str, Any]]:
     the pick's ten costs equal the reference's ten cheapest (1e-9 relative); "search" is the
     pick's own time (enumeration and model building, CP-SAT, exact checks), without the Monte
     Carlo of the shown designs."""
-    from optimizer.solve.search import pick
-    from optimizer.verify import verify_candidate as verify  # what the CLI runs
 
     tests_dir = os.path.join(os.path.dirname(os.path.abspath(__file__)), os.pardir)
     if tests_dir not in sys.path:
@@ -490,11 +507,7 @@ def bench_battery(runs: int, tmp: str) -> list[dict[str, Any]]:
                 handle.write(spec_text(fields))
             spec = load_spec(path)
             parts = catalog(kind)
-            for _ in range(runs):
-                _, result = timed(pick, spec, parts, verify, top=10, time_limit_s=60.0)
-                status = status_name(result.status)
-                check_status(status, len(result.ranked), (PROVEN, INFEASIBLE))
-                searches.append(result.solve_seconds + result.build_seconds + result.verify_seconds)
+            result, status = timed_searches(spec, parts, runs, (PROVEN, INFEASIBLE), searches)
             ref = cheapest(spec, parts, 10)
             got = [c.cost.total for c in result.ranked]
             agrees = (
@@ -530,8 +543,6 @@ def bench_yield(runs: int, tmp: str) -> list[dict[str, Any]]:
     proven. No reference runs (each of its designs would need a Monte Carlo); "search" as in
     the battery section."""
     from optimizer.catalog import builtin_catalog
-    from optimizer.solve.search import pick
-    from optimizer.verify import verify_candidate as verify  # what the CLI runs
 
     tests_dir = os.path.join(os.path.dirname(os.path.abspath(__file__)), os.pardir)
     if tests_dir not in sys.path:
@@ -548,11 +559,7 @@ def bench_yield(runs: int, tmp: str) -> list[dict[str, Any]]:
             with open(path, "w", encoding="utf-8") as handle:
                 handle.write(spec_text(yield_fields(fields)))
             spec = load_spec(path)
-            for _ in range(runs):
-                _, result = timed(pick, spec, parts, verify, top=10, time_limit_s=60.0)
-                status = status_name(result.status)
-                check_status(status, len(result.ranked), (PROVEN,))
-                searches.append(result.solve_seconds + result.build_seconds + result.verify_seconds)
+            result, status = timed_searches(spec, parts, runs, (PROVEN,), searches)
         except Exception as exc:  # a failed run: shown, never measured
             rows.append(failed_row({**row, "runs": len(searches)}, exc))
             continue
