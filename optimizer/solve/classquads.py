@@ -221,7 +221,6 @@ class ClassQuadSearch:
         self._bounds: dict[tuple[tuple[bool, ...], int, int, int], tuple[Array, Array]] = {}
         self._z = yieldbox.quantiles(spec) or 0.0
         self._z_two = yieldbox.two_sided_quantile(spec)
-        self._penalty = prefs.stock_penalty if prefs.stock is StockPolicy.PREFER else 0.0
         sigma_all = self._widest()
         self._window = gain_window(spec, sigma_all)
         # The least sensitivity 1 − c = 1/(1 + ρ) over every ratio the half tables hold.
@@ -246,22 +245,15 @@ class ClassQuadSearch:
         a, b = self._usable[i], self._usable[j]
         ca = np.repeat(a, b.size)
         cb = np.tile(b, a.size)
-        own = self._block.cost - self._block.penalty  # the penalty is charged per line
-        cost = own[ca] + own[cb]
+        cost = self._block.cost[ca] + self._block.cost[cb]
         var = self._sigma[ca] ** 2 + self._sigma[cb] ** 2
         order = np.lexsort((var, cost))
         return cost[order], var[order], ca[order], cb[order]
 
     def _quads(self) -> Iterator[tuple[float, tuple[int, int, int, int]]]:
         """Class quadruples in nondecreasing cost whose variance can meet the yield."""
-        spec = self._spec
-        z = max(yieldbox.quantiles(spec) or 0.0, yieldbox.two_sided_quantile(spec))
-        sigma_all = self._widest()
-        z *= 1.0 - yieldbox.first_order_slack(sigma_all)
-        _, high = gain_window(spec, sigma_all)
-        # The least sensitivity 1 − c = 1/(1 + ρ) over every ratio the half tables hold.
-        s_min = 1.0 / (1.0 + high * math.exp(self._room(high)))
-        budget = (self._balance / (z * s_min)) ** 2 * (1.0 + 1e-9) if z > 0.0 else math.inf
+        z = max(self._z, self._z_two) * (1.0 - yieldbox.first_order_slack(self._widest()))
+        budget = (self._balance / (z * self._s_min)) ** 2 * (1.0 + 1e-9) if z > 0.0 else math.inf
         cost_a, var_a, a1, a2 = self._pairs(0, 1)
         cost_b, var_b, b1, b2 = self._pairs(2, 3)
         if cost_a.size == 0 or cost_b.size == 0:
@@ -364,12 +356,9 @@ class ClassQuadSearch:
 
     def _bound(self, quad: tuple[int, int, int, int]) -> float:
         """The least cost of a design of these classes: parts and placements, one BOM line per
-        distinct class, the stock penalty once per distinct unstocked class."""
-        block, prefs = self._block, self._spec.preferences
-        cost = float(sum(block.cost[c] - block.penalty[c] for c in quad))
-        distinct = set(quad)
-        unstocked = sum(1 for c in distinct if block.penalty[c] > 0.0)
-        return cost + prefs.line_cost * len(distinct) + self._penalty * unstocked
+        distinct class (no stock penalty: :func:`serves`)."""
+        parts = float(sum(self._block.cost[c] for c in quad))
+        return parts + self._spec.preferences.line_cost * len(set(quad))
 
     def _pairs_of(self, quad: tuple[int, int, int, int]) -> _Batch | None:
         """The ratio pairs of one quadruple that pass the screens (module docstring, steps 2 and
@@ -451,7 +440,7 @@ class ClassQuadSearch:
         self, quad: tuple[int, int, int, int], first: NDArray[np.int64], second: NDArray[np.int64]
     ) -> list[tuple[float, _Group]]:
         """The value choices of one electrical design grouped by exact cost (``optimizer.cost``:
-        parts, placements, one line per distinct part id, the stock penalty per unstocked line),
+        parts, placements, one line per distinct part id; no stock penalty: :func:`serves`),
         each group's choices those nearest the middle of the resistance window first."""
         block, prefs = self._block, self._spec.preferences
         rows_a = np.column_stack([block.part_row[quad[0], first[:, 0]],
@@ -466,11 +455,9 @@ class ClassQuadSearch:
             (r3 != r1) & (r3 != r2),
             (r4 != r1) & (r4 != r2) & (r4 != r3),
         ]
-        unstocked = [block.penalty[c] > 0.0 for c in quad]
         lines = sum(n.astype(float) for n in new)
-        unstocked_lines = sum(n.astype(float) for n, u in zip(new, unstocked, strict=True) if u)
-        parts = float(sum(block.cost[c] - block.penalty[c] for c in quad))
-        cost = parts + prefs.line_cost * lines + self._penalty * unstocked_lines
+        parts = float(sum(block.cost[c] for c in quad))
+        cost = parts + prefs.line_cost * lines
         middle = math.log(self._middle_ohm)
         near = (
             np.abs(np.log(block.values[first[:, 0]]) - middle)[:, None]
