@@ -279,7 +279,11 @@ def _window(
 # --------------------------------------------------------------------------------------------
 
 
-def _life_stages(design: Design, spec: Spec) -> tuple[tuple[str, OperatingCorners], ...]:
+#: The operating corners at the stages of a life, each with the words that name it.
+Stages = tuple[tuple[str, OperatingCorners], ...]
+
+
+def _life_stages(design: Design, spec: Spec) -> Stages:
     """The operating corners at the start of life and, when the spec asks for a life, over
     the whole life (drift applied), each with the words that say so."""
     start = operating_corners(design, spec)
@@ -294,7 +298,9 @@ def _life_stages(design: Design, spec: Spec) -> tuple[tuple[str, OperatingCorner
     )
 
 
-def check_input_impedance(design: Design, spec: Spec) -> tuple[CheckResult, CheckResult]:
+def check_input_impedance(
+    design: Design, spec: Spec, stages: Stages | None = None
+) -> tuple[CheckResult, CheckResult]:
     """Differential (floating source) and common-mode input impedance, lowest over the
     operating corners at the start and at the end of the required life (drift applied, so the
     floor holds for the whole life), against ``min_input_impedance_ohm`` (floor; 0 = not
@@ -303,8 +309,9 @@ def check_input_impedance(design: Design, spec: Spec) -> tuple[CheckResult, Chec
     At the end of life the lowest differential resistance ``R1 + R3`` has R1 and R3 at the low
     end of their drift (``−D``; ``0`` one-sided); the common-mode resistance rises with R1 and
     R4 (low end of their drift) and with R3 when ``R1 > R4'`` (falls otherwise), so R3 sits at
-    the matching end. Both are taken over every corner."""
-    stages = _life_stages(design, spec)
+    the matching end. Both are taken over every corner. ``stages``: the design's
+    :func:`_life_stages`, when the caller has them already."""
+    stages = _life_stages(design, spec) if stages is None else stages
     floor = spec.requirements.min_input_impedance_ohm
     results = []
 
@@ -340,7 +347,7 @@ def check_input_impedance(design: Design, spec: Spec) -> tuple[CheckResult, Chec
     return results[0], results[1]
 
 
-def check_output_noise(design: Design, spec: Spec) -> CheckResult:
+def check_output_noise(design: Design, spec: Spec, stages: Stages | None = None) -> CheckResult:
     """Output noise RMS over the noise band (brick-wall), worst over the operating corners at
     the start and at the end of the required life (drift applied: the ceiling holds for the
     whole life), at the hottest temperature, white noise only (1/f noise is not modelled),
@@ -349,11 +356,12 @@ def check_output_noise(design: Design, spec: Spec) -> CheckResult:
     The noise is not monotone in every resistor (R1's own noise rises with R1, its gain
     ``R2/R1'`` falls), so every corner of the end-of-life ranges is evaluated; the largest
     terms usually rise with R2 (its noise, the noise gain ``1 + R2/R1'``, ``in·R2``) and fall
-    with R1, i.e. R2 at the high end of its drift and R1 at the low end."""
+    with R1, i.e. R2 at the high end of its drift and R1 at the low end. ``stages``: the
+    design's :func:`_life_stages`, when the caller has them already."""
     amp = spec.amplifier
     hot = spec.requirements.temp_max_c
     best: tuple[float, str, dict[str, Array], int] | None = None
-    for when, c in _life_stages(design, spec):
+    for when, c in _life_stages(design, spec) if stages is None else stages:
         stage_terms = output_noise_terms(
             c.r1, c.r2, c.r3, c.r4, c.rs1, c.rs3, c.rref,
             amp.voltage_noise_v_rthz, amp.current_noise_a_rthz, hot,
@@ -389,28 +397,34 @@ def check_output_noise(design: Design, spec: Spec) -> CheckResult:
     )
 
 
-def check_input_range(design: Design, spec: Spec) -> CheckResult:
+def check_input_range(
+    design: Design, spec: Spec, corners: OperatingCorners | None = None
+) -> CheckResult:
     """Non-inverting node voltage V+ = a·V2 + (1 - a)·VREF, shifted by ±Ib·(R3' ∥ R4'), over
     the operating corners, inside the amplifier's input common-mode range (volts)."""
-    c = operating_corners(design, spec)
+    c = operating_corners(design, spec) if corners is None else corners
     vp = noninverting_node_voltage(c.v2, c.vref, divider_ratio(c.r3_eff, c.r4_eff))
     shift = abs(spec.amplifier.bias_a) * parallel(c.r3_eff, c.r4_eff)
     window = spec.amplifier.input_span.resolve(spec.rails.negative_v, spec.rails.positive_v)
     return _window("amp_input_range", vp - shift, vp + shift, window, "amplifier input voltage V+")
 
 
-def check_output_swing(design: Design, spec: Spec) -> CheckResult:
+def check_output_swing(
+    design: Design, spec: Spec, corners: OperatingCorners | None = None
+) -> CheckResult:
     """Vout = k1·V1 + k2·V2 + kref·VREF (exact coefficients with the amplifier's CMRR and its
     open-loop gain at both ends, ``A_min`` and ``∞``) plus the output offset bound, over the
     operating corners, inside the output swing."""
-    c = operating_corners(design, spec)
+    c = operating_corners(design, spec) if corners is None else corners
     vout = _vout(c, spec)
     off = _offset(c, spec)
     window = spec.amplifier.output_span.resolve(spec.rails.negative_v, spec.rails.positive_v)
     return _window("output_swing", vout - off, vout + off, window, "output (with offset)")
 
 
-def check_bandwidth(design: Design, spec: Spec) -> CheckResult:
+def check_bandwidth(
+    design: Design, spec: Spec, corners: OperatingCorners | None = None
+) -> CheckResult:
     """Small-signal bandwidth f_3dB = GBW/(1 + R2/R1') (lowest over the corners) against the
     bandwidth needed for a flat response up to the signal's ``max_frequency_hz``.
 
@@ -422,7 +436,7 @@ def check_bandwidth(design: Design, spec: Spec) -> CheckResult:
     precision error budgets; it ties flatness to the accuracy the user asked for, where a fixed
     "f_3dB ≥ 10·f_max" rule would allow a 0.5 % droop whatever the accuracy. Margin in Hz.
     """
-    c = operating_corners(design, spec)
+    c = operating_corners(design, spec) if corners is None else corners
     f3 = float(np.min(closed_loop_bandwidth(spec.amplifier.gbw_hz, noise_gain(c.r1_eff, c.r2))))
     f_max = spec.signal.max_frequency_hz
     eps = DROOP_SHARE * spec.requirements.gain_accuracy
@@ -437,7 +451,9 @@ def check_bandwidth(design: Design, spec: Spec) -> CheckResult:
     return CheckResult("small_signal_bandwidth", margin >= 0.0, f3, need, margin, "Hz", detail)
 
 
-def check_full_power_bandwidth(design: Design, spec: Spec) -> CheckResult:
+def check_full_power_bandwidth(
+    design: Design, spec: Spec, corners: OperatingCorners | None = None
+) -> CheckResult:
     """Slew-limited full-power bandwidth SR/(2π·Vpk), Vpk = largest |Adm·Vd| over the corners
     (the signal part of the output; the DC part from REF and common mode does not slew), against
     the signal's ``max_frequency_hz`` (floor, Hz).
@@ -447,7 +463,7 @@ def check_full_power_bandwidth(design: Design, spec: Spec) -> CheckResult:
     conservative bandwidth that holds for every allowed ``A``, is at ``A = ∞``: for a balanced
     bridge ``Vpk = G·|Vd|``, where ``A_min`` would give the smaller ``G·|Vd|/(1 + (1+G)/A_min)``.
     """
-    c = operating_corners(design, spec)
+    c = operating_corners(design, spec) if corners is None else corners
     amp = spec.amplifier
     k = coefficients(
         c.r1, c.r2, c.r3, c.r4, c.rs1, c.rs3, c.rref, c.open_loop_gain, amp.cmrr_ratio, c.sign
@@ -528,11 +544,15 @@ def resistor_stress(c: OperatingCorners, spec: Spec) -> tuple[Array, Array]:
     return power, peak
 
 
-def check_resistor_ratings(design: Design, spec: Spec) -> tuple[CheckResult, ...]:
+def check_resistor_ratings(
+    design: Design, spec: Spec, corners: OperatingCorners | None = None
+) -> tuple[CheckResult, ...]:
     """Power and voltage of each resistor at the worst corner (linear solution; the output is not
     assumed to clip) against its power rating derated to ``temp_max_c`` and its limiting
     voltage. Network elements use ``power_per_element_w`` (package totals are not checked)."""
-    powers, peaks = resistor_stress(operating_corners(design, spec), spec)
+    powers, peaks = resistor_stress(
+        operating_corners(design, spec) if corners is None else corners, spec
+    )
     hot = spec.requirements.temp_max_c
     power_results: list[CheckResult] = []
     voltage_results: list[CheckResult] = []
@@ -562,11 +582,13 @@ def check_resistor_ratings(design: Design, spec: Spec) -> tuple[CheckResult, ...
     return (*power_results, *voltage_results)
 
 
-def check_output_offset(design: Design, spec: Spec) -> CheckResult:
+def check_output_offset(
+    design: Design, spec: Spec, corners: OperatingCorners | None = None
+) -> CheckResult:
     """Worst output offset from Vos and bias currents (:func:`output_offset_bound`) over the
     corners. Informational: the spec states no offset requirement (the figure is, however, part
     of the output-swing check), so ``passed=True`` and ``limit = margin = nan``."""
-    c = operating_corners(design, spec)
+    c = operating_corners(design, spec) if corners is None else corners
     off = float(np.max(_offset(c, spec)))
     amp = spec.amplifier
     ios = (
@@ -584,14 +606,17 @@ def check_output_offset(design: Design, spec: Spec) -> CheckResult:
 def run_checks(design: Design, spec: Spec) -> tuple[CheckResult, ...]:
     """All checks of this module, in a fixed order: input impedance (differential, common mode),
     output noise, amplifier input range, output swing, small-signal bandwidth, full-power
-    bandwidth, resistor power (R1 to R4), resistor voltage (R1 to R4), output offset."""
+    bandwidth, resistor power (R1 to R4), resistor voltage (R1 to R4), output offset. The
+    operating corners are worked out once and shared by the checks."""
+    stages = _life_stages(design, spec)
+    start = stages[0][1]
     return (
-        *check_input_impedance(design, spec),
-        check_output_noise(design, spec),
-        check_input_range(design, spec),
-        check_output_swing(design, spec),
-        check_bandwidth(design, spec),
-        check_full_power_bandwidth(design, spec),
-        *check_resistor_ratings(design, spec),
-        check_output_offset(design, spec),
+        *check_input_impedance(design, spec, stages),
+        check_output_noise(design, spec, stages),
+        check_input_range(design, spec, start),
+        check_output_swing(design, spec, start),
+        check_bandwidth(design, spec, start),
+        check_full_power_bandwidth(design, spec, start),
+        *check_resistor_ratings(design, spec, start),
+        check_output_offset(design, spec, start),
     )
