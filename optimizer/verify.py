@@ -19,26 +19,14 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from .analysis.checks import CheckResult, run_checks
+from .analysis.checks import Outcome, run_checks
 from .analysis.montecarlo import MonteCarloResult, monte_carlo
 from .analysis.safety import safety_cautions
 from .analysis.worstcase import WorstCase, worst_case
 from .design import Design
 from .spec import CmrrBasis, Spec
 
-__all__ = ["Margin", "Rejection", "Verification", "verify", "verify_candidate"]
-
-
-@dataclass(frozen=True)
-class Margin:
-    """One requirement's outcome: ``margin`` in ``unit`` (positive passes)."""
-
-    name: str
-    passed: bool
-    value: float
-    limit: float
-    margin: float
-    unit: str
+__all__ = ["Outcome", "Rejection", "Verification", "verify", "verify_candidate"]
 
 
 @dataclass(frozen=True)
@@ -48,8 +36,8 @@ class Verification:
 
     worst_case: WorstCase
     monte_carlo: MonteCarloResult | None
-    checks: tuple[CheckResult, ...]
-    requirements: tuple[Margin, ...]
+    checks: tuple[Outcome, ...]
+    requirements: tuple[Outcome, ...]
     cautions: tuple[str, ...]
 
     @property
@@ -61,7 +49,7 @@ class Verification:
         return tuple(m.name for m in self.requirements if not m.passed)
 
     @property
-    def tightest(self) -> Margin:
+    def tightest(self) -> Outcome:
         """The requirement with the least margin relative to its limit."""
         return min(self.requirements, key=_relative_margin)
 
@@ -73,7 +61,7 @@ class Rejection:
     yield requirement alone. The search only counts such designs; none is shown."""
 
     monte_carlo: MonteCarloResult
-    requirements: tuple[Margin, ...]
+    requirements: tuple[Outcome, ...]
     cautions: tuple[str, ...]
 
     @property
@@ -85,32 +73,32 @@ class Rejection:
         return tuple(m.name for m in self.requirements if not m.passed)
 
 
-def _relative_margin(margin: Margin) -> float:
+def _relative_margin(margin: Outcome) -> float:
     if not math.isfinite(margin.margin):
         return math.inf if margin.margin > 0 or math.isnan(margin.margin) else -math.inf
     scale = abs(margin.limit) if math.isfinite(margin.limit) and margin.limit != 0.0 else 1.0
     return margin.margin / scale
 
 
-def cmrr_margin(worst: WorstCase, spec: Spec) -> Margin:
+def cmrr_margin(worst: WorstCase, spec: Spec) -> Outcome:
     """Worst-case CMRR (dB) against the floor; margin in dB."""
     floor = spec.requirements.cmrr_floor_db
-    return Margin(
+    return Outcome(
         "cmrr_worst_case", worst.cmrr_db >= floor, worst.cmrr_db, floor, worst.cmrr_db - floor, "dB"
     )
 
 
-def gain_margin(worst: WorstCase, spec: Spec) -> Margin:
+def gain_margin(worst: WorstCase, spec: Spec) -> Outcome:
     """Worst-case |gain error| against the accuracy; margin as a fraction of the gain."""
     accuracy = spec.requirements.gain_accuracy
     error = max(abs(worst.gain_error_min), abs(worst.gain_error_max))
-    return Margin("gain_accuracy", error <= accuracy, error, accuracy, accuracy - error, "")
+    return Outcome("gain_accuracy", error <= accuracy, error, accuracy, accuracy - error, "")
 
 
-def yield_margin(result: MonteCarloResult, spec: Spec) -> Margin:
+def yield_margin(result: MonteCarloResult, spec: Spec) -> Outcome:
     """Monte-Carlo yield (CMRR floor and gain accuracy together) against the target."""
     target = spec.requirements.yield_target
-    return Margin(
+    return Outcome(
         "yield",
         result.yield_fraction >= target,
         result.yield_fraction,
@@ -165,7 +153,7 @@ def _complete(
     if result is None and (run_mc or yield_basis):
         result = monte_carlo(design, spec, samples=samples)
     checks = run_checks(design, spec)
-    margins: list[Margin] = []
+    margins: list[Outcome] = []
     if yield_basis:
         assert result is not None
         margins.append(yield_margin(result, spec))
@@ -173,7 +161,7 @@ def _complete(
         margins.append(cmrr_margin(worst, spec))
         margins.append(gain_margin(worst, spec))
     margins.extend(
-        Margin(c.name, c.passed, c.value, c.limit, c.margin, c.unit)
+        Outcome(c.name, c.passed, c.value, c.limit, c.margin, c.unit)
         for c in checks
         if not math.isnan(c.limit)
     )

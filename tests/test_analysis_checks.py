@@ -23,7 +23,7 @@ import sympy as sp
 from scipy import constants
 
 from optimizer.analysis import checks, formulas
-from optimizer.analysis.checks import CheckResult, run_checks
+from optimizer.analysis.checks import Outcome, run_checks
 from optimizer.analysis.formulas import (
     closed_loop_bandwidth,
     common_mode_input_resistance,
@@ -121,7 +121,7 @@ def make_spec(
     )
 
 
-def by_name(results: tuple[CheckResult, ...]) -> dict[str, CheckResult]:
+def by_name(results: tuple[Outcome, ...]) -> dict[str, Outcome]:
     return {r.name: r for r in results}
 
 
@@ -802,7 +802,7 @@ def test_run_checks_shape_and_convention() -> None:
         "voltage_R1", "voltage_R2", "voltage_R3", "voltage_R4", "output_offset",
     ]  # fmt: skip
     for r in results:
-        assert isinstance(r, CheckResult) and r.detail
+        assert isinstance(r, Outcome) and r.detail
         if not math.isnan(r.limit):
             assert r.passed is bool(r.margin >= 0.0)
     corners = checks.operating_corners(d, spec)

@@ -22,7 +22,7 @@ voltage corners give their extremes exactly; in the resistor values they are smo
 spreads of a few percent, nearly linear, so the resistor corners give the extremes to within
 second-order terms (corner enumeration, the usual practice of tolerance analysis).
 
-Margin convention of :class:`CheckResult`: ``margin`` is in the check's own unit (the same as
+Margin convention of :class:`Outcome`: ``margin`` is in the check's own unit (the same as
 ``value`` and ``limit``) and positive means passing; ``passed`` is ``margin >= 0``. For a
 floor, ``margin = value - limit``; for a ceiling, ``margin = limit - value``; for a voltage
 window, the distance from the worst point to the nearer edge of the window (negative: outside
@@ -69,8 +69,8 @@ from .transfer import coefficients, differential_gain, divider_ratio
 __all__ = [
     "ALL_ENDS",
     "DROOP_SHARE",
-    "CheckResult",
     "OperatingCorners",
+    "Outcome",
     "check_bandwidth",
     "check_full_power_bandwidth",
     "check_input_impedance",
@@ -94,10 +94,13 @@ DROOP_SHARE = 0.1
 
 
 @dataclass(frozen=True)
-class CheckResult:
-    """One check's outcome. ``value``, ``limit`` and ``margin`` are in ``unit``; ``margin`` is
-    positive when passing (module docstring); ``limit`` and ``margin`` are ``nan`` when the
-    spec sets no requirement for the figure."""
+class Outcome:
+    """One requirement's or check's outcome (the one word for it: a design's whole exact check
+    is a ``verify.Verification``). ``value``, ``limit`` and ``margin`` are in ``unit``;
+    ``margin`` is positive when passing (module docstring); ``limit`` and ``margin`` are ``nan``
+    when the spec sets no requirement for the figure. ``detail``: the words that explain the
+    figure (empty for the requirements a ``Verification`` lists, whose figures its worst case
+    and Monte Carlo hold)."""
 
     name: str
     passed: bool
@@ -105,7 +108,7 @@ class CheckResult:
     limit: float
     margin: float
     unit: str
-    detail: str
+    detail: str = ""
 
 
 # --------------------------------------------------------------------------------------------
@@ -256,13 +259,11 @@ def _q(value: float, unit: str) -> str:
     return format_quantity(value, unit, 4)
 
 
-def _no_requirement(name: str, value: float, unit: str, detail: str) -> CheckResult:
-    return CheckResult(name, True, value, math.nan, math.nan, unit, f"no requirement set; {detail}")
+def _no_requirement(name: str, value: float, unit: str, detail: str) -> Outcome:
+    return Outcome(name, True, value, math.nan, math.nan, unit, f"no requirement set; {detail}")
 
 
-def _window(
-    name: str, low: Array, high: Array, window: tuple[float, float], what: str
-) -> CheckResult:
+def _window(name: str, low: Array, high: Array, window: tuple[float, float], what: str) -> Outcome:
     lo_lim, hi_lim = window
     vmin, vmax = float(np.min(low)), float(np.max(high))
     m_hi, m_lo = hi_lim - vmax, vmin - lo_lim
@@ -271,7 +272,7 @@ def _window(
         f"{what} spans {_q(vmin, 'V')} to {_q(vmax, 'V')}; allowed "
         f"{_q(lo_lim, 'V')} to {_q(hi_lim, 'V')}"
     )
-    return CheckResult(name, margin >= 0.0, value, limit, margin, "V", detail)
+    return Outcome(name, margin >= 0.0, value, limit, margin, "V", detail)
 
 
 # --------------------------------------------------------------------------------------------
@@ -300,7 +301,7 @@ def _life_stages(design: Design, spec: Spec) -> Stages:
 
 def check_input_impedance(
     design: Design, spec: Spec, stages: Stages | None = None
-) -> tuple[CheckResult, CheckResult]:
+) -> tuple[Outcome, Outcome]:
     """Differential (floating source) and common-mode input impedance, lowest over the
     operating corners at the start and at the end of the required life (drift applied, so the
     floor holds for the whole life), against ``min_input_impedance_ohm`` (floor; 0 = not
@@ -334,7 +335,7 @@ def check_input_impedance(
         else:
             margin = value - floor
             results.append(
-                CheckResult(
+                Outcome(
                     name,
                     margin >= 0.0,
                     value,
@@ -347,7 +348,7 @@ def check_input_impedance(
     return results[0], results[1]
 
 
-def check_output_noise(design: Design, spec: Spec, stages: Stages | None = None) -> CheckResult:
+def check_output_noise(design: Design, spec: Spec, stages: Stages | None = None) -> Outcome:
     """Output noise RMS over the noise band (brick-wall), worst over the operating corners at
     the start and at the end of the required life (drift applied: the ceiling holds for the
     whole life), at the hottest temperature, white noise only (1/f noise is not modelled),
@@ -386,7 +387,7 @@ def check_output_noise(design: Design, spec: Spec, stages: Stages | None = None)
     if ceiling is None:
         return _no_requirement("output_noise", rms, "V", detail)
     margin = ceiling - rms
-    return CheckResult(
+    return Outcome(
         "output_noise",
         margin >= 0.0,
         rms,
@@ -399,7 +400,7 @@ def check_output_noise(design: Design, spec: Spec, stages: Stages | None = None)
 
 def check_input_range(
     design: Design, spec: Spec, corners: OperatingCorners | None = None
-) -> CheckResult:
+) -> Outcome:
     """Non-inverting node voltage V+ = a·V2 + (1 - a)·VREF, shifted by ±Ib·(R3' ∥ R4'), over
     the operating corners, inside the amplifier's input common-mode range (volts)."""
     c = operating_corners(design, spec) if corners is None else corners
@@ -411,7 +412,7 @@ def check_input_range(
 
 def check_output_swing(
     design: Design, spec: Spec, corners: OperatingCorners | None = None
-) -> CheckResult:
+) -> Outcome:
     """Vout = k1·V1 + k2·V2 + kref·VREF (exact coefficients with the amplifier's CMRR and its
     open-loop gain at both ends, ``A_min`` and ``∞``) plus the output offset bound, over the
     operating corners, inside the output swing."""
@@ -422,9 +423,7 @@ def check_output_swing(
     return _window("output_swing", vout - off, vout + off, window, "output (with offset)")
 
 
-def check_bandwidth(
-    design: Design, spec: Spec, corners: OperatingCorners | None = None
-) -> CheckResult:
+def check_bandwidth(design: Design, spec: Spec, corners: OperatingCorners | None = None) -> Outcome:
     """Small-signal bandwidth f_3dB = GBW/(1 + R2/R1') (lowest over the corners) against the
     bandwidth needed for a flat response up to the signal's ``max_frequency_hz``.
 
@@ -448,12 +447,12 @@ def check_bandwidth(
         f"accuracy) needs at least {_q(need, 'Hz')}"
     )
     margin = f3 - need
-    return CheckResult("small_signal_bandwidth", margin >= 0.0, f3, need, margin, "Hz", detail)
+    return Outcome("small_signal_bandwidth", margin >= 0.0, f3, need, margin, "Hz", detail)
 
 
 def check_full_power_bandwidth(
     design: Design, spec: Spec, corners: OperatingCorners | None = None
-) -> CheckResult:
+) -> Outcome:
     """Slew-limited full-power bandwidth SR/(2π·Vpk), Vpk = largest |Adm·Vd| over the corners
     (the signal part of the output; the DC part from REF and common mode does not slew), against
     the signal's ``max_frequency_hz`` (floor, Hz).
@@ -476,7 +475,7 @@ def check_full_power_bandwidth(
         f"output signal peak {_q(peak, 'V')} at slew rate {_q(amp.slew_v_per_s * 1e-6, 'V/µs')} "
         f"gives {_q(fp, 'Hz')}; signal reaches {_q(f_max, 'Hz')}"
     )
-    return CheckResult("full_power_bandwidth", margin >= 0.0, fp, f_max, margin, "Hz", detail)
+    return Outcome("full_power_bandwidth", margin >= 0.0, fp, f_max, margin, "Hz", detail)
 
 
 #: Resistor ends of :func:`rating_corners`, one row per corner: 0 for ``R(1 − δ)``, 1 for
@@ -546,7 +545,7 @@ def resistor_stress(c: OperatingCorners, spec: Spec) -> tuple[Array, Array]:
 
 def check_resistor_ratings(
     design: Design, spec: Spec, corners: OperatingCorners | None = None
-) -> tuple[CheckResult, ...]:
+) -> tuple[Outcome, ...]:
     """Power and voltage of each resistor at the worst corner (linear solution; the output is not
     assumed to clip) against its power rating derated to ``temp_max_c`` and its limiting
     voltage. Network elements use ``power_per_element_w`` (package totals are not checked)."""
@@ -554,8 +553,8 @@ def check_resistor_ratings(
         operating_corners(design, spec) if corners is None else corners, spec
     )
     hot = spec.requirements.temp_max_c
-    power_results: list[CheckResult] = []
-    voltage_results: list[CheckResult] = []
+    power_results: list[Outcome] = []
+    voltage_results: list[Outcome] = []
     for placement, power_a, peak_a in zip(design.placements, powers, peaks, strict=True):
         part = placement.part
         name = placement.position
@@ -564,7 +563,7 @@ def check_resistor_ratings(
         power = float(power_a)
         margin = allowed - power
         power_results.append(
-            CheckResult(
+            Outcome(
                 f"power_{name}", margin >= 0.0, power, allowed, margin, "W",
                 f"{name} dissipates up to {_q(power, 'W')}; rating {_q(rating, 'W')} at 70 °C "
                 f"derated to {_q(allowed, 'W')} at {hot:g} °C",
@@ -573,7 +572,7 @@ def check_resistor_ratings(
         peak = float(peak_a)
         margin_v = part.max_voltage_v - peak
         voltage_results.append(
-            CheckResult(
+            Outcome(
                 f"voltage_{name}", margin_v >= 0.0, peak, part.max_voltage_v, margin_v, "V",
                 f"{name} sees up to {_q(peak, 'V')}; "
                 f"limiting voltage {_q(part.max_voltage_v, 'V')}",
@@ -584,7 +583,7 @@ def check_resistor_ratings(
 
 def check_output_offset(
     design: Design, spec: Spec, corners: OperatingCorners | None = None
-) -> CheckResult:
+) -> Outcome:
     """Worst output offset from Vos and bias currents (:func:`output_offset_bound`) over the
     corners. Informational: the spec states no offset requirement (the figure is, however, part
     of the output-swing check), so ``passed=True`` and ``limit = margin = nan``."""
@@ -603,7 +602,7 @@ def check_output_offset(
     )  # fmt: skip
 
 
-def run_checks(design: Design, spec: Spec) -> tuple[CheckResult, ...]:
+def run_checks(design: Design, spec: Spec) -> tuple[Outcome, ...]:
     """All checks of this module, in a fixed order: input impedance (differential, common mode),
     output noise, amplifier input range, output swing, small-signal bandwidth, full-power
     bandwidth, resistor power (R1 to R4), resistor voltage (R1 to R4), output offset. The

@@ -47,7 +47,8 @@ from .. import interrupt
 from ..catalog import Catalog
 from ..cost import CostBreakdown, design_cost
 from ..design import Design
-from ..solve.search import OrderedDesigns, Verdict, Verifier
+from ..solve.search import OrderedDesigns
+from ..solve.verdict import Verdict, Verifier
 from ..spec import Objective, Spec, StockPolicy
 from .combine import Option, best_boards
 from .model import (

@@ -51,7 +51,7 @@ from rich.table import Table
 from rich.text import Text
 
 from .._version import __version__
-from ..analysis.checks import CheckResult
+from ..analysis.checks import Outcome
 from ..analysis.drift import DRIFT_SHARED_VARIANCE, drift_model_summary
 from ..analysis.montecarlo import MonteCarloResult
 from ..analysis.worstcase import BudgetItem, WorstCase
@@ -60,7 +60,7 @@ from ..design import Design, Placement, Topology
 from ..parts import NetworkPart
 from ..spec import CmrrBasis, DriftModel, Spec
 from ..units import format_fraction, format_quantity, format_resistance, format_tempco
-from ..verify import Margin, Verification
+from ..verify import Verification
 
 __all__ = [
     "BUDGET_LABELS",
@@ -257,7 +257,7 @@ def _design_lines(design: Design, spec: Spec, assumptions: Sequence[str]) -> Tex
     return Text("\n".join(lines))
 
 
-def _requirements_table(requirements: Sequence[Margin]) -> Table:
+def _requirements_table(requirements: Sequence[Outcome]) -> Table:
     table = Table(title="Requirements", title_justify="left", header_style="bold")
     table.add_column("requirement")
     table.add_column("found", justify="right")
@@ -363,7 +363,7 @@ def _statistics_table(result: MonteCarloResult, spec: Spec) -> Table:
     return table
 
 
-def _checks_table(checks: Sequence[CheckResult]) -> Table:
+def _checks_table(checks: Sequence[Outcome]) -> Table:
     table = Table(title="Other checks in detail", title_justify="left", header_style="bold")
     table.add_column("check")
     table.add_column("outcome", no_wrap=True)

@@ -8,7 +8,7 @@ from collections.abc import Iterator
 import numpy as np
 
 from ..analysis.checks import (
-    CheckResult,
+    Outcome,
     check_bandwidth,
     check_full_power_bandwidth,
     check_input_range,
@@ -41,7 +41,7 @@ def _ideal_design(r1: float, gain: float, rref: float = 0.0) -> Design:
     return Design((part("R1", r1), part("R2", r1 * gain), part("R3", r1), part("R4", r4)))
 
 
-def amplifier_limits(spec: Spec) -> tuple[CheckResult, ...]:
+def amplifier_limits(spec: Spec) -> tuple[Outcome, ...]:
     """Checks that fail for every ideal, balanced resistor set across the gain band
     [G(1−acc), G(1+acc)] and across the allowed resistance levels: neither the catalog nor the
     search can meet them; the amplifier or the signal decides."""
@@ -63,14 +63,14 @@ def amplifier_limits(spec: Spec) -> tuple[CheckResult, ...]:
                 made[key] = _ideal_design(key[0], key[1], rref)
             yield made[key]
 
-    failing: list[CheckResult] = []
+    failing: list[Outcome] = []
     for check in (
         check_bandwidth,
         check_full_power_bandwidth,
         check_input_range,
         check_output_swing,
     ):
-        results: list[CheckResult] = []
+        results: list[Outcome] = []
         for design in designs():
             result = check(design, spec)
             if result.passed:

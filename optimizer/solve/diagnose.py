@@ -23,7 +23,8 @@ from ..design import Design
 from ..spec import CmrrBasis, Objective, Spec
 from ..units import format_fraction, format_quantity, format_resistance
 from .amplifier import amplifier_limits
-from .search import PickResult, SearchStatus, Verifier, pick
+from .search import PickResult, SearchStatus, pick
+from .verdict import Verifier
 
 __all__ = ["BestReachable", "Diagnosis", "diagnose"]
 

@@ -38,14 +38,13 @@ from __future__ import annotations
 
 import itertools
 import math
-from collections.abc import Callable, Iterator, Sequence
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
-from typing import Protocol
 
 import numpy as np
 from numpy.typing import NDArray
 
-from ..analysis.checks import CheckResult, check_input_impedance, check_output_noise
+from ..analysis.checks import Outcome, check_input_impedance, check_output_noise
 from ..analysis.environment import amplifier_corners, environment_from_spec
 from ..analysis.transfer import coefficients, common_mode_gain, differential_gain
 from ..analysis.variation import resistances, variation_from_design, vertex_values
@@ -57,6 +56,7 @@ from ..errors import ModelError, QuartetError
 from ..parts import DiscretePart, NetworkPart
 from ..spec import CmrrBasis, Spec, StockPolicy
 from ..verify import verify
+from .verdict import Verdict, Verifier
 
 __all__ = [
     "MAX_DESIGNS",
@@ -111,16 +111,6 @@ class TooManyDesigns(QuartetError, ValueError):
             f"({detail}), more than the limit of {limit:,}; narrow the resistance window, the "
             "topologies or the catalog"
         )
-
-
-class Verdict(Protocol):
-    """What a verifier returns (``optimizer.verify.Verification`` satisfies it)."""
-
-    @property
-    def passed(self) -> bool: ...
-
-
-Verifier = Callable[[Design, Spec], Verdict]
 
 
 # ---------------------------------------------------------------------------------------------
@@ -476,7 +466,7 @@ def fails_a_check(design: Design, spec: Spec) -> bool:
     ``run_checks``) on the same design and spec and fails every design for which a check with
     a requirement (a limit that is not NaN) does not pass, so this is a cheaper first stage of
     ``verify`` (about a tenth of its time) and never rejects a design ``verify`` accepts."""
-    results: tuple[CheckResult, ...] = (
+    results: tuple[Outcome, ...] = (
         *check_input_impedance(design, spec),
         check_output_noise(design, spec),
     )

@@ -17,7 +17,7 @@ import time
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass, field, replace
 from enum import Enum
-from typing import TYPE_CHECKING, Protocol
+from typing import TYPE_CHECKING
 
 import numpy as np
 from numpy.typing import NDArray
@@ -46,6 +46,7 @@ from .options import (
     build_options,
 )
 from .ranking import binding_requirement, family_key, tie_key
+from .verdict import Verdict, Verifier
 
 if TYPE_CHECKING:  # CP-SAT loads on first use: the exact enumerations never need it
     from ortools.sat.python import cp_model
@@ -81,16 +82,6 @@ class SearchStatus(str, Enum):
     OPTIMAL = "proven_optimal"
     TIME_LIMIT = "time_limit"
     INFEASIBLE = "infeasible"
-
-
-class Verdict(Protocol):
-    """What the exact verification must provide (``optimizer.verify.Verification`` does)."""
-
-    @property
-    def passed(self) -> bool: ...
-
-
-Verifier = Callable[[Design, Spec], Verdict]
 
 
 @dataclass(frozen=True)

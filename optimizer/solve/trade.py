@@ -21,7 +21,8 @@ from ..catalog import Catalog
 from ..design import Topology
 from ..spec import CmrrBasis, Objective, Spec
 from .diagnose import CMRR_STEPS_DB
-from .search import Candidate, PickResult, SearchStatus, Verifier, pick
+from .search import Candidate, PickResult, SearchStatus, pick
+from .verdict import Verifier
 
 __all__ = ["TRADE_TIME_LIMIT_S", "KindBest", "Trade", "cost_per_db", "kind_trade"]
 
