@@ -26,15 +26,16 @@ from itertools import product
 import numpy as np
 import pytest
 
+from optimizer.analysis.balance import common_mode_error_worst_sign
 from optimizer.analysis.environment import Environment, dominant_vertices, source_vertices
 from optimizer.analysis.montecarlo import (
     CMRR_PERCENTS,
     GAIN_PERCENTS,
     monte_carlo_from_variation,
 )
+from optimizer.analysis.scalesearch import _golden_max
 from optimizer.analysis.transfer import coefficients, common_mode_gain, differential_gain
 from optimizer.analysis.variation import SharedGroup, Variation, resistances, sample_values
-from optimizer.analysis.worstcase import _golden_max, common_mode_error_worst_sign
 from optimizer.errors import ModelError
 from optimizer.spec import Distribution, Requirements
 

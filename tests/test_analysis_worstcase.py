@@ -28,6 +28,11 @@ import sympy as sp
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
+from optimizer.analysis.balance import (
+    bridge_terms,
+    common_mode_error_from_terms,
+    differential_gain_from_terms,
+)
 from optimizer.analysis.drift import drift_bound
 from optimizer.analysis.environment import (
     IDEAL_ENVIRONMENT,
@@ -35,6 +40,7 @@ from optimizer.analysis.environment import (
     environment_from_spec,
     source_vertices,
 )
+from optimizer.analysis.scalesearch import needs_scale_search, opposing_group
 from optimizer.analysis.transfer import (
     coefficients,
     combine_cmrr_db,
@@ -50,11 +56,6 @@ from optimizer.analysis.variation import (
 from optimizer.analysis.worstcase import (
     BUDGET_NAMES,
     _enumerate,
-    bridge_terms,
-    common_mode_error_from_terms,
-    differential_gain_from_terms,
-    needs_scale_search,
-    opposing_group,
     worst_case,
     worst_case_from_bounds,
     worst_case_from_variation,

@@ -29,7 +29,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from test_oracle import e_value, random_case
 
-from optimizer.analysis.worstcase import common_mode_error_worst_sign, worst_case
+from optimizer.analysis.balance import common_mode_error_worst_sign
+from optimizer.analysis.worstcase import worst_case
 from optimizer.catalog import builtin_catalog, catalog_from_parts
 from optimizer.cost import design_cost
 from optimizer.design import Design, Placement, Topology

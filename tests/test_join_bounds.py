@@ -12,7 +12,7 @@ import dataclasses
 import numpy as np
 import pytest
 
-from optimizer.analysis.worstcase import differential_gain_from_terms
+from optimizer.analysis.balance import differential_gain_from_terms
 from optimizer.solve.frontier import _gain_room, _Limits
 
 

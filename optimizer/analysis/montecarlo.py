@@ -26,7 +26,7 @@ Method
   with ``Rs3`` and rises with ``Rref``, ``c`` falls with ``Rs1``, whatever the resistances.
   The common-mode error at the worse sign of the amplifier's CMRR is a quasi-convex function
   of the balance ``x = c/a``
-  (:func:`~optimizer.analysis.worstcase.common_mode_error_worst_sign`), so over all corners it
+  (:func:`~optimizer.analysis.balance.common_mode_error_worst_sign`), so over all corners it
   is largest at the largest ``x`` (``Rs1`` low, ``Rs3`` high, ``Rref`` low) or the smallest
   (the opposite): each build keeps its largest ``x`` over the corners where ``x`` can be
   largest and its smallest over those where it can be smallest, at both temperatures, and the
@@ -67,6 +67,14 @@ from numpy.typing import ArrayLike, NDArray
 from ..design import Design
 from ..errors import ModelError
 from ..spec import Distribution, Requirements, Spec
+from .balance import (
+    bridge_terms,
+    common_mode_error_from_terms,
+    common_mode_error_worst_sign,
+    differential_gain_from_terms,
+    feedback_complement,
+    rejection_db,
+)
 from .environment import Environment, dominant_vertices, environment_from_spec
 from .transfer import divider_ratio
 from .variation import (
@@ -75,14 +83,6 @@ from .variation import (
     sample_values,
     static_and_tempco,
     variation_from_design,
-)
-from .worstcase import (
-    bridge_terms,
-    common_mode_error_from_terms,
-    common_mode_error_worst_sign,
-    differential_gain_from_terms,
-    feedback_complement,
-    rejection_db,
 )
 
 __all__ = [
@@ -154,7 +154,7 @@ def kernel(
     array transposed); ``rs1``, ``rs3``, ``rref``: source and REF impedances (ohms);
     ``amp_cmrr`` (ratio), ``cmrr_sign`` (±1) and ``open_loop_gain`` (ratio) describe the
     amplifier. Uses the closed forms of :mod:`~optimizer.analysis.transfer` through
-    :func:`~optimizer.analysis.worstcase.bridge_terms`."""
+    :func:`~optimizer.analysis.balance.bridge_terms`."""
     res = np.asarray(r, dtype=float)
     a, c = bridge_terms(res[:, 0] + rs1, res[:, 1], res[:, 2] + rs3, res[:, 3] + rref)
     eps = cmrr_sign / (2.0 * amp_cmrr)

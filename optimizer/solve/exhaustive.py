@@ -44,11 +44,11 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
+from ..analysis.balance import common_mode_error, rejection_db
 from ..analysis.checks import Outcome, check_input_impedance, check_output_noise
 from ..analysis.environment import amplifier_corners, environment_from_spec
 from ..analysis.transfer import coefficients, common_mode_gain, differential_gain
 from ..analysis.variation import resistances, variation_from_design, vertex_values
-from ..analysis.worstcase import common_mode_error, rejection_db
 from ..catalog import Catalog
 from ..cost import CostBreakdown, design_cost
 from ..design import Design, Placement, Topology

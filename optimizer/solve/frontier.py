@@ -128,7 +128,7 @@ def log_balance_limit(floor_db: float, amp_cmrr_ratio: float) -> float:
     ``floor_db`` with an amplifier of CMRR ``amp_cmrr_ratio`` (a ratio; ``inf`` when ideal):
     ``Λ = 2·atanh(w*)``, ``w* = (X/2 − e)/(1 − e·X/2)``, ``X = 10^(−floor/20)``,
     ``e = 1/(2·CMRR)``. From the worst-sign error ``2(w + e)/(1 + e·w)`` with
-    ``w = |1 − x|/(1 + x) = tanh(|ln x|/2)`` (``analysis.worstcase.
+    ``w = |1 − x|/(1 + x) = tanh(|ln x|/2)`` (``analysis.balance.
     common_mode_error_worst_sign``), which rises with ``w``. Negative: no balance meets it."""
     x_max = 10.0 ** (-floor_db / 20.0)
     e = 0.0 if math.isinf(amp_cmrr_ratio) else 1.0 / (2.0 * amp_cmrr_ratio)
@@ -144,7 +144,7 @@ def gain_threshold(gain: float, k: float, eps: float, inv_a: float, side: int) -
     """The bridge term at which the differential gain reaches ``gain`` when the other term is
     ``k`` times it: for side 1 (``c``, with ``a = k·c``) and side 2 (``a``, with ``c = k·a``).
 
-    From ``Adm = (a(1+ε) + c(1−ε)) / (2(1/A + (1−c)(1−ε)))`` (``analysis.worstcase.
+    From ``Adm = (a(1+ε) + c(1−ε)) / (2(1/A + (1−c)(1−ε)))`` (``analysis.balance.
     differential_gain_from_terms``), linear in the term once the other is ``k`` times it:
     side 1: ``c* = 2G(1/A + 1 − ε) / (k(1+ε) + (1−ε) + 2G(1−ε))``;
     side 2: ``a* = 2G(1/A + 1 − ε) / ((1+ε) + k(1−ε) + 2Gk(1−ε))``. ``Adm`` rises with the term,
@@ -156,7 +156,7 @@ def gain_threshold(gain: float, k: float, eps: float, inv_a: float, side: int) -
 
 
 def _adm(a: Array, c: Array, eps: float, inv_a: float) -> Array:
-    """``Adm = (a(1+ε) + c(1−ε)) / (2(1/A + (1−c)(1−ε)))`` (``analysis.worstcase.
+    """``Adm = (a(1+ε) + c(1−ε)) / (2(1/A + (1−c)(1−ε)))`` (``analysis.balance.
     differential_gain_from_terms``, repeated here on plain arrays for the join's speed)."""
     return (a * (1.0 + eps) + c * (1.0 - eps)) / (2.0 * (inv_a + (1.0 - c) * (1.0 - eps)))
 

@@ -145,7 +145,7 @@ def c_gain_room(a_lo: Array | float, a_hi: Array | float, lim: _Limits) -> tuple
     """``(ln c_min, ln c_max)``: the gain conditions hold only if the partner's ``ln c_lo`` lies
     in between, for a side-2 term in ``[a_lo, a_hi]`` (dimensionless; numbers or arrays of one
     shape). ``Adm = (a(1+ε) + c(1−ε))/(2(1/A + (1−c)(1−ε)))``
-    (``analysis.worstcase.differential_gain_from_terms``) rises with ``c``; solved for ``c``:
+    (``analysis.balance.differential_gain_from_terms``) rises with ``c``; solved for ``c``:
     ``Adm(a_lo, c_lo, ε, 1/A) ≥ G_min`` gives ``c_lo ≥ (2·G_min(1/A + 1 − ε) − a_lo(1 +
     ε))/((1 − ε)(1 + 2·G_min))`` and ``Adm(a_hi, c_hi, ε, 0) ≤ G_max`` gives ``c_lo ≤ c_hi ≤
     (2·G_max(1 − ε) − a_hi(1 + ε))/((1 − ε)(1 + 2·G_max))``, for every sign of ``ε``; widened
