@@ -145,7 +145,7 @@ def test_passing_counts_bound_the_monte_carlo(
     first = deviation_bounds(r[:, 0], r[:, 1], (rho_a * 0.995, rho_a * 1.004))
     second = deviation_bounds(r[:, 2], r[:, 3], (rho_b * 0.996, rho_b * 1.005))
     m = np.log(rho_a / (1 + rho_a)) - np.log(rho_b / (1 + rho_b))
-    from optimizer.solve.frontier import log_balance_limit
+    from optimizer.solve.screen import log_balance_limit
 
     balance = log_balance_limit(req.cmrr_floor_db, spec.amplifier.cmrr_ratio)
     bound = int(passing_counts(first, second, np.array([m]), balance)[0])

@@ -39,13 +39,9 @@ from optimizer.parts import DiscretePart
 from optimizer.solve import frontier as frontier_module
 from optimizer.solve.environment import linear_environment
 from optimizer.solve.exhaustive import reference_search
-from optimizer.solve.frontier import (
-    _Limits,
-    discrete_frontier,
-    gain_spread_ratio,
-    gain_threshold,
-    log_balance_limit,
-)
+from optimizer.solve.frontier import discrete_frontier
+from optimizer.solve.halves import gain_spread_ratio
+from optimizer.solve.screen import ScreenLimits, gain_threshold, log_balance_limit
 from optimizer.solve.search import PickResult, SearchStatus, pick
 from optimizer.spec import CmrrBasis, DriftModel, Objective, SourceImpedance, Spec, StockPolicy
 from optimizer.userdesign import design_from_parts
@@ -133,7 +129,7 @@ def _two_size_case(seed: int) -> tuple[Spec, object]:
     """Two to six values near 160 Ω to 1.6 kΩ, each in one grade and two sizes: a cheap one
     rated 30 mW to 0.2 W and a dearer one rated 1 W, under an output swing of ±3 V to ±10 V, so that the cheap
     size cannot bear the stress at some positions and a design must pay for the larger one
-    there (the search's *lift*, ``frontier._rated_combinations``). The spec is one of the
+    there (the search's *lift*, ``ratingscreen._rated_combinations``). The spec is one of the
     oracle's (``test_oracle.random_case``) with this catalog and a larger signal."""
     rng = random.Random(seed)
     case = random_case(seed)
@@ -317,7 +313,7 @@ def test_gain_spread_ratio_never_exceeds_what_a_design_meeting_the_gain_shows(
     g_max = max(_adm(a_hi, c_hi, x, 0.0) for x in eps)
     g_min = min(_adm(a_lo, c_lo, x, inv_a) for x in eps)
     zero = np.zeros(1)
-    lim = _Limits(
+    lim = ScreenLimits(
         balance=0.01, gain_max=g_max, gain_min=g_min, eps=eps, inv_a=inv_a,
         rs1=zero, rs3=zero, rref=zero, min_impedance=0.0,
     )  # fmt: skip
@@ -333,7 +329,7 @@ def test_gain_spread_ratio_rejects_a_loose_inverting_side_at_high_gain() -> None
     c_hi = 20e3 * 1.01 / (1e3 * 0.99 + 20e3 * 1.01)
     c_lo = 20e3 * 0.99 / (1e3 * 1.01 + 20e3 * 0.99)
     zero = np.zeros(1)
-    lim = _Limits(
+    lim = ScreenLimits(
         balance=0.01, gain_max=20 * 1.005, gain_min=20 * 0.995, eps=(0.0,), inv_a=0.0,
         rs1=zero, rs3=zero, rref=zero, min_impedance=0.0,
     )  # fmt: skip

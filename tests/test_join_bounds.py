@@ -1,4 +1,4 @@
-"""The join's gain bounds on the partner's term (``optimizer.solve.frontier._gain_room``) are
+"""The join's gain bounds on the partner's term (``optimizer.solve.frontier.gain_room``) are
 necessary conditions: on random terms and amplifiers, every pair that meets the gain
 conditions of the frontier's corner theorem (checked with the differential-gain closed form
 ``Adm = (a(1+ε) + c(1−ε)) / (2(1/A + (1−c)(1−ε)))``, ``analysis.worstcase``, a textbook
@@ -13,10 +13,11 @@ import numpy as np
 import pytest
 
 from optimizer.analysis.balance import differential_gain_from_terms
-from optimizer.solve.frontier import _gain_room, _Limits
+from optimizer.solve.frontier import gain_room
+from optimizer.solve.screen import ScreenLimits
 
 
-def _limits(rng: np.random.Generator) -> _Limits:
+def _limits(rng: np.random.Generator) -> ScreenLimits:
     gain = float(10.0 ** rng.uniform(-1.0, 2.3))
     accuracy = float(10.0 ** rng.uniform(-4.0, -1.5))
     # Amplifier errors below the gain accuracy (else no pair can meet it): CMRR term e and
@@ -24,7 +25,7 @@ def _limits(rng: np.random.Generator) -> _Limits:
     e = float(rng.choice([0.0, accuracy * 10.0 ** rng.uniform(-3.0, -1.0)]))
     inv_a = float(rng.choice([0.0, accuracy / (1.0 + gain) * 10.0 ** rng.uniform(-3.0, -1.0)]))
     zero = np.zeros(1)
-    return _Limits(
+    return ScreenLimits(
         balance=0.01,
         gain_max=gain * (1.0 + accuracy),
         gain_min=gain * (1.0 - accuracy),
@@ -61,7 +62,7 @@ def test_every_pair_that_meets_the_gain_lies_inside_the_bounds(seed: int) -> Non
     for e in lim.eps:
         ok &= differential_gain_from_terms(a_hi, c_hi, e, 0.0) <= lim.gain_max
         ok &= differential_gain_from_terms(a_lo, c_lo, e, lim.inv_a) >= lim.gain_min
-    least, most = _gain_room(c_lo[:, None], c_hi[:, None], lim)
+    least, most = gain_room(c_lo[:, None], c_hi[:, None], lim)
     inside = (np.log(a_lo) >= least) & (np.log(a_lo) <= most)
     assert ok.any()  # the sample reaches the condition
     assert not (ok & ~inside).any()  # no pair that meets the gain is outside the bounds
@@ -75,7 +76,7 @@ def test_the_bounds_hold_at_several_vertices_at_once() -> None:
     lim = dataclasses.replace(_limits(rng), eps=(1e-4, -1e-4))
     c_lo = rng.uniform(0.6, 0.7, (500, 3))
     c_hi = c_lo * 1.001
-    least, most = _gain_room(c_lo, c_hi, lim)
+    least, most = gain_room(c_lo, c_hi, lim)
     for v in range(3):
-        l_v, m_v = _gain_room(c_lo[:, v : v + 1], c_hi[:, v : v + 1], lim)
+        l_v, m_v = gain_room(c_lo[:, v : v + 1], c_hi[:, v : v + 1], lim)
         assert np.all(least >= l_v) and np.all(most <= m_v)

@@ -18,8 +18,9 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from optimizer.solve.frontier import _Limits, value_window
+from optimizer.solve.halves import value_window
 from optimizer.solve.mixed import c_gain_room, least_sensitivity, side_term
+from optimizer.solve.screen import ScreenLimits
 
 ohms = st.floats(min_value=10.0, max_value=1e6)
 small = st.floats(min_value=0.0, max_value=500.0)
@@ -73,7 +74,7 @@ def test_least_sensitivity_is_below_the_true_slope(
     zero = np.zeros(1)
     side_w = w if position in (0, 2) else 0.0
     side_u = u if position == 3 else 0.0
-    lim = _Limits(
+    lim = ScreenLimits(
         balance=0.01, gain_max=1.0, gain_min=1.0, eps=(0.0,), inv_a=0.0,
         rs1=np.array([side_w]) if position == 0 else zero,
         rs3=np.array([side_w]) if position == 2 else zero,
@@ -133,7 +134,7 @@ def test_c_gain_room_holds_every_gain_that_meets_the_limits(
     g_min = min(gain * (1 - accuracy), g_bottom)
     g_max = max(gain * (1 + accuracy), g_top)
     zero = np.zeros(1)
-    lim = _Limits(
+    lim = ScreenLimits(
         balance=0.01, gain_max=g_max, gain_min=g_min, eps=eps, inv_a=inv_a,
         rs1=zero, rs3=zero, rref=zero, min_impedance=0.0,
     )  # fmt: skip

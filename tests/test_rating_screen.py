@@ -35,7 +35,7 @@ from optimizer.analysis.checks import (
 from optimizer.analysis.formulas import value_spread
 from optimizer.catalog import builtin_catalog
 from optimizer.design import Design, Placement
-from optimizer.solve.frontier import _SCREEN_ENDS
+from optimizer.solve.ratingscreen import _SCREEN_ENDS
 from optimizer.spec import Spec
 from optimizer.specfile import load_spec
 

@@ -32,7 +32,7 @@ from optimizer.design import Design, Placement, Topology
 from optimizer.parts import DiscretePart, NetworkPart
 from optimizer.solve.environment import linear_environment
 from optimizer.solve.exhaustive import reference_search
-from optimizer.solve.frontier import log_balance_limit
+from optimizer.solve.screen import log_balance_limit
 from optimizer.solve.search import pick
 from optimizer.solve.yieldbox import DesignScreen
 from optimizer.specfile import load_spec

@@ -89,8 +89,8 @@ from ..spec import DriftModel, Objective, Spec, StockPolicy
 from . import yieldbox
 from .discrete import DiscreteBlock
 from .environment import LinearEnvironment
-from .frontier import log_balance_limit
 from .pairbounds import deviation_bounds, gain_window, passing_counts, screen_pairs
+from .screen import log_balance_limit
 
 __all__ = ["ClassQuadSearch", "serves"]
 

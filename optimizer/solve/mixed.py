@@ -9,19 +9,19 @@ values and factor ranges, and only the two discrete positions are free, so the c
 environment vertex) decide each pair of discrete (class, value) choices exactly:
 
 * **Divider placements** (the dual at R1, R2 or at R3, R4): the discrete parts form the other
-  side's half, whose records (``frontier.Shared.half``, their terms at vertex 0 only) are
+  side's half, whose records (``halfgroups.Shared.half``, their terms at vertex 0 only) are
   built once; the dual's own side
   term is one interval per vertex, so the partner's ``ln`` term at vertex 0 must lie within
   ``[high − Λ, low + Λ]`` of it: a slice of the records sorted by that term.
 * **Crossed placements** (one dual element on each side): each side is one dual element and one
   discrete part. The side term ``(B + u)/(A + w + B + u)`` (``A``: R1 or R3 with its source
   impedance ``w``; ``B``: R2 or R4 with ``u`` = 0 or Rref) rises with ``B`` and falls with
-  ``A``, so the window of :func:`frontier._side_window` bounds each class's value from both
-  sides (:func:`frontier.value_window`); the two sides' candidates are paired and screened.
+  ``A``, so the window of :func:`screen.side_window` bounds each class's value from both
+  sides (:func:`halves.value_window`); the two sides' candidates are paired and screened.
 
 Both candidate lists keep only pairs whose side terms can balance at vertex 0 (a side's width
 plus its partner's is at most ``2Λ``, the two balance conditions summed). Every candidate then
-passes :func:`frontier.corner_screen` with the dual's package factor at each of its two ends
+passes :func:`screen.corner_screen` with the dual's package factor at each of its two ends
 (points of the exact check's range, as the network search does), which is exact for
 independent parts and optimistic for the network, so nothing the exact check could accept is
 dropped; a placement's candidates are ordered and screened a chunk at a time, as the merge
@@ -62,30 +62,20 @@ from ..parts import DiscretePart, NetworkPart
 from ..spec import Spec
 from .environment import LinearEnvironment
 from .frontier import (
-    _BLOCK,
-    _BOUND,
-    _EXACT,
-    _JOIN_CHUNK,
-    Shared,
-    _adm,
-    _cached_part,
-    _element_bounds,
-    _exact_key,
-    _gain_room,
-    _Half,
-    _Limits,
-    _package_extremes,
-    _Parts,
-    _side_window,
-    _usable_networks,
-    corner_screen,
-    element_ratings,
+    HEAP_BLOCK,
+    HEAP_BOUND,
+    HEAP_EXACT,
+    JOIN_CHUNK,
+    cached_part,
+    exact_key,
+    gain_room,
     limits_and_parts,
-    stress_floor,
-    value_lists,
-    value_window,
 )
+from .halfgroups import Shared
+from .halves import ClassParts, HalfRecords, value_lists, value_window
+from .networks import element_bounds, element_ratings, package_extremes, usable_networks
 from .options import ALL_SHAPES
+from .screen import ScreenLimits, adm_from_terms, corner_screen, side_window, stress_floor
 from .yieldbox import DesignScreen, box_factor
 
 __all__ = ["c_gain_room", "least_sensitivity", "mixed_frontier", "side_term"]
@@ -111,7 +101,7 @@ def side_term(
     return term
 
 
-def least_sensitivity(position: int, r_low: Array, t_hi: float, lim: _Limits) -> Array:
+def least_sensitivity(position: int, r_low: Array, t_hi: float, lim: ScreenLimits) -> Array:
     """A lower bound of ``∂ln term/∂ln R`` (dimensionless) for a resistance at ``position``
     (0-based) no lower than ``r_low`` (ohms) while its side's term stays at most ``t_hi``. From
     :func:`side_term`: for ``A`` (R1, R3) ``S = A/(A + w + B + u) = (1 − term)·A/(A + w)``, for
@@ -124,7 +114,7 @@ def least_sensitivity(position: int, r_low: Array, t_hi: float, lim: _Limits) ->
     return share
 
 
-def _least_costs(parts: _Parts, lim: _Limits) -> list[float]:
+def _least_costs(parts: ClassParts, lim: ScreenLimits) -> list[float]:
     """Per position: the least cost (part and placement) of a discrete part that can take it
     next to any dual. A side's ``ln`` term spans at least ``S·ln(hi/lo)`` over the part's range
     (:func:`least_sensitivity`; the other resistance of the side at a point only narrows it),
@@ -133,7 +123,7 @@ def _least_costs(parts: _Parts, lim: _Limits) -> list[float]:
     least: list[float] = []
     width = np.log(parts.hi / parts.lo)[:, None]  # (E, 1)
     for position in range(4):
-        t_hi = _side_window(lim, 1 if position < 2 else 2)[0]
+        t_hi = side_window(lim, 1 if position < 2 else 2)[0]
         r_low = parts.values[None, :] * parts.lo[:, None]  # (E, K)
         narrow = width * least_sensitivity(position, r_low, t_hi, lim) <= 2.0 * lim.balance
         cost = np.where(narrow, parts.best_cost[position], np.inf)
@@ -141,7 +131,7 @@ def _least_costs(parts: _Parts, lim: _Limits) -> list[float]:
     return least
 
 
-def c_gain_room(a_lo: Array | float, a_hi: Array | float, lim: _Limits) -> tuple[Array, Array]:
+def c_gain_room(a_lo: Array | float, a_hi: Array | float, lim: ScreenLimits) -> tuple[Array, Array]:
     """``(ln c_min, ln c_max)``: the gain conditions hold only if the partner's ``ln c_lo`` lies
     in between, for a side-2 term in ``[a_lo, a_hi]`` (dimensionless; numbers or arrays of one
     shape). ``Adm = (a(1+ε) + c(1−ε))/(2(1/A + (1−c)(1−ε)))``
@@ -149,7 +139,7 @@ def c_gain_room(a_lo: Array | float, a_hi: Array | float, lim: _Limits) -> tuple
     ``Adm(a_lo, c_lo, ε, 1/A) ≥ G_min`` gives ``c_lo ≥ (2·G_min(1/A + 1 − ε) − a_lo(1 +
     ε))/((1 − ε)(1 + 2·G_min))`` and ``Adm(a_hi, c_hi, ε, 0) ≤ G_max`` gives ``c_lo ≤ c_hi ≤
     (2·G_max(1 − ε) − a_hi(1 + ε))/((1 − ε)(1 + 2·G_max))``, for every sign of ``ε``; widened
-    by 1e-12 against rounding (the mirror of ``frontier._gain_room``)."""
+    by 1e-12 against rounding (the mirror of ``frontier.gain_room``)."""
     a_lo, a_hi = np.asarray(a_lo, dtype=float), np.asarray(a_hi, dtype=float)
     least = np.zeros(a_lo.shape)
     most = np.full(a_hi.shape, np.inf)
@@ -177,7 +167,7 @@ class _Dual:
     positions: tuple[int, int]  # the dual's positions (0-based, ascending)
     elements: tuple[int, int]  # element index at each of them
     values: tuple[float, float]  # ohms
-    lo: float  # element factor bounds, the package at 0 (frontier._element_bounds)
+    lo: float  # element factor bounds, the package at 0 (networks.element_bounds)
     hi: float
     ends: tuple[float, float]  # the package's shared factor at its two ends
     cost: float  # network, placement, line and stock penalty (optimizer.cost)
@@ -189,12 +179,12 @@ class _Dual:
         return rest[0], rest[1]
 
 
-def _duals(spec: Spec, catalog: Catalog, env: LinearEnvironment, lim: _Limits) -> list[_Dual]:
+def _duals(spec: Spec, catalog: Catalog, env: LinearEnvironment, lim: ScreenLimits) -> list[_Dual]:
     floors = [stress_floor(spec, lim, p) for p in range(4)]
     found: list[_Dual] = []
-    for network in _usable_networks(spec, catalog, env, 2):
-        lo, hi = _element_bounds(network, spec, env)
-        ends = _package_extremes(network, spec, env)
+    for network in usable_networks(spec, catalog, env, 2):
+        lo, hi = element_bounds(network, spec, env)
+        ends = package_extremes(network, spec, env)
         cost = parts_cost([network], spec.preferences).total
         rated = element_ratings(network, env, floors, lim)
         for shape in ALL_SHAPES:
@@ -220,7 +210,7 @@ class _Candidates:
     whose value lies in a per-class range at once (``count``: usable values of each class
     below each global value index; ``index``: the value indices of each class in order)."""
 
-    def __init__(self, parts: _Parts) -> None:
+    def __init__(self, parts: ClassParts) -> None:
         self.parts = parts
         lists = [value_lists(parts.best[position] >= 0) for position in range(4)]
         self.count = [count for count, _ in lists]
@@ -271,7 +261,7 @@ class _SortedHalf:
     bound: Array
 
 
-def _sorted_half(half: _Half, parts: _Parts, lim: _Limits) -> _SortedHalf:
+def _sorted_half(half: HalfRecords, parts: ClassParts, lim: ScreenLimits) -> _SortedHalf:
     if half.cost.size == 0:
         empty = np.zeros(0)
         return _SortedHalf(empty, empty, np.zeros((0, 4), dtype=np.int64), empty)
@@ -285,7 +275,7 @@ def _sorted_half(half: _Half, parts: _Parts, lim: _Limits) -> _SortedHalf:
     return _SortedHalf(low0[order], high0[order], keys, half.cost[rec] + _lines(keys, parts))
 
 
-def _lines(keys: IntArray, parts: _Parts) -> Array:
+def _lines(keys: IntArray, parts: ClassParts) -> Array:
     """Per key (class, value, class, value): one line charge per distinct class and value."""
     same = (keys[:, 0] == keys[:, 2]) & (keys[:, 1] == keys[:, 3])
     lines: Array = parts.line_charge[keys[:, 0], keys[:, 1]] + np.where(
@@ -294,12 +284,12 @@ def _lines(keys: IntArray, parts: _Parts) -> Array:
     return lines
 
 
-def _divider_keys(duals: list[_Dual], lim: _Limits) -> tuple[Array, Array]:
+def _divider_keys(duals: list[_Dual], lim: ScreenLimits) -> tuple[Array, Array]:
     """Per placement: the range ``[from, to]`` that a divider placement's free-side records
     must have their ``ln`` term's low end in at vertex 0 (and their high end at most ``to``):
     within ``Λ`` of the dual's own side term (``ln term_lo``, ``ln term_hi`` over its elements'
     range, :func:`side_term`) at each of its package's two ends, and inside the room the gain
-    conditions leave there (``frontier._gain_room`` for a partner ``a``, :func:`c_gain_room`
+    conditions leave there (``frontier.gain_room`` for a partner ``a``, :func:`c_gain_room`
     for a partner ``c``). Crossed placements get ``(−inf, inf)``."""
     n = len(duals)
     from_key, to_key = np.full(n, -np.inf), np.full(n, np.inf)
@@ -319,7 +309,7 @@ def _divider_keys(duals: list[_Dual], lim: _Limits) -> tuple[Array, Array]:
         term_lo = side_term(r_top * hi, r_bottom * lo, w, u)
         low_key = np.maximum(low_key, np.log(term_hi) - lim.balance)
         high_key = np.minimum(high_key, np.log(term_lo) + lim.balance)
-        a_least, a_most = _gain_room(term_lo[:, None], term_hi[:, None], lim)
+        a_least, a_most = gain_room(term_lo[:, None], term_hi[:, None], lim)
         c_least, c_most = c_gain_room(term_lo, term_hi, lim)
         low_key = np.maximum(low_key, np.where(first_side, a_least, c_least))
         high_key = np.minimum(high_key, np.where(first_side, a_most, c_most))
@@ -356,17 +346,17 @@ def _side_roles(side: int, positions: tuple[int, int]) -> tuple[int, int]:
     return (top, bottom) if top in positions else (bottom, top)
 
 
-def _side_impedances(side: int, lim: _Limits) -> tuple[Array, Array]:
+def _side_impedances(side: int, lim: ScreenLimits) -> tuple[Array, Array]:
     """``(w, u)`` per vertex of :func:`side_term`: ``Rs1`` and 0 on side 1, ``Rs3`` and
     ``Rref`` on side 2."""
     return (lim.rs1, np.zeros_like(lim.rs1)) if side == 1 else (lim.rs3, lim.rref)
 
 
-def _crossed_window(duals: list[_Dual], side: int, lim: _Limits) -> tuple[Array, Array]:
+def _crossed_window(duals: list[_Dual], side: int, lim: ScreenLimits) -> tuple[Array, Array]:
     """Per crossed placement (all with the dual's element of ``side`` at the same position):
     the window ``(m_lo, m_hi)`` of the free resistance of ``side`` next to that element
-    (:func:`frontier.value_window`, the element over its range and both package ends)."""
-    t_hi, t_lo = _side_window(lim, side)
+    (:func:`halves.value_window`, the element over its range and both package ends)."""
+    t_hi, t_lo = side_window(lim, side)
     w, u = _side_impedances(side, lim)
     fixed_at, free = _side_roles(side, duals[0].positions)
     value = np.array([d.values[d.positions.index(fixed_at)] for d in duals])
@@ -375,7 +365,7 @@ def _crossed_window(duals: list[_Dual], side: int, lim: _Limits) -> tuple[Array,
     return value_window(fixed_low, fixed_high, free > fixed_at, t_hi, t_lo, w, u)
 
 
-def _crossed_open(duals: list[_Dual], cands: _Candidates, lim: _Limits) -> NDArray[np.bool_]:
+def _crossed_open(duals: list[_Dual], cands: _Candidates, lim: ScreenLimits) -> NDArray[np.bool_]:
     """Per placement: False for a crossed one with no usable discrete part in the window of
     one of its sides (:func:`_crossed_window`; :func:`_crossed_candidates` would find none),
     True otherwise. Worked out for every placement at once, before the merge."""
@@ -394,9 +384,9 @@ def _crossed_open(duals: list[_Dual], cands: _Candidates, lim: _Limits) -> NDArr
     return open_
 
 
-def _crossed_candidates(dual: _Dual, cands: _Candidates, lim: _Limits) -> IntArray:
+def _crossed_candidates(dual: _Dual, cands: _Candidates, lim: ScreenLimits) -> IntArray:
     """Keys of discrete pairs for a dual with one element on each side: per side, the classes
-    and values :func:`frontier.value_window` allows next to the dual's element, paired across
+    and values :func:`halves.value_window` allows next to the dual's element, paired across
     sides."""
     parts = cands.parts
     picks: list[tuple[IntArray, IntArray, Array, Array]] = []
@@ -427,20 +417,20 @@ def _crossed_candidates(dual: _Dual, cands: _Candidates, lim: _Limits) -> IntArr
     c_hi, c_lo, a_hi, a_lo = np.exp(hi1[i1]), np.exp(lo1[i1]), np.exp(hi2[i2]), np.exp(lo2[i2])
     ok = np.ones(i1.size, dtype=bool)
     for e in lim.eps:
-        ok &= _adm(a_hi, c_hi, e, 0.0) <= lim.gain_max * (1.0 + 1e-12)
-        ok &= _adm(a_lo, c_lo, e, lim.inv_a) >= lim.gain_min * (1.0 - 1e-12)
+        ok &= adm_from_terms(a_hi, c_hi, e, 0.0) <= lim.gain_max * (1.0 + 1e-12)
+        ok &= adm_from_terms(a_lo, c_lo, e, lim.inv_a) >= lim.gain_min * (1.0 - 1e-12)
     i1, i2 = i1[ok], i2[ok]
     return np.column_stack([c1[i1], k1[i1], c2[i2], k2[i2]])
 
 
-def _screen(dual: _Dual, keys: IntArray, parts: _Parts, lim: _Limits) -> NDArray[np.bool_]:
+def _screen(dual: _Dual, keys: IntArray, parts: ClassParts, lim: ScreenLimits) -> NDArray[np.bool_]:
     """The mask of the keys (class, value at the first free position, then the second) that
-    pass :func:`frontier.corner_screen` with the dual's package at either end."""
+    pass :func:`screen.corner_screen` with the dual's package at either end."""
     i, j = dual.free
     p, q = dual.positions
     ok = np.zeros(keys.shape[0], dtype=bool)
-    for start in range(0, keys.shape[0], _JOIN_CHUNK):
-        part = keys[start : start + _JOIN_CHUNK]
+    for start in range(0, keys.shape[0], JOIN_CHUNK):
+        part = keys[start : start + JOIN_CHUNK]
         n = part.shape[0]
         nominal = np.empty((n, 4))
         low = np.empty((n, 4))
@@ -466,14 +456,14 @@ def _screen(dual: _Dual, keys: IntArray, parts: _Parts, lim: _Limits) -> NDArray
 def _candidates(
     dual: _Dual,
     window: tuple[float, float],
-    parts: _Parts,
-    lim: _Limits,
+    parts: ClassParts,
+    lim: ScreenLimits,
     cands: _Candidates,
     halves: dict[int, _SortedHalf],
 ) -> tuple[IntArray, Array]:
     """The candidate keys of one placement (not yet screened, in no particular order) with the
     cost bound of each less the network's cost: the cheapest part of each class and value, one
-    line per distinct class and value (``_Parts.line_charge``). ``window``: the placement's
+    line per distinct class and value (``ClassParts.line_charge``). ``window``: the placement's
     :func:`_divider_keys`."""
     if dual.positions in ((0, 1), (2, 3)):
         return _divider_candidates(dual, window, halves)
@@ -495,7 +485,7 @@ class _Block:
     includes the network."""
 
     def __init__(
-        self, dual: _Dual, keys: IntArray, lbs: Array, parts: _Parts, lim: _Limits
+        self, dual: _Dual, keys: IntArray, lbs: Array, parts: ClassParts, lim: ScreenLimits
     ) -> None:
         self.dual, self.keys, self.lbs, self.parts, self.lim = dual, keys, lbs, parts, lim
         self.rest = np.arange(keys.shape[0])  # entries not yet ordered
@@ -605,8 +595,8 @@ def mixed_frontier(
 def _emit(
     spec: Spec,
     catalog: Catalog,
-    parts: _Parts,
-    lim: _Limits,
+    parts: ClassParts,
+    lim: ScreenLimits,
     cands: _Candidates,
     duals: list[_Dual],
     windows: list[tuple[float, float]],
@@ -646,7 +636,7 @@ def _emit(
     next_dual = 0
     while not should_stop():
         top = heap[0][0] if heap else math.inf
-        top_exact = bool(heap) and heap[0][1] == _EXACT
+        top_exact = bool(heap) and heap[0][1] == HEAP_EXACT
         if min(top, bounds[next_dual] if next_dual < len(duals) else math.inf) > ceiling():
             return  # every design left is dearer than the caller wants
         if next_dual < len(duals) and (
@@ -656,27 +646,27 @@ def _emit(
             block = _Block(duals[next_dual], keys, lbs, parts, lim)
             blocks.append(block)
             if keys.shape[0]:  # ordered and screened when the merge reaches it
-                heapq.heappush(heap, (block.least(), _BLOCK, next(tick), (next_dual, -1)))
+                heapq.heappush(heap, (block.least(), HEAP_BLOCK, next(tick), (next_dual, -1)))
             next_dual += 1
             continue
         if not heap:
             return
         key, kind, _, payload = heapq.heappop(heap)
-        if kind == _BLOCK:
+        if kind == HEAP_BLOCK:
             d, at = cast(tuple[int, int], payload)
             block = blocks[d]
             if at < 0:  # a fresh block: its first usable entry, at its own bound
                 first = block.usable(0)
                 if first is not None:
-                    heapq.heappush(heap, (block.bound(first), _BLOCK, next(tick), (d, first)))
+                    heapq.heappush(heap, (block.bound(first), HEAP_BLOCK, next(tick), (d, first)))
                 continue
             after = block.usable(at + 1)
             if after is not None:
-                heapq.heappush(heap, (block.bound(after), _BLOCK, next(tick), (d, after)))
+                heapq.heappush(heap, (block.bound(after), HEAP_BLOCK, next(tick), (d, after)))
             k = block.key(at)
             electrical = ((k[0], k[1]), (k[2], k[3]))
             if electrical_passes(duals[d], electrical):
-                heapq.heappush(heap, (key, _BOUND, next(tick), (d, electrical, (0, 0))))
+                heapq.heappush(heap, (key, HEAP_BOUND, next(tick), (d, electrical, (0, 0))))
             continue
         d, electrical, choice = cast(
             tuple[int, tuple[tuple[int, int], tuple[int, int]], tuple[int, int]], payload
@@ -684,12 +674,14 @@ def _emit(
         dual = duals[d]
         lists = [parts.variants(dual.free[n], electrical[n]) for n in range(2)]
         rows = (lists[0][choice[0]][1], lists[1][choice[1]][1])
-        if kind == _EXACT:
+        if kind == HEAP_EXACT:
             yield _design(dual, rows, catalog, part_cache)
             continue
-        picked = [_cached_part(catalog, row, part_cache) for row in rows]
+        picked = [cached_part(catalog, row, part_cache) for row in rows]
         cost = parts_cost([dual.network, *picked], spec.preferences).total
-        heapq.heappush(heap, (_exact_key(cost, key), _EXACT, next(tick), (d, electrical, choice)))
+        heapq.heappush(
+            heap, (exact_key(cost, key), HEAP_EXACT, next(tick), (d, electrical, choice))
+        )
         lines = parts.lines_charge(electrical)
         for n in range(2):
             if choice[n] + 1 < len(lists[n]):
@@ -698,7 +690,7 @@ def _emit(
                     continue
                 seen.add((d, electrical, nxt))
                 bound_next = dual.cost + lists[0][nxt[0]][0] + lists[1][nxt[1]][0] + lines
-                heapq.heappush(heap, (bound_next, _BOUND, next(tick), (d, electrical, nxt)))
+                heapq.heappush(heap, (bound_next, HEAP_BOUND, next(tick), (d, electrical, nxt)))
 
 
 def _design(
@@ -708,5 +700,5 @@ def _design(
     for position, element in zip(dual.positions, dual.elements, strict=True):
         placed[position] = Placement(f"R{position + 1}", dual.network, element, 0)
     for position, row in zip(dual.free, rows, strict=True):
-        placed[position] = Placement(f"R{position + 1}", _cached_part(catalog, row, cache))
+        placed[position] = Placement(f"R{position + 1}", cached_part(catalog, row, cache))
     return Design((placed[0], placed[1], placed[2], placed[3]))

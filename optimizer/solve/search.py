@@ -32,9 +32,11 @@ from .amplifier import amplifier_limits
 from .classquads import ClassQuadSearch
 from .discrete import DiscreteBlock, build_discrete, least_cost, value_constants
 from .environment import LinearEnvironment, linear_environment
-from .frontier import Shared, discrete_frontier, log_balance_limit, network_frontier
+from .frontier import discrete_frontier
+from .halfgroups import Shared
 from .limits import LOOSE_BUDGET, Limits, limits_for
 from .mixed import mixed_frontier
+from .networks import network_frontier
 from .options import (
     ALL_SHAPES,
     C_DELTA,
@@ -46,6 +48,7 @@ from .options import (
     build_options,
 )
 from .ranking import binding_requirement, family_key, tie_key
+from .screen import log_balance_limit
 from .verdict import Verdict, Verifier
 
 if TYPE_CHECKING:  # CP-SAT loads on first use: the exact enumerations never need it

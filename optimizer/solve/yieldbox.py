@@ -1,6 +1,6 @@
 """The yield basis as a box and a screen: per-position ranges whose corner conditions are
 necessary for a Monte-Carlo yield, and the linearised yield conditions of whole designs, so that
-the exact cost-ordered enumerations of networks (``optimizer.solve.frontier.network_frontier``)
+the exact cost-ordered enumerations of networks (``optimizer.solve.networks.network_frontier``)
 and of one dual with two discrete parts (``optimizer.solve.mixed``) serve the yield basis with
 the corner conditions they use for the worst case.
 
@@ -8,7 +8,7 @@ Why the box is necessary
 ------------------------
 The Monte Carlo (``optimizer.analysis.montecarlo``) passes a build when, at its worst
 environment corner, ``|ln x| ≤ Λ`` (``x = c/a``, ``Λ`` from the floor and the amplifier's CMRR
-at the worse sign: ``frontier.log_balance_limit``) and the gain stays within its window. Fix one
+at the worse sign: ``screen.log_balance_limit``) and the gain stays within its window. Fix one
 environment vertex and linearise: ``ln x = ln x(μ) + Σᵢ sᵢ·εᵢ + (shared terms)``, where ``μ`` is
 every variable at its mean, ``εᵢ`` the log deviation of position ``i``'s own variables from their
 mean (independent across the four positions, variance ``σᵢ²``) and ``sᵢ`` the sensitivities of
@@ -240,7 +240,7 @@ class DesignScreen:
     their Monte Carlo: each position's mean resistance and own spread (``part_spread`` for a
     discrete part; for a network element half its pair figures, at its package's mean), the
     quantiles narrowed by :func:`first_order_slack` of the design's widest part. ``balance``:
-    ``Λ`` of the spec (``frontier.log_balance_limit``)."""
+    ``Λ`` of the spec (``screen.log_balance_limit``)."""
 
     def __init__(self, spec: Spec, env: LinearEnvironment, balance: float) -> None:
         z = quantiles(spec)
