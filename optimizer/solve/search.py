@@ -253,7 +253,7 @@ class Problem:
         (``discrete.least_cost``), the largest over the vertices; 0 where the budget is loose.
         Relative cost units: the parts and their placements (the model's per-placement stock
         penalty left out: the cost charges it per line) and one BOM line."""
-        from .model import extreme_vertices
+        from .cpterms import extreme_vertices
 
         limits, block, spec = self.limits, self.block, self.spec
         yield_basis = spec.requirements.cmrr_basis is CmrrBasis.YIELD
@@ -929,7 +929,7 @@ class OrderedDesigns:
             if ceiling <= stream.cost_ceiling or i in self._extended:
                 continue
             self._extended.add(i)
-            from .model import COST_SCALE
+            from .cpterms import COST_SCALE
 
             fresh = _Stream(self._problem, stream.topologies, stream.objective, stream.pair_shape)
             fresh.cost_ceiling = ceiling
