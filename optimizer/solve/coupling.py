@@ -153,6 +153,54 @@ class HalfPairs:
         )
 
 
+Keep = Callable[[NDArray[np.float64], NDArray[np.float64]], NDArray[np.bool_]]
+
+
+@dataclass(frozen=True)
+class _Setting:
+    """What every step of :func:`half_pairs` reads: the value sets, the φ table, the gain
+    coefficients, the binding vertices, the gain window's ends in logs (``upper``, ``lower``,
+    the open-loop term included), the budget B, the reference (high) vertex of the sorted joins
+    and ``h = 1/(2(1 + G))`` (the weight of δ in the gain of the (R1, R2) half)."""
+
+    value: Sequence[Mapping[int, object]]
+    phi: NDArray[np.float64]
+    cg: NDArray[np.float64]
+    high: list[int]
+    low: list[int]
+    gain_high: list[int]
+    gain_low: list[int]
+    upper: float
+    lower: float
+    budget: float
+    ref: int
+    h: float
+
+    @property
+    def n_vertices(self) -> int:
+        return int(self.phi.shape[1])
+
+
+@dataclass(frozen=True)
+class _Choices:
+    """Both halves' choices (keys as in :class:`HalfPairs`) with their δ and γ contributions at
+    every vertex ((n, V) arrays), and the second half's largest vertex-to-vertex swing."""
+
+    a_keys: NDArray[np.int64]
+    a_delta: NDArray[np.float64]
+    a_gain: NDArray[np.float64]
+    a_members: NDArray[np.int64] | None
+    b_keys: NDArray[np.int64]
+    b_delta: NDArray[np.float64]
+    b_gain: NDArray[np.float64]
+    swing_b: float
+
+
+def _spread_of(contributions: NDArray[np.float64]) -> NDArray[np.float64]:
+    """Per row: the largest less the smallest contribution over the vertices."""
+    return np.asarray(contributions.max(axis=1) - contributions.min(axis=1), dtype=float)
+
+
 def half_pairs(
     halves: tuple[object, tuple[int, int]],
     value: Sequence[Mapping[int, object]],
@@ -187,127 +235,84 @@ def half_pairs(
     The model's own spread constraints imply these, so the model stays a relaxation; checking
     them here removes pairs (and often whole streams) before CP-SAT sees them."""
     req = spec.requirements
-    cg = gain_coefficients(req.gain)
-    high, low = list(sides.delta_high), list(sides.delta_low)
-    gain_high, gain_low = list(sides.gain_high), list(sides.gain_low)
-    upper = math.log(req.gain) + limits.gain_upper
-    lower = math.log(req.gain) + limits.gain_lower + limits.open_loop_term
-    budget = limits.cmrr_budget
+    high = list(sides.delta_high)
+    setting = _Setting(
+        value=value,
+        phi=phi,
+        cg=gain_coefficients(req.gain),
+        high=high,
+        low=list(sides.delta_low),
+        gain_high=list(sides.gain_high),
+        gain_low=list(sides.gain_low),
+        upper=math.log(req.gain) + limits.gain_upper,
+        lower=math.log(req.gain) + limits.gain_lower + limits.open_loop_term,
+        budget=limits.cmrr_budget,
+        ref=high[0] if high else 0,
+        h=1.0 / (2.0 * (1.0 + req.gain)),
+    )
     first, second = halves
+    choices = _choices(setting, halves, options, usable)
+    if not isinstance(choices, _Choices):
+        return choices
+    yield_basis = req.cmrr_basis is CmrrBasis.YIELD
+    z = limits.z if yield_basis else 1.0
+    vertices = tuple(sorted(set(setting.high + setting.low)))
+    gain_vertices = tuple(sorted(set(setting.gain_high + setting.gain_low)))
+    cg = setting.cg
+    if choices.a_members is None:
+        floor_a = least.pairs(choices.a_keys, first, C_DELTA, vertices)  # type: ignore[arg-type]
+        gain_floor_a = least.pairs(choices.a_keys, first, cg, gain_vertices)  # type: ignore[arg-type]
+    else:
+        floor_a = least.options(options, choices.a_members, True, vertices)
+        gain_floor_a = least.options(options, choices.a_members, False, gain_vertices)
+    floor_b = least.pairs(choices.b_keys, second, C_DELTA, vertices)
+    gain_floor_b = least.pairs(choices.b_keys, second, cg, gain_vertices)
+    m_a, r_a, m_b, r_b = _join(
+        setting, choices, (floor_a, floor_b), (gain_floor_a, gain_floor_b), yield_basis, z
+    )
+    return HalfPairs(
+        first=first,
+        second=second,
+        a_keys=choices.a_keys,
+        b_keys=choices.b_keys,
+        a_members=choices.a_members,
+        m_a=m_a,
+        r_a=r_a,
+        m_b=m_b,
+        r_b=r_b,
+        vertices=vertices,
+        gain_vertices=gain_vertices,
+        z=z,
+        budget=setting.budget,
+        yield_basis=yield_basis,
+    )
 
-    ref = high[0] if high else 0
-    n_vertices = phi.shape[1]
 
-    def discrete_side(
-        positions: tuple[int, int],
-        keep: Callable[[NDArray[np.float64], NDArray[np.float64]], NDArray[np.bool_]],
-        coarse: Callable[[NDArray[np.float64], NDArray[np.float64]], NDArray[np.bool_]]
-        | None = None,
-    ) -> tuple[NDArray[np.int64], NDArray[np.float64], NDArray[np.float64]]:
-        """Value pairs (ki, kj) that ``keep`` accepts, given their δ and γ contributions at
-        every vertex (arrays (n, V)); returns the pairs ((n, 2) value indices) and those
-        contributions. ``coarse``, when given, sees only each pair's δ at the reference vertex
-        and an upper bound on its vertex-to-vertex swing (the sum of the two parts' swings,
-        which bounds the swing of their sum) and must accept every pair ``keep`` accepts; the
-        full contributions are then computed for its survivors only."""
-        i, j = positions
-        ki = np.array(sorted(value[i]), dtype=np.int64)
-        kj = np.array(sorted(value[j]), dtype=np.int64)
-        empty = np.zeros((0, n_vertices))
-        if ki.size == 0 or kj.size == 0:
-            return np.zeros((0, 2), dtype=np.int64), empty, empty
-        phi_i, phi_j = phi[ki, :, i], phi[kj, :, j]
-        swing_i = abs(C_DELTA[i]) * spread_of(phi_i)
-        swing_j = abs(C_DELTA[j]) * spread_of(phi_j)
-        width = kj.size * (1 if coarse is not None else n_vertices)
-        rows = max(1, int(2_000_000 // width))
-        firsts: list[NDArray[np.int64]] = []
-        seconds: list[NDArray[np.int64]] = []
-        deltas: list[NDArray[np.float64]] = []
-        gains: list[NDArray[np.float64]] = []
-        for start in range(0, ki.size, rows):
-            block_i = phi_i[start : start + rows]
-            if coarse is not None:
-                q = (C_DELTA[i] * block_i[:, None, ref] + C_DELTA[j] * phi_j[None, :, ref]).reshape(
-                    -1
-                )
-                bound = (swing_i[start : start + rows, None] + swing_j[None, :]).reshape(-1)
-                flat = np.flatnonzero(coarse(q, bound))
-                if flat.size == 0:
-                    continue
-                first_at, second_at = start + flat // kj.size, flat % kj.size
-                dl = C_DELTA[i] * phi_i[first_at] + C_DELTA[j] * phi_j[second_at]
-                gm = cg[i] * phi_i[first_at] + cg[j] * phi_j[second_at]
-            else:
-                dl = (C_DELTA[i] * block_i[:, None, :] + C_DELTA[j] * phi_j[None, :, :]).reshape(
-                    -1, n_vertices
-                )
-                gm = (cg[i] * block_i[:, None, :] + cg[j] * phi_j[None, :, :]).reshape(
-                    -1, n_vertices
-                )
-                flat = np.arange(dl.shape[0])
-                first_at, second_at = start + flat // kj.size, flat % kj.size
-            mask = keep(dl, gm)
-            if not mask.any():
-                continue
-            firsts.append(ki[first_at[mask]])
-            seconds.append(kj[second_at[mask]])
-            deltas.append(dl[mask])
-            gains.append(gm[mask])
-        if not firsts:
-            return np.zeros((0, 2), dtype=np.int64), empty, empty
-        keys = np.column_stack([np.concatenate(firsts), np.concatenate(seconds)])
-        return keys, np.concatenate(deltas), np.concatenate(gains)
-
-    def spread_of(contributions: NDArray[np.float64]) -> NDArray[np.float64]:
-        return np.asarray(contributions.max(axis=1) - contributions.min(axis=1), dtype=float)
-
-    def b_keep(
-        a_delta: NDArray[np.float64],
-    ) -> tuple[
-        Callable[[NDArray[np.float64], NDArray[np.float64]], NDArray[np.bool_]],
-        Callable[[NDArray[np.float64], NDArray[np.float64]], NDArray[np.bool_]],
-    ]:
-        """Second half: some a must satisfy need(a, b) ≤ B, which requires δ_ref = q_a + q_b in
-        [−B − swing_a − swing_b, B] at the reference (high) vertex (see the join below)."""
-        centres = np.sort(a_delta[:, ref])
-        swing_a_max = float(spread_of(a_delta).max())
-
-        def window(q: NDArray[np.float64], swing: NDArray[np.float64]) -> NDArray[np.bool_]:
-            lo = np.searchsorted(centres, -q - budget - swing_a_max - swing - 1e-12, side="left")
-            hi = np.searchsorted(centres, -q + budget + 1e-12, side="right")
-            return np.asarray(hi > lo)
-
-        def keep(dl: NDArray[np.float64], gm: NDArray[np.float64]) -> NDArray[np.bool_]:
-            return window(dl[:, ref], spread_of(dl))
-
-        return keep, window
-
-    h = 1.0 / (2.0 * (1.0 + req.gain))
+def _choices(
+    setting: _Setting,
+    halves: tuple[object, tuple[int, int]],
+    options: OptionTable,
+    usable: NDArray[np.bool_],
+) -> _Choices | HalfPairs | None:
+    """Both halves' choices: the first half's (discrete pairs that :func:`_a_keep` accepts, or
+    the usable network options of its shape), then the second half's pairs that some first
+    choice can meet (:func:`_b_keep`). For a discrete first half the swing the first half's
+    screen allows for the second is refined from the second half found, up to three rounds
+    (while it shrinks by more than a tenth). None when a half has more than
+    ``MAX_HALF_PAIRS`` choices; :meth:`HalfPairs.none_reachable` when a half has none."""
+    first, second = halves
+    phi = setting.phi
     a_members: NDArray[np.int64] | None = None
     i2, j2 = second
     # Largest vertex-to-vertex swing of the second half's δ contribution (refined below).
     swing_b = (
-        float(spread_of(phi[:, :, i2]).max() + spread_of(phi[:, :, j2]).max()) if phi.size else 0.0
+        float(_spread_of(phi[:, :, i2]).max() + _spread_of(phi[:, :, j2]).max())
+        if phi.size
+        else 0.0
     )
-    b_keys = np.zeros((0, 2), dtype=np.int64)
-    b_delta = b_gain = np.zeros((0, n_vertices))
     for _ in range(3):
         if isinstance(first, tuple):
-            # (R1, R2): the gain at a vertex is γ = −q_a + h·δ with |δ| ≤ B + the design's swing,
-            # so −q_a at the gain vertices must lie within the gain window widened by h·(B + swing).
-            def a_keep(
-                dl: NDArray[np.float64], gm: NDArray[np.float64], swing_b: float = swing_b
-            ) -> NDArray[np.bool_]:
-                widen = h * (budget + spread_of(dl) + swing_b) + 1e-12
-                mask = np.ones(dl.shape[0], dtype=bool)
-                for v in gain_high:
-                    mask &= -dl[:, v] <= upper + widen
-                for v in gain_low:
-                    mask &= -dl[:, v] >= lower - widen
-                return mask
-
-            a_keys, a_delta, a_gain = discrete_side(first, a_keep)
+            a_keys, a_delta, a_gain = _discrete_side(setting, first, _a_keep(setting, swing_b))
             if len(a_keys) > MAX_HALF_PAIRS:
                 return None
         else:
@@ -319,41 +324,143 @@ def half_pairs(
             a_members = members
         if len(a_keys) == 0:
             return HalfPairs.none_reachable()
-        b_keys, b_delta, b_gain = discrete_side(second, *b_keep(a_delta))
+        b_keys, b_delta, b_gain = _discrete_side(setting, second, *_b_keep(setting, a_delta))
         if len(b_keys) > MAX_HALF_PAIRS:
             return None
         if len(b_keys) == 0:
             return HalfPairs.none_reachable()
-        new_swing = float(spread_of(b_delta).max())
+        new_swing = float(_spread_of(b_delta).max())
         if not isinstance(first, tuple) or new_swing >= 0.9 * swing_b:
             break
         swing_b = new_swing
-    swing_a = spread_of(a_delta)
-    swing_b = new_swing  # the final second half's largest swing, taken in the loop
-    yield_basis = req.cmrr_basis is CmrrBasis.YIELD
-    z = limits.z if yield_basis else 1.0
-    vertices = tuple(sorted(set(high + low)))
-    gain_vertices = tuple(sorted(set(gain_high + gain_low)))
-    if a_members is None:
-        floor_a = least.pairs(a_keys, first, C_DELTA, vertices)  # type: ignore[arg-type]
-        gain_floor_a = least.pairs(a_keys, first, cg, gain_vertices)  # type: ignore[arg-type]
-    else:
-        floor_a = least.options(options, a_members, True, vertices)
-        gain_floor_a = least.options(options, a_members, False, gain_vertices)
-    floor_b = least.pairs(b_keys, second, C_DELTA, vertices)
-    gain_floor_b = least.pairs(b_keys, second, cg, gain_vertices)
+    # The final second half's largest swing, taken in the loop.
+    return _Choices(a_keys, a_delta, a_gain, a_members, b_keys, b_delta, b_gain, new_swing)
 
-    m_a = np.full(len(a_keys), np.inf)
-    r_a = np.full(len(a_keys), -np.inf)
-    m_b = np.full(len(b_keys), np.inf)
-    r_b = np.full(len(b_keys), -np.inf)
-    # Sorted-window join: a choice can only pair with choices of the other half whose δ
-    # contribution at the reference vertex lies within the budget (plus vertex slack).
+
+def _a_keep(setting: _Setting, swing_b: float) -> Keep:
+    """The screen of the (R1, R2) half: the gain at a vertex is γ = −q_a + h·δ with
+    |δ| ≤ B + the design's swing, so −q_a at the gain vertices must lie within the gain window
+    widened by h·(B + swing)."""
+
+    def keep(dl: NDArray[np.float64], gm: NDArray[np.float64]) -> NDArray[np.bool_]:
+        widen = setting.h * (setting.budget + _spread_of(dl) + swing_b) + 1e-12
+        mask = np.ones(dl.shape[0], dtype=bool)
+        for v in setting.gain_high:
+            mask &= -dl[:, v] <= setting.upper + widen
+        for v in setting.gain_low:
+            mask &= -dl[:, v] >= setting.lower - widen
+        return mask
+
+    return keep
+
+
+def _b_keep(setting: _Setting, a_delta: NDArray[np.float64]) -> tuple[Keep, Keep]:
+    """Second half: some a must satisfy need(a, b) ≤ B, which requires δ_ref = q_a + q_b in
+    [−B − swing_a − swing_b, B] at the reference (high) vertex (see :func:`_join`). Returns the
+    full screen and its coarse form (δ at the reference vertex and a swing bound)."""
+    ref, budget = setting.ref, setting.budget
+    centres = np.sort(a_delta[:, ref])
+    swing_a_max = float(_spread_of(a_delta).max())
+
+    def window(q: NDArray[np.float64], swing: NDArray[np.float64]) -> NDArray[np.bool_]:
+        lo = np.searchsorted(centres, -q - budget - swing_a_max - swing - 1e-12, side="left")
+        hi = np.searchsorted(centres, -q + budget + 1e-12, side="right")
+        return np.asarray(hi > lo)
+
+    def keep(dl: NDArray[np.float64], gm: NDArray[np.float64]) -> NDArray[np.bool_]:
+        return window(dl[:, ref], _spread_of(dl))
+
+    return keep, window
+
+
+def _discrete_side(
+    setting: _Setting,
+    positions: tuple[int, int],
+    keep: Keep,
+    coarse: Keep | None = None,
+) -> tuple[NDArray[np.int64], NDArray[np.float64], NDArray[np.float64]]:
+    """Value pairs (ki, kj) that ``keep`` accepts, given their δ and γ contributions at every
+    vertex (arrays (n, V)); returns the pairs ((n, 2) value indices) and those contributions.
+    ``coarse``, when given, sees only each pair's δ at the reference vertex and an upper bound
+    on its vertex-to-vertex swing (the sum of the two parts' swings, which bounds the swing of
+    their sum) and must accept every pair ``keep`` accepts; the full contributions are then
+    computed for its survivors only."""
+    phi, cg, ref, n_vertices = setting.phi, setting.cg, setting.ref, setting.n_vertices
+    i, j = positions
+    ki = np.array(sorted(setting.value[i]), dtype=np.int64)
+    kj = np.array(sorted(setting.value[j]), dtype=np.int64)
+    empty = np.zeros((0, n_vertices))
+    if ki.size == 0 or kj.size == 0:
+        return np.zeros((0, 2), dtype=np.int64), empty, empty
+    phi_i, phi_j = phi[ki, :, i], phi[kj, :, j]
+    swing_i = abs(C_DELTA[i]) * _spread_of(phi_i)
+    swing_j = abs(C_DELTA[j]) * _spread_of(phi_j)
+    width = kj.size * (1 if coarse is not None else n_vertices)
+    rows = max(1, int(2_000_000 // width))
+    firsts: list[NDArray[np.int64]] = []
+    seconds: list[NDArray[np.int64]] = []
+    deltas: list[NDArray[np.float64]] = []
+    gains: list[NDArray[np.float64]] = []
+    for start in range(0, ki.size, rows):
+        block_i = phi_i[start : start + rows]
+        if coarse is not None:
+            q = (C_DELTA[i] * block_i[:, None, ref] + C_DELTA[j] * phi_j[None, :, ref]).reshape(-1)
+            bound = (swing_i[start : start + rows, None] + swing_j[None, :]).reshape(-1)
+            flat = np.flatnonzero(coarse(q, bound))
+            if flat.size == 0:
+                continue
+            first_at, second_at = start + flat // kj.size, flat % kj.size
+            dl = C_DELTA[i] * phi_i[first_at] + C_DELTA[j] * phi_j[second_at]
+            gm = cg[i] * phi_i[first_at] + cg[j] * phi_j[second_at]
+        else:
+            dl = (C_DELTA[i] * block_i[:, None, :] + C_DELTA[j] * phi_j[None, :, :]).reshape(
+                -1, n_vertices
+            )
+            gm = (cg[i] * block_i[:, None, :] + cg[j] * phi_j[None, :, :]).reshape(-1, n_vertices)
+            flat = np.arange(dl.shape[0])
+            first_at, second_at = start + flat // kj.size, flat % kj.size
+        mask = keep(dl, gm)
+        if not mask.any():
+            continue
+        firsts.append(ki[first_at[mask]])
+        seconds.append(kj[second_at[mask]])
+        deltas.append(dl[mask])
+        gains.append(gm[mask])
+    if not firsts:
+        return np.zeros((0, 2), dtype=np.int64), empty, empty
+    keys = np.column_stack([np.concatenate(firsts), np.concatenate(seconds)])
+    return keys, np.concatenate(deltas), np.concatenate(gains)
+
+
+def _join(
+    setting: _Setting,
+    choices: _Choices,
+    floors: tuple[NDArray[np.float64], NDArray[np.float64]],
+    gain_floors: tuple[NDArray[np.float64], NDArray[np.float64]],
+    yield_basis: bool,
+    z: float,
+) -> tuple[NDArray[np.float64], NDArray[np.float64], NDArray[np.float64], NDArray[np.float64]]:
+    """Sorted-window join of the two halves' choices: a choice can only pair with choices of
+    the other half whose δ contribution at the reference vertex lies within the budget (plus
+    vertex slack). Over every such pair that leaves room for its least spreads (``floors``,
+    ``gain_floors``: per choice of each half), each choice's least need and largest gain room
+    (``m_a, r_a, m_b, r_b``; inf / −inf for a choice that reaches no partner)."""
+    ref, budget = setting.ref, setting.budget
+    upper, lower = setting.upper, setting.lower
+    a_delta, b_delta = choices.a_delta, choices.b_delta
+    n_a, n_b = len(choices.a_keys), len(choices.b_keys)
+    swing_a = _spread_of(a_delta)
+    m_a = np.full(n_a, np.inf)
+    r_a = np.full(n_a, -np.inf)
+    m_b = np.full(n_b, np.inf)
+    r_b = np.full(n_b, -np.inf)
     order = np.argsort(b_delta[:, ref], kind="stable")
     sorted_q = b_delta[order, ref]
     # need ≥ δ_ref (ref is a high vertex) and need ≥ −δ_ref − swing: δ_ref ∈ [−B − swing, B].
     centre = -a_delta[:, ref]
-    window_lo = np.searchsorted(sorted_q, centre - budget - swing_a - swing_b - 1e-12, side="left")
+    window_lo = np.searchsorted(
+        sorted_q, centre - budget - swing_a - choices.swing_b - 1e-12, side="left"
+    )
     window_hi = np.searchsorted(sorted_q, centre + budget + 1e-12, side="right")
     counts = np.maximum(window_hi - window_lo, 0)
 
@@ -364,14 +471,16 @@ def half_pairs(
     ) -> list[tuple[NDArray[np.float64], NDArray[np.float64]]]:
         return [(np.ascontiguousarray(a[:, v]), np.ascontiguousarray(b[:, v])) for v in vs]
 
-    high_cols = columns(a_delta, b_delta, high)
-    low_cols = columns(a_delta, b_delta, low)
-    up_cols = columns(a_gain, b_gain, gain_high)
-    down_cols = columns(a_gain, b_gain, gain_low)
+    high_cols = columns(a_delta, b_delta, setting.high)
+    low_cols = columns(a_delta, b_delta, setting.low)
+    up_cols = columns(choices.a_gain, choices.b_gain, setting.gain_high)
+    down_cols = columns(choices.a_gain, choices.b_gain, setting.gain_low)
+    floor_a, floor_b = floors
+    gain_floor_a, gain_floor_b = gain_floors
     # Every (a, b) pair inside a's window, a few hundred thousand pairs at a time.
     ends = np.cumsum(counts)
     start = 0
-    while start < len(a_keys):
+    while start < n_a:
         stop = int(np.searchsorted(ends, ends[start] - counts[start] + JOIN_CHUNK, side="right"))
         stop = max(stop, start + 1)
         block = np.arange(start, stop)
@@ -413,23 +522,7 @@ def half_pairs(
         np.maximum.at(r_a, a_at, room_ok)
         np.minimum.at(m_b, b_at, need_ok)
         np.maximum.at(r_b, b_at, room_ok)
-
-    return HalfPairs(
-        first=first,
-        second=second,
-        a_keys=a_keys,
-        b_keys=b_keys,
-        a_members=a_members,
-        m_a=m_a,
-        r_a=r_a,
-        m_b=m_b,
-        r_b=r_b,
-        vertices=vertices,
-        gain_vertices=gain_vertices,
-        z=z,
-        budget=budget,
-        yield_basis=yield_basis,
-    )
+    return m_a, r_a, m_b, r_b
 
 
 def couple_halves(
