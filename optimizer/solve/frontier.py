@@ -316,21 +316,179 @@ def _emit(
 ) -> Iterator[Design]:
     """Merge the group pairs (taken in order of their bound) into one stream of designs in
     exact cost order: a heap of entries keyed by a lower bound that is replaced by the exact
-    cost before an entry is emitted."""
-    part_cache: dict[int, DiscretePart] = {}
+    cost before an entry is emitted (:class:`_Merge`)."""
+    return _Merge(spec, catalog, env, parts, lim, two).designs(one, g1, g2, bound, should_stop)
 
-    def cost_of(rows: tuple[int, ...]) -> float:
-        picked = [cached_part(catalog, row, part_cache) for row in rows]
-        return parts_cost(picked, spec.preferences).total
 
-    hot = spec.requirements.temp_max_c
-    tmin = spec.requirements.temp_min_c
+#: A bound or exact entry of the merge: the (class, value) pair at each position, and which of
+#: the parts of that class and value (``ClassParts.variants``) each position takes.
+_Entry = tuple[tuple[tuple[int, int], ...], tuple[int, ...]]
 
-    def rated(rows: tuple[int, ...]) -> bool:
+
+class _Merge:
+    """The heap of :func:`_emit` and what its steps share: entries ``(key, kind, tick,
+    payload)`` of the kinds ``HEAP_*`` (an exact design, a bound of one design, a block of a
+    group pair's combinations, the rest of a group pair), the parts looked up so far, the
+    side-2 records sorted for the joins, each electrical design's stress at the rating
+    screen's corners, and the successors already pushed."""
+
+    def __init__(
+        self,
+        spec: Spec,
+        catalog: Catalog,
+        env: LinearEnvironment,
+        parts: ClassParts,
+        lim: ScreenLimits,
+        two: EagerGroups | LazyGroups,
+    ) -> None:
+        self.spec, self.catalog, self.env, self.parts, self.lim = spec, catalog, env, parts, lim
+        self.two = two
+        self.part_cache: dict[int, DiscretePart] = {}
+        self.sorted_cache: dict[int, tuple[IntArray, Array]] = {}
+        # Per (class, value) quadruple: its stress at the screen's corners (``RatingBlock``).
+        self.stress_of: dict[tuple[tuple[int, int], ...], tuple[Array, Array]] = {}
+        self.heap: list[tuple[float, int, int, object]] = []
+        self.tick = itertools.count()
+        self.seen: set[tuple[object, ...]] = set()
+
+    def push(self, key: float, kind: int, payload: object) -> None:
+        heapq.heappush(self.heap, (key, kind, next(self.tick), payload))
+
+    def designs(
+        self,
+        one: EagerGroups | LazyGroups,
+        g1: IntArray,
+        g2: IntArray,
+        bound: Array,
+        should_stop: Callable[[], bool],
+    ) -> Iterator[Design]:
+        """The designs in exact cost order: the next group pair joins whenever its bound is
+        below the heap's least key (at a tie, before anything but an exact design)."""
+        heap, two = self.heap, self.two
+        next_pair = 0
+        while not should_stop():
+            top = heap[0][0] if heap else math.inf
+            top_exact = bool(heap) and heap[0][1] == HEAP_EXACT
+            if next_pair < bound.size and (
+                bound[next_pair] < top or (bound[next_pair] == top and not top_exact)
+            ):
+                g_two = int(g2[next_pair])
+                if isinstance(one, LazyGroups) and isinstance(two, LazyGroups):
+                    if not fits_exactly(one, two, int(g1[next_pair]), g_two, self.lim.balance):
+                        next_pair += 1
+                        continue
+                pair = _Pair(
+                    int(g1[next_pair]), g_two, float(bound[next_pair]), one, float(two.cost[g_two])
+                )
+                next_pair += 1
+                self.join_next(pair)
+                continue
+            if not heap:
+                return
+            key, kind, _, payload = heapq.heappop(heap)
+            if kind == HEAP_PAIR:
+                self.join_next(cast(_Pair, payload))
+                continue
+            if kind == HEAP_BLOCK:
+                self.take_block(key, cast(tuple[RatingBlock, int], payload))
+                continue
+            electrical, choice = cast(_Entry, payload)
+            lists = [self.parts.variants(i, electrical[i]) for i in range(4)]
+            rows = tuple(lists[i][choice[i]][1] for i in range(4))
+            if kind == HEAP_EXACT:
+                yield _discrete_design(self.catalog, rows, self.part_cache)
+                continue
+            self.take_bound(key, electrical, choice, lists, rows)
+
+    def join_next(self, pair: _Pair) -> None:
+        """Join the pair's next run of side-1 records (cheapest first) with its side-2 group;
+        the combinations enter the heap as a block, and the pair again at the least cost its
+        records left can reach."""
+        parts = self.parts
+        h1, a_idx = pair.next_run()
+        h2, b_idx = self.two.records(pair.g2)
+        if not pair.done:
+            self.push(pair.least_left(), HEAP_PAIR, pair)
+        ja, jb = _join(h1, a_idx, h2, b_idx, self.lim, parts, self.sorted_cache, pair.g2)
+        if ja.size == 0:
+            return
+        keys = np.column_stack([h1.ca[ja], h1.ka[ja], h1.cb[ja], h1.kb[ja],
+                                h2.ca[jb], h2.ka[jb], h2.cb[jb], h2.kb[jb]])  # fmt: skip
+        lb = h1.cost[ja] + h2.cost[jb] + _distinct_charge(keys, parts.line_charge)
+        sort = np.lexsort((*(keys[:, i] for i in range(7, -1, -1)), lb))
+        # The run's combinations, in bound order, enter the heap one at a time.
+        block = RatingBlock(keys[sort], lb[sort], parts, self.spec)
+        at = block.usable(0)
+        if at is not None:
+            self.push(float(block.lbs[at]), HEAP_BLOCK, (block, at))
+        self.push_lifted(block)
+
+    def push_lifted(self, block: RatingBlock) -> None:
+        """Each entry the block's screen lifted enters the heap as a bound entry at its bound
+        plus its lift: a lower bound of every design of it (``RatingBlock``)."""
+        for j in block.lifted:
+            k = [int(v) for v in block.keys[j]]
+            first = tuple((k[2 * i], k[2 * i + 1]) for i in range(4))
+            self.stress_of[first] = (block.power[j], block.peak[j])
+            key = float(block.lbs[j] + block.lift[j])
+            self.push(key, HEAP_BOUND, (first, (0, 0, 0, 0)))
+        block.lifted.clear()
+
+    def take_block(self, key: float, payload: tuple[RatingBlock, int]) -> None:
+        """A block's entry reached the top: the block's next usable entry goes back into the
+        heap, and the entry itself as a bound entry of its cheapest parts."""
+        block, at = payload
+        after = block.usable(at + 1)
+        if after is not None:
+            self.push(float(block.lbs[after]), HEAP_BLOCK, (block, after))
+        self.push_lifted(block)
+        k = [int(v) for v in block.keys[at]]
+        first = tuple((k[2 * i], k[2 * i + 1]) for i in range(4))
+        if block.screened:
+            self.stress_of[first] = (block.power[at], block.peak[at])
+        self.push(key, HEAP_BOUND, (first, (0, 0, 0, 0)))
+
+    def take_bound(
+        self,
+        key: float,
+        electrical: tuple[tuple[int, int], ...],
+        choice: tuple[int, ...],
+        lists: list[list[tuple[float, int]]],
+        rows: tuple[int, ...],
+    ) -> None:
+        """A bound entry: its exact cost goes back into the heap, and so do the other parts of
+        the same classes and values (other sizes, stock). Each successor's bound is its part
+        cost plus one line per distinct (class, value): never above its exact cost, and never
+        below this entry's bound, so taking successors now keeps the order exact (a successor
+        can cost less than this design itself, when it shares a line)."""
+        parts = self.parts
+        known = self.stress_of.get(electrical)
+        lots_ok = parts.exact_spread or self.lot_screen(rows)
+        if lots_ok and (self.rated(rows) if known is None else parts.bears(rows, *known)):
+            self.push(exact_key(self.cost_of(rows), key), HEAP_EXACT, (electrical, choice))
+        lines = parts.lines_charge(electrical)
+        for i in range(4):
+            if choice[i] + 1 < len(lists[i]):
+                nxt = tuple(c + (1 if j == i else 0) for j, c in enumerate(choice))
+                if (electrical, nxt) in self.seen:
+                    continue
+                self.seen.add((electrical, nxt))
+                bound_next = sum(lists[j][nxt[j]][0] for j in range(4)) + lines
+                self.push(bound_next, HEAP_BOUND, (electrical, nxt))
+
+    def picked(self, rows: tuple[int, ...]) -> list[DiscretePart]:
+        return [cached_part(self.catalog, row, self.part_cache) for row in rows]
+
+    def cost_of(self, rows: tuple[int, ...]) -> float:
+        return parts_cost(self.picked(rows), self.spec.preferences).total
+
+    def rated(self, rows: tuple[int, ...]) -> bool:
         """False when a part of ``rows`` fails the exact rating check for certain: its stress at
         a subset of the check's own corners (``analysis.checks.rating_corners``) already
         exceeds its derated power rating or its limiting voltage (relative slack 1e-9)."""
-        picked = [cached_part(catalog, row, part_cache) for row in rows]
+        spec = self.spec
+        hot, tmin = spec.requirements.temp_max_c, spec.requirements.temp_min_c
+        picked = self.picked(rows)
         nominal = np.array([p.resistance_ohm for p in picked])
         spreads = np.array([value_spread(p.tolerance, p.tempco_per_k, tmin, hot) for p in picked])
         power, peak = resistor_stress(rating_corners(nominal, spreads, spec), spec)
@@ -341,129 +499,25 @@ def _emit(
                 return False
         return True
 
-    def lot_screen(rows: tuple[int, ...]) -> bool:
+    def lot_screen(self, rows: tuple[int, ...]) -> bool:
         """With same-lot tracking: the corner screen of the design's own parts, each part whose
         id is placed once with its own tempco (independent, as without tracking), the others
         at a shared tempco of zero (a point of their shared range): necessary for the exact
         check, and much tighter than the class screen, which zeroes every tempco."""
-        picked = [cached_part(catalog, row, part_cache) for row in rows]
+        env = self.env
+        picked = self.picked(rows)
         ids = [p.part_id for p in picked]
         tc = np.array([p.tempco_per_k if ids.count(p.part_id) == 1 else 0.0 for p in picked])
         t = np.array([p.tolerance for p in picked])
         d_lo, d_hi = drift_factor_bounds(
             life_drift(np.array([p.drift_1000h for p in picked]), env.life_h),
-            spec.requirements.drift_model,
+            self.spec.requirements.drift_model,
         )
         swing = tc * env.delta_t_k
         low = ((1.0 - t) * (1.0 - swing) * d_lo)[None, :]
         high = ((1.0 + t) * (1.0 + swing) * d_hi)[None, :]
         nominal = np.array([[p.resistance_ohm for p in picked]])
-        return bool(corner_screen(nominal, low, high, lim)[0])
-
-    sorted_cache: dict[int, tuple[IntArray, Array]] = {}
-    # Per (class, value) quadruple: its stress at the screen's corners (``_rated_combinations``).
-    stress_of: dict[tuple[tuple[int, int], ...], tuple[Array, Array]] = {}
-    heap: list[tuple[float, int, int, object]] = []
-    tick = itertools.count()
-
-    def join_next(pair: _Pair) -> None:
-        """Join the pair's next run of side-1 records (cheapest first) with its side-2 group;
-        the combinations enter the heap as a block, and the pair again at the least cost its
-        records left can reach."""
-        h1, a_idx = pair.next_run()
-        h2, b_idx = two.records(pair.g2)
-        if not pair.done:
-            heapq.heappush(heap, (pair.least_left(), HEAP_PAIR, next(tick), pair))
-        ja, jb = _join(h1, a_idx, h2, b_idx, lim, parts, sorted_cache, pair.g2)
-        if ja.size == 0:
-            return
-        keys = np.column_stack([h1.ca[ja], h1.ka[ja], h1.cb[ja], h1.kb[ja],
-                                h2.ca[jb], h2.ka[jb], h2.cb[jb], h2.kb[jb]])  # fmt: skip
-        lb = h1.cost[ja] + h2.cost[jb] + _distinct_charge(keys, parts.line_charge)
-        sort = np.lexsort((*(keys[:, i] for i in range(7, -1, -1)), lb))
-        # The run's combinations, in bound order, enter the heap one at a time.
-        block = RatingBlock(keys[sort], lb[sort], parts, spec)
-        at = block.usable(0)
-        if at is not None:
-            heapq.heappush(heap, (float(block.lbs[at]), HEAP_BLOCK, next(tick), (block, at)))
-        push_lifted(block)
-
-    def push_lifted(block: RatingBlock) -> None:
-        """Each entry the block's screen lifted enters the heap as a bound entry at its bound
-        plus its lift: a lower bound of every design of it (``_rated_combinations``)."""
-        for j in block.lifted:
-            k = [int(v) for v in block.keys[j]]
-            first = tuple((k[2 * i], k[2 * i + 1]) for i in range(4))
-            stress_of[first] = (block.power[j], block.peak[j])
-            key = float(block.lbs[j] + block.lift[j])
-            heapq.heappush(heap, (key, HEAP_BOUND, next(tick), (first, (0, 0, 0, 0))))
-        block.lifted.clear()
-
-    next_pair = 0
-    seen: set[tuple[object, ...]] = set()
-    while not should_stop():
-        top = heap[0][0] if heap else math.inf
-        top_exact = bool(heap) and heap[0][1] == HEAP_EXACT
-        if next_pair < bound.size and (
-            bound[next_pair] < top or (bound[next_pair] == top and not top_exact)
-        ):
-            g_two = int(g2[next_pair])
-            if isinstance(one, LazyGroups) and isinstance(two, LazyGroups):
-                if not fits_exactly(one, two, int(g1[next_pair]), g_two, lim.balance):
-                    next_pair += 1
-                    continue
-            pair = _Pair(
-                int(g1[next_pair]), g_two, float(bound[next_pair]), one, float(two.cost[g_two])
-            )
-            next_pair += 1
-            join_next(pair)
-            continue
-        if not heap:
-            return
-        key, kind, _, payload = heapq.heappop(heap)
-        if kind == HEAP_PAIR:
-            join_next(cast(_Pair, payload))
-            continue
-        if kind == HEAP_BLOCK:
-            block, at = cast(tuple[RatingBlock, int], payload)
-            after = block.usable(at + 1)
-            if after is not None:
-                heapq.heappush(
-                    heap, (float(block.lbs[after]), HEAP_BLOCK, next(tick), (block, after))
-                )
-            push_lifted(block)
-            k = [int(v) for v in block.keys[at]]
-            first = tuple((k[2 * i], k[2 * i + 1]) for i in range(4))
-            if block.screened:
-                stress_of[first] = (block.power[at], block.peak[at])
-            heapq.heappush(heap, (key, HEAP_BOUND, next(tick), (first, (0, 0, 0, 0))))
-            continue
-        electrical, choice = cast(tuple[tuple[tuple[int, int], ...], tuple[int, ...]], payload)
-        lists = [parts.variants(i, electrical[i]) for i in range(4)]
-        rows = tuple(lists[i][choice[i]][1] for i in range(4))
-        if kind == HEAP_EXACT:
-            yield _discrete_design(catalog, rows, part_cache)
-            continue
-        # A bound entry: its exact cost goes back into the heap, and so do the other parts of
-        # the same classes and values (other sizes, stock). Each successor's bound is its part
-        # cost plus one line per distinct (class, value): never above its exact cost, and never
-        # below this entry's bound, so taking successors now keeps the order exact (a
-        # successor can cost less than this design itself, when it shares a line).
-        known = stress_of.get(electrical)
-        lots_ok = parts.exact_spread or lot_screen(rows)
-        if lots_ok and (rated(rows) if known is None else parts.bears(rows, *known)):
-            heapq.heappush(
-                heap, (exact_key(cost_of(rows), key), HEAP_EXACT, next(tick), (electrical, choice))
-            )
-        lines = parts.lines_charge(electrical)
-        for i in range(4):
-            if choice[i] + 1 < len(lists[i]):
-                nxt = tuple(c + (1 if j == i else 0) for j, c in enumerate(choice))
-                if (electrical, nxt) in seen:
-                    continue
-                seen.add((electrical, nxt))
-                bound_next = sum(lists[j][nxt[j]][0] for j in range(4)) + lines
-                heapq.heappush(heap, (bound_next, HEAP_BOUND, next(tick), (electrical, nxt)))
+        return bool(corner_screen(nominal, low, high, self.lim)[0])
 
 
 class _Pair:
