@@ -12,7 +12,7 @@ from enum import Enum
 from .errors import ModelError
 from .parts import DiscretePart, NetworkPart
 
-__all__ = ["POSITIONS", "Design", "Placement", "Topology"]
+__all__ = ["NETWORK_TOPOLOGIES", "POSITIONS", "Design", "Placement", "Topology"]
 
 POSITIONS = ("R1", "R2", "R3", "R4")
 
@@ -33,6 +33,10 @@ class Topology(str, Enum):
                 return member
         valid = ", ".join(m.value for m in cls)
         raise ModelError("topology", "value", f"unknown topology {text!r}; expected one of {valid}")
+
+
+#: The topologies with a network in them (every one but four discrete parts), in enum order.
+NETWORK_TOPOLOGIES: tuple[Topology, ...] = tuple(t for t in Topology if t is not Topology.DISCRETE)
 
 
 @dataclass(frozen=True)

@@ -12,7 +12,7 @@ from dataclasses import dataclass, replace
 from typing import Literal
 
 from .catalog import Catalog
-from .design import Design, Topology
+from .design import NETWORK_TOPOLOGIES, Design, Topology
 from .errors import SpecError
 from .solve.search import PickResult, SearchStatus, pick
 from .spec import Objective, Spec
@@ -34,7 +34,6 @@ __all__ = [
 SweepAxis = Literal["cmrr", "gain_accuracy"]
 
 DISCRETE_TOPOLOGIES: tuple[Topology, ...] = (Topology.DISCRETE,)
-NETWORK_TOPOLOGIES: tuple[Topology, ...] = tuple(t for t in Topology if t is not Topology.DISCRETE)
 #: Most points a sweep may have (each costs two searches).
 MAX_POINTS = 500
 

@@ -46,7 +46,9 @@ from optimizer.parts import DiscretePart, NetworkPart
 from optimizer.solve.classquads import UNIT_BOUND, ClassQuadSearch
 from optimizer.solve.environment import linear_environment
 from optimizer.solve.pairbounds import deviation_bounds, passing_counts, screen_pairs
-from optimizer.solve.search import SearchStatus, _frontier_applies, pick, prepare
+from optimizer.solve.problem import prepare
+from optimizer.solve.search import SearchStatus, pick
+from optimizer.solve.streams import frontier_applies
 from optimizer.solve.yieldbox import balance_conditions
 from optimizer.spec import Spec
 from optimizer.specfile import load_spec
@@ -247,7 +249,7 @@ def test_the_pick_matches_the_independent_reference(
     spec = _spec(tmp_path, gain=gain, floor=floor, tmin=temps[0], tmax=temps[1],
                  prefs=SAMPLES + prefs)  # fmt: skip
     cat = _medium()
-    assert _frontier_applies(spec, Topology.DISCRETE, linear_environment(spec)), purpose
+    assert frontier_applies(spec, Topology.DISCRETE, linear_environment(spec)), purpose
     ref = cheapest(spec, cat, 5, max_checks=20000)
     assert ref.complete, purpose
     result = pick(spec, cat, verify, top=5, time_limit_s=120.0)
@@ -267,7 +269,7 @@ def test_plain_yield_specs_are_proven_over_the_builtin_catalog(
     (tmp_path / "s.yaml").write_text(spec_text(yield_fields(fields)), encoding="utf-8")
     spec = load_spec(str(tmp_path / "s.yaml"))
     cat = _builtin()
-    assert _frontier_applies(spec, Topology.DISCRETE, linear_environment(spec)), purpose
+    assert frontier_applies(spec, Topology.DISCRETE, linear_environment(spec)), purpose
     result = pick(spec, cat, verify, top=10, time_limit_s=120.0)
     assert result.status is SearchStatus.OPTIMAL, purpose
     assert len(result.ranked) == 10, purpose

@@ -36,7 +36,8 @@ from optimizer.cost import design_cost
 from optimizer.design import Design, Placement, Topology
 from optimizer.parts import DiscretePart
 from optimizer.solve.discrete import least_cost
-from optimizer.solve.search import SearchStatus, pick, prepare
+from optimizer.solve.problem import prepare
+from optimizer.solve.search import SearchStatus, pick
 from optimizer.verify import verify
 
 EXAMPLES = Path(__file__).resolve().parent.parent / "examples"

@@ -4,7 +4,7 @@ Determinism: identical inputs give identical results, compared exactly (``repr``
 so not even the last bit may differ): the pick's designs, costs and verification figures on a
 shipped example, run twice; the Monte Carlo with a fixed seed, run twice. How it is achieved:
 Monte Carlo draws from ``numpy.random.default_rng(Preferences.seed)``; CP-SAT runs with one
-search worker and ``random_seed = 0`` (``optimizer.solve.search.configured_solver``).
+search worker and ``random_seed = 0`` (``optimizer.solve.streams.configured_solver``).
 
 Time limits: a limit too short for the several solves a run needs gives the status
 TIME_LIMIT, with verified designs or none, and never a wrong "proven_optimal": any designs

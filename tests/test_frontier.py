@@ -517,9 +517,9 @@ def test_yield_network_specs_match_the_reference_over_the_builtin_catalog(
     reference's (``solve.exhaustive``: every network design in cost order through the exact
     check, the Monte Carlo included) over the whole built-in catalog, and the result is proven."""
     from optimizer.solve.environment import linear_environment
-    from optimizer.solve.search import _frontier_applies
+    from optimizer.solve.streams import frontier_applies
 
     spec = _agrees_over_the_builtin_catalog(tmp_path, purpose, fields, 120.0)
     # The path under test ran: the exact enumeration, not CP-SAT.
     env = linear_environment(spec)
-    assert all(_frontier_applies(spec, t, env) for t in spec.preferences.topologies), purpose
+    assert all(frontier_applies(spec, t, env) for t in spec.preferences.topologies), purpose

@@ -50,7 +50,8 @@ from optimizer.solve.exhaustive import (
     reference_search,
     screen_designs,
 )
-from optimizer.solve.search import MAX_CUTS, PickResult, SearchStatus, pick
+from optimizer.solve.search import PickResult, SearchStatus, pick
+from optimizer.solve.streams import MAX_CUTS
 from optimizer.spec import (
     CmrrBasis,
     Distribution,

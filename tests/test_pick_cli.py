@@ -535,17 +535,17 @@ def test_missing_spec_file(tmp_path: Path) -> None:
 def test_time_limit_with_a_design_found_exits_3(monkeypatch: pytest.MonkeyPatch) -> None:
     """Exit code 3 (README: the time limit ended the search with a best design found): the
     clock is made to run out after the first solves, deterministically, by letting
-    ``_Clock.remaining`` report time left for its first calls only."""
-    from optimizer.solve import search
+    ``Clock.remaining`` report time left for its first calls only."""
+    from optimizer.solve import streams
 
     calls = {"n": 0}
-    real = search._Clock.remaining
+    real = streams.Clock.remaining
 
-    def running_out(self: search._Clock) -> float:
+    def running_out(self: streams.Clock) -> float:
         calls["n"] += 1
         return real(self) if calls["n"] <= 6 else -1.0
 
-    monkeypatch.setattr(search._Clock, "remaining", running_out)
+    monkeypatch.setattr(streams.Clock, "remaining", running_out)
     out = io.StringIO()
     err = io.StringIO()
     code = main(

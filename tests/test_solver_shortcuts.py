@@ -22,11 +22,13 @@ from optimizer.catalog import Catalog, load_catalogs
 from optimizer.design import Topology
 from optimizer.solve import discrete as discrete_module
 from optimizer.solve import model as model_module
-from optimizer.solve import search as search_module
+from optimizer.solve import streams as streams_module
 from optimizer.solve.discrete import SAFE_RATING, _drop_dominated
 from optimizer.solve.model import ModelVariant
 from optimizer.solve.options import ALL_SHAPES
-from optimizer.solve.search import _streams, pick, prepare
+from optimizer.solve.problem import prepare
+from optimizer.solve.search import pick
+from optimizer.solve.streams import make_streams
 from optimizer.spec import Spec
 from optimizer.specfile import load_spec
 from optimizer.verify import verify
@@ -63,7 +65,7 @@ def test_streams_left_out_have_no_design(name: str) -> None:
     infeasible model when it is built and solved anyway."""
     spec, catalog = _example(name)
     problem = prepare(spec, catalog)
-    kept = {(next(iter(s.topologies)), s.pair_shape) for s in _streams(problem, spec)}
+    kept = {(next(iter(s.topologies)), s.pair_shape) for s in make_streams(problem, spec)}
     for topology, shape in _all_streams(spec):
         if (topology, shape) in kept:
             continue
@@ -74,7 +76,7 @@ def test_streams_left_out_have_no_design(name: str) -> None:
                 pair_shape=shape,
             )
         )
-        solver = search_module.configured_solver(20.0)
+        solver = streams_module.configured_solver(20.0)
         status = solver.solve(built.model)
         assert status == cp_model.INFEASIBLE, f"{name}: {topology.value} shape {shape}"
 

@@ -69,7 +69,8 @@ from ..cost import CostBreakdown
 from ..design import Design, Topology
 from ..parts import DiscretePart, NetworkPart
 from ..solve.ranking import base_values, family_id, family_key
-from ..solve.search import MAX_CUTS, MAX_EXTRA_DESIGNS, Candidate, PickResult, SearchStatus
+from ..solve.search import MAX_EXTRA_DESIGNS, Candidate, PickResult, SearchStatus
+from ..solve.streams import MAX_CUTS
 from ..solve.trade import KindBest, Trade, cost_per_db
 from ..spec import CmrrBasis, Objective, Spec
 from ..units import format_fraction, format_quantity, format_resistance

@@ -30,8 +30,6 @@ __all__ = ["TRADE_TIME_LIMIT_S", "KindBest", "Trade", "cost_per_db", "kind_trade
 #: pick where one kind meets nothing, so the bound is short; tests pass their own bound).
 TRADE_TIME_LIMIT_S = 1.0
 
-NETWORK_TOPOLOGIES = tuple(t for t in Topology if t is not Topology.DISCRETE)
-
 
 @dataclass(frozen=True)
 class KindBest:
