@@ -41,7 +41,8 @@ from rich.console import Console
 from optimizer.catalog import builtin_catalog
 from optimizer.cli import EXIT_BAD_INPUT, EXIT_NOT_MET, EXIT_OK, EXIT_TIME_LIMIT, main
 from optimizer.design import Topology
-from optimizer.report.pick import SCHEMA, TABLE_COLUMNS
+from optimizer.report.pick import TABLE_COLUMNS
+from optimizer.report.pickjson import SCHEMA
 
 HOUSE_CSV = EXAMPLES / "house_stock.csv"
 HOUSE_NETWORKS = EXAMPLES / "house_stock_networks.yaml"

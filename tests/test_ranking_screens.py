@@ -21,14 +21,9 @@ from optimizer.catalog import load_catalogs
 from optimizer.cost import design_cost
 from optimizer.design import Design, Placement, Topology
 from optimizer.parts import DiscretePart, NetworkPart
-from optimizer.report.pick import (
-    PickReport,
-    build_pick_report,
-    buy_lines,
-    pick_to_json,
-    render_pick,
-    trade_text,
-)
+from optimizer.report.pick import buy_lines, render_pick, trade_text
+from optimizer.report.pickjson import pick_to_json
+from optimizer.report.pickreport import PickReport, build_pick_report
 from optimizer.solve.ranking import (
     base_values,
     binding_requirement,

@@ -17,7 +17,7 @@ from rich.markup import escape
 
 if TYPE_CHECKING:
     from ..design import Design
-    from ..report.pick import PickReport
+    from ..report.pickreport import PickReport
     from ..solve.search import SearchProgress
     from ..spec import Spec
     from ..verify import Verification

@@ -77,7 +77,9 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
     import dataclasses
 
     from ..analysis.safety import safety_cautions
-    from ..report.pick import build_pick_report, pick_json_text, pick_to_json, render_pick
+    from ..report.pick import render_pick
+    from ..report.pickjson import pick_json_text, pick_to_json
+    from ..report.pickreport import build_pick_report
     from ..solve.search import SearchStatus, pick, with_objective
     from ..spec import Objective, StockPolicy
     from ..specfile import load_spec

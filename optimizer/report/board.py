@@ -46,9 +46,18 @@ from ..board.search import BoardResult, BoardStatus, RankedBoard
 from ..parts import NetworkPart
 from ..units import format_fraction, format_resistance, format_tempco
 from ..verify import Verification
-from .check import _cautions_panel, _db, _finite_only, _pct, _position_json, check_json_text
+from .check import (
+    TOPOLOGY_LABELS,
+    _cautions_panel,
+    _db,
+    _finite_only,
+    _pct,
+    _position_json,
+    check_json_text,
+)
 from .exports import Block
-from .pick import TOPOLOGY_LABELS, Shown, render_pick_table
+from .pick import render_pick_table
+from .pickreport import Shown
 
 if TYPE_CHECKING:
     from ..solve.diagnose import Diagnosis

@@ -1,75 +1,22 @@
-"""The report of ``quartet pick``: the ranked table, the status line, the winner's full check
-report, and a JSON document.
-
-:func:`build_pick_report` gathers what the outputs show (the Monte Carlo of the displayed
-designs is filled in before, by ``optimizer.statistics``; the report computes nothing);
-:func:`render_pick` returns Rich renderables (the CLI prints them) and :func:`pick_to_json` a
-plain ``dict`` ready for :func:`json.dumps` (write it with :func:`pick_json_text`).
-
-JSON document, schema ``quartet-pick/1`` (keys in this fixed order; figures in SI units, the
-unit in the key name; fractions are plain fractions, 0.001 = 0.1 %)::
-
-    schema              "quartet-pick/1"
-    quartet_version     the program version that wrote it
-    spec                {path, title}
-    search              {status ("proven_optimal", "time_limit" or "infeasible"),
-                         proven_optimal: bool, objective, stock_policy, designs_asked,
-                         designs_found, time_limit_s, gap (relative; null when not known),
-                         rejected_by_exact_check, solves, model_size}
-    ranked              [design]  one per distinct choice (family), best first
-    family_members      [design]  every other design of each ranked family (same cost,
-                         another base value or another part with the same elements); rank is
-                         the choice's rank, statistics null (no Monte Carlo run)
-    kind_trade          null unless the spec allows both kinds: {text, four_discrete, network},
-                         each {meets_spec, cost, cmrr_db (worst case, or at the yield target),
-                         search_timed_out, relaxed_floor_db, out_of_reach_db}; a kind that
-                         meets nothing gives its cheapest design at the first relaxed floor
-                         (relaxed_floor_db) that has one, and the lowest floor shown to have
-                         none (out_of_reach_db: null when the pick searched the kind below the
-                         ranking's last cost only and the asked floor found none in time);
-                         null figures if none found
-    other_kind          [design]  the best design of a kind (four discrete parts, or a
-                         network) the ranking lacks although the spec allows it
-    diagnosis           null unless infeasible: {binding: [requirement names],
-                         best_reachable: [{requirement, asked, reachable, note}], text}
-    safety_cautions     [text]  (empty when none apply)
-    warnings            [text]  plausibility warnings on the spec and options (usually empty)
-    timing              {build_s, solve_s, verify_s, statistics_s}: wall-clock seconds; the
-                         only part that differs between two runs on the same input
-    non_finite          [{key, was}]: every figure written as null because it was not a
-                         finite number (as in ``quartet-check/1``)
-
-    design = {rank (1-based; null for other_kind), kind_label, topology, placement_count,
-              positions: [{position, resistance_ohm, part_id, kind, network_element,
-                           network_package, tolerance, tempco_per_k, drift_1000h,
-                           ratio_tolerance, tracking_tempco_per_k, ratio_drift_1000h, power_w,
-                           max_voltage_v}]  (as in quartet-check/1, without given_as),
-              cost: {parts, placements, lines, stock_penalty, total}  (relative units),
-              meets_spec,
-              worst_case: {cmrr_db, gain_error_min, gain_error_max, gain_error_worst},
-              statistics: {builds, seed, yield, yield_target, cmrr_at_yield_db} or null,
-              output_noise_v_rms,
-              tightest: {name, value, limit, margin, unit},
-              family_key (12 hex digits shared by the designs of one family),
-              family_size (designs in the family), in_stock (every part has house stock)}
+"""The Rich renderables of ``quartet pick`` (:func:`render_pick`; the CLI prints them): the
+ranked table, the status line, the trade between the kinds, what to buy and the winner's full
+check report, from a :class:`~optimizer.report.pickreport.PickReport`. The JSON document is
+in ``report.pickjson``.
 """
 
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any, Final
+from typing import Final
 
 from rich.console import Group, RenderableType
 from rich.table import Table
 from rich.text import Text
 
-from .._version import __version__
-from ..cost import CostBreakdown
-from ..design import Design, Topology
+from ..design import Design
 from ..parts import DiscretePart, NetworkPart
-from ..solve.ranking import base_values, family_id, family_key
-from ..solve.search import MAX_EXTRA_DESIGNS, Candidate, PickResult, SearchStatus
+from ..solve.ranking import base_values
+from ..solve.search import MAX_EXTRA_DESIGNS, SearchStatus
 from ..solve.streams import MAX_CUTS
 from ..solve.trade import KindBest, Trade, cost_per_db
 from ..spec import CmrrBasis, Objective, Spec
@@ -80,34 +27,29 @@ from .check import (
     _cautions_panel,
     _db,
     _figure,
-    _finite_only,
     _pct,
-    _position_json,
-    check_json_text,
     label_of,
     render_check,
 )
-
-if TYPE_CHECKING:  # the diagnosis module is imported only when a pick finds nothing
-    from ..solve.diagnose import Diagnosis
+from .pickreport import PickReport, Shown
 
 __all__ = [
-    "SCHEMA",
-    "TOPOLOGY_LABELS",
-    "PickReport",
-    "Shown",
-    "build_pick_report",
+    "ALSO_SHOWN",
+    "DIGITS",
+    "FILE_TABLE_COLUMNS",
+    "NARROW_COLUMNS",
+    "OBJECTIVE_WORDS",
+    "TABLE_COLUMNS",
+    "WIDE_FROM",
     "buy_lines",
-    "pick_json_text",
-    "pick_to_json",
     "render_buy",
     "render_pick",
     "render_pick_table",
     "render_status",
+    "trade_text",
 ]
 
-#: Version tag of the JSON document.
-SCHEMA: Final = "quartet-pick/1"
+
 #: Significant digits of the figures in the table.
 DIGITS: Final = 4
 
@@ -125,10 +67,16 @@ TABLE_COLUMNS: Final = (
     "output noise",
     "tightest margin",
 )
+
+
 #: Columns of the ranking below :data:`WIDE_FROM` columns.
 NARROW_COLUMNS: Final = ("#", "what to buy", "cost (rel.)", "figures")
+
+
 #: Terminal width from which the wide layout is used.
 WIDE_FROM: Final = 150
+
+
 #: Columns of the ranked table in file reports (one column per position).
 FILE_TABLE_COLUMNS: Final = (
     "#",
@@ -142,118 +90,10 @@ FILE_TABLE_COLUMNS: Final = (
     "CMRR at yield",
     "gain error worst",
 )
+
+
 #: At most this many other base values are named in a ranking row (the JSON has them all).
 ALSO_SHOWN: Final = 6
-
-
-@dataclass(frozen=True)
-class Shown:
-    """One design the report shows: ``rank`` (1-based; None for a best-of-the-other-kind
-    design), its cost and its verification with the Monte-Carlo result filled in."""
-
-    rank: int | None
-    design: Design
-    cost: CostBreakdown
-    verification: Verification
-
-    @property
-    def kind_label(self) -> str:
-        if self.rank is not None:
-            return f"rank {self.rank}"
-        if self.design.topology is Topology.DISCRETE:
-            return "best four-discrete design"
-        return "best network design"
-
-
-@dataclass(frozen=True)
-class PickReport:
-    """Everything the outputs of ``quartet pick`` show."""
-
-    spec: Spec
-    result: PickResult
-    ranked: tuple[Shown, ...]
-    other_kind: tuple[Shown, ...]
-    diagnosis: Diagnosis | None
-    designs_asked: int
-    time_limit_s: float
-    statistics_seconds: float
-    cautions: tuple[str, ...]
-    #: A signal (SIGINT, SIGTERM) stopped the search: the designs are those found so far.
-    interrupted: bool = False
-    #: Per ranked choice, the other designs of its family (same cost, another base value or
-    #: another part with the same elements), best first; their Monte Carlo is not run.
-    members: tuple[tuple[Shown, ...], ...] = ()
-    #: Some catalog part has house stock: the tables show each part's stock.
-    stock_known: bool = False
-    #: Both kinds (four discrete parts, a network) allowed: each kind's best (None otherwise).
-    trade: Trade | None = None
-
-    @property
-    def winner(self) -> Shown | None:
-        return self.ranked[0] if self.ranked else None
-
-
-def _verification(verdict: object) -> Verification:
-    if not isinstance(verdict, Verification):
-        raise TypeError(f"expected the verdict of optimizer.verify.verify, got {type(verdict)}")
-    return verdict
-
-
-def build_pick_report(
-    spec: Spec,
-    result: PickResult,
-    *,
-    designs_asked: int,
-    time_limit_s: float,
-    cautions: Sequence[str],
-    diagnosis: Diagnosis | None = None,
-    interrupted: bool = False,
-    stock_known: bool = False,
-    trade: Trade | None = None,
-    statistics_seconds: float = 0.0,
-) -> PickReport:
-    """The report of one pick, computing nothing: the displayed designs' Monte Carlo is filled
-    in beforehand (``optimizer.statistics.with_statistics``, whose seconds are
-    ``statistics_seconds``); a design without one shows "n/a" for its statistical figures."""
-    choices = result.choices or tuple(range(1, len(result.ranked) + 1))
-    leaders: list[Candidate] = []
-    followers: dict[int, list[Candidate]] = {}
-    for number, candidate in zip(choices, result.ranked, strict=True):
-        if number in followers:
-            followers[number].append(candidate)
-        else:
-            followers[number] = []
-            leaders.append(candidate)
-    shown = (*leaders, *result.extras)
-    verdicts = [_verification(c.verdict) for c in shown]
-    count = len(leaders)
-    ranked = tuple(
-        Shown(i + 1, c.design, c.cost, v)
-        for i, (c, v) in enumerate(zip(leaders, verdicts[:count], strict=True))
-    )
-    members = tuple(
-        tuple(Shown(i + 1, c.design, c.cost, _verification(c.verdict)) for c in group)
-        for i, group in enumerate(followers.values())
-    )
-    others = tuple(
-        Shown(None, c.design, c.cost, v)
-        for c, v in zip(result.extras, verdicts[count:], strict=True)
-    )
-    return PickReport(
-        spec=spec,
-        result=result,
-        ranked=ranked,
-        other_kind=others,
-        members=members,
-        stock_known=stock_known,
-        trade=trade,
-        diagnosis=diagnosis,
-        designs_asked=designs_asked,
-        time_limit_s=time_limit_s,
-        statistics_seconds=statistics_seconds,
-        cautions=tuple(cautions),
-        interrupted=interrupted,
-    )
 
 
 # ---------------------------------------------------------------------------------------------
@@ -652,151 +492,3 @@ def render_pick(report: PickReport, width: int = 160) -> RenderableType:
         parts.append(Text("\nThe best design in full:", style="bold"))
         parts.append(render_check(winner.design, spec, winner.verification))
     return Group(*parts)
-
-
-# ---------------------------------------------------------------------------------------------
-# JSON
-# ---------------------------------------------------------------------------------------------
-
-
-def _design_json(shown: Shown, family_size: int = 1) -> dict[str, Any]:
-    verification = shown.verification
-    worst = verification.worst_case
-    mc = verification.monte_carlo
-    positions = []
-    for placement in shown.design.placements:
-        entry = _position_json(placement, None)
-        del entry["given_as"]
-        positions.append(entry)
-    noise = next((c.value for c in verification.checks if c.name == "output_noise"), None)
-    tight = verification.tightest
-    cost = shown.cost
-    return {
-        "rank": shown.rank,
-        "kind_label": shown.kind_label,
-        "topology": shown.design.topology.value,
-        "placement_count": shown.design.placement_count,
-        "positions": positions,
-        "cost": {
-            "parts": cost.parts,
-            "placements": cost.placements,
-            "lines": cost.lines,
-            "stock_penalty": cost.stock_penalty,
-            "total": cost.total,
-        },
-        "meets_spec": verification.passed,
-        "worst_case": {
-            "cmrr_db": worst.cmrr_db,
-            "gain_error_min": worst.gain_error_min,
-            "gain_error_max": worst.gain_error_max,
-            "gain_error_worst": worst.gain_error_worst,
-        },
-        "statistics": None
-        if mc is None
-        else {
-            "builds": mc.samples,
-            "seed": mc.seed,
-            "yield": mc.yield_fraction,
-            "yield_target": mc.yield_target,
-            "cmrr_at_yield_db": mc.cmrr_at_yield_db,
-        },
-        "output_noise_v_rms": noise,
-        "tightest": {
-            "name": tight.name,
-            "value": float(tight.value),
-            "limit": float(tight.limit),
-            "margin": float(tight.margin),
-            "unit": tight.unit or "fraction",
-        },
-        "family_key": family_id(family_key(shown.design, cost)),
-        "family_size": family_size,
-        "in_stock": all(p.part.in_stock for p in shown.design.placements),
-    }
-
-
-def pick_to_json(report: PickReport, warnings: Sequence[str] = ()) -> dict[str, Any]:
-    """The JSON document of schema :data:`SCHEMA` (module docstring): plain dicts, lists,
-    strings, bools, ints and finite floats (non-finite figures become ``None`` and are listed
-    under ``non_finite``). Everything except ``timing`` is the same on every run with the
-    same inputs (when the search is not cut short by the time limit)."""
-    spec = report.spec
-    r = report.result
-    diagnosis = report.diagnosis
-    raw: dict[str, Any] = {
-        "schema": SCHEMA,
-        "quartet_version": __version__,
-        "spec": {"path": spec.source_path, "title": spec.title},
-        "search": {
-            "status": r.status.value,
-            "proven_optimal": r.status is SearchStatus.OPTIMAL,
-            "objective": spec.preferences.objective.value,
-            "stock_policy": spec.preferences.stock.value,
-            "designs_asked": report.designs_asked,
-            "designs_found": len(report.ranked),
-            "time_limit_s": float(report.time_limit_s),
-            "gap": r.gap,
-            "rejected_by_exact_check": r.cuts,
-            "solves": r.solves,
-            "model_size": r.option_count,
-        },
-        "ranked": [
-            _design_json(s, 1 + (len(report.members[i]) if i < len(report.members) else 0))
-            for i, s in enumerate(report.ranked)
-        ],
-        "family_members": [
-            _design_json(m, 1 + len(group)) for group in report.members for m in group
-        ],
-        "other_kind": [_design_json(s) for s in report.other_kind],
-        "kind_trade": None
-        if report.trade is None
-        else {
-            "text": trade_text(report.trade, spec),
-            **{
-                key: {
-                    "meets_spec": b.meets,
-                    "cost": b.cost,
-                    "cmrr_db": b.cmrr_db,
-                    "search_timed_out": b.timed_out,
-                    "relaxed_floor_db": b.floor_db,
-                    "out_of_reach_db": b.out_of_reach_db,
-                }
-                for key, b in (
-                    ("four_discrete", report.trade.discrete),
-                    ("network", report.trade.network),
-                )
-            },
-        },
-        "diagnosis": None
-        if diagnosis is None
-        else {
-            "binding": list(diagnosis.binding),
-            "best_reachable": [
-                {
-                    "requirement": b.requirement,
-                    "asked": b.asked,
-                    "reachable": b.reachable,
-                    "note": b.note,
-                }
-                for b in diagnosis.best
-            ],
-            "text": diagnosis.text,
-        },
-        "safety_cautions": list(report.cautions),
-        "warnings": list(warnings),
-        "timing": {
-            "build_s": r.build_seconds,
-            "solve_s": r.solve_seconds,
-            "verify_s": r.verify_seconds,
-            "statistics_s": report.statistics_seconds,
-        },
-    }
-    found: list[dict[str, str]] = []
-    document: dict[str, Any] = _finite_only(raw, "", found)
-    document["non_finite"] = found
-    return document
-
-
-def pick_json_text(document: dict[str, Any]) -> str:
-    """The document as JSON text (the same writer as ``quartet check``: fixed key order,
-    two-space indent, ASCII only, no NaN or infinity)."""
-    return check_json_text(document)
