@@ -22,7 +22,7 @@ import pytest
 import sympy as sp
 from scipy import constants
 
-from optimizer.analysis import checks, formulas
+from optimizer.analysis import formulas, operating
 from optimizer.analysis.checks import Outcome, run_checks
 from optimizer.analysis.formulas import (
     closed_loop_bandwidth,
@@ -674,8 +674,10 @@ def test_life_value_bounds_and_drift_intervals() -> None:
     net = NetworkPart("NQ", (1e3,) * 4, 0.0, 0.0, 0.0, 0.0, 0.05, 50.0, 1.0,
                       drift_1000h=0.001, ratio_drift_1000h=0.0005)  # fmt: skip
     element = Placement("R1", net, element=0)
-    assert checks.placement_life_drift(element, LIFE_1000_H_S) == pytest.approx((-0.00125, 0.00125))
-    one_sided = checks.placement_life_drift(element, LIFE_1000_H_S, DriftModel.ONE_SIDED)
+    assert operating.placement_life_drift(element, LIFE_1000_H_S) == pytest.approx(
+        (-0.00125, 0.00125)
+    )
+    one_sided = operating.placement_life_drift(element, LIFE_1000_H_S, DriftModel.ONE_SIDED)
     assert one_sided == pytest.approx((-0.00025, 0.00125))
 
 
@@ -759,7 +761,7 @@ def test_checks_use_every_vertex_of_the_source_region() -> None:
     # (0, 0), (0, 10), (90, 100), (100, 100), (100, 90), (10, 0); the checks see each of them,
     # not only the pairs of leg ends, and nothing outside the region.
     spec = make_spec(source=SourceImpedance(0.0, 100.0, 10.0))
-    corners = checks.operating_corners(design(1e3, 1e3, 1e3, 1e3), spec)
+    corners = operating.operating_corners(design(1e3, 1e3, 1e3, 1e3), spec)
     seen = set(zip(corners.rs1.tolist(), corners.rs3.tolist(), strict=True))
     hexagon = {(0.0, 0.0), (0.0, 10.0), (90.0, 100.0), (100.0, 100.0), (100.0, 90.0), (10.0, 0.0)}
     assert hexagon <= seen
@@ -805,7 +807,7 @@ def test_run_checks_shape_and_convention() -> None:
         assert isinstance(r, Outcome) and r.detail
         if not math.isnan(r.limit):
             assert r.passed is bool(r.margin >= 0.0)
-    corners = checks.operating_corners(d, spec)
+    corners = operating.operating_corners(d, spec)
     # 2^4 resistor ends · Rs pairs {(0,0),(0,10),(10,0),(90,100),(100,90),(100,100)... } · ...
     assert np.all(np.abs(corners.rs1 - corners.rs3) <= 10.0 + 1e-9)
     assert corners.rs1.max() == 100.0 and corners.rs1.min() == 0.0

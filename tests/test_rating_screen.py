@@ -1,4 +1,4 @@
-"""The rating screen of the exact search (``analysis.checks.rating_corners`` with
+"""The rating screen of the exact search (``analysis.operating.rating_corners`` with
 ``resistor_stress``, used by ``optimizer.solve.frontier`` to leave out designs before the exact
 check) never claims more stress than the exact rating check finds.
 
@@ -26,13 +26,9 @@ import numpy as np
 import pytest
 from battery import spec_text
 
-from optimizer.analysis.checks import (
-    ALL_ENDS,
-    check_resistor_ratings,
-    rating_corners,
-    resistor_stress,
-)
+from optimizer.analysis.checks import check_resistor_ratings, resistor_stress
 from optimizer.analysis.formulas import value_spread
+from optimizer.analysis.operating import ALL_ENDS, rating_corners
 from optimizer.catalog import builtin_catalog
 from optimizer.design import Design, Placement
 from optimizer.solve.ratingscreen import _SCREEN_ENDS

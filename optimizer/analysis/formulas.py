@@ -94,7 +94,7 @@ def life_value_bounds(
     """Bounds ``(low, high)`` of ``r/R0`` over the whole required life:
     ``low = (1 − δ)·(1 + d_low)``, ``high = (1 + δ)·(1 + d_high)``, with ``δ`` the value spread
     of :func:`value_spread` (tolerance and tempco) and ``[d_low, d_high]`` the end-of-life
-    drift interval (:func:`placement_life_drift`; ``[−D, D]`` symmetric, ``[0, D]``
+    drift interval (``operating.placement_life_drift``; ``[−D, D]`` symmetric, ``[0, D]``
     one-sided). Drift grows with time (``D·√(t/life)``) and every interval holds 0, so the
     drift at any earlier time lies inside the end-of-life interval: these bounds hold from the
     start to the end of life (fractions in, fractions out)."""

@@ -75,9 +75,10 @@ from typing import cast
 import numpy as np
 from numpy.typing import NDArray
 
-from ..analysis.checks import rating_corners, resistor_stress
+from ..analysis.checks import resistor_stress
 from ..analysis.drift import drift_factor_bounds
 from ..analysis.formulas import derated_power, value_spread
+from ..analysis.operating import rating_corners
 from ..catalog import Catalog
 from ..cost import parts_cost
 from ..design import Design, Placement
@@ -484,7 +485,7 @@ class _Merge:
 
     def rated(self, rows: tuple[int, ...]) -> bool:
         """False when a part of ``rows`` fails the exact rating check for certain: its stress at
-        a subset of the check's own corners (``analysis.checks.rating_corners``) already
+        a subset of the check's own corners (``analysis.operating.rating_corners``) already
         exceeds its derated power rating or its limiting voltage (relative slack 1e-9)."""
         spec = self.spec
         hot, tmin = spec.requirements.temp_max_c, spec.requirements.temp_min_c

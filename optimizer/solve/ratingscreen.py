@@ -1,5 +1,5 @@
 """The rating screen of the discrete search's joined combinations: the stress at a few corners
-of the exact rating check (``analysis.checks.rating_corners``) against the best-rated part of
+of the exact rating check (``analysis.operating.rating_corners``) against the best-rated part of
 each class and value at each position, a chunk of a block at a time as the merge reaches it,
 and the *lift* of a combination whose cheapest parts do not bear it (``solve.frontier``, step
 3 of its module docstring).
@@ -10,7 +10,8 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import NDArray
 
-from ..analysis.checks import rating_corners, resistor_stress
+from ..analysis.checks import resistor_stress
+from ..analysis.operating import rating_corners
 from ..spec import Spec
 from .halves import ClassParts
 
@@ -21,7 +22,7 @@ __all__ = [
 Array = NDArray[np.float64]
 IntArray = NDArray[np.int64]
 
-#: Resistor ends of the block-level rating screen (``analysis.checks.rating_corners``): R1 low
+#: Resistor ends of the block-level rating screen (``analysis.operating.rating_corners``): R1 low
 #: and R2 high (the largest current through both), R3 and R4 at every end.
 _SCREEN_ENDS = ((0, 1, 0, 0), (0, 1, 0, 1), (0, 1, 1, 0), (0, 1, 1, 1))
 
@@ -77,7 +78,7 @@ def _rated_combinations(
 ) -> tuple[NDArray[np.bool_], Array, Array, Array]:
     """For combinations ``keys`` (columns: class, value for R1..R4): the mask of those whose
     best-rated part at every position (``ClassParts.top_w``, ``top_v``) bears its stress at the
-    corners :data:`_SCREEN_ENDS` of ``analysis.checks.rating_corners``, that stress
+    corners :data:`_SCREEN_ENDS` of ``analysis.operating.rating_corners``, that stress
     ``(power, peak)`` (N, 4), and the *lift* of each: the sum over the positions where the
     cheapest part does not bear its stress of ``up_cost − cost`` (a part that bears it is rated
     above the cheapest one, so it costs at least ``ClassParts.up_cost``). Those corners are points
