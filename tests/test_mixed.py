@@ -1,4 +1,4 @@
-"""The windows of the one-dual-two-discrete search (``optimizer.solve.mixed``) are necessary
+"""The windows of the one-dual-two-discrete search (``optimizer.solve.mixed``, ``optimizer.solve.placements``) are necessary
 conditions: property tests against the side term itself.
 
 Source of the check values: the voltage divider ``term = (B + u)/(A + w + B + u)`` (Ohm's law
@@ -19,7 +19,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from optimizer.solve.halves import value_window
-from optimizer.solve.mixed import c_gain_room, least_sensitivity, side_term
+from optimizer.solve.placements import c_gain_room, least_sensitivity, side_term
 from optimizer.solve.screen import ScreenLimits
 
 ohms = st.floats(min_value=10.0, max_value=1e6)
@@ -151,7 +151,7 @@ def test_c_gain_room_holds_every_gain_that_meets_the_limits(
 def test_a_placement_dropped_before_the_merge_has_no_candidate(
     example: str, floor_db: float | None
 ) -> None:
-    """The placements the search drops at once (:func:`mixed._crossed_open`, the divider key
+    """The placements the search drops at once (:func:`placements.crossed_open`, the divider key
     ranges) are exactly those whose candidate list, worked out one placement at a time as the
     merge does, is empty or (a divider whose range holds only records too wide) holds no
     record whose high end fits: dropping them loses nothing."""
@@ -160,7 +160,7 @@ def test_a_placement_dropped_before_the_merge_has_no_candidate(
     from helpers import EXAMPLES
 
     from optimizer.api import spec_catalogs
-    from optimizer.solve import mixed
+    from optimizer.solve import placements
     from optimizer.solve.environment import linear_environment
     from optimizer.solve.frontier import limits_and_parts
     from optimizer.specfile import load_spec
@@ -173,20 +173,20 @@ def test_a_placement_dropped_before_the_merge_has_no_candidate(
     start = limits_and_parts(spec, catalog, env, None)
     assert start is not None
     lim, parts, shared = start
-    duals = mixed._duals(spec, catalog, env, lim)
+    duals = placements.dual_placements(spec, catalog, env, lim)
     halves = {
-        side: mixed._sorted_half(shared.half(parts, lim, side, vertex=0), parts, lim)
+        side: placements.sorted_half(shared.half(parts, lim, side, vertex=0), parts, lim)
         for side in (1, 2)
     }
-    cands = mixed._Candidates(parts)
-    opened = mixed._crossed_open(duals, cands, lim)
-    from_key, to_key = mixed._divider_keys(duals, lim)
+    cands = placements.PlacementCandidates(parts)
+    opened = placements.crossed_open(duals, cands, lim)
+    from_key, to_key = placements.divider_keys(duals, lim)
     dropped = 0
     for k, dual in enumerate(duals):
         window = (float(from_key[k]), float(to_key[k]))
-        keys, _ = mixed._candidates(dual, window, parts, lim, cands, halves)
+        keys, _ = placements.placement_candidates(dual, window, parts, lim, cands, halves)
         if dual.positions in ((0, 1), (2, 3)):
-            _, first, last = mixed._divider_slice(dual, window, halves)
+            _, first, last = placements.divider_slice(dual, window, halves)
             kept = last > first
         else:
             kept = bool(opened[k])
