@@ -30,7 +30,8 @@ from rich.console import Console
 from optimizer.analysis.safety import safety_cautions
 from optimizer.catalog import builtin_catalog
 from optimizer.errors import DesignError
-from optimizer.report.check import SCHEMA, check_json_text, check_to_json, render_check
+from optimizer.report.check import render_check
+from optimizer.report.checkjson import SCHEMA, check_json_text, check_to_json
 from optimizer.specfile import load_spec
 from optimizer.userdesign import (
     build_user_design,

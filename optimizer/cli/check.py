@@ -66,7 +66,8 @@ def _add_check_command(commands: argparse._SubParsersAction[_Parser]) -> None:
 def _check(args: argparse.Namespace, console: Console) -> int:
     import dataclasses
 
-    from ..report.check import check_json_text, check_to_json, render_check
+    from ..report.check import render_check
+    from ..report.checkjson import check_json_text, check_to_json
     from ..specfile import load_spec
     from ..userdesign import build_user_design
     from ..verify import verify

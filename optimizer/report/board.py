@@ -46,16 +46,10 @@ from ..board.search import BoardResult, BoardStatus, RankedBoard
 from ..parts import NetworkPart
 from ..units import format_fraction, format_resistance, format_tempco
 from ..verify import Verification
-from .check import (
-    TOPOLOGY_LABELS,
-    _cautions_panel,
-    _db,
-    _finite_only,
-    _pct,
-    _position_json,
-    check_json_text,
-)
+from .check import TOPOLOGY_LABELS
+from .checkjson import check_json_text, finite_only, position_json
 from .exports import Block
+from .formats import cautions_panel, fmt_db, fmt_pct
 from .pick import render_pick_table
 from .pickreport import Shown
 
@@ -279,7 +273,7 @@ def render_board(report: BoardReport) -> RenderableType:
     where = f" ({board.source_path})" if board.source_path else ""
     parts: list[RenderableType] = [Text(f"Board: {board.title or 'board'}{where}", style="bold")]
     if report.cautions:
-        parts.append(_cautions_panel(report.cautions))
+        parts.append(cautions_panel(report.cautions))
     best = report.best
     if best is not None:
         for index, (amplifier, chosen, verification, spec) in enumerate(
@@ -334,7 +328,7 @@ def _amplifiers_json(
     ):
         positions = []
         for placement in chosen.design.placements:
-            entry = _position_json(placement, None)
+            entry = position_json(placement, None)
             del entry["given_as"]
             positions.append(entry)
         parts, placements = channel_cost(chosen.design, placement_cost)
@@ -457,7 +451,7 @@ def board_to_json(report: BoardReport, warnings: Sequence[str] = ()) -> dict[str
         "timing": {"search_s": r.seconds, "statistics_s": report.statistics_seconds},
     }
     found: list[dict[str, str]] = []
-    document: dict[str, Any] = _finite_only(raw, "", found)
+    document: dict[str, Any] = finite_only(raw, "", found)
     document["non_finite"] = found
     return document
 
@@ -521,9 +515,9 @@ def board_blocks(report: BoardReport) -> list[Block]:
                         p.position,
                         format_resistance(p.resistance_ohm, 6),
                         p.part.part_id,
-                        _db(check.worst_case.cmrr_db),
-                        _db(mc.cmrr_at_yield_db) if mc is not None else "n/a",
-                        f"±{_pct(check.worst_case.gain_error_worst)}",
+                        fmt_db(check.worst_case.cmrr_db),
+                        fmt_db(mc.cmrr_at_yield_db) if mc is not None else "n/a",
+                        f"±{fmt_pct(check.worst_case.gain_error_worst)}",
                     )
                     for p in chosen.design.placements
                 ),

@@ -39,7 +39,8 @@ from ..parts import DiscretePart, NetworkPart
 from ..spec import Spec
 from ..units import format_fraction, format_resistance, format_tempco
 from ..verify import Verification
-from .check import _db, _figure, _pct, label_of
+from .check import label_of
+from .formats import fmt_db, fmt_figure, fmt_pct
 
 __all__ = [
     "BOM_COLUMNS",
@@ -333,9 +334,9 @@ def check_blocks(design: Design, spec: Spec, verification: Verification) -> list
                 (
                     label_of(m.name),
                     "yes" if m.passed else "NO",
-                    _figure(m.value, m.unit),
-                    _figure(m.limit, m.unit),
-                    _figure(m.margin, m.unit, signed=True),
+                    fmt_figure(m.value, m.unit),
+                    fmt_figure(m.limit, m.unit),
+                    fmt_figure(m.margin, m.unit, signed=True),
                 )
                 for m in verification.requirements
             ),
@@ -352,7 +353,7 @@ def check_blocks(design: Design, spec: Spec, verification: Verification) -> list
                     ("met" if c.passed else "NOT met")
                     if c.limit == c.limit  # nan: no requirement set
                     else "no requirement",
-                    _figure(c.margin, c.unit, signed=True) if c.limit == c.limit else "",
+                    fmt_figure(c.margin, c.unit, signed=True) if c.limit == c.limit else "",
                     c.detail,
                 )
                 for c in verification.checks
@@ -367,9 +368,9 @@ def check_blocks(design: Design, spec: Spec, verification: Verification) -> list
             "table",
             headers=("figure", "value"),
             rows=(
-                ("CMRR, worst case", _db(worst.cmrr_db)),
-                ("CMRR, resistors only", _db(worst.cmrr_resistors_db)),
-                ("gain error, worst", f"±{_pct(worst.gain_error_worst)}"),
+                ("CMRR, worst case", fmt_db(worst.cmrr_db)),
+                ("CMRR, resistors only", fmt_db(worst.cmrr_resistors_db)),
+                ("gain error, worst", f"±{fmt_pct(worst.gain_error_worst)}"),
                 ("nominal gain", f"{worst.nominal_gain:.8g}"),
                 ("corners evaluated", f"{worst.corner_count:,}"),
             ),
@@ -389,9 +390,9 @@ def check_blocks(design: Design, spec: Spec, verification: Verification) -> list
             rows=tuple(
                 (
                     label_of(b.name),
-                    _db(b.cmrr_db),
+                    fmt_db(b.cmrr_db),
                     f"{b.cmrr_share * 100:.1f} %",
-                    f"±{_pct(b.gain_error)}",
+                    f"±{fmt_pct(b.gain_error)}",
                     f"{b.gain_share * 100:.1f} %",
                 )
                 for b in worst.budget
@@ -404,9 +405,9 @@ def check_blocks(design: Design, spec: Spec, verification: Verification) -> list
         blocks.append(
             Block(
                 "para",
-                text=f"{mc.samples:,} builds (seed {mc.seed}); yield {_pct(mc.yield_fraction)}; "
-                f"CMRR reached by {_pct(mc.yield_target)} of builds: {_db(mc.cmrr_at_yield_db)}; "
-                f"floor {mc.cmrr_floor_db:g} dB.",
+                text=f"{mc.samples:,} builds (seed {mc.seed}); yield {fmt_pct(mc.yield_fraction)}; "
+                f"CMRR reached by {fmt_pct(mc.yield_target)} of builds: "
+                f"{fmt_db(mc.cmrr_at_yield_db)}; floor {mc.cmrr_floor_db:g} dB.",
             )
         )
         blocks.append(Block("histogram", histogram=mc))
@@ -434,9 +435,9 @@ def pick_blocks(
                 design.topology.value,
                 *(_part_text(design, i) for i in range(4)),
                 f"{cost:.3f}",
-                _db(verification.worst_case.cmrr_db),
-                _db(mc.cmrr_at_yield_db) if mc is not None else "n/a",
-                f"±{_pct(verification.worst_case.gain_error_worst)}",
+                fmt_db(verification.worst_case.cmrr_db),
+                fmt_db(mc.cmrr_at_yield_db) if mc is not None else "n/a",
+                f"±{fmt_pct(verification.worst_case.gain_error_worst)}",
             )
         )
     return [

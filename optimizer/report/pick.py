@@ -22,15 +22,8 @@ from ..solve.trade import KindBest, Trade, cost_per_db
 from ..spec import CmrrBasis, Objective, Spec
 from ..units import format_fraction, format_quantity, format_resistance
 from ..verify import Verification
-from .check import (
-    TOPOLOGY_LABELS,
-    _cautions_panel,
-    _db,
-    _figure,
-    _pct,
-    label_of,
-    render_check,
-)
+from .check import TOPOLOGY_LABELS, label_of, render_check
+from .formats import cautions_panel, fmt_db, fmt_figure, fmt_pct
 from .pickreport import PickReport, Shown
 
 __all__ = [
@@ -192,7 +185,7 @@ def _tightest(verification: Verification) -> Text:
     tight = verification.tightest
     style = "green" if tight.passed else "bold red"
     return Text(
-        f"{label_of(tight.name)}\n{_figure(tight.margin, tight.unit, signed=True)}", style=style
+        f"{label_of(tight.name)}\n{fmt_figure(tight.margin, tight.unit, signed=True)}", style=style
     )
 
 
@@ -201,9 +194,9 @@ def _figures(shown: Shown, spec: Spec) -> list[Text]:
     worst = verification.worst_case
     mc = verification.monte_carlo
     return [
-        Text(_db(worst.cmrr_db)),
-        Text(_db(mc.cmrr_at_yield_db) if mc is not None else "n/a"),
-        Text(f"±{_pct(worst.gain_error_worst)}"),
+        Text(fmt_db(worst.cmrr_db)),
+        Text(fmt_db(mc.cmrr_at_yield_db) if mc is not None else "n/a"),
+        Text(f"±{fmt_pct(worst.gain_error_worst)}"),
         Text(_noise(verification)),
         _tightest(verification),
     ]
@@ -450,7 +443,7 @@ def render_pick(report: PickReport, width: int = 160) -> RenderableType:
     where = f" ({spec.source_path})" if spec.source_path else ""
     parts: list[RenderableType] = [Text(f"Pick for: {title}{where}", style="bold")]
     if report.cautions:
-        parts.append(_cautions_panel(report.cautions))
+        parts.append(cautions_panel(report.cautions))
     basis = (
         " (CMRR judged by the Monte-Carlo yield)"
         if spec.requirements.cmrr_basis is CmrrBasis.YIELD

@@ -57,11 +57,7 @@ from typing import Any, Final
 from .._version import __version__
 from ..solve.ranking import family_id, family_key
 from ..solve.search import SearchStatus
-from .check import (
-    _finite_only,
-    _position_json,
-    check_json_text,
-)
+from .checkjson import check_json_text, finite_only, position_json
 from .pick import trade_text
 from .pickreport import PickReport, Shown
 
@@ -87,7 +83,7 @@ def _design_json(shown: Shown, family_size: int = 1) -> dict[str, Any]:
     mc = verification.monte_carlo
     positions = []
     for placement in shown.design.placements:
-        entry = _position_json(placement, None)
+        entry = position_json(placement, None)
         del entry["given_as"]
         positions.append(entry)
     noise = next((c.value for c in verification.checks if c.name == "output_noise"), None)
@@ -213,7 +209,7 @@ def pick_to_json(report: PickReport, warnings: Sequence[str] = ()) -> dict[str, 
         },
     }
     found: list[dict[str, str]] = []
-    document: dict[str, Any] = _finite_only(raw, "", found)
+    document: dict[str, Any] = finite_only(raw, "", found)
     document["non_finite"] = found
     return document
 
