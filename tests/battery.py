@@ -1,6 +1,6 @@
 """The canonical battery: plain specs a user would write first, each with its purpose beside it.
 
-Data only (used by ``tests/test_battery.py``). Each entry is ``(purpose, fields, catalog)``:
+Data only (used by ``tests/solve/test_battery.py``). Each entry is ``(purpose, fields, catalog)``:
 ``fields`` fill :data:`SPEC` (defaults in :func:`spec_text`), ``catalog`` names the parts the
 spec draws on (:data:`CATALOGS`). Every scenario is our own invention (demo data); no number
 here is a check value: the checks compare the pick with the independent reference search.
@@ -33,7 +33,7 @@ STOCK_FILES = ("examples/house_stock.csv", "examples/house_stock_networks.yaml")
 
 #: Where a battery spec takes its parts: the built-in catalog; the built-in catalog with the
 #: invented house stock of ``examples/``; a small catalog for the yield basis, where every
-#: design runs the Monte Carlo (see ``tests/test_battery.py``, ``small_catalog``).
+#: design runs the Monte Carlo (see ``tests/solve/test_battery.py``, ``small_catalog``).
 CATALOGS = ("builtin", "stock", "small")
 
 BATTERY: list[tuple[str, dict[str, object], str]] = [
@@ -116,7 +116,7 @@ BATTERY: list[tuple[str, dict[str, object], str]] = [
 #: Plain yield-basis specs over the whole built-in catalog, four discrete parts only (the
 #: class-quadruple search, ``optimizer.solve.classquads``); no reference runs here (each of its
 #: designs would need a Monte Carlo): the pick must prove its ten, every one passing the exact
-#: check (``tests/test_classquads.py``; the benchmark's ``yield`` section times them).
+#: check (``tests/solve/test_classquads.py``; the benchmark's ``yield`` section times them).
 YIELD_SAMPLES = ", monte_carlo: {samples: 2000}"
 YIELD_99 = ", cmrr_basis: yield, yield: 99 %"
 YIELD_BUILTIN: list[tuple[str, dict[str, object]]] = [

@@ -45,18 +45,18 @@ def ngspice() -> str:
 #: ``pytest`` (the README's command, what CI runs) runs everything. Entries are node-id
 #: prefixes: a file, or a file and a test function.
 SLOW = (
-    "tests/test_oracle.py",
+    "tests/solve/test_oracle.py",
     "tests/test_fuzz.py",
-    "tests/test_interrupt.py",
+    "tests/cli/test_interrupt.py",
     "tests/test_benchmark_smoke.py",
     "tests/test_docs.py",
-    "tests/test_board_search.py",
-    "tests/test_battery.py",
-    "tests/test_frontier.py::test_top_k_costs_match_the_exhaustive_reference",
-    "tests/test_frontier.py::test_network_specs_match_the_reference_over_the_builtin_catalog",
-    "tests/test_frontier.py::test_screen_is_a_relaxation_and_exact_for_independent_parts",
-    "tests/test_frontier.py::test_plain_specs_find_the_cheap_designs",
-    "tests/test_catalog.py::test_wheel_install_carries_the_builtin_catalog",
+    "tests/board/test_board_search.py",
+    "tests/solve/test_battery.py",
+    "tests/solve/test_frontier.py::test_top_k_costs_match_the_exhaustive_reference",
+    "tests/solve/test_frontier.py::test_network_specs_match_the_reference_over_the_builtin_catalog",
+    "tests/solve/test_frontier.py::test_screen_is_a_relaxation_and_exact_for_independent_parts",
+    "tests/solve/test_frontier.py::test_plain_specs_find_the_cheap_designs",
+    "tests/catalog/test_catalog.py::test_wheel_install_carries_the_builtin_catalog",
 )
 
 

@@ -122,7 +122,7 @@ def coefficients(
     den = 1.0 / np.asarray(open_loop_gain, dtype=float) + beta * (1.0 - eps)
     plus = (1.0 + eps) / den
     # 1 − a written as R3'/(R3' + R4'): no cancellation when a is close to 1 (G = 10⁷ lost
-    # nine digits of kref; found by tests/test_robustness.py).
+    # nine digits of kref; found by tests/analysis/test_robustness.py).
     return Coefficients(k1=-c * (1.0 - eps) / den, k2=a * plus, kref=r3e / (r3e + r4e) * plus)
 
 

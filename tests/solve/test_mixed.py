@@ -5,8 +5,8 @@ Source of the check values: the voltage divider ``term = (B + u)/(A + w + B + u)
 and Kirchhoff's current law on one side of the bridge, any circuits textbook), evaluated
 directly on random resistances, and its derivative by central differences. The search's
 exactness on whole designs is checked against the exhaustive enumerator in
-``tests/test_oracle.py`` (``test_one_dual_two_discrete_top_ten``) and against the independent
-reference on the canonical battery (``tests/test_battery.py``).
+``tests/solve/test_oracle.py`` (``test_one_dual_two_discrete_top_ten``) and against the independent
+reference on the canonical battery (``tests/solve/test_battery.py``).
 """
 
 from __future__ import annotations

@@ -23,6 +23,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 from battery import BATTERY, STOCK_FILES, spec_text
+from helpers import ROOT
 from reference.cheapest import cheapest, conditions, corner_screen, element_bounds, identity
 
 from optimizer.analysis.worstcase import worst_case
@@ -34,7 +35,6 @@ from optimizer.spec import Spec
 from optimizer.specfile import load_spec
 from optimizer.verify import verify
 
-ROOT = Path(__file__).resolve().parent.parent
 TOP = 10
 #: Seconds the pick gets per spec: far above the ~0.5 s it needs on the enumerated specs, and
 #: room for the one CP-SAT-served spec (13-30 s measured on a loaded machine).

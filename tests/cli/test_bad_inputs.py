@@ -18,12 +18,13 @@ from typing import Any
 
 import pytest
 import yaml
+from helpers import ROOT
 from rich.console import Console
 
 from optimizer.cli import main
 
-DATA = Path(__file__).resolve().parent / "data" / "bad"
-MOTOR = Path(__file__).resolve().parent.parent / "examples" / "motor_shunt.yaml"
+DATA = ROOT / "tests" / "data" / "bad"
+MOTOR = ROOT / "examples" / "motor_shunt.yaml"
 CASES: list[dict[str, Any]] = yaml.safe_load((DATA / "cases.yaml").read_text(encoding="utf-8"))
 
 

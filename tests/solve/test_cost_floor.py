@@ -20,11 +20,11 @@ from __future__ import annotations
 import dataclasses
 import itertools
 import math
-from pathlib import Path
 
 import numpy as np
 import pytest
 from battery import spec_text
+from helpers import ROOT
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -40,7 +40,7 @@ from optimizer.solve.problem import prepare
 from optimizer.solve.search import SearchStatus, pick
 from optimizer.verify import verify
 
-EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
+EXAMPLES = ROOT / "examples"
 
 
 @settings(max_examples=200, deadline=None)

@@ -3,7 +3,7 @@
 The speed-ups in ``optimizer.solve`` skip work whose outcome is known: streams the catalog
 cannot fill, dominated grade classes, a bound on the objective after an optimal solve, a hint
 from the previous design. Each test here compares a shortcut with the long way round on the
-same input. The outside reference for the pick as a whole stays ``tests/test_oracle.py`` (the
+same input. The outside reference for the pick as a whole stays ``tests/solve/test_oracle.py`` (the
 exhaustive enumerator); these tests pin the shortcuts themselves, so a wrong one fails here
 with a message that names it.
 """
@@ -12,10 +12,10 @@ from __future__ import annotations
 
 import itertools
 from functools import cache
-from pathlib import Path
 
 import numpy as np
 import pytest
+from helpers import ROOT
 from ortools.sat.python import cp_model
 
 from optimizer.catalog import Catalog, load_catalogs
@@ -35,7 +35,7 @@ from optimizer.verify import verify
 
 EXAMPLES = ("motor_shunt", "mains_monitor", "bridge_front_end", "industrial_input_stock")
 #: The bundled examples, found from this file (tests run from any folder).
-EXAMPLE_DIR = Path(__file__).resolve().parent.parent / "examples"
+EXAMPLE_DIR = ROOT / "examples"
 
 
 @cache

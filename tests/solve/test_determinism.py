@@ -19,9 +19,9 @@ import io
 import json
 from dataclasses import replace
 from functools import cache
-from pathlib import Path
 
 import pytest
+from helpers import ROOT
 from rich.console import Console
 
 from optimizer.analysis.montecarlo import monte_carlo
@@ -32,7 +32,7 @@ from optimizer.spec import CmrrBasis, Spec
 from optimizer.specfile import load_spec
 from optimizer.verify import Verification, verify
 
-EXAMPLE = Path(__file__).resolve().parent.parent / "examples" / "motor_shunt.yaml"
+EXAMPLE = ROOT / "examples" / "motor_shunt.yaml"
 TOP = 3
 
 

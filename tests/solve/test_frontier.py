@@ -427,7 +427,7 @@ def test_plain_specs_find_the_cheap_designs(
 
 # ---------------------------------------------------------------------------------------------
 # Network-only specs against the exhaustive reference (the canonical battery of plain specs,
-# ``tests/battery.py``, is compared with the second reference in ``tests/test_battery.py``)
+# ``tests/battery.py``, is compared with the second reference in ``tests/solve/test_battery.py``)
 # ---------------------------------------------------------------------------------------------
 
 #: Network-only specs, small enough for the exhaustive reference over the whole built-in

@@ -11,10 +11,10 @@ import dataclasses
 import io
 import re
 from functools import cache
-from pathlib import Path
 from types import SimpleNamespace
 
 import pytest
+from helpers import ROOT
 from rich.console import Console
 
 from optimizer.catalog import load_catalogs
@@ -40,7 +40,7 @@ from optimizer.specfile import load_spec
 from optimizer.statistics import with_statistics
 from optimizer.verify import verify
 
-EXAMPLE = Path(__file__).resolve().parent.parent / "examples" / "motor_shunt.yaml"
+EXAMPLE = ROOT / "examples" / "motor_shunt.yaml"
 PREFS = Preferences()
 
 

@@ -14,16 +14,15 @@ import select
 import subprocess
 import sys
 import time
-from pathlib import Path
 
 import pytest
+from helpers import ROOT
 
 from optimizer.catalog import load_catalogs
 from optimizer.solve.search import SearchProgress, pick
 from optimizer.specfile import load_spec
 from optimizer.verify import verify
 
-ROOT = Path(__file__).resolve().parent.parent
 SPEC = ROOT / "examples" / "mains_monitor.yaml"
 #: Exit codes of a proven search and of one the time limit ended (README "Exit codes").
 DONE = (0, 3)

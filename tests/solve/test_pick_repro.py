@@ -16,7 +16,7 @@ from pathlib import Path
 from typing import Any
 
 import pytest
-from helpers import run_cli
+from helpers import DATA, run_cli
 
 from optimizer.catalog import load_catalogs
 from optimizer.cli import EXIT_OK
@@ -27,7 +27,7 @@ from optimizer.specfile import load_spec
 from optimizer.userdesign import design_from_parts
 from optimizer.verify import verify
 
-CASES = Path(__file__).resolve().parent / "data" / "pick_repro"
+CASES = DATA / "pick_repro"
 
 
 def _run(argv: list[str]) -> tuple[int, str]:

@@ -1,0 +1,47 @@
+"""The test folders mirror the package (DEVELOPERS.md, "Running the tests"): every folder of
+tests under ``tests/`` is a subpackage of ``optimizer`` of the same name, and no two test files
+share a name (pytest imports test files by their name: a second one of the same name would not
+be collected, or would shadow the first)."""
+
+from __future__ import annotations
+
+from collections import Counter
+
+from helpers import ROOT
+
+TESTS = ROOT / "tests"
+#: Folders under tests/ that hold data or helpers, not tests of a subpackage.
+NOT_MIRRORS = {"data", "reference", "benchmarks", "__pycache__"}
+
+
+def test_every_test_folder_is_a_subpackage() -> None:
+    folders = {p.name for p in TESTS.iterdir() if p.is_dir() and p.name not in NOT_MIRRORS}
+    subpackages = {p.parent.name for p in (ROOT / "optimizer").glob("*/__init__.py")}
+    assert folders, "expected test folders mirroring the package"
+    assert folders <= subpackages, f"test folders without a subpackage: {folders - subpackages}"
+
+
+def test_test_file_names_are_unique() -> None:
+    names = Counter(p.name for p in TESTS.rglob("test_*.py"))
+    assert names, "expected test files"
+    assert not [n for n, k in names.items() if k > 1]
+
+
+#: How a test of the command line reaches it besides importing ``optimizer.cli``: the shared
+#: in-process runner of tests/helpers.py, or the installed command in a child process.
+CLI_WAYS = ("run_cli", '"-m", "optimizer"', "QUARTET")
+
+
+def test_each_folder_tests_its_subpackage() -> None:
+    """A test file in ``tests/<sub>/`` imports ``optimizer.<sub>`` (or a module of it); one in
+    ``tests/cli/`` may instead run the command line (:data:`CLI_WAYS`)."""
+    for folder in (p for p in TESTS.iterdir() if p.is_dir() and p.name not in NOT_MIRRORS):
+        for test in folder.glob("test_*.py"):
+            text = test.read_text(encoding="utf-8")
+            imports = f"optimizer.{folder.name}" in text or (
+                f"from optimizer import {folder.name}" in text
+            )
+            runs = folder.name == "cli" and any(way in text for way in CLI_WAYS)
+            assert imports or runs, (
+                f"{test.relative_to(ROOT)} does not test optimizer.{folder.name}"
+            )
