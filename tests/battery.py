@@ -128,6 +128,11 @@ YIELD_BUILTIN: list[tuple[str, dict[str, object]]] = [
     ("yield, G = 1, 46 dB, automotive (CP-SAT: 60 s, 124.4 unproven)",
      dict(gain=1, floor=46, tmin=-40, tmax=125)),
     ("yield, G = 2, 56 dB, industrial, 5 years", dict(gain=2, floor=56, tmin=-20, tmax=85, life=FIVE_YEARS)),
+    ("yield, G = 1, 46 dB, automotive, input impedance 50 kΩ (CP-SAT: none in 60 s)",
+     dict(gain=1, floor=46, tmin=-40, tmax=125, req=YIELD_99 + ", min_input_impedance: 50k")),
+    ("yield, G = 2, 50 dB, automotive, 20 kΩ and 6 µV noise (CP-SAT: 34.4 unproven)",
+     dict(gain=2, floor=50, tmin=-40, tmax=125,
+          req=YIELD_99 + ", min_input_impedance: 20k, output_noise: {max: 6 uV}")),
 ]  # fmt: skip
 
 

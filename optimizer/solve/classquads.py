@@ -40,7 +40,10 @@ The search
    balanced first, a few pairs at a time. Each pair that meets the yield gives its value
    choices as designs, grouped by exact cost (``optimizer.cost``: the lines they place), each
    group's values nearest the middle of the resistance window first; the stream's exact check
-   still decides each (the ratings read the values).
+   still decides each (the ratings read the values). With an input-impedance floor a value
+   choice whose nominal impedance is below it is dropped (:func:`nominal_impedance_reaches`),
+   and with it or an output-noise ceiling each design meets those exact checks before it
+   leaves the search.
 
 What the ranking leaves out: designs with a part that another part dominates at its value
 (no cheaper, no tighter, rated no better, stocked if it is: ``solve.discrete``). Swapping it
@@ -49,7 +52,7 @@ costs no more (with a BOM line cost the dominance is judged alike at every posit
 ``same_everywhere``, so the swap never adds a line; without one, position by position, which
 keeps fewer classes: G = 2, 56 dB, five years takes 3 s so, 20 s judged alike), so the
 cheapest design is never lost; only such second-best
-designs are (``tests/test_classquads.py`` checks exactly this against the reference).
+designs are (``tests/solve/test_classquads.py`` checks exactly this against the reference).
 Keeping the dominated classes costs several times the search on the built-in catalog (G = 2,
 56 dB, five years: 3 s -> over 60 s), so they are dropped. With a per-line stock penalty the
 swap can cost more (two placements of one unstocked part pay one penalty), so such specs
@@ -75,7 +78,9 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
+from ..analysis.checks import check_input_impedance, check_output_noise
 from ..analysis.environment import environment_from_spec
+from ..analysis.formulas import common_mode_input_resistance, differential_input_resistance
 from ..analysis.montecarlo import build_factors, yield_fractions
 from ..analysis.variation import (
     VariableValues,
@@ -85,6 +90,7 @@ from ..analysis.variation import (
 )
 from ..catalog import Catalog
 from ..design import Design, Placement
+from ..parts import DiscretePart
 from ..spec import DriftModel, Objective, Spec, StockPolicy
 from . import yieldbox
 from .discrete import DiscreteBlock
@@ -92,7 +98,7 @@ from .environment import LinearEnvironment
 from .pairbounds import deviation_bounds, gain_window, passing_counts, screen_pairs
 from .screen import log_balance_limit
 
-__all__ = ["ClassQuadSearch", "serves"]
+__all__ = ["ClassQuadSearch", "nominal_impedance_reaches", "serves"]
 
 Array = NDArray[np.float64]
 
@@ -115,10 +121,10 @@ def serves(spec: Spec, env: LinearEnvironment) -> bool:
     (``yieldbox.serves``), the lowest-cost objective, no source or REF impedance at any
     vertex, no per-line stock penalty (the classes it searches are those no other class
     dominates at a value, ``solve.discrete``, judged on the per-placement charge: two
-    placements of one unstocked part pay one penalty), no output-noise requirement and no
-    input-impedance floor (the checks that read the values themselves are then the ratings,
-    left to the exact check), and no one-sided drift over a life (its draws are shared by parts
-    of one id, so they depend on the values)."""
+    placements of one unstocked part pay one penalty), and no one-sided drift over a life (its
+    draws are shared by parts of one id, so they depend on the values). An output-noise
+    ceiling or an input-impedance floor is served: the designs are screened by those exact
+    checks themselves before they leave the search (:meth:`ClassQuadSearch._designs_at`)."""
     prefs, req = spec.preferences, spec.requirements
     return (
         yieldbox.serves(spec)
@@ -126,8 +132,6 @@ def serves(spec: Spec, env: LinearEnvironment) -> bool:
         and not (prefs.stock is StockPolicy.PREFER and prefs.stock_penalty > 0.0)
         and prefs.objective is Objective.COST
         and not np.any(env.vertices)
-        and req.max_output_noise_v_rms is None
-        and req.min_input_impedance_ohm <= 0.0
     )
 
 
@@ -211,6 +215,7 @@ class ClassQuadSearch:
             )
             self._own[c] = (alone.tolerance[0], alone.tempco_per_k[0], alone.drift[0])
         self._halves: dict[tuple[int, int, int], _Half] = {}
+        self._part_cache: dict[int, DiscretePart] = {}
         self._environment = environment_from_spec(spec)
         prefs = spec.preferences
         values = block.values if block.values.size else np.ones(1)
@@ -465,6 +470,18 @@ class ClassQuadSearch:
         )
         flat_cost, flat_near = np.ravel(cost), np.ravel(near)
         order = np.lexsort((flat_near, flat_cost))
+        floor = self._spec.requirements.min_input_impedance_ohm
+        if floor > 0.0:  # value choices whose nominal impedance is below the floor cannot pass
+            v = block.values
+            reach = np.ravel(
+                nominal_impedance_reaches(
+                    v[first[:, 0]][:, None], v[second[:, 0]][None, :], v[second[:, 1]][None, :],
+                    floor,
+                )
+            )  # fmt: skip
+            order = order[reach[order]]
+            if order.size == 0:
+                return []
         groups: list[tuple[float, _Group]] = []
         levels = flat_cost[order]
         starts = np.r_[0, np.flatnonzero(np.diff(levels) > 1e-12 * (1.0 + abs(levels[0]))) + 1]
@@ -481,8 +498,17 @@ class ClassQuadSearch:
             yield from self._designs_at(group, at, at + 64)
 
     def _designs_at(self, group: _Group, start: int, stop: int) -> Iterator[Design]:
-        """Designs ``start`` to ``stop`` of one cost group."""
-        block, catalog = self._block, self._catalog
+        """Designs ``start`` to ``stop`` of one cost group, less those that fail the spec's
+        output-noise ceiling or input-impedance floor: the exact checks themselves
+        (``analysis.checks``), which read the values and the parts' spreads and nothing the
+        Monte Carlo reads, so a design they turn down fails the exact check whatever its
+        yield (the stream would only count it as rejected). Dominance stays sound for them: a
+        part no looser than another at its value has value ranges inside the other's at every
+        operating corner and stage of life, so the lowest impedance and the highest noise over
+        those corners are no worse."""
+        block, spec = self._block, self._spec
+        req = spec.requirements
+        screened = req.max_output_noise_v_rms is not None or req.min_input_impedance_ohm > 0.0
         quad = group.quad
         firsts, seconds = group.first[start:stop].tolist(), group.second[start:stop].tolist()
         for (k1, k2), (k3, k4) in zip(firsts, seconds, strict=True):
@@ -494,12 +520,22 @@ class ClassQuadSearch:
                 block.part_row[quad[2], k3],
                 block.part_row[quad[3], k4],
             )
-            yield Design(
+            design = Design(
                 tuple(  # type: ignore[arg-type]
-                    Placement(f"R{i + 1}", catalog.discrete_part(int(row)))
-                    for i, row in enumerate(rows)
+                    Placement(f"R{i + 1}", self._part(int(row))) for i, row in enumerate(rows)
                 )
             )
+            if screened and not _value_checks_pass(design, spec):
+                continue
+            yield design
+
+    def _part(self, row: int) -> DiscretePart:
+        """The catalog's part of ``row``, looked up once (a table row costs a tenth of a
+        millisecond, and a search can place the same parts in many designs)."""
+        part = self._part_cache.get(row)
+        if part is None:
+            part = self._part_cache[row] = self._catalog.discrete_part(row)
+        return part
 
     def _half_bounds(
         self, quad: tuple[int, int, int, int], i: int, half: _Half
@@ -574,3 +610,27 @@ class ClassQuadSearch:
             float(values[second[0]]),
             float(values[second[1]]),
         ]
+
+
+def _value_checks_pass(design: Design, spec: Spec) -> bool:
+    """The spec's output-noise ceiling and input-impedance floor (``analysis.checks``; each
+    passes when the spec sets none)."""
+    return check_output_noise(design, spec).passed and all(
+        o.passed for o in check_input_impedance(design, spec)
+    )
+
+
+def nominal_impedance_reaches(
+    r1: Array, r3: Array, r4: Array, floor_ohm: float
+) -> NDArray[np.bool_]:
+    """Whether nominal values can meet an input-impedance floor (ohms; no REF impedance):
+    ``R1 + R3 ≥ Z`` and ``R1·(R3 + R4)/(R1 + R3) ≥ Z`` (``analysis.formulas``:
+    ``differential_input_resistance``, ``common_mode_input_resistance``), each less a relative
+    1e-9 against rounding. Necessary for ``analysis.checks.check_input_impedance``: both
+    resistances are monotone in each value (the common-mode one rises with R1 and R4, and with
+    R3 exactly when R1 > R4), so their least value over the box of a design's operating
+    corners, which holds the nominal values, lies at a corner and is at most the nominal one."""
+    floor = floor_ohm * (1.0 - 1e-9)
+    differential = differential_input_resistance(r1, r3)
+    common = common_mode_input_resistance(r1, r3, r4)
+    return np.asarray((differential >= floor) & (common >= floor), dtype=bool)

@@ -227,27 +227,38 @@ def _medium(dominated: bool = False) -> Catalog:
     return catalog_from_parts(parts, (), source="class-quads")
 
 
-#: (purpose, gain, floor dB, temperature range, preferences): floors where the cheapest
-#: designs sit at different grade mixes (measured with the reference: 600 to 3,300 exact
-#: checks each), and BOM line costs, which make a design's cost depend on how many distinct
-#: parts it places.
+#: (purpose, gain, floor dB, temperature range, preferences, requirements): floors where the
+#: cheapest designs sit at different grade mixes (measured with the reference: 600 to 3,300
+#: exact checks each), and BOM line costs, which make a design's cost depend on how many
+#: distinct parts it places. The last case adds an input-impedance floor (12 kΩ: four 10 kΩ
+#: parts give 9.8 kΩ common mode) and a noise ceiling (1.45 µV rms: four 20 kΩ parts give
+#: 1.51 µV, a 10 kΩ and a 20 kΩ side 1.35 µV, by ``analysis.checks``), which leave only the
+#: designs with both values, so with a line cost at least two lines.
 REFERENCE_CASES = [
-    ("G = 1, 44 dB, automotive", 1.0, 44.0, (-40, 125), ""),
-    ("G = 2, 46 dB, industrial", 2.0, 46.0, (-20, 85), ""),
-    ("G = 2, 52 dB, industrial", 2.0, 52.0, (-20, 85), ""),
-    ("G = 1, 44 dB, automotive, line cost 1.5", 1.0, 44.0, (-40, 125), ", line_cost: 1.5"),
+    ("G = 1, 44 dB, automotive", 1.0, 44.0, (-40, 125), "", ""),
+    ("G = 2, 46 dB, industrial", 2.0, 46.0, (-20, 85), "", ""),
+    ("G = 2, 52 dB, industrial", 2.0, 52.0, (-20, 85), "", ""),
+    ("G = 1, 44 dB, automotive, line cost 1.5", 1.0, 44.0, (-40, 125), ", line_cost: 1.5", ""),
     ("G = 2, 46 dB, industrial, line cost 0.5, placement cost 0.2", 2.0, 46.0, (-20, 85),
-     ", line_cost: 0.5, placement_cost: 0.2"),
+     ", line_cost: 0.5, placement_cost: 0.2", ""),
+    ("G = 1, 44 dB, automotive, line cost 1.5, impedance floor and noise ceiling", 1.0, 44.0,
+     (-40, 125), ", line_cost: 1.5", ", min_input_impedance: 12k, output_noise: {max: 1.45 uV}"),
 ]  # fmt: skip
 
 
-@pytest.mark.parametrize(("purpose", "gain", "floor", "temps", "prefs"), REFERENCE_CASES,
+@pytest.mark.parametrize(("purpose", "gain", "floor", "temps", "prefs", "req"), REFERENCE_CASES,
                          ids=[c[0] for c in REFERENCE_CASES])  # fmt: skip
 def test_the_pick_matches_the_independent_reference(
-    tmp_path: Path, purpose: str, gain: float, floor: float, temps: tuple[int, int], prefs: str
+    tmp_path: Path,
+    purpose: str,
+    gain: float,
+    floor: float,
+    temps: tuple[int, int],
+    prefs: str,
+    req: str,
 ) -> None:
     spec = _spec(tmp_path, gain=gain, floor=floor, tmin=temps[0], tmax=temps[1],
-                 prefs=SAMPLES + prefs)  # fmt: skip
+                 prefs=SAMPLES + prefs, req=YIELD + req)  # fmt: skip
     cat = _medium()
     assert frontier_applies(spec, Topology.DISCRETE, linear_environment(spec)), purpose
     ref = cheapest(spec, cat, 5, max_checks=20000)
@@ -311,3 +322,63 @@ def test_a_catalog_without_discrete_parts_leaves_the_search_empty(tmp_path: Path
                   time_limit_s=30.0)  # fmt: skip
     assert result.status is SearchStatus.OPTIMAL
     assert [c.design.topology for c in result.ranked] == [Topology.QUAD]
+
+
+def test_the_value_checks_screen_the_designs_before_they_leave(tmp_path: Path) -> None:
+    """With an impedance floor and a noise ceiling (the last reference case), every design the
+    search lets out passes ``analysis.checks``' input-impedance and noise checks, and the
+    search without them lets out designs that fail them (the screen is not idle)."""
+    from optimizer.analysis.checks import check_input_impedance, check_output_noise
+
+    cat = _medium()
+    extra = ", min_input_impedance: 12k, output_noise: {max: 1.45 uV}"
+
+    def first_designs(req: str) -> list[Design]:
+        spec = _spec(tmp_path, gain=1.0, floor=44.0, prefs=SAMPLES, req=YIELD + req)
+        problem = prepare(spec, cat)
+        search = ClassQuadSearch(spec, cat, problem.env, problem.block, lambda: False)
+        return [d for _, d in zip(range(40), search, strict=False)]
+
+    spec = _spec(tmp_path, gain=1.0, floor=44.0, prefs=SAMPLES, req=YIELD + extra)
+
+    def passes(design: Design) -> bool:
+        return check_output_noise(design, spec).passed and all(
+            o.passed for o in check_input_impedance(design, spec)
+        )
+
+    screened = first_designs(extra)
+    assert screened and all(passes(d) for d in screened)
+    assert not all(passes(d) for d in first_designs(""))
+
+
+@settings(max_examples=150, deadline=None)
+@given(
+    rows=st.lists(st.integers(min_value=0, max_value=10**6), min_size=4, max_size=4),
+    logs=st.lists(st.floats(min_value=2.0, max_value=6.0), min_size=4, max_size=4),
+)
+def test_the_nominal_impedance_screen_is_necessary(
+    tmp_path_factory: pytest.TempPathFactory, rows: list[int], logs: list[float]
+) -> None:
+    """A design that meets an input-impedance floor in ``analysis.checks.check_input_impedance``
+    (both resistances at every operating corner, start and end of life) passes
+    ``nominal_impedance_reaches``: random built-in parts at random values, five years of
+    drift, the floor at the design's own lowest resistance (so it passes with no margin)."""
+    from optimizer.analysis.checks import check_input_impedance
+    from optimizer.solve.classquads import nominal_impedance_reaches
+
+    spec = _spec(tmp_path_factory.mktemp("z"), gain=1.0, req=YIELD + ", operating_life: 43800 h")
+    cat = _builtin()
+    values = [10.0**x for x in logs]
+    parts = [
+        dataclasses.replace(cat.discrete_part(r % cat.discrete_count), resistance_ohm=v)
+        for r, v in zip(rows, values, strict=True)
+    ]
+    design = _design(parts)
+    floor = min(o.value for o in check_input_impedance(design, spec))  # no floor: values only
+    at_floor = dataclasses.replace(
+        spec, requirements=dataclasses.replace(spec.requirements, min_input_impedance_ohm=floor)
+    )
+    assert all(o.passed for o in check_input_impedance(design, at_floor))
+    assert nominal_impedance_reaches(
+        np.array(values[0]), np.array(values[2]), np.array(values[3]), floor
+    )
