@@ -13,7 +13,14 @@ from numpy.typing import NDArray
 from ..spec import Spec
 from . import yieldbox
 
-__all__ = ["deviation_bounds", "gain_window", "passing_counts", "screen_pairs"]
+__all__ = [
+    "GAIN_SLACK_PER_SIGMA",
+    "deviation_bounds",
+    "gain_conditions",
+    "gain_window",
+    "passing_counts",
+    "screen_pairs",
+]
 
 Array = NDArray[np.float64]
 
@@ -90,3 +97,70 @@ def passing_counts(
         end, mismatch, side="left"
     )
     return counts
+
+
+#: Relative narrowing of the gain conditions' quantiles per unit of the widest part's spread:
+#: the second derivatives of ``ln Adm`` in the parts' log deviations reach 1/2 (``ln c`` and
+#: ``−ln(1 − c)`` are log-logistic in ``ln R2 − ln R1``), twice those of ``ln x`` behind
+#: ``yieldbox.first_order_slack``.
+GAIN_SLACK_PER_SIGMA = 4.0
+
+
+def _log_gain_and_spread(
+    c: Array, a: Array, sigma: Array, eps: float, inv_a: float
+) -> tuple[Array, Array]:
+    """``ln Adm`` at the mean (``Adm = (a(1+ε) + c(1−ε))/(2(1/A + (1−c)(1−ε)))``,
+    ``analysis.balance.differential_gain_from_terms``) and its first-order spread
+    ``σ_g² = (q(1−c))²(σ₁² + σ₂²) + (p(1−a))²(σ₃² + σ₄²)``: ``p = ∂ln Adm/∂ln a =
+    a(1+ε)/N``, ``q = ∂ln Adm/∂ln c = c(1−ε)/N + c(1−ε)/D`` (``N``, ``D``: numerator and
+    bracket of the denominator), and ``∂ln c/∂ln R2 = −∂ln c/∂ln R1 = 1 − c`` (likewise ``a``
+    with R4, R3). Dimensionless."""
+    num = a * (1.0 + eps) + c * (1.0 - eps)
+    den = inv_a + (1.0 - c) * (1.0 - eps)
+    p = a * (1.0 + eps) / num
+    q = c * (1.0 - eps) / num + c * (1.0 - eps) / den
+    spread = np.sqrt(
+        (q * (1.0 - c)) ** 2 * (sigma[0] ** 2 + sigma[1] ** 2)
+        + (p * (1.0 - a)) ** 2 * (sigma[2] ** 2 + sigma[3] ** 2)
+    )
+    return np.log(num / (2.0 * den)), spread
+
+
+def gain_conditions(
+    c: Array,
+    a: Array,
+    sigma: Array,
+    window: tuple[float, float],
+    amplifier: tuple[float, tuple[float, ...], float],
+    z: float,
+    z_two: float,
+) -> NDArray[np.bool_]:
+    """The linearised gain conditions of a yield for many designs at once, with no source or
+    REF impedance: the Monte Carlo passes a build only if its highest gain (``A = ∞``,
+    ``ε = +eps_abs``) is at most ``G_hi`` and its lowest (``1/A = inv_a``, ``ε`` in
+    ``eps_low``) at least ``G_lo`` (``analysis.montecarlo``, ``window = (G_lo, G_hi)``,
+    ``amplifier = (eps_abs, eps_low, inv_a)`` of ``judging_corners``). To first order each
+    log gain is its mean value plus a symmetric unimodal sum of the four positions' own log
+    deviations (``yieldbox``), spread ``σ_g`` (:func:`_log_gain_and_spread`), so a yield ``Y``
+    needs ``m_hi + z·σ_hi ≤ ln G_hi`` and ``m_lo − z·σ_lo ≥ ln G_lo``, and, since the lowest
+    gain of a passing build lies inside the whole window, for normal parts
+    ``(ln G_hi − ln G_lo)/2 ≥ z₂·σ_lo`` (the two tails at once, as ``yieldbox``). ``z``, ``z₂``
+    are narrowed by ``0.01 + GAIN_SLACK_PER_SIGMA·σ_max`` against the second-order terms.
+    ``c``, ``a``: the bridge terms at the mean resistances; ``sigma``: R1..R4. True where all
+    hold. Dimensionless."""
+    g_lo, g_hi = window
+    eps_abs, eps_low, inv_a = amplifier
+    narrow = 1.0 - (0.01 + GAIN_SLACK_PER_SIGMA * float(np.max(sigma)))
+    if narrow <= 0.0:
+        return np.ones(np.shape(c), dtype=bool)
+    zn, z2n = z * narrow, z_two * narrow
+    m_hi, s_hi = _log_gain_and_spread(c, a, sigma, eps_abs, 0.0)
+    ok = m_hi + zn * s_hi <= math.log(g_hi) * (1.0 + 1e-12) + 1e-12
+    lows = [_log_gain_and_spread(c, a, sigma, eps, inv_a) for eps in eps_low]
+    for m_lo, s_lo in lows:
+        ok &= m_lo - zn * s_lo >= math.log(g_lo) - 1e-12 - 1e-12 * abs(math.log(g_lo))
+    if z_two > 0.0:
+        least = np.minimum.reduce([s for _, s in lows])
+        ok &= z2n * least <= (math.log(g_hi) - math.log(g_lo)) / 2.0 + 1e-12
+    result: NDArray[np.bool_] = np.asarray(ok, dtype=bool)
+    return result

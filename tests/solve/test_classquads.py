@@ -227,7 +227,7 @@ def _medium(dominated: bool = False) -> Catalog:
     return catalog_from_parts(parts, (), source="class-quads")
 
 
-#: (purpose, gain, floor dB, temperature range, preferences, requirements): floors where the
+#: (purpose, gain, floor dB, temperature range, preferences, other fields): floors where the
 #: cheapest designs sit at different grade mixes (measured with the reference: 600 to 3,300
 #: exact checks each), and BOM line costs, which make a design's cost depend on how many
 #: distinct parts it places. The last case adds an input-impedance floor (12 kΩ: four 10 kΩ
@@ -235,18 +235,21 @@ def _medium(dominated: bool = False) -> Catalog:
 #: 1.51 µV, a 10 kΩ and a 20 kΩ side 1.35 µV, by ``analysis.checks``), which leave only the
 #: designs with both values, so with a line cost at least two lines.
 REFERENCE_CASES = [
-    ("G = 1, 44 dB, automotive", 1.0, 44.0, (-40, 125), "", ""),
-    ("G = 2, 46 dB, industrial", 2.0, 46.0, (-20, 85), "", ""),
-    ("G = 2, 52 dB, industrial", 2.0, 52.0, (-20, 85), "", ""),
-    ("G = 1, 44 dB, automotive, line cost 1.5", 1.0, 44.0, (-40, 125), ", line_cost: 1.5", ""),
+    ("G = 1, 44 dB, automotive", 1.0, 44.0, (-40, 125), "", {}),
+    ("G = 2, 46 dB, industrial", 2.0, 46.0, (-20, 85), "", {}),
+    ("G = 2, 52 dB, industrial", 2.0, 52.0, (-20, 85), "", {}),
+    ("G = 1, 44 dB, automotive, line cost 1.5", 1.0, 44.0, (-40, 125), ", line_cost: 1.5", {}),
     ("G = 2, 46 dB, industrial, line cost 0.5, placement cost 0.2", 2.0, 46.0, (-20, 85),
-     ", line_cost: 0.5, placement_cost: 0.2", ""),
+     ", line_cost: 0.5, placement_cost: 0.2", {}),
     ("G = 1, 44 dB, automotive, line cost 1.5, impedance floor and noise ceiling", 1.0, 44.0,
-     (-40, 125), ", line_cost: 1.5", ", min_input_impedance: 12k, output_noise: {max: 1.45 uV}"),
+     (-40, 125), ", line_cost: 1.5",
+     {"req": YIELD + ", min_input_impedance: 12k, output_noise: {max: 1.45 uV}"}),
+    ("G = 2, 44 dB, industrial, 0.3 % gain: the gain conditions bind", 2.0, 44.0, (-20, 85),
+     "", {"acc": 0.3}),
 ]  # fmt: skip
 
 
-@pytest.mark.parametrize(("purpose", "gain", "floor", "temps", "prefs", "req"), REFERENCE_CASES,
+@pytest.mark.parametrize(("purpose", "gain", "floor", "temps", "prefs", "extra"), REFERENCE_CASES,
                          ids=[c[0] for c in REFERENCE_CASES])  # fmt: skip
 def test_the_pick_matches_the_independent_reference(
     tmp_path: Path,
@@ -255,10 +258,10 @@ def test_the_pick_matches_the_independent_reference(
     floor: float,
     temps: tuple[int, int],
     prefs: str,
-    req: str,
+    extra: dict[str, object],
 ) -> None:
     spec = _spec(tmp_path, gain=gain, floor=floor, tmin=temps[0], tmax=temps[1],
-                 prefs=SAMPLES + prefs, req=YIELD + req)  # fmt: skip
+                 prefs=SAMPLES + prefs, **extra)  # fmt: skip
     cat = _medium()
     assert frontier_applies(spec, Topology.DISCRETE, linear_environment(spec)), purpose
     ref = cheapest(spec, cat, 5, max_checks=20000)
@@ -382,3 +385,70 @@ def test_the_nominal_impedance_screen_is_necessary(
     assert nominal_impedance_reaches(
         np.array(values[0]), np.array(values[2]), np.array(values[3]), floor
     )
+
+
+gain_values = st.sampled_from([1e3, 2e3, 4.99e3, 10e3, 20e3, 49.9e3, 100e3])
+gain_grades = st.sampled_from([0.0005, 0.001, 0.0025, 0.005, 0.01, 0.02, 0.05])
+gain_tempcos = st.sampled_from([5e-6, 25e-6, 50e-6, 100e-6, 200e-6])
+
+
+@settings(max_examples=150, deadline=None)
+@given(
+    r1=gain_values,
+    gain=st.sampled_from([0.47, 1.0, 2.0, 5.0, 10.0, 100.0]),
+    off=st.floats(-0.01, 0.01),
+    parts=st.lists(st.tuples(gain_grades, gain_tempcos), min_size=4, max_size=4),
+    scale=st.floats(0.3, 1.5),
+    yield_target=st.sampled_from([0.9, 0.99, 0.999]),
+    amplifier=st.sampled_from([("ideal", "ideal"), ("80 dB", "90 dB"), ("100 dB", "70 dB")]),
+)
+def test_the_gain_conditions_never_drop_a_design_the_monte_carlo_passes(
+    tmp_path_factory: pytest.TempPathFactory,
+    r1: float,
+    gain: float,
+    off: float,
+    parts: list[tuple[float, float]],
+    scale: float,
+    yield_target: float,
+    amplifier: tuple[str, str],
+) -> None:
+    """``pairbounds.gain_conditions`` is necessary for the Monte Carlo's gain accuracy: a
+    four-discrete design (R2 and R4 ``off`` the exact ratio), its gain accuracy at ``scale``
+    times its own largest gain error among the builds' 1 and 99 % points (both sides of the
+    edge occur), ideal and finite amplifiers: whenever the exact check's Monte Carlo meets the
+    accuracy at the yield target, the conditions hold at the design's mean terms and spreads
+    (``yieldbox.DesignScreen.position``, as ``ClassQuadSearch`` takes them)."""
+    from optimizer.analysis.montecarlo import judging_corners
+    from optimizer.solve.pairbounds import gain_conditions
+    from optimizer.solve.yieldbox import DesignScreen, quantiles, two_sided_quantile
+
+    values_ohm = (r1, r1 * gain * (1.0 + off), r1, r1 * gain)
+    placed = [
+        DiscretePart(f"HG-{i}", v, t, tc, "0603", 0.1, 75.0, 1.0)
+        for i, (v, (t, tc)) in enumerate(zip(values_ohm, parts, strict=True))
+    ]
+    design = _design(placed)
+    tmp = tmp_path_factory.mktemp("gain")
+    cmrr, aol = amplifier
+    fields = dict(gain=gain, floor=20, tmin=-20, tmax=85, topologies="four_discrete",
+                  amp_cmrr=cmrr, aol=aol, vd=0.01,
+                  req=f", cmrr_basis: yield, yield: {yield_target * 100:g} %", prefs=SAMPLES)  # fmt: skip
+    (tmp / "s.yaml").write_text(spec_text(fields), encoding="utf-8")
+    spec = load_spec(str(tmp / "s.yaml"))
+    errors = dict(monte_carlo(design, spec).gain_error_percentiles)
+    spread = max(abs(errors[min(errors)]), abs(errors[max(errors)]))
+    accuracy = min(max(spread * scale, 1e-6), 0.5)
+    req = dataclasses.replace(spec.requirements, gain_accuracy=accuracy)
+    spec = dataclasses.replace(spec, requirements=req)
+    if monte_carlo(design, spec).gain_pass_fraction < yield_target:
+        return
+    screen = DesignScreen(spec, linear_environment(spec), 1.0)
+    placed_at = [screen.position(p, None) for p in placed]
+    r = np.array([m for m, _ in placed_at])
+    sigma = np.array([s for _, s in placed_at])
+    c, a = np.array([r[1] / (r[0] + r[1])]), np.array([r[3] / (r[2] + r[3])])
+    judging = judging_corners(environment_from_spec(spec))
+    window = (req.gain * (1.0 - accuracy), req.gain * (1.0 + accuracy))
+    amp = (judging.eps_abs, judging.eps_low, judging.inv_open_loop_gain)
+    z = quantiles(spec) or 0.0
+    assert gain_conditions(c, a, sigma, window, amp, z, two_sided_quantile(spec))[0]
