@@ -102,6 +102,8 @@ from .environment import LinearEnvironment
 from .pairbounds import (
     deviation_bounds,
     gain_conditions,
+    gain_spread_fits,
+    gain_spread_floor,
     gain_window,
     passing_counts,
     screen_pairs,
@@ -401,6 +403,9 @@ class ClassQuadSearch:
             return None
         rho_a = np.exp(first.logs)
         cc = rho_a / (1.0 + rho_a)
+        floor_g = gain_spread_floor((float(cc[0]), float(cc[-1])), sigma, self._amplifier)
+        if not gain_spread_fits(floor_g, sigma, self._gain_limits, self._z_two):
+            return None  # no ratio pair of these classes meets the gain conditions
         rho_b = np.exp(second.logs)
         aa = rho_b / (1.0 + rho_b)
         # Ratio pairs with |ln c − ln a| ≤ Λ (a within [c·e^−Λ, c·e^Λ]), nominal gain inside
@@ -412,17 +417,21 @@ class ClassQuadSearch:
         ib_all = (
             np.arange(int(counts.sum())) - np.repeat(np.cumsum(counts) - counts, counts)
         ) + np.repeat(lo_b, counts)
+        # The conditions one after another, each on the survivors of the one before (the
+        # pairs of a high gain at a loose floor run to millions).
         c_all, a_all = cc[ia_all], aa[ib_all]
         adm = (a_all + c_all) / (2.0 * (1.0 - c_all))
-        keep = (adm >= low) & (adm <= high)
-        keep &= screen_pairs(c_all, a_all, sigma, balance, self._z, self._z_two)
-        keep &= gain_conditions(
+        keep = np.flatnonzero((adm >= low) & (adm <= high))
+        keep = keep[screen_pairs(c_all[keep], a_all[keep], sigma, balance, self._z, self._z_two)]
+        c_all, a_all = c_all[keep], a_all[keep]
+        ok = gain_conditions(
             c_all, a_all, sigma, self._gain_limits, self._amplifier, self._z, self._z_two
         )
-        if not keep.any():
+        keep, c_all, a_all = keep[ok], c_all[ok], a_all[ok]
+        if keep.size == 0:
             return None
         ia_all, ib_all = ia_all[keep], ib_all[keep]
-        signed = np.log(c_all[keep] / a_all[keep])
+        signed = np.log(c_all / a_all)
         # The builds' own draws: pairs that cannot reach the yield whatever their values.
         counts = passing_counts(
             self._half_bounds(quad, 0, first), self._half_bounds(quad, 2, second), signed, balance

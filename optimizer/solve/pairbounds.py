@@ -17,6 +17,8 @@ __all__ = [
     "GAIN_SLACK_PER_SIGMA",
     "deviation_bounds",
     "gain_conditions",
+    "gain_spread_fits",
+    "gain_spread_floor",
     "gain_window",
     "passing_counts",
     "screen_pairs",
@@ -164,3 +166,35 @@ def gain_conditions(
         ok &= z2n * least <= (math.log(g_hi) - math.log(g_lo)) / 2.0 + 1e-12
     result: NDArray[np.bool_] = np.asarray(ok, dtype=bool)
     return result
+
+
+def gain_spread_floor(
+    c_range: tuple[float, float], sigma: Array, amplifier: tuple[float, tuple[float, ...], float]
+) -> float:
+    """A lower bound of the lowest gain's spread ``σ_lo`` of :func:`gain_conditions` over
+    every design whose ``c`` lies in ``c_range``: ``σ_lo ≥ q(1−c)·√(σ₁² + σ₂²)`` and
+    ``q(1−c) ≥ f(c) = c(1−c)(1−ε)/(1/A + (1−c)(1−ε))`` (the first term of ``q`` dropped),
+    which rises and then falls in ``c``, so its least over the range is at an end; the least
+    over the signs ``ε`` of ``eps_low``. Dimensionless."""
+    _, eps_low, inv_a = amplifier
+    ends = np.array(c_range, dtype=float)
+    least = math.inf
+    for eps in eps_low:
+        k = 1.0 - eps
+        f = ends * (1.0 - ends) * k / (inv_a + (1.0 - ends) * k)
+        least = min(least, float(f.min()))
+    return least * math.sqrt(float(sigma[0] ** 2 + sigma[1] ** 2))
+
+
+def gain_spread_fits(
+    spread_floor: float, sigma: Array, window: tuple[float, float], z_two: float
+) -> bool:
+    """Whether a quadruple can pass the two-tailed condition of :func:`gain_conditions`,
+    ``z₂·narrow·σ_lo ≤ (ln G_hi − ln G_lo)/2``, at the least spread its designs can have
+    (:func:`gain_spread_floor`), with the same narrowing: False only when every ratio pair
+    of it fails :func:`gain_conditions`."""
+    narrow = 1.0 - (0.01 + GAIN_SLACK_PER_SIGMA * float(np.max(sigma)))
+    if narrow <= 0.0 or z_two <= 0.0:
+        return True
+    g_lo, g_hi = window
+    return z_two * narrow * spread_floor <= (math.log(g_hi) - math.log(g_lo)) / 2.0 + 1e-12

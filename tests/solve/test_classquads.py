@@ -452,3 +452,36 @@ def test_the_gain_conditions_never_drop_a_design_the_monte_carlo_passes(
     amp = (judging.eps_abs, judging.eps_low, judging.inv_open_loop_gain)
     z = quantiles(spec) or 0.0
     assert gain_conditions(c, a, sigma, window, amp, z, two_sided_quantile(spec))[0]
+
+
+@settings(max_examples=300, deadline=None)
+@given(
+    ends=st.tuples(st.floats(0.05, 0.995), st.floats(0.05, 0.995)),
+    at=st.floats(0.0, 1.0),
+    a=st.floats(0.01, 0.999),
+    sigma=st.lists(st.floats(1e-5, 0.05), min_size=4, max_size=4),
+    eps=st.sampled_from([0.0, 5e-5, 5e-4]),
+    inv_a=st.sampled_from([0.0, 1e-5, 1e-3]),
+)
+def test_the_gain_spread_floor_is_below_every_spread_it_bounds(
+    ends: tuple[float, float],
+    at: float,
+    a: float,
+    sigma: list[float],
+    eps: float,
+    inv_a: float,
+) -> None:
+    """``pairbounds.gain_spread_floor`` over a range of ``c`` is at most the lowest gain's
+    spread of ``gain_conditions`` (``_log_gain_and_spread``, the chain rule of ``ln Adm``) at
+    every ``c`` of the range and every ``a``, for each sign of the amplifier's error: so the
+    quadruple filter built on it drops nothing ``gain_conditions`` would keep."""
+    from optimizer.solve.pairbounds import _log_gain_and_spread, gain_spread_floor
+
+    lo, hi = min(ends), max(ends)
+    c = lo + at * (hi - lo)
+    s = np.array(sigma)
+    amplifier = (eps, (eps, -eps) if eps else (0.0,), inv_a)
+    floor = gain_spread_floor((lo, hi), s, amplifier)
+    for sign in amplifier[1]:
+        _, spread = _log_gain_and_spread(np.array([c]), np.array([a]), s, sign, inv_a)
+        assert floor <= float(spread[0]) * (1.0 + 1e-12)
