@@ -398,14 +398,18 @@ class ClassQuadSearch:
         if max(self._z, self._z_two) * narrow * self._s_min * spread > balance * (1 + 1e-9):
             return None
         first = self._half(0, c1, c2, low, high)
+        if first.logs.size == 0:
+            return None
+        ends = np.exp(first.logs[[0, -1]])
+        c_ends = ends / (1.0 + ends)
+        floor_g = gain_spread_floor((float(c_ends[0]), float(c_ends[1])), sigma, self._amplifier)
+        if not gain_spread_fits(floor_g, sigma, self._gain_limits, self._z_two):
+            return None  # no ratio pair of these classes meets the gain conditions
         second = self._half(2, c3, c4, low, high)
-        if first.logs.size == 0 or second.logs.size == 0:
+        if second.logs.size == 0:
             return None
         rho_a = np.exp(first.logs)
         cc = rho_a / (1.0 + rho_a)
-        floor_g = gain_spread_floor((float(cc[0]), float(cc[-1])), sigma, self._amplifier)
-        if not gain_spread_fits(floor_g, sigma, self._gain_limits, self._z_two):
-            return None  # no ratio pair of these classes meets the gain conditions
         rho_b = np.exp(second.logs)
         aa = rho_b / (1.0 + rho_b)
         # Ratio pairs with |ln c − ln a| ≤ Λ (a within [c·e^−Λ, c·e^Λ]), nominal gain inside
