@@ -1,12 +1,20 @@
 """The canonical battery: plain specs a user would write first, each with its purpose beside it.
 
-Data only (used by ``tests/solve/test_battery.py``). Each entry is ``(purpose, fields, catalog)``:
+The specs and the catalogs they draw on (used by ``tests/solve/test_battery.py``,
+``tests/solve/test_classquads.py`` and the benchmark). Each entry is ``(purpose, fields, catalog)``:
 ``fields`` fill :data:`SPEC` (defaults in :func:`spec_text`), ``catalog`` names the parts the
 spec draws on (:data:`CATALOGS`). Every scenario is our own invention (demo data); no number
 here is a check value: the checks compare the pick with the independent reference search.
 """
 
 from __future__ import annotations
+
+import functools
+
+from helpers import ROOT
+
+from optimizer.catalog import Catalog, builtin_catalog, catalog_from_parts, load_catalogs
+from optimizer.parts import DiscretePart, NetworkPart
 
 #: The spec file of a battery entry (YAML, README "The spec file").
 SPEC = """quartet_spec: 1
@@ -156,3 +164,30 @@ def spec_text(fields: dict[str, object]) -> str:
     if "vd" not in fields:  # keep the output inside the ±15 V rails with room to spare
         values["vd"] = round(min(1.0, 5.0 / float(str(values["gain"]))), 4)
     return SPEC.format(**values)
+
+
+def small_catalog() -> Catalog:
+    """Invented parts for the yield-basis specs (demo data): three grades at 10 k and 20 k, a
+    gain-2 quad and a 10 k/20 k dual. Every one of its designs is checked by the Monte Carlo,
+    so it must stay small (6⁴ discrete designs)."""
+    grades = [("A", 0.01, 100e-6, 1.0), ("B", 0.005, 50e-6, 2.5), ("C", 0.001, 25e-6, 6.0)]
+    discrete = [
+        DiscretePart(f"SM-{g}-{int(v / 1000)}K", v, t, tc, "0603", 0.1, 75.0, cost)
+        for g, t, tc, cost in grades
+        for v in (10e3, 20e3)
+    ]
+    networks = [
+        NetworkPart("SMN-Q2", (10e3, 20e3, 10e3, 20e3), 0.005, 0.001, 25e-6, 5e-6, 0.1, 80.0, 9.0),
+        NetworkPart("SMN-D2", (10e3, 20e3), 0.005, 0.001, 25e-6, 5e-6, 0.1, 80.0, 5.0),
+    ]
+    return catalog_from_parts(discrete, networks, source="battery-small")
+
+
+@functools.cache
+def catalog(kind: str) -> Catalog:
+    """The catalog a battery entry names (:data:`CATALOGS`), built once."""
+    if kind == "builtin":
+        return builtin_catalog()
+    if kind == "stock":
+        return load_catalogs([str(ROOT / f) for f in STOCK_FILES])
+    return small_catalog()

@@ -146,3 +146,33 @@ def test_the_pick_status_is_read_from_the_real_json(tmp_path: Path) -> None:
         bench.check_status("time_limit", 3, (bench.PROVEN,))
     with pytest.raises(bench.RunFailed, match="with no design ranked"):
         bench.check_status("time_limit", 0, (bench.PROVEN, "time_limit"))
+
+
+def test_every_module_the_script_imports_is_there() -> None:
+    """Every module the script imports, at the top or inside a section (the sections the smoke
+    runs leave out import theirs only when they run), resolves with the tests folder on the
+    path, as the script puts it: a moved or renamed helper fails here, not in a full run."""
+    import ast
+
+    tests_dir = str(SCRIPT.resolve().parent.parent)
+    tree = ast.parse(SCRIPT.read_text(encoding="utf-8"))
+    wanted = {
+        node.module
+        for node in ast.walk(tree)
+        if isinstance(node, ast.ImportFrom) and node.module and node.level == 0
+    } | {
+        alias.name
+        for node in ast.walk(tree)
+        if isinstance(node, ast.Import)
+        for alias in node.names
+    }
+    assert "battery" in wanted and "reference.cheapest" in wanted
+    added = tests_dir not in sys.path
+    if added:
+        sys.path.insert(0, tests_dir)
+    try:
+        missing = sorted(name for name in wanted if importlib.util.find_spec(name) is None)
+    finally:
+        if added:
+            sys.path.remove(tests_dir)
+    assert not missing

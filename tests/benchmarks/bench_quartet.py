@@ -493,9 +493,8 @@ def bench_battery(runs: int, tmp: str) -> list[dict[str, Any]]:
     tests_dir = os.path.join(os.path.dirname(os.path.abspath(__file__)), os.pardir)
     if tests_dir not in sys.path:
         sys.path.insert(0, tests_dir)
-    from battery import BATTERY, spec_text  # the battery's one definition
+    from battery import BATTERY, catalog, spec_text  # the battery's one definition
     from reference.cheapest import cheapest
-    from test_battery import catalog
 
     rows = []
     for purpose, fields, kind in BATTERY:

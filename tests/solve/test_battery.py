@@ -15,21 +15,19 @@ there lie inside its range.
 
 from __future__ import annotations
 
-import functools
 import math
 import random
 from pathlib import Path
 
 import numpy as np
 import pytest
-from battery import BATTERY, STOCK_FILES, spec_text
-from helpers import ROOT
+from battery import BATTERY, catalog, spec_text
 from reference.cheapest import cheapest, conditions, corner_screen, element_bounds, identity
 
 from optimizer.analysis.worstcase import worst_case
-from optimizer.catalog import Catalog, builtin_catalog, catalog_from_parts, load_catalogs
+from optimizer.catalog import Catalog
 from optimizer.design import Design, Placement
-from optimizer.parts import DiscretePart, NetworkPart
+from optimizer.parts import NetworkPart
 from optimizer.solve.search import SearchStatus, pick
 from optimizer.spec import Spec
 from optimizer.specfile import load_spec
@@ -39,32 +37,6 @@ TOP = 10
 #: Seconds the pick gets per spec: far above the ~0.5 s it needs on the enumerated specs, and
 #: room for the one CP-SAT-served spec (13-30 s measured on a loaded machine).
 PICK_LIMIT_S = 90.0
-
-
-def small_catalog() -> Catalog:
-    """Invented parts for the yield-basis specs (demo data): three grades at 10 k and 20 k, a
-    gain-2 quad and a 10 k/20 k dual. Every one of its designs is checked by the Monte Carlo,
-    so it must stay small (6⁴ discrete designs)."""
-    grades = [("A", 0.01, 100e-6, 1.0), ("B", 0.005, 50e-6, 2.5), ("C", 0.001, 25e-6, 6.0)]
-    discrete = [
-        DiscretePart(f"SM-{g}-{int(v / 1000)}K", v, t, tc, "0603", 0.1, 75.0, cost)
-        for g, t, tc, cost in grades
-        for v in (10e3, 20e3)
-    ]
-    networks = [
-        NetworkPart("SMN-Q2", (10e3, 20e3, 10e3, 20e3), 0.005, 0.001, 25e-6, 5e-6, 0.1, 80.0, 9.0),
-        NetworkPart("SMN-D2", (10e3, 20e3), 0.005, 0.001, 25e-6, 5e-6, 0.1, 80.0, 5.0),
-    ]
-    return catalog_from_parts(discrete, networks, source="battery-small")
-
-
-@functools.cache
-def catalog(kind: str) -> Catalog:
-    if kind == "builtin":
-        return builtin_catalog()
-    if kind == "stock":
-        return load_catalogs([str(ROOT / f) for f in STOCK_FILES])
-    return small_catalog()
 
 
 def load(tmp_path: Path, fields: dict[str, object]) -> Spec:
