@@ -99,6 +99,7 @@ from ..spec import DriftModel, Objective, Spec, StockPolicy
 from . import yieldbox
 from .discrete import DiscreteBlock
 from .environment import LinearEnvironment
+from .frontier import cached_part
 from .pairbounds import (
     deviation_bounds,
     gain_conditions,
@@ -227,6 +228,8 @@ class ClassQuadSearch:
             )
             self._own[c] = (alone.tolerance[0], alone.tempco_per_k[0], alone.drift[0])
         self._halves: dict[tuple[int, int, int], _Half] = {}
+        # Parts looked up once (a table row costs a tenth of a millisecond, and a search can
+        # place the same parts in many designs).
         self._part_cache: dict[int, DiscretePart] = {}
         self._environment = environment_from_spec(spec)
         prefs = spec.preferences
@@ -555,20 +558,13 @@ class ClassQuadSearch:
             )
             design = Design(
                 tuple(  # type: ignore[arg-type]
-                    Placement(f"R{i + 1}", self._part(int(row))) for i, row in enumerate(rows)
+                    Placement(f"R{i + 1}", cached_part(self._catalog, int(row), self._part_cache))
+                    for i, row in enumerate(rows)
                 )
             )
             if screened and not _value_checks_pass(design, spec):
                 continue
             yield design
-
-    def _part(self, row: int) -> DiscretePart:
-        """The catalog's part of ``row``, looked up once (a table row costs a tenth of a
-        millisecond, and a search can place the same parts in many designs)."""
-        part = self._part_cache.get(row)
-        if part is None:
-            part = self._part_cache[row] = self._catalog.discrete_part(row)
-        return part
 
     def _half_bounds(
         self, quad: tuple[int, int, int, int], i: int, half: _Half

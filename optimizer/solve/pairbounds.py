@@ -10,6 +10,7 @@ import math
 import numpy as np
 from numpy.typing import NDArray
 
+from ..analysis.balance import differential_gain_from_terms
 from ..spec import Spec
 from . import yieldbox
 
@@ -125,7 +126,7 @@ def _log_gain_and_spread(
         (q * (1.0 - c)) ** 2 * (sigma[0] ** 2 + sigma[1] ** 2)
         + (p * (1.0 - a)) ** 2 * (sigma[2] ** 2 + sigma[3] ** 2)
     )
-    return np.log(num / (2.0 * den)), spread
+    return np.log(differential_gain_from_terms(a, c, eps, inv_a)), spread
 
 
 def gain_conditions(
