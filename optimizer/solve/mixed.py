@@ -175,17 +175,143 @@ def _emit(
 ) -> Iterator[Design]:
     """Merge the placements (taken in order of their bound) into one stream of designs in exact
     cost order (the scheme of ``frontier._emit``: bound entries, replaced by exact costs, with
-    the other parts of the same class and value as successors); ``screen``: see
-    :func:`mixed_frontier`."""
-    part_cache: dict[int, DiscretePart] = {}
-    kappa = box_factor(spec)
+    the other parts of the same class and value as successors; :class:`_Merge`); ``screen``:
+    see :func:`mixed_frontier`."""
+    merge = _Merge(spec, catalog, parts, lim, cands, duals, windows, halves, screen)
+    return merge.designs(bounds, should_stop, ceiling)
+
+
+#: A bound or exact entry's payload: the placement's index, the free positions' (class, value)
+#: pairs, and which part of each (``ClassParts.variants``) they take.
+_Entry = tuple[int, tuple[tuple[int, int], tuple[int, int]], tuple[int, int]]
+
+
+class _Merge:
+    """The heap of :func:`_emit` and what its steps share: entries ``(key, kind, tick,
+    payload)`` of the kinds ``HEAP_*`` (an exact design, a bound of one design, a placement's
+    block of candidates), the placements' blocks opened so far, the parts looked up and the
+    successors already pushed."""
+
+    def __init__(
+        self,
+        spec: Spec,
+        catalog: Catalog,
+        parts: ClassParts,
+        lim: ScreenLimits,
+        cands: PlacementCandidates,
+        duals: list[DualPlacement],
+        windows: list[tuple[float, float]],
+        halves: dict[int, SortedHalf],
+        screen: DesignScreen | None,
+    ) -> None:
+        self.spec, self.catalog, self.parts, self.lim = spec, catalog, parts, lim
+        self.cands, self.duals, self.windows, self.halves = cands, duals, windows, halves
+        self.screen = screen
+        self.kappa = box_factor(spec)
+        self.part_cache: dict[int, DiscretePart] = {}
+        self.heap: list[tuple[float, int, int, object]] = []
+        self.tick = itertools.count()
+        self.seen: set[tuple[object, ...]] = set()
+        self.blocks: list[PlacementBlock] = []
+
+    def push(self, key: float, kind: int, payload: object) -> None:
+        heapq.heappush(self.heap, (key, kind, next(self.tick), payload))
+
+    def designs(
+        self, bounds: Array, should_stop: Callable[[], bool], ceiling: Callable[[], float]
+    ) -> Iterator[Design]:
+        """The designs in exact cost order, none dearer than ``ceiling()``: the next placement
+        opens whenever its bound is below the heap's least key (at a tie, before anything but
+        an exact design)."""
+        heap, duals = self.heap, self.duals
+        next_dual = 0
+        while not should_stop():
+            top = heap[0][0] if heap else math.inf
+            top_exact = bool(heap) and heap[0][1] == HEAP_EXACT
+            if min(top, bounds[next_dual] if next_dual < len(duals) else math.inf) > ceiling():
+                return  # every design left is dearer than the caller wants
+            if next_dual < len(duals) and (
+                bounds[next_dual] < top or (bounds[next_dual] == top and not top_exact)
+            ):
+                self.open(next_dual)
+                next_dual += 1
+                continue
+            if not heap:
+                return
+            key, kind, _, payload = heapq.heappop(heap)
+            if kind == HEAP_BLOCK:
+                self.take_block(key, cast(tuple[int, int], payload))
+                continue
+            d, electrical, choice = cast(_Entry, payload)
+            dual = duals[d]
+            lists = [self.parts.variants(dual.free[n], electrical[n]) for n in range(2)]
+            rows = (lists[0][choice[0]][1], lists[1][choice[1]][1])
+            if kind == HEAP_EXACT:
+                yield _design(dual, rows, self.catalog, self.part_cache)
+                continue
+            self.take_bound(key, (d, electrical, choice), lists, rows)
+
+    def open(self, d: int) -> None:
+        """A placement's candidates become a block, ordered and screened when the merge
+        reaches it."""
+        keys, lbs = placement_candidates(
+            self.duals[d], self.windows[d], self.parts, self.lim, self.cands, self.halves
+        )
+        block = PlacementBlock(self.duals[d], keys, lbs, self.parts, self.lim)
+        self.blocks.append(block)
+        if keys.shape[0]:
+            self.push(block.least(), HEAP_BLOCK, (d, -1))
+
+    def take_block(self, key: float, payload: tuple[int, int]) -> None:
+        """A block's entry reached the top: a fresh block puts its first usable entry in at its
+        own bound; an entry puts the block's next one back and enters as a bound entry if its
+        electrical design passes the yield screen."""
+        d, at = payload
+        block = self.blocks[d]
+        if at < 0:  # a fresh block: its first usable entry, at its own bound
+            first = block.usable(0)
+            if first is not None:
+                self.push(block.bound(first), HEAP_BLOCK, (d, first))
+            return
+        after = block.usable(at + 1)
+        if after is not None:
+            self.push(block.bound(after), HEAP_BLOCK, (d, after))
+        k = block.key(at)
+        electrical = ((k[0], k[1]), (k[2], k[3]))
+        if self.electrical_passes(self.duals[d], electrical):
+            self.push(key, HEAP_BOUND, (d, electrical, (0, 0)))
+
+    def take_bound(
+        self,
+        key: float,
+        entry: _Entry,
+        lists: list[list[tuple[float, int]]],
+        rows: tuple[int, int],
+    ) -> None:
+        """A bound entry: its exact cost goes back into the heap, and so do the other parts of
+        the same classes and values as successors (at their part costs plus the lines)."""
+        d, electrical, choice = entry
+        dual = self.duals[d]
+        picked = [cached_part(self.catalog, row, self.part_cache) for row in rows]
+        cost = parts_cost([dual.network, *picked], self.spec.preferences).total
+        self.push(exact_key(cost, key), HEAP_EXACT, (d, electrical, choice))
+        lines = self.parts.lines_charge(electrical)
+        for n in range(2):
+            if choice[n] + 1 < len(lists[n]):
+                nxt = (choice[0] + (n == 0), choice[1] + (n == 1))
+                if (d, electrical, nxt) in self.seen:
+                    continue
+                self.seen.add((d, electrical, nxt))
+                bound_next = dual.cost + lists[0][nxt[0]][0] + lists[1][nxt[1]][0] + lines
+                self.push(bound_next, HEAP_BOUND, (d, electrical, nxt))
 
     def electrical_passes(
-        dual: DualPlacement, free: tuple[tuple[int, int], tuple[int, int]]
+        self, dual: DualPlacement, free: tuple[tuple[int, int], tuple[int, int]]
     ) -> bool:
         """The yield screen of one electrical design: the dual's elements as the screen takes
         them, each free part at its class's mean and spread, read back from the part box
         ``[μ·e^(−κσ), μ·e^(κσ)]``: ``μ = √(lo·hi)``, ``σ = ln(hi/lo)/(2κ)``."""
+        screen, kappa, parts = self.screen, self.kappa, self.parts
         if screen is None or kappa is None or kappa <= 0.0:
             return True
         r = np.zeros(4)
@@ -197,71 +323,6 @@ def _emit(
             r[position] = float(parts.values[val]) * math.sqrt(lo * hi)
             sigma[position] = math.log(hi / lo) / (2.0 * kappa)
         return screen.passes_values(r, sigma)
-
-    heap: list[tuple[float, int, int, object]] = []
-    tick = itertools.count()
-    seen: set[tuple[object, ...]] = set()
-    blocks: list[PlacementBlock] = []
-    next_dual = 0
-    while not should_stop():
-        top = heap[0][0] if heap else math.inf
-        top_exact = bool(heap) and heap[0][1] == HEAP_EXACT
-        if min(top, bounds[next_dual] if next_dual < len(duals) else math.inf) > ceiling():
-            return  # every design left is dearer than the caller wants
-        if next_dual < len(duals) and (
-            bounds[next_dual] < top or (bounds[next_dual] == top and not top_exact)
-        ):
-            keys, lbs = placement_candidates(
-                duals[next_dual], windows[next_dual], parts, lim, cands, halves
-            )
-            block = PlacementBlock(duals[next_dual], keys, lbs, parts, lim)
-            blocks.append(block)
-            if keys.shape[0]:  # ordered and screened when the merge reaches it
-                heapq.heappush(heap, (block.least(), HEAP_BLOCK, next(tick), (next_dual, -1)))
-            next_dual += 1
-            continue
-        if not heap:
-            return
-        key, kind, _, payload = heapq.heappop(heap)
-        if kind == HEAP_BLOCK:
-            d, at = cast(tuple[int, int], payload)
-            block = blocks[d]
-            if at < 0:  # a fresh block: its first usable entry, at its own bound
-                first = block.usable(0)
-                if first is not None:
-                    heapq.heappush(heap, (block.bound(first), HEAP_BLOCK, next(tick), (d, first)))
-                continue
-            after = block.usable(at + 1)
-            if after is not None:
-                heapq.heappush(heap, (block.bound(after), HEAP_BLOCK, next(tick), (d, after)))
-            k = block.key(at)
-            electrical = ((k[0], k[1]), (k[2], k[3]))
-            if electrical_passes(duals[d], electrical):
-                heapq.heappush(heap, (key, HEAP_BOUND, next(tick), (d, electrical, (0, 0))))
-            continue
-        d, electrical, choice = cast(
-            tuple[int, tuple[tuple[int, int], tuple[int, int]], tuple[int, int]], payload
-        )
-        dual = duals[d]
-        lists = [parts.variants(dual.free[n], electrical[n]) for n in range(2)]
-        rows = (lists[0][choice[0]][1], lists[1][choice[1]][1])
-        if kind == HEAP_EXACT:
-            yield _design(dual, rows, catalog, part_cache)
-            continue
-        picked = [cached_part(catalog, row, part_cache) for row in rows]
-        cost = parts_cost([dual.network, *picked], spec.preferences).total
-        heapq.heappush(
-            heap, (exact_key(cost, key), HEAP_EXACT, next(tick), (d, electrical, choice))
-        )
-        lines = parts.lines_charge(electrical)
-        for n in range(2):
-            if choice[n] + 1 < len(lists[n]):
-                nxt = (choice[0] + (n == 0), choice[1] + (n == 1))
-                if (d, electrical, nxt) in seen:
-                    continue
-                seen.add((d, electrical, nxt))
-                bound_next = dual.cost + lists[0][nxt[0]][0] + lists[1][nxt[1]][0] + lines
-                heapq.heappush(heap, (bound_next, HEAP_BOUND, next(tick), (d, electrical, nxt)))
 
 
 def _design(

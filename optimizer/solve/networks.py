@@ -188,6 +188,10 @@ def _quad_layouts(
     return layouts
 
 
+#: One dual in one element order at one slot: the network, the order, its element bounds.
+_Slot = tuple[NetworkPart, tuple[int, int], float, float]
+
+
 def _pair_frontier(
     spec: Spec, catalog: Catalog, env: LinearEnvironment, topology: Topology, lim: ScreenLimits
 ) -> Iterator[Design]:
@@ -196,11 +200,28 @@ def _pair_frontier(
     combination is screened at once (:func:`corner_screen`, in chunks); the survivors are sorted
     by exact cost (``optimizer.cost``, one evaluation per pair of part ids), then ids and orders."""
     first, second = ((0, 2), (1, 3)) if topology is Topology.EQUAL_PAIRS else ((0, 1), (2, 3))
+    slots = _pair_slots(spec, catalog, env, lim, (first, second))
+    if not (slots[0] and slots[1]):
+        return
+    kept = _screened_pairs(spec, env, lim, slots, (first, second))
+    yield from _pair_designs(spec, kept, slots, (first, second))
+
+
+def _pair_slots(
+    spec: Spec,
+    catalog: Catalog,
+    env: LinearEnvironment,
+    lim: ScreenLimits,
+    sides: tuple[tuple[int, int], tuple[int, int]],
+) -> list[list[_Slot]]:
+    """Per slot (the positions of ``sides``), every usable dual in each element order whose
+    elements bear the least stress at their positions (``element_ratings``); an order that
+    repeats the other's values is kept once."""
     duals = usable_networks(spec, catalog, env, 2)
     floors = [stress_floor(spec, lim, p) for p in range(4)]
-    slots: list[list[tuple[NetworkPart, tuple[int, int], float, float]]] = [[], []]
+    slots: list[list[_Slot]] = [[], []]
     ratings: dict[str, dict[tuple[float, int], bool]] = {}
-    for slot, positions in enumerate((first, second)):
+    for slot, positions in enumerate(sides):
         for network in duals:
             lo, hi = element_bounds(network, spec, env)
             if network.part_id not in ratings:
@@ -215,17 +236,28 @@ def _pair_frontier(
                     continue
                 seen.add(values)
                 slots[slot].append((network, (order[0], order[1]), lo, hi))
-    if not (slots[0] and slots[1]):
-        return
+    return slots
 
-    def arrays(options: list[tuple[NetworkPart, tuple[int, int], float, float]]) -> tuple[
-        Array, Array, Array
-    ]:  # fmt: skip
-        values = np.array([[n.values_ohm[o[0]], n.values_ohm[o[1]]] for n, o, _, _ in options])
-        return values, np.array([lo for *_, lo, _ in options]), np.array([h for *_, h in options])
 
-    va, la, ha = arrays(slots[0])
-    vb, lb, hb = arrays(slots[1])
+def _slot_arrays(options: list[_Slot]) -> tuple[Array, Array, Array]:
+    """The slot's element values (n, 2) and element bounds (n,) as arrays."""
+    values = np.array([[n.values_ohm[o[0]], n.values_ohm[o[1]]] for n, o, _, _ in options])
+    return values, np.array([lo for *_, lo, _ in options]), np.array([h for *_, h in options])
+
+
+def _screened_pairs(
+    spec: Spec,
+    env: LinearEnvironment,
+    lim: ScreenLimits,
+    slots: list[list[_Slot]],
+    sides: tuple[tuple[int, int], tuple[int, int]],
+) -> IntArray:
+    """The flat indices ``a·len(slots[1]) + b`` of the slot combinations that pass the corner
+    screen with each package's shared factor at either end (four sets of points of the exact
+    range, each screening only what the sets before it kept), :data:`JOIN_CHUNK` at a time."""
+    first, second = sides
+    va, la, ha = _slot_arrays(slots[0])
+    vb, lb, hb = _slot_arrays(slots[1])
     sa = np.array([package_extremes(n, spec, env) for n, *_ in slots[0]])
     sb = np.array([package_extremes(n, spec, env) for n, *_ in slots[1]])
     nb = len(slots[1])
@@ -243,8 +275,6 @@ def _pair_frontier(
         for k, p in enumerate(second):
             nominal[:, p], low[:, p], high[:, p] = vb[ib, k], lb[ib], hb[ib]
         alive = np.arange(flat.size)
-        # Each package's shared factor at either end: four sets of points of the exact range
-        # (each set screens only what the sets before it kept).
         for end_a in (0, 1):
             for end_b in (0, 1):
                 scaled = nominal[alive].copy()
@@ -252,7 +282,20 @@ def _pair_frontier(
                 scaled[:, list(second)] *= sb[ib[alive], end_b][:, None]
                 alive = alive[corner_screen(scaled, low[alive], high[alive], lim)]
         survivors.append(flat[alive])
-    kept = np.concatenate(survivors)
+    kept: IntArray = np.concatenate(survivors)
+    return kept
+
+
+def _pair_designs(
+    spec: Spec,
+    kept: IntArray,
+    slots: list[list[_Slot]],
+    sides: tuple[tuple[int, int], tuple[int, int]],
+) -> Iterator[Design]:
+    """The designs of the screened combinations ``kept`` sorted by exact cost (one evaluation
+    per pair of part ids), then ids and orders; the same dual twice is packages 1 and 2."""
+    first, second = sides
+    nb = len(slots[1])
     costs: dict[tuple[str, str], float] = {}
     keyed: list[tuple[float, str, str, tuple[int, int], tuple[int, int], int, int]] = []
     for flat_index in kept.tolist():

@@ -21,6 +21,7 @@ from __future__ import annotations
 
 import itertools
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -29,6 +30,7 @@ from numpy.typing import NDArray
 from ..analysis.formulas import BOLTZMANN_J_PER_K as BOLTZMANN
 from ..catalog import Catalog
 from ..design import Topology
+from ..parts import NetworkPart
 from ..spec import Distribution, DriftModel, Spec, StockPolicy
 from .environment import LinearEnvironment, life_drift, series_impedance
 
@@ -161,44 +163,16 @@ def _network_rows(
     """Pair and quad options from the catalog's networks, for the allowed topologies.
 
     The per-network constants (cost, own and shared log deviation and variance) are computed
-    for all networks at once; the loop over element orders only places them."""
+    for all networks at once (:func:`_network_constants`); the loop over element orders only
+    places them (:func:`_place_network`)."""
     prefs = spec.preferences
     topologies = set(prefs.topologies)
-    pair_shapes: set[tuple[int, int]] = set()
-    if Topology.EQUAL_PAIRS in topologies:
-        pair_shapes.update(EQUAL_SHAPES)
-    if Topology.DIVIDER_PAIRS in topologies:
-        pair_shapes.update(DIVIDER_SHAPES)
-    if Topology.PAIR_PLUS_DISCRETE in topologies:
-        pair_shapes.update(ALL_SHAPES)
+    pair_shapes = _pair_shapes(topologies)
     want_quads = Topology.QUAD in topologies
     networks = catalog.networks
     if not networks:
         return
-    dist, k = prefs.distribution, prefs.sigma_k
-
-    def column(name: str) -> NDArray[np.float64]:
-        return np.array([float(getattr(n, name)) for n in networks])
-
-    ratio = (
-        column("ratio_tolerance") / 2.0,
-        column("tracking_tempco_per_k") / 2.0 * env.delta_t_k,
-        life_drift(column("ratio_drift_1000h"), env.life_h) / 2.0,
-    )
-    absolute = (
-        column("abs_tolerance"),
-        column("abs_tempco_per_k") * env.delta_t_k,
-        # One-sided package drift taken as none: a subset of its range (a relaxation).
-        life_drift(column("drift_1000h"), env.life_h)
-        * (0.0 if spec.requirements.drift_model is DriftModel.ONE_SIDED else 1.0),
-    )
-    in_stock = np.array([n.in_stock for n in networks], dtype=bool)
-    costs = _effective_cost(column("unit_cost"), in_stock, spec).tolist()
-    own_devs = log_deviation(*ratio).tolist()
-    own_vars = variance(dist, k, *ratio).tolist()
-    shareds = log_deviation(*absolute).tolist()
-    shared_vars = variance(dist, k, *absolute).tolist()
-    stress = [float(s) for s in env.stress_v]
+    constants = _network_constants(networks, spec, env)
     low = prefs.resistance_min_ohm * (1 - 1e-9)
     high = prefs.resistance_max_ohm * (1 + 1e-9)
     pair_list = sorted(pair_shapes)
@@ -217,49 +191,124 @@ def _network_rows(
             shapes, orders = [(0, 1, 2, 3)], quad_orders
         else:
             continue
-        own_dev, own_var = own_devs[index], own_vars[index]
-        grow = 1.0 + network.abs_tolerance + network.ratio_tolerance / 2.0
-        volt_ok = [network.max_voltage_v >= RATING_RELAXATION * s for s in stress]
-        power = network.power_per_element_w * env.derating
         line = lines.setdefault(network.part_id, len(lines))
-        for shape in shapes:
-            seen: set[tuple[float, ...]] = set()
-            for order in orders:
-                elements = order[: len(shape)]
-                # Elements of one package vary alike (same bounds), so two element orders that put
-                # the same values at the same positions are the same design electrically: keep one.
-                layout = tuple(values[e] for e in elements)
-                if layout in seen:
-                    continue
-                seen.add(layout)
-                if not all(
-                    volt_ok[p] and power >= RATING_RELAXATION * stress[p] ** 2 / r
-                    for p, r in zip(shape, layout, strict=True)
-                ):
-                    continue
-                resist = [math.nan] * 4
-                own = [0.0] * 4
-                own_v = [0.0] * 4
-                upper = [0.0] * 4
-                for p, r in zip(shape, layout, strict=True):
-                    resist[p], own[p], own_v[p], upper[p] = r, own_dev, own_var, r * grow
-                rows.positions.append(len(shape))
-                rows.covers.append(tuple(i in shape for i in range(4)))  # type: ignore[arg-type]
-                rows.shape.append(ALL_SHAPES.index(shape) if len(shape) == 2 else -1)  # type: ignore[arg-type,unused-ignore]
-                rows.line.append(line)
-                rows.cost.append(costs[index])
-                rows.resist.append(resist)
-                rows.own.append(own)
-                rows.own_var.append(own_v)
-                rows.shared.append(shareds[index])
-                rows.shared_var.append(shared_vars[index])
-                rows.upper.append(upper)
-                rows.makers.append(
-                    tuple(
-                        (pos, network.part_id, index, el)
-                        for pos, el in zip(shape, elements, strict=False)
-                    )
+        _place_network(rows, network, index, values, (shapes, orders), line, constants, env)
+
+
+def _pair_shapes(topologies: set[Topology]) -> set[tuple[int, int]]:
+    """The position pairs a dual may take under the allowed topologies."""
+    pair_shapes: set[tuple[int, int]] = set()
+    if Topology.EQUAL_PAIRS in topologies:
+        pair_shapes.update(EQUAL_SHAPES)
+    if Topology.DIVIDER_PAIRS in topologies:
+        pair_shapes.update(DIVIDER_SHAPES)
+    if Topology.PAIR_PLUS_DISCRETE in topologies:
+        pair_shapes.update(ALL_SHAPES)
+    return pair_shapes
+
+
+@dataclass(frozen=True)
+class _NetworkConstants:
+    """Per network of the catalog (lists in catalog order): its effective cost, its elements'
+    own log deviation and variance (half the ratio figures) and the package's shared ones."""
+
+    costs: list[float]
+    own_devs: list[float]
+    own_vars: list[float]
+    shareds: list[float]
+    shared_vars: list[float]
+
+
+def _network_constants(
+    networks: Sequence[NetworkPart], spec: Spec, env: LinearEnvironment
+) -> _NetworkConstants:
+    """:class:`_NetworkConstants` of every network at once (``log_deviation``, ``variance``;
+    a one-sided package drift taken as none: a subset of its range, a relaxation)."""
+    prefs = spec.preferences
+    dist, k = prefs.distribution, prefs.sigma_k
+
+    def column(name: str) -> NDArray[np.float64]:
+        return np.array([float(getattr(n, name)) for n in networks])
+
+    ratio = (
+        column("ratio_tolerance") / 2.0,
+        column("tracking_tempco_per_k") / 2.0 * env.delta_t_k,
+        life_drift(column("ratio_drift_1000h"), env.life_h) / 2.0,
+    )
+    absolute = (
+        column("abs_tolerance"),
+        column("abs_tempco_per_k") * env.delta_t_k,
+        # One-sided package drift taken as none: a subset of its range (a relaxation).
+        life_drift(column("drift_1000h"), env.life_h)
+        * (0.0 if spec.requirements.drift_model is DriftModel.ONE_SIDED else 1.0),
+    )
+    in_stock = np.array([n.in_stock for n in networks], dtype=bool)
+    return _NetworkConstants(
+        costs=_effective_cost(column("unit_cost"), in_stock, spec).tolist(),
+        own_devs=log_deviation(*ratio).tolist(),
+        own_vars=variance(dist, k, *ratio).tolist(),
+        shareds=log_deviation(*absolute).tolist(),
+        shared_vars=variance(dist, k, *absolute).tolist(),
+    )
+
+
+def _place_network(
+    rows: _Rows,
+    network: NetworkPart,
+    index: int,
+    values: list[float],
+    layouts: tuple[list[tuple[int, ...]], list[tuple[int, ...]]],
+    line: int,
+    constants: _NetworkConstants,
+    env: LinearEnvironment,
+) -> None:
+    """The options of one network (catalog ``index``, element ``values``): one per shape and
+    element order of ``layouts`` whose elements bear the relaxed stress at their positions, an
+    order that puts the same values at the same positions kept once."""
+    shapes, orders = layouts
+    stress = [float(s) for s in env.stress_v]
+    own_dev, own_var = constants.own_devs[index], constants.own_vars[index]
+    grow = 1.0 + network.abs_tolerance + network.ratio_tolerance / 2.0
+    volt_ok = [network.max_voltage_v >= RATING_RELAXATION * s for s in stress]
+    power = network.power_per_element_w * env.derating
+    for shape in shapes:
+        seen: set[tuple[float, ...]] = set()
+        for order in orders:
+            elements = order[: len(shape)]
+            # Elements of one package vary alike (same bounds), so two element orders that put
+            # the same values at the same positions are the same design electrically: keep one.
+            layout = tuple(values[e] for e in elements)
+            if layout in seen:
+                continue
+            seen.add(layout)
+            if not all(
+                volt_ok[p] and power >= RATING_RELAXATION * stress[p] ** 2 / r
+                for p, r in zip(shape, layout, strict=True)
+            ):
+                continue
+            resist = [math.nan] * 4
+            own = [0.0] * 4
+            own_v = [0.0] * 4
+            upper = [0.0] * 4
+            for p, r in zip(shape, layout, strict=True):
+                resist[p], own[p], own_v[p], upper[p] = r, own_dev, own_var, r * grow
+            rows.positions.append(len(shape))
+            rows.covers.append(tuple(i in shape for i in range(4)))  # type: ignore[arg-type]
+            rows.shape.append(ALL_SHAPES.index(shape) if len(shape) == 2 else -1)  # type: ignore[arg-type,unused-ignore]
+            rows.line.append(line)
+            rows.cost.append(constants.costs[index])
+            rows.resist.append(resist)
+            rows.own.append(own)
+            rows.own_var.append(own_v)
+            rows.shared.append(constants.shareds[index])
+            rows.shared_var.append(constants.shared_vars[index])
+            rows.upper.append(upper)
+            rows.makers.append(
+                tuple(
+                    (pos, network.part_id, index, el)
+                    for pos, el in zip(shape, elements, strict=False)
                 )
+            )
 
 
 def build_options(catalog: Catalog, spec: Spec, env: LinearEnvironment) -> OptionTable:
