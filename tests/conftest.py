@@ -57,6 +57,9 @@ SLOW = (
     "tests/solve/test_frontier.py::test_screen_is_a_relaxation_and_exact_for_independent_parts",
     "tests/solve/test_frontier.py::test_plain_specs_find_the_cheap_designs",
     "tests/catalog/test_catalog.py::test_wheel_install_carries_the_builtin_catalog",
+    "tests/solve/test_frontier.py::test_yield_network_specs_match_the_reference_over_the_builtin_catalog",
+    "tests/solve/test_classquads.py::test_plain_yield_specs_are_proven_over_the_builtin_catalog",
+    "tests/solve/test_classquads.py::test_the_pick_matches_the_independent_reference",
 )
 
 
