@@ -45,3 +45,24 @@ def test_each_folder_tests_its_subpackage() -> None:
             assert imports or runs, (
                 f"{test.relative_to(ROOT)} does not test optimizer.{folder.name}"
             )
+
+
+def test_developers_md_names_every_module() -> None:
+    """DEVELOPERS.md ("Modules") gives every module of the package its line: by path, by its
+    name in a row of its folder (``optimizer/report/check.py``, ``checkjson.py``), or, for the
+    spec reader's package, in the package's own row."""
+    text = (ROOT / "DEVELOPERS.md").read_text(encoding="utf-8")
+    missing = []
+    for path in sorted((ROOT / "optimizer").rglob("*.py")):
+        rel = path.relative_to(ROOT).as_posix()
+        if path.name == "__init__.py" or "__pycache__" in rel:
+            continue
+        folder_row = f"`{path.parent.relative_to(ROOT).as_posix()}/`"
+        if (
+            rel in text
+            or f"`{path.name}`" in text
+            or (path.parent.name == "specfile" and folder_row in text)
+        ):
+            continue
+        missing.append(rel)
+    assert not missing
