@@ -103,6 +103,7 @@ from .frontier import cached_part
 from .pairbounds import (
     deviation_bounds,
     gain_conditions,
+    gain_pass_counts,
     gain_spread_fits,
     gain_spread_floor,
     gain_window,
@@ -447,9 +448,47 @@ class ClassQuadSearch:
         if not reach.any():
             return None
         ia_all, ib_all, signed = ia_all[reach], ib_all[reach], signed[reach]
+        # The Monte Carlo's gain pass count of each pair on its own builds (exact).
+        factors = self._factors(quad)
+        gain_ok = self._gain_reaches(factors, first, second, ia_all, ib_all)
+        if not gain_ok.any():
+            return None
+        ia_all, ib_all, signed = ia_all[gain_ok], ib_all[gain_ok], signed[gain_ok]
         order = np.argsort(np.abs(signed), kind="stable")
         pairs = [(int(a), int(b)) for a, b in zip(ia_all[order], ib_all[order], strict=True)]
-        return _Batch(quad, first, second, pairs, 0, None)
+        return _Batch(quad, first, second, pairs, 0, factors)
+
+    def _gain_reaches(
+        self,
+        factors: tuple[Array, Array],
+        first: _Half,
+        second: _Half,
+        ia: NDArray[np.int64],
+        ib: NDArray[np.int64],
+    ) -> NDArray[np.bool_]:
+        """Per ratio pair ``(ia[k], ib[k])``: whether the Monte Carlo's gain pass count on the
+        quadruple's builds (``pairbounds.gain_pass_counts``, at the ratios of each half's first
+        value choice) reaches the yield; the yield needs at least that many builds."""
+        spec, values = self._spec, self._block.values
+        static, alpha = factors
+        temps = np.array(self._environment.delta_t_k)
+        r = static[:, :, None] * (1.0 + alpha[:, :, None] * temps[None, None, :])
+        rho_b = np.array(
+            [values[second.pairs[b][0][1]] / values[second.pairs[b][0][0]] for b in ib.tolist()]
+        )
+        need = spec.requirements.yield_target * float(spec.preferences.samples)
+        ok = np.zeros(ia.size, dtype=bool)
+        order = np.argsort(ia, kind="stable")
+        heads = np.flatnonzero(np.r_[True, ia[order][1:] != ia[order][:-1]])
+        for start, stop in zip(heads.tolist(), [*heads[1:].tolist(), ia.size], strict=True):
+            at = order[start:stop]
+            k1, k2 = first.pairs[int(ia[at[0]])][0]
+            counts = gain_pass_counts(
+                float(values[k2] / values[k1]), (r[:, 0], r[:, 1]), rho_b[at],
+                (r[:, 2], r[:, 3]), self._gain_limits, self._amplifier,
+            )  # fmt: skip
+            ok[at] = counts >= need * (1.0 - 1e-12)
+        return ok
 
     def _judge_batch(self, work: _Batch) -> tuple[list[_Pair], _Batch | None]:
         """The Monte Carlo's yield (on its shared draws) of the next :data:`PAIR_BATCH` pairs:

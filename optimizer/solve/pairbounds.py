@@ -18,6 +18,7 @@ __all__ = [
     "GAIN_SLACK_PER_SIGMA",
     "deviation_bounds",
     "gain_conditions",
+    "gain_pass_counts",
     "gain_spread_fits",
     "gain_spread_floor",
     "gain_window",
@@ -199,3 +200,52 @@ def gain_spread_fits(
         return True
     g_lo, g_hi = window
     return z_two * narrow * spread_floor <= (math.log(g_hi) - math.log(g_lo)) / 2.0 + 1e-12
+
+
+def gain_pass_counts(
+    rho_first: float,
+    first: tuple[Array, Array],
+    rho_second: Array,
+    second: tuple[Array, Array],
+    window: tuple[float, float],
+    amplifier: tuple[float, tuple[float, ...], float],
+) -> NDArray[np.int64]:
+    """For one first-half ratio ``ρ₁₂ = R2/R1`` and many second-half ratios ``ρ₃₄ = R4/R3``
+    (``rho_second``), how many of the Monte Carlo's builds keep the gain inside ``window =
+    (G_lo, G_hi)`` at every temperature: ``first = (r1, r2)`` and ``second = (r3, r4)`` are the
+    builds' resistance factors ``(N, J)`` at the J temperatures, so a build has
+    ``c = ρ₁₂r2/(r1 + ρ₁₂r2)`` and ``a = ρ₃₄r4/(r3 + ρ₃₄r4)``. Its highest gain (``A = ∞``,
+    ``ε = +eps_abs``) and lowest (``1/A = inv_a``, each ``ε`` of ``eps_low``) rise with ``a``
+    (``analysis.balance.differential_gain_from_terms``), so solved for ``a`` they give one
+    interval of ``a`` per temperature, and ``a`` rises with ``ρ₃₄``: each build passes for the
+    ``ρ₃₄`` of one interval, and a ratio's count is the number of intervals that hold it
+    (widened by a relative 1e-9 against rounding). The Monte Carlo's gain pass count, so an
+    upper bound of its yield's. Dimensionless."""
+    r1, r2 = first
+    r3, r4 = second
+    eps_abs, eps_low, inv_a = amplifier
+    g_lo, g_hi = window
+    c = rho_first * r2 / (r1 + rho_first * r2)
+    # a at which the highest gain reaches G_hi, and at which the lowest reaches G_lo.
+    a_top = (2.0 * g_hi * (1.0 - c) * (1.0 - eps_abs) - c * (1.0 - eps_abs)) / (1.0 + eps_abs)
+    a_bottom = np.full_like(c, -np.inf)
+    for eps in eps_low:
+        floor = (2.0 * g_lo * (inv_a + (1.0 - c) * (1.0 - eps)) - c * (1.0 - eps)) / (1.0 + eps)
+        a_bottom = np.maximum(a_bottom, floor)
+
+    def ratio_of(a: Array) -> Array:
+        """``ρ₃₄`` of a build at ``a`` (0 below, ∞ above the open interval (0, 1))."""
+        inside = np.clip(a, 1e-300, 1.0 - 1e-16)
+        rho: Array = np.where(
+            a <= 0.0, 0.0, np.where(a >= 1.0, np.inf, inside * r3 / ((1.0 - inside) * r4))
+        )
+        return rho
+
+    low = ratio_of(a_bottom).max(axis=1) * (1.0 - 1e-9)
+    high = ratio_of(a_top).min(axis=1) * (1.0 + 1e-9)
+    live = low <= high
+    starts, ends = np.sort(low[live]), np.sort(high[live])
+    counts: NDArray[np.int64] = np.searchsorted(starts, rho_second, side="right") - np.searchsorted(
+        ends, rho_second, side="left"
+    )
+    return counts

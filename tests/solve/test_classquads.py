@@ -485,3 +485,62 @@ def test_the_gain_spread_floor_is_below_every_spread_it_bounds(
     for sign in amplifier[1]:
         _, spread = _log_gain_and_spread(np.array([c]), np.array([a]), s, sign, inv_a)
         assert floor <= float(spread[0]) * (1.0 + 1e-12)
+
+
+@settings(max_examples=80, deadline=None)
+@given(
+    rows=st.lists(st.integers(min_value=0, max_value=10**6), min_size=4, max_size=4),
+    gain=st.sampled_from([0.47, 1.0, 2.0, 10.0, 100.0]),
+    skew=st.lists(st.floats(-0.01, 0.01), min_size=2, max_size=2),
+    scale=st.floats(0.3, 1.2),
+    amplifier=st.sampled_from([("ideal", "ideal"), ("80 dB", "90 dB")]),
+)
+def test_gain_pass_counts_are_the_monte_carlos(
+    tmp_path_factory: pytest.TempPathFactory,
+    rows: list[int],
+    gain: float,
+    skew: list[float],
+    scale: float,
+    amplifier: tuple[str, str],
+) -> None:
+    """``pairbounds.gain_pass_counts`` on the Monte Carlo's builds is never below the number of
+    builds whose gain the Monte Carlo passes (random built-in classes at ratios near the gain,
+    the accuracy at ``scale`` times the design's own gain spread so both outcomes occur; in
+    measurement the two are equal)."""
+    from optimizer.analysis.montecarlo import judging_corners
+    from optimizer.solve.pairbounds import gain_pass_counts
+
+    tmp = tmp_path_factory.mktemp("gaincount")
+    cmrr, aol = amplifier
+    fields = dict(gain=gain, floor=20, tmin=-20, tmax=85, topologies="four_discrete",
+                  amp_cmrr=cmrr, aol=aol, vd=0.01, req=YIELD, prefs=SAMPLES)  # fmt: skip
+    (tmp / "s.yaml").write_text(spec_text(fields), encoding="utf-8")
+    spec = load_spec(str(tmp / "s.yaml"))
+    cat = _builtin()
+    values = (10e3, 10e3 * gain * (1 + skew[0]), 10e3, 10e3 * gain * (1 + skew[1]))
+    parts = [
+        dataclasses.replace(cat.discrete_part(r % cat.discrete_count), resistance_ohm=v)
+        for r, v in zip(rows, values, strict=True)
+    ]
+    design = _design(parts)
+    errors = dict(monte_carlo(design, spec).gain_error_percentiles)
+    accuracy = max(max(abs(errors[min(errors)]), abs(errors[max(errors)])) * scale, 1e-6)
+    req = dataclasses.replace(spec.requirements, gain_accuracy=accuracy)
+    spec = dataclasses.replace(spec, requirements=req)
+    prefs = spec.preferences
+    counted = round(monte_carlo(design, spec).gain_pass_fraction * prefs.samples)
+    variation = variation_from_design(design, req.life_s, False, req.drift_model)
+    f, alpha = build_factors(variation, samples=prefs.samples, seed=prefs.seed,
+                             distribution=prefs.distribution, sigma_k=prefs.sigma_k)  # fmt: skip
+    environment = environment_from_spec(spec)
+    temps = np.array(environment.delta_t_k)
+    r = f[:, :, None] * (1.0 + alpha[:, :, None] * temps[None, None, :])
+    judging = judging_corners(environment)
+    bound = int(
+        gain_pass_counts(
+            values[1] / values[0], (r[:, 0], r[:, 1]), np.array([values[3] / values[2]]),
+            (r[:, 2], r[:, 3]), (req.gain * (1 - accuracy), req.gain * (1 + accuracy)),
+            (judging.eps_abs, judging.eps_low, judging.inv_open_loop_gain),
+        )[0]
+    )  # fmt: skip
+    assert counted <= bound <= prefs.samples
