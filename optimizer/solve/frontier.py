@@ -279,8 +279,9 @@ def discrete_frontier(
     )
     bound = one.cost[g1] + two.cost[g2] + distinct
     pair_order = np.argsort(bound, kind="stable")
-    yield from _emit(spec, catalog, env, parts, lim, one, two, g1[pair_order], g2[pair_order],
-                     bound[pair_order], should_stop)  # fmt: skip
+    # The group pairs, in order of their bound, merged into one stream in exact cost order.
+    merge = _Merge(spec, catalog, env, parts, lim, two)
+    yield from merge.designs(one, g1[pair_order], g2[pair_order], bound[pair_order], should_stop)
 
 
 def _sides(
@@ -302,32 +303,15 @@ def _sides(
     return EagerGroups(one), EagerGroups(two)
 
 
-def _emit(
-    spec: Spec,
-    catalog: Catalog,
-    env: LinearEnvironment,
-    parts: ClassParts,
-    lim: ScreenLimits,
-    one: EagerGroups | LazyGroups,
-    two: EagerGroups | LazyGroups,
-    g1: IntArray,
-    g2: IntArray,
-    bound: Array,
-    should_stop: Callable[[], bool],
-) -> Iterator[Design]:
-    """Merge the group pairs (taken in order of their bound) into one stream of designs in
-    exact cost order: a heap of entries keyed by a lower bound that is replaced by the exact
-    cost before an entry is emitted (:class:`_Merge`)."""
-    return _Merge(spec, catalog, env, parts, lim, two).designs(one, g1, g2, bound, should_stop)
-
-
 #: A bound or exact entry of the merge: the (class, value) pair at each position, and which of
 #: the parts of that class and value (``ClassParts.variants``) each position takes.
 _Entry = tuple[tuple[tuple[int, int], ...], tuple[int, ...]]
 
 
 class _Merge:
-    """The heap of :func:`_emit` and what its steps share: entries ``(key, kind, tick,
+    """The merge of the group pairs (taken in order of their bound) into one stream of
+    designs in exact cost order: a heap of entries keyed by a lower bound that is replaced by
+    the exact cost before an entry is emitted. Its state: entries ``(key, kind, tick,
     payload)`` of the kinds ``HEAP_*`` (an exact design, a bound of one design, a block of a
     group pair's combinations, the rest of a group pair), the parts looked up so far, the
     side-2 records sorted for the joins, each electrical design's stress at the rating

@@ -155,30 +155,10 @@ def mixed_frontier(
     keep = np.flatnonzero(usable)
     by_bound = keep[np.argsort(bounds[keep], kind="stable")]
     windows = [(float(from_key[k]), float(to_key[k])) for k in by_bound.tolist()]
-    yield from _emit(spec, catalog, parts, lim, cands, [duals[k] for k in by_bound], windows,
-                     bounds[by_bound], halves, should_stop, ceiling, screen)  # fmt: skip
-
-
-def _emit(
-    spec: Spec,
-    catalog: Catalog,
-    parts: ClassParts,
-    lim: ScreenLimits,
-    cands: PlacementCandidates,
-    duals: list[DualPlacement],
-    windows: list[tuple[float, float]],
-    bounds: Array,
-    halves: dict[int, SortedHalf],
-    should_stop: Callable[[], bool],
-    ceiling: Callable[[], float],
-    screen: DesignScreen | None = None,
-) -> Iterator[Design]:
-    """Merge the placements (taken in order of their bound) into one stream of designs in exact
-    cost order (the scheme of ``frontier._emit``: bound entries, replaced by exact costs, with
-    the other parts of the same class and value as successors; :class:`_Merge`); ``screen``:
-    see :func:`mixed_frontier`."""
-    merge = _Merge(spec, catalog, parts, lim, cands, duals, windows, halves, screen)
-    return merge.designs(bounds, should_stop, ceiling)
+    # The placements, in order of their bound, merged into one stream in exact cost order.
+    merge = _Merge(spec, catalog, parts, lim, cands, [duals[k] for k in by_bound], windows,
+                   halves, screen)  # fmt: skip
+    yield from merge.designs(bounds[by_bound], should_stop, ceiling)
 
 
 #: A bound or exact entry's payload: the placement's index, the free positions' (class, value)
@@ -187,7 +167,10 @@ _Entry = tuple[int, tuple[tuple[int, int], tuple[int, int]], tuple[int, int]]
 
 
 class _Merge:
-    """The heap of :func:`_emit` and what its steps share: entries ``(key, kind, tick,
+    """The merge of the placements (taken in order of their bound) into one stream of designs
+    in exact cost order (the scheme of ``frontier._Merge``: bound entries, replaced by exact
+    costs, with the other parts of the same class and value as successors). Its state: entries
+    ``(key, kind, tick,
     payload)`` of the kinds ``HEAP_*`` (an exact design, a bound of one design, a placement's
     block of candidates), the placements' blocks opened so far, the parts looked up and the
     successors already pushed."""

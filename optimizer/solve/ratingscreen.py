@@ -46,7 +46,7 @@ class RatingBlock:
         self.lift = np.zeros(n)
         self.done = 0  # entries screened so far (a prefix)
         # Screened entries that pass only with a dearer part somewhere (lift > 0): taken out of
-        # the block's order, to enter the merge at their bound plus lift (see ``_emit``).
+        # the block's order, to enter the merge at their bound plus lift (see ``frontier._Merge``).
         self.lifted: list[int] = []
 
     def usable(self, at: int) -> int | None:
