@@ -60,6 +60,20 @@ def _run_until(
     return code, "".join(seen) + rest
 
 
+@pytest.fixture(scope="module")
+def long_search(tmp_path_factory: pytest.TempPathFactory) -> str:
+    """The ADC driver with four discrete parts only: its yield-basis search goes to CP-SAT and
+    runs for many seconds (about 26 s to its proof), so a signal sent seconds into the search
+    stage still finds it searching. (The full example now proves its optimum in about a
+    second, before such a signal arrives.)"""
+    text = Path(ADC).read_text(encoding="utf-8")
+    assert "\npreferences:\n" in text
+    text = text.replace("\npreferences:\n", "\npreferences:\n  topologies: [four_discrete]\n")
+    path = tmp_path_factory.mktemp("spec") / "adc_discrete.yaml"
+    path.write_text(text, encoding="utf-8")
+    return str(path)
+
+
 def _outputs(folder: Path) -> dict[str, str]:
     return {p.name: p.read_text(encoding="utf-8") for p in sorted(folder.iterdir())}
 
@@ -77,12 +91,19 @@ def _outputs(folder: Path) -> dict[str, str]:
     ],
 )
 def test_a_signal_stops_the_run_and_writes_nothing(
-    tmp_path: Path, command: str, marker: str, pause: str, after: float, signum: int
+    tmp_path: Path,
+    long_search: str,
+    command: str,
+    marker: str,
+    pause: str,
+    after: float,
+    signum: int,
 ) -> None:
     (tmp_path / "b.csv").write_text(OLD, encoding="utf-8")
-    # The writing case needs a pick that ends by itself: the motor example, one design.
+    # The writing case needs a pick that ends by itself: the motor example, one design; the
+    # others one that is still searching when the signal comes.
     quick = marker == "writing"
-    pick = [MOTOR, "--top", "1"] if quick else [ADC, "--time-limit", "60"]
+    pick = [MOTOR, "--top", "1"] if quick else [long_search, "--time-limit", "60"]
     argv = pick if command == "pick" else CHECK[1:]
     argv = [command, *argv, "--bom", "b.csv", "--report", "r.md", "--force"]
     code, err = _run_until(argv, tmp_path, marker, signum, pause=pause, after=after)
