@@ -5,6 +5,8 @@ the exports of the best design.
 from __future__ import annotations
 
 import argparse
+import dataclasses
+from typing import TYPE_CHECKING
 
 from rich.console import Console
 
@@ -34,6 +36,14 @@ from .outputs import (
     _write_exports,
     _write_outputs,
 )
+
+if TYPE_CHECKING:
+    from ..catalog import Catalog
+    from ..report.pickreport import PickReport
+    from ..solve.diagnose import Diagnosis
+    from ..solve.results import PickResult, SearchStatus
+    from ..solve.trade import Trade
+    from ..spec import Spec
 
 
 def _add_pick_command(commands: argparse._SubParsersAction[_Parser]) -> None:
@@ -74,14 +84,10 @@ def _add_pick_command(commands: argparse._SubParsersAction[_Parser]) -> None:
 
 
 def _pick(args: argparse.Namespace, console: Console) -> int:
-    import dataclasses
-
     from ..analysis.safety import safety_cautions
-    from ..report.pick import render_pick
     from ..report.pickjson import pick_json_text, pick_to_json
     from ..report.pickreport import build_pick_report
-    from ..solve.search import SearchStatus, pick, with_objective
-    from ..spec import Objective, StockPolicy
+    from ..solve.search import pick
     from ..specfile import load_spec
     from ..statistics import with_statistics
     from ..verify import verify_candidate
@@ -91,19 +97,7 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
     spec = load_spec(args.spec)
     _check_outputs(args, spec)
     _warn(args, console, spec)
-    if args.stock_only:
-        spec = dataclasses.replace(
-            spec, preferences=dataclasses.replace(spec.preferences, stock=StockPolicy.ONLY)
-        )
-    elif args.prefer_stock is not None:
-        spec = dataclasses.replace(
-            spec,
-            preferences=dataclasses.replace(
-                spec.preferences, stock=StockPolicy.PREFER, stock_penalty=args.prefer_stock
-            ),
-        )
-    if args.objective is not None:
-        spec = with_objective(spec, Objective(args.objective))
+    spec = _spec_with_options(args, spec)
     _stage("catalog")
     catalog = _spec_catalogs(spec, args.catalog, _notes(args, console))
     top = args.top if args.top is not None else spec.preferences.alternatives
@@ -120,21 +114,7 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
             progress=progress,
         )
     stopped = interrupt.cancelled()
-    diagnosis = None
-    if result.status is SearchStatus.INFEASIBLE and not stopped:
-        from ..solve.diagnose import diagnose
-
-        limit = min(DIAGNOSIS_TIME_LIMIT_S, args.time_limit)
-        with interrupt.winding_down():
-            diagnosis = diagnose(spec, catalog, verify_candidate, time_limit_s=limit)
-        interrupt.check()
-    trade = None
-    if not stopped and result.ranked:
-        from ..solve.trade import TRADE_TIME_LIMIT_S, kind_trade
-
-        with interrupt.winding_down():
-            limit = min(TRADE_TIME_LIMIT_S, args.time_limit)
-            trade = kind_trade(spec, catalog, verify_candidate, result, time_limit_s=limit)
+    diagnosis, trade = _follow_ups(args, spec, catalog, result, stopped)
     _stage("statistics")
     result, statistics_s = with_statistics(result, spec)
     report = build_pick_report(
@@ -150,10 +130,84 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
         trade=trade,
     )
     json_text = pick_json_text(pick_to_json(report, _all_warnings(args)))
+    _show(args, console, report, json_text)
+    _write_pick_files(args, console, spec, report, json_text, stopped)
+    return _exit_code(result.status)
+
+
+def _spec_with_options(args: argparse.Namespace, spec: Spec) -> Spec:
+    """The spec with the command line's stock and objective options applied."""
+    from ..solve.search import with_objective
+    from ..spec import Objective, StockPolicy
+
+    if args.stock_only:
+        spec = dataclasses.replace(
+            spec, preferences=dataclasses.replace(spec.preferences, stock=StockPolicy.ONLY)
+        )
+    elif args.prefer_stock is not None:
+        spec = dataclasses.replace(
+            spec,
+            preferences=dataclasses.replace(
+                spec.preferences, stock=StockPolicy.PREFER, stock_penalty=args.prefer_stock
+            ),
+        )
+    if args.objective is not None:
+        spec = with_objective(spec, Objective(args.objective))
+    return spec
+
+
+def _follow_ups(
+    args: argparse.Namespace,
+    spec: Spec,
+    catalog: Catalog,
+    result: PickResult,
+    stopped: bool,
+) -> tuple[Diagnosis | None, Trade | None]:
+    """The diagnosis when nothing met the spec, the topology trade when something did;
+    neither after a signal stopped the search.
+    """
+    from ..solve.results import SearchStatus
+    from ..verify import verify_candidate
+
+    diagnosis = None
+    if result.status is SearchStatus.INFEASIBLE and not stopped:
+        from ..solve.diagnose import diagnose
+
+        limit = min(DIAGNOSIS_TIME_LIMIT_S, args.time_limit)
+        with interrupt.winding_down():
+            diagnosis = diagnose(spec, catalog, verify_candidate, time_limit_s=limit)
+        interrupt.check()
+    trade = None
+    if not stopped and result.ranked:
+        from ..solve.trade import TRADE_TIME_LIMIT_S, kind_trade
+
+        with interrupt.winding_down():
+            limit = min(TRADE_TIME_LIMIT_S, args.time_limit)
+            trade = kind_trade(spec, catalog, verify_candidate, result, time_limit_s=limit)
+    return diagnosis, trade
+
+
+def _show(args: argparse.Namespace, console: Console, report: PickReport, json_text: str) -> None:
+    """Print the ranking: the JSON text with ``--json``, the Rich tables otherwise."""
+    from ..report.pick import render_pick
+
     if args.json:
         console.print(json_text, markup=False, highlight=False, emoji=False, soft_wrap=True)
     else:
         console.print(render_pick(report, width=console.width))
+
+
+def _write_pick_files(
+    args: argparse.Namespace,
+    console: Console,
+    spec: Spec,
+    report: PickReport,
+    json_text: str,
+    stopped: bool,
+) -> None:
+    """Write the exports of the best design; after a signal only with ``--write-partial``,
+    and raise :class:`interrupt.Interrupted` once the files (or none) are written.
+    """
     winner = report.winner
     signum = interrupt.signal_number()
     if stopped and args.write_partial:
@@ -194,8 +248,14 @@ def _pick(args: argparse.Namespace, console: Console) -> int:
                 else "no file was written"
             ),
         )
-    if result.status is SearchStatus.OPTIMAL:
+
+
+def _exit_code(status: SearchStatus) -> int:
+    """The exit code of a finished search: 0 proven, 1 nothing meets the spec, 3 time limit."""
+    from ..solve.results import SearchStatus
+
+    if status is SearchStatus.OPTIMAL:
         return EXIT_OK
-    if result.status is SearchStatus.INFEASIBLE:
+    if status is SearchStatus.INFEASIBLE:
         return EXIT_NOT_MET
     return EXIT_TIME_LIMIT

@@ -34,6 +34,7 @@ from typing import Final, Literal
 
 from ..analysis.drift import drift_model_summary
 from ..analysis.montecarlo import MonteCarloResult
+from ..analysis.worstcase import WorstCase
 from ..design import Design, Placement
 from ..parts import DiscretePart, NetworkPart
 from ..spec import Spec
@@ -305,112 +306,19 @@ def _assumptions(spec: Spec) -> list[tuple[str, str]]:
 def check_blocks(design: Design, spec: Spec, verification: Verification) -> list[Block]:
     """The check figures of one design: cautions, parts, requirements, worst case, the error
     budget and the Monte-Carlo histogram of CMRR."""
-    worst = verification.worst_case
-    blocks: list[Block] = []
-    for caution in verification.cautions:
-        blocks.append(Block("para", text=f"SAFETY CAUTION: {caution}"))
-    blocks.append(Block("heading", text="Design"))
-    blocks.append(
-        Block(
-            "table",
-            headers=(
-                "position",
-                "value",
-                "part",
-                "tolerance",
-                "tempco",
-                "ratio tolerance (network)",
-                "tracking (network)",
-            ),
-            rows=tuple(_design_row(p) for p in design.placements),
-        )
+    blocks = [Block("para", text=f"SAFETY CAUTION: {c}") for c in verification.cautions]
+    blocks += _titled("Design", _design_table(design))
+    blocks += _titled("Requirements", _requirements_table(verification))
+    blocks += _titled("Every check", _checks_table(verification))
+    blocks += _titled(
+        "Conditions and assumptions",
+        Block("table", headers=("item", "value"), rows=tuple(_assumptions(spec))),
     )
-    blocks.append(Block("heading", text="Requirements"))
-    blocks.append(
-        Block(
-            "table",
-            headers=("requirement", "met", "value", "limit", "margin"),
-            rows=tuple(
-                (
-                    label_of(m.name),
-                    "yes" if m.passed else "NO",
-                    fmt_figure(m.value, m.unit),
-                    fmt_figure(m.limit, m.unit),
-                    fmt_figure(m.margin, m.unit, signed=True),
-                )
-                for m in verification.requirements
-            ),
-        )
+    blocks += _titled("Worst case", _worst_table(verification.worst_case))
+    blocks += _titled(
+        "Error budget (each source alone, worst case)", _budget_table(verification.worst_case)
     )
-    blocks.append(Block("heading", text="Every check"))
-    blocks.append(
-        Block(
-            "table",
-            headers=("check", "outcome", "margin", "how it was found"),
-            rows=tuple(
-                (
-                    label_of(c.name),
-                    ("met" if c.passed else "NOT met")
-                    if c.limit == c.limit  # nan: no requirement set
-                    else "no requirement",
-                    fmt_figure(c.margin, c.unit, signed=True) if c.limit == c.limit else "",
-                    c.detail,
-                )
-                for c in verification.checks
-            ),
-        )
-    )
-    blocks.append(Block("heading", text="Conditions and assumptions"))
-    blocks.append(Block("table", headers=("item", "value"), rows=tuple(_assumptions(spec))))
-    blocks.append(Block("heading", text="Worst case"))
-    blocks.append(
-        Block(
-            "table",
-            headers=("figure", "value"),
-            rows=(
-                ("CMRR, worst case", fmt_db(worst.cmrr_db)),
-                ("CMRR, resistors only", fmt_db(worst.cmrr_resistors_db)),
-                ("gain error, worst", f"±{fmt_pct(worst.gain_error_worst)}"),
-                ("nominal gain", f"{worst.nominal_gain:.8g}"),
-                ("corners evaluated", f"{worst.corner_count:,}"),
-            ),
-        )
-    )
-    blocks.append(Block("heading", text="Error budget (each source alone, worst case)"))
-    blocks.append(
-        Block(
-            "table",
-            headers=(
-                "source of error",
-                "CMRR alone",
-                "share of CM error",
-                "gain error alone",
-                "share of gain error",
-            ),
-            rows=tuple(
-                (
-                    label_of(b.name),
-                    fmt_db(b.cmrr_db),
-                    f"{b.cmrr_share * 100:.1f} %",
-                    f"±{fmt_pct(b.gain_error)}",
-                    f"{b.gain_share * 100:.1f} %",
-                )
-                for b in worst.budget
-            ),
-        )
-    )
-    mc = verification.monte_carlo
-    if mc is not None:
-        blocks.append(Block("heading", text="Monte-Carlo histogram of CMRR"))
-        blocks.append(
-            Block(
-                "para",
-                text=f"{mc.samples:,} builds (seed {mc.seed}); yield {fmt_pct(mc.yield_fraction)}; "
-                f"CMRR reached by {fmt_pct(mc.yield_target)} of builds: "
-                f"{fmt_db(mc.cmrr_at_yield_db)}; floor {mc.cmrr_floor_db:g} dB.",
-            )
-        )
-        blocks.append(Block("histogram", histogram=mc))
+    blocks += _histogram_blocks(verification.monte_carlo)
     verdict = (
         "meets the spec"
         if verification.passed
@@ -418,6 +326,117 @@ def check_blocks(design: Design, spec: Spec, verification: Verification) -> list
     )
     blocks.append(Block("para", text=f"Verdict: {verdict}."))
     return blocks
+
+
+def _titled(title: str, block: Block) -> list[Block]:
+    """A heading and the block under it."""
+    return [Block("heading", text=title), block]
+
+
+def _design_table(design: Design) -> Block:
+    """One row per placed part: value, part, tolerance, tempco and the network figures."""
+    return Block(
+        "table",
+        headers=(
+            "position",
+            "value",
+            "part",
+            "tolerance",
+            "tempco",
+            "ratio tolerance (network)",
+            "tracking (network)",
+        ),
+        rows=tuple(_design_row(p) for p in design.placements),
+    )
+
+
+def _requirements_table(verification: Verification) -> Block:
+    """One row per requirement: met, value, limit and margin."""
+    return Block(
+        "table",
+        headers=("requirement", "met", "value", "limit", "margin"),
+        rows=tuple(
+            (
+                label_of(m.name),
+                "yes" if m.passed else "NO",
+                fmt_figure(m.value, m.unit),
+                fmt_figure(m.limit, m.unit),
+                fmt_figure(m.margin, m.unit, signed=True),
+            )
+            for m in verification.requirements
+        ),
+    )
+
+
+def _checks_table(verification: Verification) -> Block:
+    """One row per check, with its outcome, margin and how it was found."""
+    return Block(
+        "table",
+        headers=("check", "outcome", "margin", "how it was found"),
+        rows=tuple(
+            (
+                label_of(c.name),
+                ("met" if c.passed else "NOT met")
+                if c.limit == c.limit  # nan: no requirement set
+                else "no requirement",
+                fmt_figure(c.margin, c.unit, signed=True) if c.limit == c.limit else "",
+                c.detail,
+            )
+            for c in verification.checks
+        ),
+    )
+
+
+def _worst_table(worst: WorstCase) -> Block:
+    """The worst-case CMRR (with and without the amplifier), gain error and corner count."""
+    return Block(
+        "table",
+        headers=("figure", "value"),
+        rows=(
+            ("CMRR, worst case", fmt_db(worst.cmrr_db)),
+            ("CMRR, resistors only", fmt_db(worst.cmrr_resistors_db)),
+            ("gain error, worst", f"±{fmt_pct(worst.gain_error_worst)}"),
+            ("nominal gain", f"{worst.nominal_gain:.8g}"),
+            ("corners evaluated", f"{worst.corner_count:,}"),
+        ),
+    )
+
+
+def _budget_table(worst: WorstCase) -> Block:
+    """The error budget: each source of error alone, and its share."""
+    return Block(
+        "table",
+        headers=(
+            "source of error",
+            "CMRR alone",
+            "share of CM error",
+            "gain error alone",
+            "share of gain error",
+        ),
+        rows=tuple(
+            (
+                label_of(b.name),
+                fmt_db(b.cmrr_db),
+                f"{b.cmrr_share * 100:.1f} %",
+                f"±{fmt_pct(b.gain_error)}",
+                f"{b.gain_share * 100:.1f} %",
+            )
+            for b in worst.budget
+        ),
+    )
+
+
+def _histogram_blocks(mc: MonteCarloResult | None) -> list[Block]:
+    """The Monte-Carlo summary and histogram of CMRR, when the check ran one."""
+    if mc is None:
+        return []
+    summary = Block(
+        "para",
+        text=f"{mc.samples:,} builds (seed {mc.seed}); yield {fmt_pct(mc.yield_fraction)}; "
+        f"CMRR reached by {fmt_pct(mc.yield_target)} of builds: "
+        f"{fmt_db(mc.cmrr_at_yield_db)}; floor {mc.cmrr_floor_db:g} dB.",
+    )
+    return [*_titled("Monte-Carlo histogram of CMRR", summary), Block("histogram", histogram=mc)]
 
 
 def pick_blocks(
