@@ -93,6 +93,9 @@ class _PreferencesSchema(_SchemaBase):
         return tuple(paths)
 
     def preferences(self, m: Section | None) -> Preferences | None:
+        """The preferences section (defaults when absent), or None when a problem was
+        recorded.
+        """
         r = self.r
         if m is None:
             return Preferences()
@@ -102,40 +105,12 @@ class _PreferencesSchema(_SchemaBase):
         builtin = m.opt("builtin_catalogs", r.boolean, defaults.use_builtin_catalogs)
         stock = m.opt("stock", r.choice(StockPolicy), defaults.stock)
         cost = r.number("a relative cost of zero or more such as 0.5")
-        penalty = defaults.stock_penalty
-        if stock is StockPolicy.PREFER:
-            penalty = m.need(
-                "stock_penalty",
-                cost,
-                "a relative cost of zero or more such as 0.5 (required with stock: prefer)",
-                math.nan,
-            )
-        elif m.has("stock_penalty") and r.ok("preferences.stock"):
-            r.problem(
-                "preferences.stock_penalty",
-                m.line_of("stock_penalty"),
-                "only used with stock: prefer; set stock: prefer or remove this key",
-            )
+        penalty = self._stock_penalty(m, stock, defaults.stock_penalty)
         alternatives = m.opt(
             "alternatives", r.integer("a whole number from 1 to 1000"), defaults.alternatives
         )
         objective = m.opt("objective", r.choice(Objective), defaults.objective)
-        cost_cap = defaults.cost_cap
-        if (
-            m.has("cost_cap")
-            and r.ok("preferences.objective")
-            and objective is not Objective.CMRR_MARGIN
-        ):
-            r.problem(
-                "preferences.cost_cap",
-                m.line_of("cost_cap"),
-                f"only used with objective: {Objective.CMRR_MARGIN.value}; "
-                "change the objective or remove this key",
-            )
-        else:
-            cost_cap = m.opt(
-                "cost_cap", r.number("a relative cost above zero such as 5"), defaults.cost_cap
-            )
+        cost_cap = self._cost_cap(m, objective, defaults.cost_cap)
         placement_cost = m.opt("placement_cost", cost, defaults.placement_cost)
         line_cost = m.opt("line_cost", cost, defaults.line_cost)
         same_lot = m.opt("same_lot_tracking", r.boolean, defaults.same_lot_tracking)
@@ -144,32 +119,7 @@ class _PreferencesSchema(_SchemaBase):
             r.pair(r.quantity(parse_resistance), expected_form(parse_resistance), ohms_text),
             (defaults.resistance_min_ohm, defaults.resistance_max_ohm),
         )
-        samples, seed, distribution, sigma_k = (
-            defaults.samples,
-            defaults.seed,
-            defaults.distribution,
-            defaults.sigma_k,
-        )
-        mc = r.section(m, "monte_carlo", MONTE_CARLO_KEYS)
-        if mc is not None:
-            samples = mc.opt(
-                "samples", r.integer(f"a whole number from 100 to {MAX_SAMPLES:,}"), samples
-            )
-            seed = mc.opt("seed", r.integer("a whole number of zero or more"), seed)
-            distribution = mc.opt("distribution", r.choice(Distribution), distribution)
-            if (
-                mc.has("sigma_k")
-                and r.ok("preferences.monte_carlo.distribution")
-                and distribution is not Distribution.NORMAL
-            ):
-                r.problem(
-                    "preferences.monte_carlo.sigma_k",
-                    mc.line_of("sigma_k"),
-                    "only used with distribution: normal "
-                    "(the tolerance spans sigma_k standard deviations); remove this key",
-                )
-            else:
-                sigma_k = mc.opt("sigma_k", r.number("a number above zero such as 3"), sigma_k)
+        samples, seed, distribution, sigma_k = self._monte_carlo(m, defaults)
         if not r.ok("preferences"):
             return None
         try:
@@ -193,9 +143,85 @@ class _PreferencesSchema(_SchemaBase):
                 resistance_max_ohm=window[1],
             )
         except ModelError as exc:
-            fields = {name: f"preferences.{name}" for name in PREFERENCE_KEYS}
-            fields.update({name: f"preferences.monte_carlo.{name}" for name in MONTE_CARLO_KEYS})
-            fields["resistance_range min"] = "preferences.resistance_range.min"
-            fields["resistance_range max"] = "preferences.resistance_range.max"
-            r.model_error(exc, "preferences", fields)
+            r.model_error(exc, "preferences", _preference_fields())
             return None
+
+    def _stock_penalty(self, m: Section, stock: StockPolicy, default: float) -> float:
+        """``stock_penalty``: required with ``stock: prefer``, refused otherwise."""
+        r = self.r
+        if stock is StockPolicy.PREFER:
+            return m.need(
+                "stock_penalty",
+                r.number("a relative cost of zero or more such as 0.5"),
+                "a relative cost of zero or more such as 0.5 (required with stock: prefer)",
+                math.nan,
+            )
+        if m.has("stock_penalty") and r.ok("preferences.stock"):
+            r.problem(
+                "preferences.stock_penalty",
+                m.line_of("stock_penalty"),
+                "only used with stock: prefer; set stock: prefer or remove this key",
+            )
+        return default
+
+    def _cost_cap(self, m: Section, objective: Objective, default: float | None) -> float | None:
+        """``cost_cap``: only with the CMRR-margin objective."""
+        r = self.r
+        if (
+            m.has("cost_cap")
+            and r.ok("preferences.objective")
+            and objective is not Objective.CMRR_MARGIN
+        ):
+            r.problem(
+                "preferences.cost_cap",
+                m.line_of("cost_cap"),
+                f"only used with objective: {Objective.CMRR_MARGIN.value}; "
+                "change the objective or remove this key",
+            )
+            return default
+        return m.opt("cost_cap", r.number("a relative cost above zero such as 5"), default)
+
+    def _monte_carlo(
+        self, m: Section, defaults: Preferences
+    ) -> tuple[int, int, Distribution, float]:
+        """The ``monte_carlo`` subsection: samples, seed, distribution and ``sigma_k`` (only
+        with the normal distribution).
+        """
+        r = self.r
+        samples, seed, distribution, sigma_k = (
+            defaults.samples,
+            defaults.seed,
+            defaults.distribution,
+            defaults.sigma_k,
+        )
+        mc = r.section(m, "monte_carlo", MONTE_CARLO_KEYS)
+        if mc is None:
+            return samples, seed, distribution, sigma_k
+        samples = mc.opt(
+            "samples", r.integer(f"a whole number from 100 to {MAX_SAMPLES:,}"), samples
+        )
+        seed = mc.opt("seed", r.integer("a whole number of zero or more"), seed)
+        distribution = mc.opt("distribution", r.choice(Distribution), distribution)
+        if (
+            mc.has("sigma_k")
+            and r.ok("preferences.monte_carlo.distribution")
+            and distribution is not Distribution.NORMAL
+        ):
+            r.problem(
+                "preferences.monte_carlo.sigma_k",
+                mc.line_of("sigma_k"),
+                "only used with distribution: normal "
+                "(the tolerance spans sigma_k standard deviations); remove this key",
+            )
+        else:
+            sigma_k = mc.opt("sigma_k", r.number("a number above zero such as 3"), sigma_k)
+        return samples, seed, distribution, sigma_k
+
+
+def _preference_fields() -> dict[str, str]:
+    """Where each field a :class:`Preferences` refuses comes from in the spec file."""
+    fields = {name: f"preferences.{name}" for name in PREFERENCE_KEYS}
+    fields.update({name: f"preferences.monte_carlo.{name}" for name in MONTE_CARLO_KEYS})
+    fields["resistance_range min"] = "preferences.resistance_range.min"
+    fields["resistance_range max"] = "preferences.resistance_range.max"
+    return fields
