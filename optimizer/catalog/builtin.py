@@ -429,8 +429,63 @@ def generate_networks(
     cost factor`` (illustrative)."""
     r = _Recipe(recipe, source)
     data = r.data
-    low, high = r.value_range(r.get(data, "element_range", "element_range"), "element_range")
-    kinds: dict[str, tuple[int, float, float, float]] = {}
+    window = r.value_range(r.get(data, "element_range", "element_range"), "element_range")
+    kinds = _network_kinds(r, data)
+    shape_factor = {
+        str(name): r.number(value, f"shape_cost_factor.{name}", positive=True)
+        for name, value in r.mapping(
+            r.get(data, "shape_cost_factor", ""), "shape_cost_factor"
+        ).items()
+    }
+    grades = _network_grades(r, data)
+    parts: list[NetworkPart] = []
+    seen: set[str] = set()
+    for i, entry in enumerate(r.items(r.get(data, "sets", ""), "sets")):
+        key = f"sets[{i}]"
+        entry = r.mapping(entry, key)
+        kind = str(r.get(entry, "kind", key))
+        if kind not in kinds:
+            raise r.fail(f"{key}.kind", f"expected one of {', '.join(kinds)}, got {kind!r}")
+        shape = str(r.get(entry, "shape", key))
+        if shape not in ("equal", "ratio") or shape not in shape_factor:
+            raise r.fail(
+                f"{key}.shape", f"expected equal or ratio (with a shape_cost_factor), got {shape!r}"
+            )
+        bases = [
+            r.parse(parse_resistance, v, f"{key}.values[{j}]")
+            for j, v in enumerate(r.items(r.get(entry, "values", key), f"{key}.values"))
+        ]
+        ratios = (
+            [1.0]
+            if shape == "equal"
+            else [
+                r.number(g, f"{key}.ratios[{j}]", positive=True)
+                for j, g in enumerate(r.items(r.get(entry, "ratios", key), f"{key}.ratios"))
+            ]
+        )
+        for ratio in ratios:
+            for base in bases:
+                pair = (base, _ratio_values(base, ratio))
+                if not all(window[0] * (1 - 1e-9) <= v <= window[1] * (1 + 1e-9) for v in pair):
+                    continue
+                for part in _network_grade_parts(
+                    kinds[kind], shape, shape_factor[shape], ratio, pair, grades
+                ):
+                    if part.part_id in seen:
+                        raise r.fail(key, f"the set repeats the network id {part.part_id}")
+                    seen.add(part.part_id)
+                    parts.append(part)
+    return tuple(parts)
+
+
+#: A network kind of the recipe: element count, power per element (W), voltage rating (V) and
+#: cost factor.
+_NetworkKind = tuple[int, float, float, float]
+
+
+def _network_kinds(r: _Recipe, data: Mapping[str, Any]) -> dict[str, _NetworkKind]:
+    """The recipe's ``kinds``: each one's element count (2 or 4), ratings and cost factor."""
+    kinds: dict[str, _NetworkKind] = {}
     for name, spec in r.mapping(r.get(data, "kinds", ""), "kinds").items():
         key = f"kinds.{name}"
         spec = r.mapping(spec, key)
@@ -443,12 +498,11 @@ def generate_networks(
             r.parse(parse_voltage, r.get(spec, "max_voltage", key), f"{key}.max_voltage"),
             r.number(r.get(spec, "cost_factor", key), f"{key}.cost_factor", positive=True),
         )
-    shape_factor = {
-        str(name): r.number(value, f"shape_cost_factor.{name}", positive=True)
-        for name, value in r.mapping(
-            r.get(data, "shape_cost_factor", ""), "shape_cost_factor"
-        ).items()
-    }
+    return kinds
+
+
+def _network_grades(r: _Recipe, data: Mapping[str, Any]) -> list[dict[str, float]]:
+    """The recipe's ``grades``: ratio tolerance, tracking, absolute figures, drifts and cost."""
     grades = []
     for i, grade in enumerate(r.items(r.get(data, "grades", ""), "grades")):
         key = f"grades[{i}]"
@@ -470,65 +524,41 @@ def generate_networks(
                 "cost": r.number(r.get(grade, "cost", key), f"{key}.cost"),
             }
         )
-    parts: list[NetworkPart] = []
-    seen: set[str] = set()
-    for i, entry in enumerate(r.items(r.get(data, "sets", ""), "sets")):
-        key = f"sets[{i}]"
-        entry = r.mapping(entry, key)
-        kind = str(r.get(entry, "kind", key))
-        if kind not in kinds:
-            raise r.fail(f"{key}.kind", f"expected one of {', '.join(kinds)}, got {kind!r}")
-        shape = str(r.get(entry, "shape", key))
-        if shape not in ("equal", "ratio") or shape not in shape_factor:
-            raise r.fail(
-                f"{key}.shape", f"expected equal or ratio (with a shape_cost_factor), got {shape!r}"
-            )
-        elements, power, voltage, kind_factor = kinds[kind]
-        bases = [
-            r.parse(parse_resistance, v, f"{key}.values[{j}]")
-            for j, v in enumerate(r.items(r.get(entry, "values", key), f"{key}.values"))
-        ]
-        ratios = (
-            [1.0]
-            if shape == "equal"
-            else [
-                r.number(g, f"{key}.ratios[{j}]", positive=True)
-                for j, g in enumerate(r.items(r.get(entry, "ratios", key), f"{key}.ratios"))
-            ]
+    return grades
+
+
+def _network_grade_parts(
+    kind: _NetworkKind,
+    shape: str,
+    shape_factor: float,
+    ratio: float,
+    pair: tuple[float, float],
+    grades: list[dict[str, float]],
+) -> list[NetworkPart]:
+    """One network part per grade for one base value and ratio of a set."""
+    elements, power, voltage, kind_factor = kind
+    base = pair[0]
+    values = pair * (elements // 2) if shape == "ratio" else (base,) * elements
+    label = "EQ" if shape == "equal" else _ratio_label(ratio)
+    return [
+        NetworkPart(
+            part_id=(
+                f"QN{elements}-{label}-{rkm_code(base, 3, short=True)}-"
+                f"{round(grade['ratio_tolerance'] * 1e6):d}"
+            ),
+            values_ohm=tuple(values),
+            abs_tolerance=grade["tolerance"],
+            ratio_tolerance=grade["ratio_tolerance"],
+            abs_tempco_per_k=grade["tempco"],
+            tracking_tempco_per_k=grade["tracking"],
+            power_per_element_w=power,
+            max_voltage_v=voltage,
+            unit_cost=_network_cost(grade["cost"], kind_factor, shape_factor),
+            drift_1000h=grade["drift"],
+            ratio_drift_1000h=grade["ratio_drift"],
         )
-        for ratio in ratios:
-            for base in bases:
-                pair = (base, _ratio_values(base, ratio))
-                if not all(low * (1 - 1e-9) <= v <= high * (1 + 1e-9) for v in pair):
-                    continue
-                values = pair * (elements // 2) if shape == "ratio" else (base,) * elements
-                label = "EQ" if shape == "equal" else _ratio_label(ratio)
-                for grade in grades:
-                    part_id = (
-                        f"QN{elements}-{label}-{rkm_code(base, 3, short=True)}-"
-                        f"{round(grade['ratio_tolerance'] * 1e6):d}"
-                    )
-                    if part_id in seen:
-                        raise r.fail(key, f"the set repeats the network id {part_id}")
-                    seen.add(part_id)
-                    parts.append(
-                        NetworkPart(
-                            part_id=part_id,
-                            values_ohm=tuple(values),
-                            abs_tolerance=grade["tolerance"],
-                            ratio_tolerance=grade["ratio_tolerance"],
-                            abs_tempco_per_k=grade["tempco"],
-                            tracking_tempco_per_k=grade["tracking"],
-                            power_per_element_w=power,
-                            max_voltage_v=voltage,
-                            unit_cost=_network_cost(
-                                grade["cost"], kind_factor, shape_factor[shape]
-                            ),
-                            drift_1000h=grade["drift"],
-                            ratio_drift_1000h=grade["ratio_drift"],
-                        )
-                    )
-    return tuple(parts)
+        for grade in grades
+    ]
 
 
 #: libyaml's safe loader when PyYAML was built with it (ten times faster than the pure-Python
