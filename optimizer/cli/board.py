@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+from typing import TYPE_CHECKING
 
 from rich.console import Console
 
@@ -21,6 +22,13 @@ from .options import (
     _whole_number,
 )
 from .outputs import _export_paths, _notes, _warn, _write_outputs
+
+if TYPE_CHECKING:
+    from ..board.model import Board
+    from ..board.search import BoardResult, BoardStatus
+    from ..catalog import Catalog
+    from ..report.board import BoardReport
+    from ..solve.diagnose import Diagnosis
 
 
 def _add_board_command(commands: argparse._SubParsersAction[_Parser]) -> None:
@@ -53,32 +61,16 @@ def _add_board_command(commands: argparse._SubParsersAction[_Parser]) -> None:
 def _board(args: argparse.Namespace, console: Console) -> int:
     from ..analysis.safety import safety_cautions
     from ..board.boardfile import load_board
-    from ..board.search import BoardStatus, board_search
+    from ..board.search import board_search
     from ..catalog import load_catalogs
-    from ..report.board import (
-        board_blocks,
-        board_bom_csv_text,
-        board_json_text,
-        board_to_json,
-        build_board_report,
-        render_board,
-    )
-    from ..report.exports import render_report, report_format
-    from ..safewrite import STDOUT, OutputError, check_outputs
+    from ..report.board import board_json_text, board_to_json, build_board_report
     from ..statistics import board_statistics
     from ..verify import verify_candidate
 
-    def outputs_allowed(inputs: list[str]) -> None:
-        if args.report is not None and args.report != STDOUT and not report_format(args.report):
-            raise OutputError(f"{args.report}: a report file must end in .md or .html")
-        if STDOUT in _export_paths(args) and args.json:
-            raise OutputError(f"{STDOUT}: --json already prints on standard output")
-        check_outputs(_export_paths(args), force=args.force, inputs=inputs)
-
-    outputs_allowed([args.board, *args.catalog])  # before any work
+    _board_outputs_allowed(args, [args.board, *args.catalog])  # before any work
     board = load_board(args.board)
     specs = [a.spec.source_path for a in board.amplifiers if a.spec.source_path]
-    outputs_allowed([args.board, *specs, *board.purchasing.catalogs, *args.catalog])
+    _board_outputs_allowed(args, [args.board, *specs, *board.purchasing.catalogs, *args.catalog])
     args.spec_warnings = list(board.warnings)
     _warn(args, console)
     paths = _once(args, console, [*board.purchasing.catalogs, *args.catalog])
@@ -90,18 +82,7 @@ def _board(args: argparse.Namespace, console: Console) -> int:
             board, catalog, verify_candidate, top=top, time_limit_s=args.time_limit
         )
     stopped = interrupt.cancelled()
-    diagnoses = []
-    if result.status is BoardStatus.INFEASIBLE and not stopped:
-        from ..solve.diagnose import diagnose
-
-        limit = min(DIAGNOSIS_TIME_LIMIT_S, args.time_limit)
-        with interrupt.winding_down():
-            for index in result.infeasible:
-                spec = result.specs[index]
-                diagnoses.append(
-                    (index, diagnose(spec, catalog, verify_candidate, time_limit_s=limit))
-                )
-        interrupt.check()
+    diagnoses = [] if stopped else _board_diagnoses(args, catalog, result)
     cautions = list(dict.fromkeys(c for a in board.amplifiers for c in safety_cautions(a.spec)))
     verifications, statistics_s = board_statistics(result)
     report = build_board_report(
@@ -113,6 +94,8 @@ def _board(args: argparse.Namespace, console: Console) -> int:
     if args.json:
         console.print(json_text, markup=False, highlight=False, emoji=False, soft_wrap=True)
     else:
+        from ..report.board import render_board
+
         console.print(render_board(report))
     if stopped:
         raise interrupt.Interrupted(
@@ -120,6 +103,54 @@ def _board(args: argparse.Namespace, console: Console) -> int:
             "the search was stopped; the boards above are the best found so far (not proven "
             "best); no file was written",
         )
+    _write_board_files(args, console, board, report, json_text)
+    return _board_exit_code(result.status)
+
+
+def _board_outputs_allowed(args: argparse.Namespace, inputs: list[str]) -> None:
+    """Refuse the export paths before any work: a report must be .md or .html, ``--json``
+    and an export cannot both print, and no input or existing file is overwritten without
+    ``--force``.
+    """
+    from ..report.exports import report_format
+    from ..safewrite import STDOUT, OutputError, check_outputs
+
+    if args.report is not None and args.report != STDOUT and not report_format(args.report):
+        raise OutputError(f"{args.report}: a report file must end in .md or .html")
+    if STDOUT in _export_paths(args) and args.json:
+        raise OutputError(f"{STDOUT}: --json already prints on standard output")
+    check_outputs(_export_paths(args), force=args.force, inputs=inputs)
+
+
+def _board_diagnoses(
+    args: argparse.Namespace, catalog: Catalog, result: BoardResult
+) -> list[tuple[int, Diagnosis]]:
+    """The diagnosis of each amplifier that nothing meets, when the board is infeasible."""
+    from ..board.search import BoardStatus
+    from ..verify import verify_candidate
+
+    if result.status is not BoardStatus.INFEASIBLE:
+        return []
+    from ..solve.diagnose import diagnose
+
+    diagnoses = []
+    limit = min(DIAGNOSIS_TIME_LIMIT_S, args.time_limit)
+    with interrupt.winding_down():
+        for index in result.infeasible:
+            spec = result.specs[index]
+            diagnoses.append((index, diagnose(spec, catalog, verify_candidate, time_limit_s=limit)))
+    interrupt.check()
+    return diagnoses
+
+
+def _write_board_files(
+    args: argparse.Namespace, console: Console, board: Board, report: BoardReport, json_text: str
+) -> None:
+    """Write the JSON, the merged BOM of the best board and the report that were asked for."""
+    from ..report.board import board_blocks, board_bom_csv_text
+    from ..report.exports import render_report, report_format
+    from ..safewrite import STDOUT
+
     outputs: list[tuple[str, str]] = []
     best = report.best
     if args.json_out is not None:
@@ -128,7 +159,7 @@ def _board(args: argparse.Namespace, console: Console) -> int:
         outputs.append((args.bom, board_bom_csv_text(board, best)))
     if args.report is not None:
         fmt = "md" if args.report == STDOUT else report_format(args.report)
-        assert fmt is not None  # checked by _check_outputs
+        assert fmt is not None  # checked by _board_outputs_allowed
         title = f"Quartet board: {board.title or args.board}"
         outputs.append((args.report, render_report(title, board_blocks(report), fmt)))
     _write_outputs(args, console, outputs)
@@ -137,8 +168,14 @@ def _board(args: argparse.Namespace, console: Console) -> int:
             "[yellow]warning[/yellow]: no board was found, so no BOM was written",
             highlight=False,
         )
-    if result.status is BoardStatus.OPTIMAL:
+
+
+def _board_exit_code(status: BoardStatus) -> int:
+    """0 proven optimal, 1 an amplifier cannot be met, 3 the time limit ended the search."""
+    from ..board.search import BoardStatus
+
+    if status is BoardStatus.OPTIMAL:
         return EXIT_OK
-    if result.status is BoardStatus.INFEASIBLE:
+    if status is BoardStatus.INFEASIBLE:
         return EXIT_NOT_MET
     return EXIT_TIME_LIMIT
