@@ -437,42 +437,8 @@ def board_search(
     deadline = started + (time_limit_s if time_limit_s is not None else DEFAULT_TIME_LIMIT_S)
     purchasing = board.purchasing
     checker = _Checker(verifier)
-    kinds: list[_Kind] = []
-    for amplifier in board.amplifiers:
-        spec = alone_spec(amplifier, purchasing)
-        per_line = purchasing.line_cost / amplifier.quantity
-        keyed = replace(
-            spec, preferences=replace(spec.preferences, line_cost=per_line, stock_penalty=0.0)
-        )
-        bare = replace(
-            spec, preferences=replace(spec.preferences, line_cost=0.0, stock_penalty=0.0)
-        )
-        stream = OrderedDesigns(keyed, catalog, _defer, deadline=deadline, hold_cp_sat=True)
-        floor = OrderedDesigns(bare, catalog, _defer, deadline=deadline, hold_cp_sat=True)
-        kinds.append(_Kind(amplifier, spec, stream, floor))
-
-    def result(
-        boards: Sequence[RankedBoard],
-        alone: RankedBoard | None,
-        status: BoardStatus,
-        infeasible: Sequence[int] = (),
-    ) -> BoardResult:
-        build = sum(
-            sum(o.seconds[0] + o.seconds[1] for o in (k.stream, k.floor_stream)) for k in kinds
-        )
-        return BoardResult(
-            boards=tuple(boards),
-            alone=alone,
-            status=status,
-            infeasible=tuple(infeasible),
-            specs=tuple(k.spec for k in kinds),
-            read=tuple(len(k.pool) for k in kinds),
-            verified=checker.verified,
-            rejected=checker.rejected,
-            seconds=time.perf_counter() - started,
-            build_seconds=build,
-            verify_seconds=checker.seconds,
-        )
+    kinds = _kinds(board, catalog, deadline)
+    tally = _Tally(kinds, checker, started)
 
     # CP-SAT ceilings per kind: None while held. First round: the exact enumerations
     # alone; then the CP-SAT streams up to each kind's alone bound; then, while the board
@@ -496,30 +462,94 @@ def board_search(
                  for k, e, n in zip(kinds, alone_entries, needs, strict=True)]  # fmt: skip
         if rounds >= MAX_CEILING_ROUNDS:
             needs = [math.inf] * len(kinds)
-        raise_any = False
-        for index, (kind, need) in enumerate(zip(kinds, needs, strict=True)):
-            current = ceilings[index]
-            if not kind.stream.has_cp_sat:
-                ceilings[index] = math.inf
-                continue
-            if current is None or need > current:
-                kind.stream.release(need)
-                ceilings[index] = need
-                raise_any = True
         rounds += 1
-        if not raise_any:
+        if not _raise_ceilings(kinds, ceilings, needs):
             break
 
     missing = [i for i, e in enumerate(alone_entries) if e is None]
     if missing:
         proven = [i for i in missing if kinds[i].stream.proven and not _out_of_time(deadline)]
         if proven:
-            return result((), None, BoardStatus.INFEASIBLE, proven)
-        return result((), None, BoardStatus.TIME_LIMIT)
+            return tally.result((), None, BoardStatus.INFEASIBLE, proven)
+        return tally.result((), None, BoardStatus.TIME_LIMIT)
     alone = _ranked([e for e in alone_entries if e is not None], kinds, purchasing)
     verified_boards = [entries for _, entries in boards if all(e.passed for e in entries)]
     ranked = [_ranked(entries, kinds, purchasing) for entries in verified_boards]
     done = not timed_out and all(k.stream.proven for k in kinds) and not _out_of_time(deadline)
     if not ranked:
-        return result((), alone, BoardStatus.INFEASIBLE if done else BoardStatus.TIME_LIMIT)
-    return result(ranked, alone, BoardStatus.OPTIMAL if done else BoardStatus.TIME_LIMIT)
+        return tally.result((), alone, BoardStatus.INFEASIBLE if done else BoardStatus.TIME_LIMIT)
+    return tally.result(ranked, alone, BoardStatus.OPTIMAL if done else BoardStatus.TIME_LIMIT)
+
+
+def _kinds(board: Board, catalog: Catalog, deadline: float) -> list[_Kind]:
+    """One kind per amplifier: its alone spec, the stream ordered by its share of the line
+    cost and the stream without line costs (the floor), the CP-SAT streams held."""
+    purchasing = board.purchasing
+    kinds: list[_Kind] = []
+    for amplifier in board.amplifiers:
+        spec = alone_spec(amplifier, purchasing)
+        per_line = purchasing.line_cost / amplifier.quantity
+        keyed = replace(
+            spec, preferences=replace(spec.preferences, line_cost=per_line, stock_penalty=0.0)
+        )
+        bare = replace(
+            spec, preferences=replace(spec.preferences, line_cost=0.0, stock_penalty=0.0)
+        )
+        stream = OrderedDesigns(keyed, catalog, _defer, deadline=deadline, hold_cp_sat=True)
+        floor = OrderedDesigns(bare, catalog, _defer, deadline=deadline, hold_cp_sat=True)
+        kinds.append(_Kind(amplifier, spec, stream, floor))
+    return kinds
+
+
+def _raise_ceilings(
+    kinds: Sequence[_Kind], ceilings: list[float | None], needs: Sequence[float]
+) -> bool:
+    """Release each kind's CP-SAT stream up to its need where that is above its ceiling
+    (``ceilings`` updated in place); whether any ceiling rose."""
+    raised = False
+    for index, (kind, need) in enumerate(zip(kinds, needs, strict=True)):
+        current = ceilings[index]
+        if not kind.stream.has_cp_sat:
+            ceilings[index] = math.inf
+            continue
+        if current is None or need > current:
+            kind.stream.release(need)
+            ceilings[index] = need
+            raised = True
+    return raised
+
+
+@dataclass(frozen=True)
+class _Tally:
+    """What a board result counts besides its boards: the kinds' reads and build times, the
+    checker's counts and the time since the search started."""
+
+    kinds: Sequence[_Kind]
+    checker: _Checker
+    started: float
+
+    def result(
+        self,
+        boards: Sequence[RankedBoard],
+        alone: RankedBoard | None,
+        status: BoardStatus,
+        infeasible: Sequence[int] = (),
+    ) -> BoardResult:
+        """The board result with these boards and status."""
+        kinds, checker = self.kinds, self.checker
+        build = sum(
+            sum(o.seconds[0] + o.seconds[1] for o in (k.stream, k.floor_stream)) for k in kinds
+        )
+        return BoardResult(
+            boards=tuple(boards),
+            alone=alone,
+            status=status,
+            infeasible=tuple(infeasible),
+            specs=tuple(k.spec for k in kinds),
+            read=tuple(len(k.pool) for k in kinds),
+            verified=checker.verified,
+            rejected=checker.rejected,
+            seconds=time.perf_counter() - self.started,
+            build_seconds=build,
+            verify_seconds=checker.seconds,
+        )
