@@ -236,9 +236,9 @@ def _networks_from_table(table: _Table) -> tuple[NetworkPart, ...]:
 _YAML_SECTIONS: Final = ("discrete", "networks")
 
 
-def _load_yaml(
-    path: str, data: bytes
-) -> tuple[pd.DataFrame, IntArray, tuple[NetworkPart, ...], IntArray]:
+def _yaml_sections(path: str, data: bytes) -> dict[str, yaml.Node]:
+    """The top-level lists of a YAML catalog (``discrete``, ``networks``) by key; a located
+    :class:`CatalogError` when the text, the YAML or the top level is wrong."""
     from ..inputs import YamlTrouble, compose_yaml
 
     try:
@@ -273,6 +273,13 @@ def _load_yaml(
         sections[key] = value_node
     if not sections:
         raise CatalogError(f"the file is empty: expected {expected}", path=path)
+    return sections
+
+
+def _load_yaml(
+    path: str, data: bytes
+) -> tuple[pd.DataFrame, IntArray, tuple[NetworkPart, ...], IntArray]:
+    sections = _yaml_sections(path, data)
     problems: list[CatalogError] = []  # every problem of both lists, reported together
 
     def checked(section: str, required: Sequence[str], optional: Sequence[str]) -> _Table | None:
