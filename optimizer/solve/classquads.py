@@ -44,10 +44,10 @@ The search
    balanced first, a few pairs at a time. Each pair that meets the yield gives its value
    choices as designs, grouped by exact cost (``optimizer.cost``: the lines they place), each
    group's values nearest the middle of the resistance window first; the stream's exact check
-   still decides each (the ratings read the values). With an input-impedance floor a value
-   choice whose nominal impedance is below it is dropped (:func:`nominal_impedance_reaches`),
-   and with it or an output-noise ceiling each design meets those exact checks before it
-   leaves the search.
+   still decides each (the ratings read the values; ``solve.quaddesigns``). With an
+   input-impedance floor a value choice whose nominal impedance is below it is dropped
+   (``quaddesigns.nominal_impedance_reaches``), and with it or an output-noise ceiling each
+   design meets those exact checks before it leaves the search.
 
 What the ranking leaves out: designs with a part that another part dominates at its value
 (no cheaper, no tighter, rated no better, stocked if it is: ``solve.discrete``). Swapping it
@@ -82,9 +82,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from ..analysis.checks import check_input_impedance, check_output_noise
 from ..analysis.environment import environment_from_spec
-from ..analysis.formulas import common_mode_input_resistance, differential_input_resistance
 from ..analysis.montecarlo import build_factors, judging_corners, yield_fractions
 from ..analysis.variation import (
     VariableValues,
@@ -94,12 +92,10 @@ from ..analysis.variation import (
 )
 from ..catalog import Catalog
 from ..design import Design, Placement
-from ..parts import DiscretePart
 from ..spec import DriftModel, Objective, Spec, StockPolicy
 from . import yieldbox
 from .discrete import DiscreteBlock
 from .environment import LinearEnvironment
-from .frontier import cached_part
 from .pairbounds import (
     deviation_bounds,
     gain_conditions,
@@ -110,9 +106,10 @@ from .pairbounds import (
     passing_counts,
     screen_pairs,
 )
+from .quaddesigns import ValueChoices
 from .screen import log_balance_limit
 
-__all__ = ["ClassQuadSearch", "nominal_impedance_reaches", "serves"]
+__all__ = ["ClassQuadSearch", "serves"]
 
 Array = NDArray[np.float64]
 
@@ -175,16 +172,6 @@ class _Batch:
 _Pair = tuple[tuple[int, int, int, int], NDArray[np.int64], NDArray[np.int64]]
 
 
-@dataclass(frozen=True)
-class _Group:
-    """Value choices of one quadruple at one exact cost: value-index pairs of each half, row by
-    row."""
-
-    quad: tuple[int, int, int, int]
-    first: NDArray[np.int64]
-    second: NDArray[np.int64]
-
-
 class ClassQuadSearch:
     """Designs of four discrete parts in nondecreasing cost (module docstring), none dearer
     than ``ceiling()`` (read as the search goes; ``stop()`` ends it early)."""
@@ -229,15 +216,8 @@ class ClassQuadSearch:
             )
             self._own[c] = (alone.tolerance[0], alone.tempco_per_k[0], alone.drift[0])
         self._halves: dict[tuple[int, int, int], _Half] = {}
-        # Parts looked up once (a table row costs a tenth of a millisecond, and a search can
-        # place the same parts in many designs).
-        self._part_cache: dict[int, DiscretePart] = {}
+        self._choices = ValueChoices(spec, catalog, block, stop)
         self._environment = environment_from_spec(spec)
-        prefs = spec.preferences
-        values = block.values if block.values.size else np.ones(1)
-        low_ohm = max(prefs.resistance_min_ohm, float(values.min()))
-        high_ohm = min(prefs.resistance_max_ohm, float(values.max()))
-        self._middle_ohm = math.sqrt(low_ohm * max(high_ohm, low_ohm))
         self._unit: dict[tuple[bool, ...], VariableValues] = {}
         self._bounds: dict[tuple[tuple[bool, ...], int, int, int], tuple[Array, Array]] = {}
         self._z = yieldbox.quantiles(spec) or 0.0
@@ -364,10 +344,10 @@ class ClassQuadSearch:
             if key > self._ceiling() * (1.0 + 1e-9) + 1e-9:
                 return  # dearer than the ranking can use (all later work costs at least this)
             if kind == "designs":
-                yield from self._designs(payload)  # type: ignore[arg-type]
+                yield from self._choices.designs(payload)  # type: ignore[arg-type]
                 continue
             if kind == "pair":  # a pair that meets the yield: its designs by exact cost
-                for cost, group in self._cost_groups(*payload):  # type: ignore[misc]
+                for cost, group in self._choices.cost_groups(*payload):  # type: ignore[misc]
                     heapq.heappush(heap, (cost, RANK["designs"], seq, "designs", group))
                     seq += 1
                 continue
@@ -516,95 +496,6 @@ class ClassQuadSearch:
         )
         return passing, more
 
-    def _cost_groups(
-        self, quad: tuple[int, int, int, int], first: NDArray[np.int64], second: NDArray[np.int64]
-    ) -> list[tuple[float, _Group]]:
-        """The value choices of one electrical design grouped by exact cost (``optimizer.cost``:
-        parts, placements, one line per distinct part id; no stock penalty: :func:`serves`),
-        each group's choices those nearest the middle of the resistance window first."""
-        block, prefs = self._block, self._spec.preferences
-        rows_a = np.column_stack([block.part_row[quad[0], first[:, 0]],
-                                  block.part_row[quad[1], first[:, 1]]])  # fmt: skip
-        rows_b = np.column_stack([block.part_row[quad[2], second[:, 0]],
-                                  block.part_row[quad[3], second[:, 1]]])  # fmt: skip
-        r1, r2 = rows_a[:, 0][:, None], rows_a[:, 1][:, None]
-        r3, r4 = rows_b[:, 0][None, :], rows_b[:, 1][None, :]
-        new = [
-            np.ones((first.shape[0], second.shape[0]), dtype=bool),
-            np.broadcast_to(r2 != r1, (first.shape[0], second.shape[0])),
-            (r3 != r1) & (r3 != r2),
-            (r4 != r1) & (r4 != r2) & (r4 != r3),
-        ]
-        lines = sum(n.astype(float) for n in new)
-        parts = float(sum(block.cost[c] for c in quad))
-        cost = parts + prefs.line_cost * lines
-        middle = math.log(self._middle_ohm)
-        near = (
-            np.abs(np.log(block.values[first[:, 0]]) - middle)[:, None]
-            + np.abs(np.log(block.values[second[:, 0]]) - middle)[None, :]
-        )
-        flat_cost, flat_near = np.ravel(cost), np.ravel(near)
-        order = np.lexsort((flat_near, flat_cost))
-        floor = self._spec.requirements.min_input_impedance_ohm
-        if floor > 0.0:  # value choices whose nominal impedance is below the floor cannot pass
-            v = block.values
-            reach = np.ravel(
-                nominal_impedance_reaches(
-                    v[first[:, 0]][:, None], v[second[:, 0]][None, :], v[second[:, 1]][None, :],
-                    floor,
-                )
-            )  # fmt: skip
-            order = order[reach[order]]
-            if order.size == 0:
-                return []
-        groups: list[tuple[float, _Group]] = []
-        levels = flat_cost[order]
-        starts = np.r_[0, np.flatnonzero(np.diff(levels) > 1e-12 * (1.0 + abs(levels[0]))) + 1]
-        ends = np.r_[starts[1:], levels.size]
-        for s, e in zip(starts.tolist(), ends.tolist(), strict=True):
-            picked = order[s:e]
-            ia, ib = np.divmod(picked, second.shape[0])
-            groups.append((float(levels[s]), _Group(quad, first[ia], second[ib])))
-        return groups
-
-    def _designs(self, group: _Group) -> Iterator[Design]:
-        """The designs of one cost group, in its order."""
-        for at in range(0, group.first.shape[0], 64):  # a few at a time: groups can be large
-            yield from self._designs_at(group, at, at + 64)
-
-    def _designs_at(self, group: _Group, start: int, stop: int) -> Iterator[Design]:
-        """Designs ``start`` to ``stop`` of one cost group, less those that fail the spec's
-        output-noise ceiling or input-impedance floor: the exact checks themselves
-        (``analysis.checks``), which read the values and the parts' spreads and nothing the
-        Monte Carlo reads, so a design they turn down fails the exact check whatever its
-        yield (the stream would only count it as rejected). Dominance stays sound for them: a
-        part no looser than another at its value has value ranges inside the other's at every
-        operating corner and stage of life, so the lowest impedance and the highest noise over
-        those corners are no worse."""
-        block, spec = self._block, self._spec
-        req = spec.requirements
-        screened = req.max_output_noise_v_rms is not None or req.min_input_impedance_ohm > 0.0
-        quad = group.quad
-        firsts, seconds = group.first[start:stop].tolist(), group.second[start:stop].tolist()
-        for (k1, k2), (k3, k4) in zip(firsts, seconds, strict=True):
-            if self._stop():
-                return
-            rows = (
-                block.part_row[quad[0], k1],
-                block.part_row[quad[1], k2],
-                block.part_row[quad[2], k3],
-                block.part_row[quad[3], k4],
-            )
-            design = Design(
-                tuple(  # type: ignore[arg-type]
-                    Placement(f"R{i + 1}", cached_part(self._catalog, int(row), self._part_cache))
-                    for i, row in enumerate(rows)
-                )
-            )
-            if screened and not _value_checks_pass(design, spec):
-                continue
-            yield design
-
     def _half_bounds(
         self, quad: tuple[int, int, int, int], i: int, half: _Half
     ) -> tuple[Array, Array]:
@@ -678,27 +569,3 @@ class ClassQuadSearch:
             float(values[second[0]]),
             float(values[second[1]]),
         ]
-
-
-def _value_checks_pass(design: Design, spec: Spec) -> bool:
-    """The spec's output-noise ceiling and input-impedance floor (``analysis.checks``; each
-    passes when the spec sets none)."""
-    return check_output_noise(design, spec).passed and all(
-        o.passed for o in check_input_impedance(design, spec)
-    )
-
-
-def nominal_impedance_reaches(
-    r1: Array, r3: Array, r4: Array, floor_ohm: float
-) -> NDArray[np.bool_]:
-    """Whether nominal values can meet an input-impedance floor (ohms; no REF impedance):
-    ``R1 + R3 ≥ Z`` and ``R1·(R3 + R4)/(R1 + R3) ≥ Z`` (``analysis.formulas``:
-    ``differential_input_resistance``, ``common_mode_input_resistance``), each less a relative
-    1e-9 against rounding. Necessary for ``analysis.checks.check_input_impedance``: both
-    resistances are monotone in each value (the common-mode one rises with R1 and R4, and with
-    R3 exactly when R1 > R4), so their least value over the box of a design's operating
-    corners, which holds the nominal values, lies at a corner and is at most the nominal one."""
-    floor = floor_ohm * (1.0 - 1e-9)
-    differential = differential_input_resistance(r1, r3)
-    common = common_mode_input_resistance(r1, r3, r4)
-    return np.asarray((differential >= floor) & (common >= floor), dtype=bool)

@@ -367,7 +367,7 @@ def test_the_nominal_impedance_screen_is_necessary(
     ``nominal_impedance_reaches``: random built-in parts at random values, five years of
     drift, the floor at the design's own lowest resistance (so it passes with no margin)."""
     from optimizer.analysis.checks import check_input_impedance
-    from optimizer.solve.classquads import nominal_impedance_reaches
+    from optimizer.solve.quaddesigns import nominal_impedance_reaches
 
     spec = _spec(tmp_path_factory.mktemp("z"), gain=1.0, req=YIELD + ", operating_life: 43800 h")
     cat = _builtin()
