@@ -5,6 +5,7 @@ be collected, or would shadow the first)."""
 
 from __future__ import annotations
 
+import ast
 from collections import Counter
 
 from helpers import ROOT
@@ -66,3 +67,37 @@ def test_developers_md_names_every_module() -> None:
             continue
         missing.append(rel)
     assert not missing
+
+
+#: The most lines a module of the package may have, and the most lines of code (docstring,
+#: comments and blank lines not counted) a function may have: issue #14's "one concept per
+#: module, each under ~600 lines, no function over ~80 lines" (common practice: a unit a reader
+#: can hold in mind; the longest function of a well-kept HTTP client is 133 lines).
+MODULE_LINES = 620
+FUNCTION_LINES = 80
+
+
+def _code_lines(lines: list[str], node: ast.FunctionDef | ast.AsyncFunctionDef) -> int:
+    """Lines of code in a function's body: its docstring, comment and blank lines left out."""
+    first = node.body[0]
+    docstring = isinstance(first, ast.Expr) and isinstance(first.value, ast.Constant)
+    start = first.end_lineno + 1 if docstring and first.end_lineno else first.lineno
+    body = lines[start - 1 : node.end_lineno]
+    return sum(1 for line in body if line.strip() and not line.strip().startswith("#"))
+
+
+def test_modules_and_functions_stay_small() -> None:
+    long_modules, long_functions = [], []
+    for path in sorted((ROOT / "optimizer").rglob("*.py")):
+        text = path.read_text(encoding="utf-8")
+        lines = text.splitlines()
+        rel = path.relative_to(ROOT).as_posix()
+        if len(lines) > MODULE_LINES:
+            long_modules.append(f"{rel}: {len(lines)} lines")
+        for node in ast.walk(ast.parse(text)):
+            if isinstance(node, (ast.FunctionDef, ast.AsyncFunctionDef)):
+                count = _code_lines(lines, node)
+                if count > FUNCTION_LINES:
+                    long_functions.append(f"{rel}: {node.name}, {count} lines of code")
+    assert not long_modules, long_modules
+    assert not long_functions, long_functions

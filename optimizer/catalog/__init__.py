@@ -24,8 +24,9 @@ with what was found and what was expected.
 
 from __future__ import annotations
 
-from .builtin import builtin_catalog, builtin_data_folder, generate_discrete, generate_networks
+from .builtin import builtin_catalog, builtin_data_folder, generate_discrete
 from .load import load_catalog, load_catalogs
+from .networkrecipe import generate_networks
 from .series import rkm_code, series_of_values
 from .table import (
     BUILTIN_DISCRETE_SOURCE,

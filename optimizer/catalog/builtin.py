@@ -1,10 +1,11 @@
-"""The built-in generic catalog, expanded from its recipes (discrete grades and network kinds)."""
+"""The built-in generic catalog: its discrete parts expanded from their recipe (grades, series,
+sizes, technologies), its networks from theirs (``catalog.networkrecipe``), the data folder
+found in an install or a source tree."""
 
 from __future__ import annotations
 
 import functools
-import math
-from collections.abc import Callable, Mapping, Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from importlib import resources
 from pathlib import Path
@@ -15,15 +16,15 @@ import yaml
 
 from ..errors import CatalogError, ModelError, UnitError
 from ..eseries import ESeries, series_for_name, values_in_range
-from ..parts import NetworkPart, Technology
+from ..parts import Technology
 from ..units import (
-    exceeds,
     parse_fraction,
     parse_power,
-    parse_resistance,
     parse_tempco,
     parse_voltage,
 )
+from .networkrecipe import generate_networks
+from .recipe import RecipeReader
 from .series import FloatArray, _from_codes, rkm_code
 from .table import (
     BUILTIN_DISCRETE_SOURCE,
@@ -44,63 +45,6 @@ if TYPE_CHECKING:  # pandas is imported where a table is built (it takes a third
         from importlib.abc import Traversable
 
 
-class _Recipe:
-    """Reads one recipe mapping; every problem is a :class:`CatalogError` naming the key path."""
-
-    def __init__(self, data: object, source: str) -> None:
-        self.source = source
-        self.data = self.mapping(data, "")
-
-    def fail(self, key: str, message: str) -> CatalogError:
-        return CatalogError(message, path=self.source, column=key)
-
-    def mapping(self, value: object, key: str) -> Mapping[str, Any]:
-        if not isinstance(value, Mapping):
-            raise self.fail(key, f"expected a mapping, got {type(value).__name__}")
-        return value
-
-    def items(self, value: object, key: str) -> list[Any]:
-        if not isinstance(value, list) or not value:
-            raise self.fail(key, "expected a non-empty list")
-        return value
-
-    def get(self, mapping: Mapping[str, Any], key: str, path: str) -> Any:
-        if key not in mapping:
-            raise self.fail(path, f"missing key {key!r}")
-        return mapping[key]
-
-    def parse(self, parser: Callable[[object], float], value: object, key: str) -> float:
-        try:
-            return parser(value)
-        except UnitError as exc:
-            raise self.fail(key, str(exc)) from None
-
-    def number(self, value: object, key: str, *, positive: bool = False) -> float:
-        if (
-            isinstance(value, bool)
-            or not isinstance(value, (int, float))
-            or not math.isfinite(value)
-        ):
-            raise self.fail(key, f"expected a number, got {value!r}")
-        if value < 0 or (positive and value == 0):
-            raise self.fail(
-                key,
-                f"expected a number {'above zero' if positive else 'of zero or more'}, "
-                f"got {value!r}",
-            )
-        return float(value)
-
-    def value_range(self, value: object, key: str) -> tuple[float, float]:
-        pair = self.items(value, key)
-        if len(pair) != 2:
-            raise self.fail(key, f"expected [low, high], got {value!r}")
-        low = self.parse(parse_resistance, pair[0], f"{key}[0]")
-        high = self.parse(parse_resistance, pair[1], f"{key}[1]")
-        if exceeds(low, high):  # equal within rounding counts as equal (units.NUMBER_REL_TOL)
-            raise self.fail(key, f"expected low <= high, got {value!r}")
-        return min(low, high), high
-
-
 def _discrete_cost(grade_cost: float, size_factor: float, tempco_premium: float) -> float:
     """Relative unit cost of a generated discrete part, an ILLUSTRATIVE model of our own (not
     market data; relative units, not money)::
@@ -109,16 +53,6 @@ def _discrete_cost(grade_cost: float, size_factor: float, tempco_premium: float)
 
     rounded to 4 decimals."""
     return round(grade_cost * size_factor + tempco_premium, 4)
-
-
-def _network_cost(grade_cost: float, kind_factor: float, shape_factor: float) -> float:
-    """Relative unit cost of a generated network, an ILLUSTRATIVE model of our own (relative
-    units, the same as the discrete parts')::
-
-        unit_cost = grade_cost * kind_factor * shape_factor
-
-    rounded to 4 decimals."""
-    return round(grade_cost * kind_factor * shape_factor, 4)
 
 
 @dataclass(frozen=True)
@@ -148,7 +82,7 @@ class _DiscreteRecipe:
     grades: tuple[_Grade, ...]
 
 
-def _series_rules(r: _Recipe) -> list[tuple[float, ESeries]]:
+def _series_rules(r: RecipeReader) -> list[tuple[float, ESeries]]:
     """``series_by_tolerance``: (lowest tolerance, series) in the recipe's order."""
     rules: list[tuple[float, ESeries]] = []
     for i, rule in enumerate(
@@ -165,7 +99,7 @@ def _series_rules(r: _Recipe) -> list[tuple[float, ESeries]]:
     return rules
 
 
-def _sizes(r: _Recipe) -> dict[str, tuple[float, float, float]]:
+def _sizes(r: RecipeReader) -> dict[str, tuple[float, float, float]]:
     """``sizes``: size code → (power at 70 °C in W, limiting voltage in V, cost factor)."""
     sizes: dict[str, tuple[float, float, float]] = {}
     for name, spec in r.mapping(r.get(r.data, "sizes", ""), "sizes").items():
@@ -181,7 +115,7 @@ def _sizes(r: _Recipe) -> dict[str, tuple[float, float, float]]:
     return sizes
 
 
-def _technologies(r: _Recipe) -> dict[str, tuple[str, float]]:
+def _technologies(r: RecipeReader) -> dict[str, tuple[str, float]]:
     """``technologies``: technology name → (id code, drift over 1000 h as a fraction)."""
     technologies: dict[str, tuple[str, float]] = {}
     for name, spec in r.mapping(r.get(r.data, "technologies", ""), "technologies").items():
@@ -198,7 +132,7 @@ def _technologies(r: _Recipe) -> dict[str, tuple[str, float]]:
     return technologies
 
 
-def _premiums(r: _Recipe) -> dict[float, float]:
+def _premiums(r: RecipeReader) -> dict[float, float]:
     """``tempco_premium``: tempco bound (per K) → the cost added for it."""
     premium: dict[float, float] = {}
     for name, cost in r.mapping(r.get(r.data, "tempco_premium", ""), "tempco_premium").items():
@@ -208,7 +142,7 @@ def _premiums(r: _Recipe) -> dict[float, float]:
 
 
 def _grade(
-    r: _Recipe,
+    r: RecipeReader,
     index: int,
     raw: object,
     known: tuple[Mapping[str, tuple[str, float]], Mapping[float, float], Sequence[str]],
@@ -266,7 +200,7 @@ def _grade(
     )
 
 
-def _read_discrete_recipe(r: _Recipe) -> _DiscreteRecipe:
+def _read_discrete_recipe(r: RecipeReader) -> _DiscreteRecipe:
     """Read and check every section of a discrete recipe (the first problem raises)."""
     full_range = r.value_range(r.get(r.data, "range", "range"), "range")
     rules = _series_rules(r)
@@ -281,7 +215,7 @@ def _read_discrete_recipe(r: _Recipe) -> _DiscreteRecipe:
     return _DiscreteRecipe(sizes, premium, grades)
 
 
-def _expand(r: _Recipe, recipe: _DiscreteRecipe) -> list[_Block]:
+def _expand(r: RecipeReader, recipe: _DiscreteRecipe) -> list[_Block]:
     """One block of parts per grade, size and tempco class: every IEC 60063 value of the
     grade's series in its range, with the recipe's illustrative cost. Two grades that would
     make the same ids are refused."""
@@ -341,7 +275,7 @@ def generate_discrete(
 
     The recipe is read and checked first (:func:`_read_discrete_recipe`), then expanded
     (:func:`_expand`)."""
-    r = _Recipe(recipe, source)
+    r = RecipeReader(recipe, source)
     blocks = _expand(r, _read_discrete_recipe(r))
     if not blocks:
         return empty_discrete_frame()
@@ -400,165 +334,6 @@ def _blocks_frame(blocks: Sequence[_Block], source: str) -> pd.DataFrame:
         series=categorical([b.series for b in blocks]),
         source=categorical([source] * len(blocks)),
     )
-
-
-def _ratio_values(base: float, ratio: float) -> float:
-    """``base * ratio``, dividing by the whole number 1/ratio for attenuations so that
-    10 kΩ * 0.1 gives exactly 1 kΩ."""
-    if ratio < 1.0:
-        inverse = 1.0 / ratio
-        if abs(inverse - round(inverse)) < 1e-9:
-            return base / round(inverse)
-    return base * ratio
-
-
-def _ratio_label(ratio: float) -> str:
-    if ratio < 1.0:
-        return f"A{1.0 / ratio:.6g}"
-    return f"G{ratio:.6g}"
-
-
-def generate_networks(
-    recipe: Mapping[str, Any], source: str = BUILTIN_NETWORK_SOURCE
-) -> tuple[NetworkPart, ...]:
-    """Expand a network recipe (the mapping of ``catalogs/networks.yaml``) into network parts.
-
-    Element order follows R1..R4: a quad of shape ``ratio`` is ``[R, G·R, R, G·R]``, a dual of
-    shape ``ratio`` is ``[R, G·R]``; shape ``equal`` repeats ``R``. Combinations with an element
-    outside ``element_range`` are skipped. ``unit_cost = grade cost * kind cost factor * shape
-    cost factor`` (illustrative)."""
-    r = _Recipe(recipe, source)
-    data = r.data
-    window = r.value_range(r.get(data, "element_range", "element_range"), "element_range")
-    kinds = _network_kinds(r, data)
-    shape_factor = {
-        str(name): r.number(value, f"shape_cost_factor.{name}", positive=True)
-        for name, value in r.mapping(
-            r.get(data, "shape_cost_factor", ""), "shape_cost_factor"
-        ).items()
-    }
-    grades = _network_grades(r, data)
-    parts: list[NetworkPart] = []
-    seen: set[str] = set()
-    for i, entry in enumerate(r.items(r.get(data, "sets", ""), "sets")):
-        key = f"sets[{i}]"
-        entry = r.mapping(entry, key)
-        kind = str(r.get(entry, "kind", key))
-        if kind not in kinds:
-            raise r.fail(f"{key}.kind", f"expected one of {', '.join(kinds)}, got {kind!r}")
-        shape = str(r.get(entry, "shape", key))
-        if shape not in ("equal", "ratio") or shape not in shape_factor:
-            raise r.fail(
-                f"{key}.shape", f"expected equal or ratio (with a shape_cost_factor), got {shape!r}"
-            )
-        bases = [
-            r.parse(parse_resistance, v, f"{key}.values[{j}]")
-            for j, v in enumerate(r.items(r.get(entry, "values", key), f"{key}.values"))
-        ]
-        ratios = (
-            [1.0]
-            if shape == "equal"
-            else [
-                r.number(g, f"{key}.ratios[{j}]", positive=True)
-                for j, g in enumerate(r.items(r.get(entry, "ratios", key), f"{key}.ratios"))
-            ]
-        )
-        for ratio in ratios:
-            for base in bases:
-                pair = (base, _ratio_values(base, ratio))
-                if not all(window[0] * (1 - 1e-9) <= v <= window[1] * (1 + 1e-9) for v in pair):
-                    continue
-                for part in _network_grade_parts(
-                    kinds[kind], shape, shape_factor[shape], ratio, pair, grades
-                ):
-                    if part.part_id in seen:
-                        raise r.fail(key, f"the set repeats the network id {part.part_id}")
-                    seen.add(part.part_id)
-                    parts.append(part)
-    return tuple(parts)
-
-
-#: A network kind of the recipe: element count, power per element (W), voltage rating (V) and
-#: cost factor.
-_NetworkKind = tuple[int, float, float, float]
-
-
-def _network_kinds(r: _Recipe, data: Mapping[str, Any]) -> dict[str, _NetworkKind]:
-    """The recipe's ``kinds``: each one's element count (2 or 4), ratings and cost factor."""
-    kinds: dict[str, _NetworkKind] = {}
-    for name, spec in r.mapping(r.get(data, "kinds", ""), "kinds").items():
-        key = f"kinds.{name}"
-        spec = r.mapping(spec, key)
-        elements = r.get(spec, "elements", key)
-        if elements not in (2, 4):
-            raise r.fail(f"{key}.elements", f"expected 2 or 4, got {elements!r}")
-        kinds[str(name)] = (
-            int(elements),
-            r.parse(parse_power, r.get(spec, "power", key), f"{key}.power"),
-            r.parse(parse_voltage, r.get(spec, "max_voltage", key), f"{key}.max_voltage"),
-            r.number(r.get(spec, "cost_factor", key), f"{key}.cost_factor", positive=True),
-        )
-    return kinds
-
-
-def _network_grades(r: _Recipe, data: Mapping[str, Any]) -> list[dict[str, float]]:
-    """The recipe's ``grades``: ratio tolerance, tracking, absolute figures, drifts and cost."""
-    grades = []
-    for i, grade in enumerate(r.items(r.get(data, "grades", ""), "grades")):
-        key = f"grades[{i}]"
-        grade = r.mapping(grade, key)
-        grades.append(
-            {
-                "ratio_tolerance": r.parse(
-                    parse_fraction, r.get(grade, "ratio_tolerance", key), f"{key}.ratio_tolerance"
-                ),
-                "tracking": r.parse(parse_tempco, r.get(grade, "tracking", key), f"{key}.tracking"),
-                "tolerance": r.parse(
-                    parse_fraction, r.get(grade, "tolerance", key), f"{key}.tolerance"
-                ),
-                "tempco": r.parse(parse_tempco, r.get(grade, "tempco", key), f"{key}.tempco"),
-                "drift": r.parse(parse_fraction, r.get(grade, "drift", key), f"{key}.drift"),
-                "ratio_drift": r.parse(
-                    parse_fraction, r.get(grade, "ratio_drift", key), f"{key}.ratio_drift"
-                ),
-                "cost": r.number(r.get(grade, "cost", key), f"{key}.cost"),
-            }
-        )
-    return grades
-
-
-def _network_grade_parts(
-    kind: _NetworkKind,
-    shape: str,
-    shape_factor: float,
-    ratio: float,
-    pair: tuple[float, float],
-    grades: list[dict[str, float]],
-) -> list[NetworkPart]:
-    """One network part per grade for one base value and ratio of a set."""
-    elements, power, voltage, kind_factor = kind
-    base = pair[0]
-    values = pair * (elements // 2) if shape == "ratio" else (base,) * elements
-    label = "EQ" if shape == "equal" else _ratio_label(ratio)
-    return [
-        NetworkPart(
-            part_id=(
-                f"QN{elements}-{label}-{rkm_code(base, 3, short=True)}-"
-                f"{round(grade['ratio_tolerance'] * 1e6):d}"
-            ),
-            values_ohm=tuple(values),
-            abs_tolerance=grade["tolerance"],
-            ratio_tolerance=grade["ratio_tolerance"],
-            abs_tempco_per_k=grade["tempco"],
-            tracking_tempco_per_k=grade["tracking"],
-            power_per_element_w=power,
-            max_voltage_v=voltage,
-            unit_cost=_network_cost(grade["cost"], kind_factor, shape_factor),
-            drift_1000h=grade["drift"],
-            ratio_drift_1000h=grade["ratio_drift"],
-        )
-        for grade in grades
-    ]
 
 
 #: libyaml's safe loader when PyYAML was built with it (ten times faster than the pure-Python
