@@ -20,6 +20,7 @@ import math
 
 import numpy as np
 import pytest
+from helpers import ideal_spec_text
 
 from optimizer.analysis.drift import (
     DRIFT_SHARED_VARIANCE,
@@ -258,33 +259,13 @@ def test_monte_carlo_follows_the_spec_drift_model(model: DriftModel, median: flo
 # Spec file
 # ---------------------------------------------------------------------------------------------
 
-SPEC = """\
-quartet_spec: 1
-amplifier:
-  cmrr: ideal
-  open_loop_gain: ideal
-  gbw: 10 MHz
-  slew_rate: 10 V/us
-  offset_voltage: 0 V
-  bias_current: 0 A
-  voltage_noise: 10 nV/rtHz
-  current_noise: 0 A/rtHz
-  input_range: {from_negative: 0 V, from_positive: 0 V}
-  output_swing: {from_negative: 0 V, from_positive: 0 V}
-rails: {positive: 15 V, negative: -15 V}
-signal:
-  differential: {min: -0.1 V, max: 0.1 V}
-  common_mode: {min: -1 V, max: 1 V}
-  max_frequency: 1 kHz
-reference:
-  voltage: 0 V
-requirements:
-  gain: 10
-  gain_accuracy: 5 %
-  cmrr_floor: 60 dB
-  temperature: {min: 25 °C, max: 25 °C}
-  operating_life: 1000 h
-"""
+SPEC = ideal_spec_text(
+    "  gain: 10\n"
+    "  gain_accuracy: 5 %\n"
+    "  cmrr_floor: 60 dB\n"
+    "  temperature: {min: 25 °C, max: 25 °C}\n"
+    "  operating_life: 1000 h\n"
+)
 
 
 def test_spec_reads_the_drift_model() -> None:

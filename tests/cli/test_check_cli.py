@@ -24,7 +24,7 @@ import re
 from pathlib import Path
 
 import pytest
-from helpers import EXAMPLES, run_cli
+from helpers import EXAMPLES, ideal_spec_text, run_cli
 from rich.console import Console
 
 from optimizer.analysis.safety import safety_cautions
@@ -48,35 +48,15 @@ FAST = ["--samples", "2000"]
 
 #: A spec where the handbook formula holds: gain 10, ideal amplifier, one temperature (25 °C),
 #: no operating life, no source or REF impedance; CMRR floor 60 dB on the worst-case basis.
-HANDBOOK_SPEC = """\
-quartet_spec: 1
-title: "handbook check: gain 10, ideal amplifier, one temperature"
-amplifier:
-  label: "ideal amplifier"
-  cmrr: ideal
-  open_loop_gain: ideal
-  gbw: 10 MHz
-  slew_rate: 10 V/us
-  offset_voltage: 0 V
-  bias_current: 0 A
-  voltage_noise: 10 nV/rtHz
-  current_noise: 0 A/rtHz
-  input_range: {from_negative: 0 V, from_positive: 0 V}
-  output_swing: {from_negative: 0 V, from_positive: 0 V}
-rails: {positive: 15 V, negative: -15 V}
-signal:
-  differential: {min: -0.1 V, max: 0.1 V}
-  common_mode: {min: -1 V, max: 1 V}
-  max_frequency: 1 kHz
-reference:
-  voltage: 0 V
-requirements:
-  gain: 10
-  gain_accuracy: 5 %
-  cmrr_floor: 60 dB
-  cmrr_basis: worst_case
-  temperature: {min: 25 °C, max: 25 °C}
-"""
+HANDBOOK_SPEC = ideal_spec_text(
+    "  gain: 10\n"
+    "  gain_accuracy: 5 %\n"
+    "  cmrr_floor: 60 dB\n"
+    "  cmrr_basis: worst_case\n"
+    "  temperature: {min: 25 °C, max: 25 °C}\n",
+    title="handbook check: gain 10, ideal amplifier, one temperature",
+    label="ideal amplifier",
+)
 
 SECTION_TITLES = (
     "The design",

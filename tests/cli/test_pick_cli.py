@@ -35,7 +35,7 @@ from typing import Any
 
 import pytest
 import yaml
-from helpers import EXAMPLES, run_cli
+from helpers import EXAMPLES, ideal_spec_text, run_cli
 from rich.console import Console
 
 from optimizer.catalog import builtin_catalog
@@ -59,38 +59,27 @@ SLOW_EXAMPLES = {"adc_driver.yaml": 5.0, "adc_driver_stock.yaml": 5.0}
 #: Examples that nothing in their catalogs can meet (the example's own comment says so).
 INFEASIBLE_EXAMPLES = {"bridge_front_end_stock_infeasible.yaml"}
 
+
 #: A gain-1 receiver over -40..125 °C and ten years, ideal amplifier, no source or REF
-#: impedance: the handbook formula applies as it stands. ``{floor}`` and ``{extra}`` are filled in.
-GAIN_ONE_SPEC = """\
-quartet_spec: 1
-title: "gain 1, ten years, -40 to 125 C"
-amplifier:
-  label: "ideal amplifier"
-  cmrr: ideal
-  open_loop_gain: ideal
-  gbw: 10 MHz
-  slew_rate: 10 V/us
-  offset_voltage: 0 V
-  bias_current: 0 A
-  voltage_noise: 10 nV/rtHz
-  current_noise: 0 A/rtHz
-  input_range: {{from_negative: 0 V, from_positive: 0 V}}
-  output_swing: {{from_negative: 0 V, from_positive: 0 V}}
-rails: {{positive: 15 V, negative: -15 V}}
-signal:
-  differential: {{min: -1 V, max: 1 V}}
-  common_mode: {{min: -1 V, max: 1 V}}
-  max_frequency: 1 kHz
-reference:
-  voltage: 0 V
-requirements:
-  gain: 1
-  gain_accuracy: 1 %
-  cmrr_floor: {floor} dB
-  cmrr_basis: worst_case
-  temperature: {{min: -40 °C, max: 125 °C}}
-  operating_life: 10 years
-{extra}"""
+#: impedance: the handbook formula applies as it stands.
+def gain_one_spec(floor: str, extra: str = "") -> str:
+    """The gain-1 spec text at a CMRR floor of ``floor`` dB, ``extra`` (YAML lines) after it."""
+    return (
+        ideal_spec_text(
+            "  gain: 1\n"
+            "  gain_accuracy: 1 %\n"
+            f"  cmrr_floor: {floor} dB\n"
+            "  cmrr_basis: worst_case\n"
+            "  temperature: {min: -40 °C, max: 125 °C}\n"
+            "  operating_life: 10 years\n",
+            title="gain 1, ten years, -40 to 125 C",
+            label="ideal amplifier",
+            differential_v=1.0,
+        )
+        + extra
+    )
+
+
 GAIN = 1.0
 DELTA_T_MAX_K = 100.0  # 125 °C − 25 °C, the larger end of the range
 LIFE_H = 10 * JULIAN_YEAR_H
@@ -176,7 +165,7 @@ def _gain_one_spec(directory: Path, floor_db: float, *, tiny: bool) -> Path:
         (directory / "tiny_networks.yaml").write_text(TINY_NETWORKS, encoding="utf-8")
         extra = TINY_PREFERENCES
     path = directory / f"gain_one_{floor_db:g}.yaml"
-    path.write_text(GAIN_ONE_SPEC.format(floor=f"{floor_db:g}", extra=extra), encoding="utf-8")
+    path.write_text(gain_one_spec(f"{floor_db:g}", extra), encoding="utf-8")
     return path
 
 
@@ -304,7 +293,7 @@ def test_stock_only_uses_house_stock(tmp_path: Path) -> None:
     (none of whose parts is stocked): with --stock-only every part of every shown design is
     stocked; without it the cheaper-per-design built-in parts appear too."""
     text = (
-        GAIN_ONE_SPEC.format(floor="66", extra="")
+        gain_one_spec("66")
         .replace("temperature: {min: -40 °C, max: 125 °C}", "temperature: {min: 0 °C, max: 70 °C}")
         .replace("  operating_life: 10 years\n", "")
     )
