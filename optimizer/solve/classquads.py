@@ -135,7 +135,7 @@ def serves(spec: Spec, env: LinearEnvironment) -> bool:
     placements of one unstocked part pay one penalty), and no one-sided drift over a life (its
     draws are shared by parts of one id, so they depend on the values). An output-noise
     ceiling or an input-impedance floor is served: the designs are screened by those exact
-    checks themselves before they leave the search (:meth:`ClassQuadSearch._designs_at`)."""
+    checks themselves before they leave the search (``quaddesigns.ValueChoices``)."""
     prefs, req = spec.preferences, spec.requirements
     return (
         yieldbox.serves(spec)
