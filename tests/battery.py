@@ -141,6 +141,8 @@ YIELD_BUILTIN: list[tuple[str, dict[str, object]]] = [
     ("yield, G = 5, 44 dB, industrial (was 37 s)", dict(gain=5, floor=44, tmin=-20, tmax=85)),
     ("yield, G = 100, 50 dB, industrial, small signal (was none in 20 s)",
      dict(gain=100, floor=50, tmin=-20, tmax=85, vd=0.05)),
+    ("yield, G = 100, 40 dB, industrial: the balance admits a factor of e in R4/R3 (was 47-59 s)",
+     dict(gain=100, floor=40, tmin=-20, tmax=85, vd=0.05)),
     ("yield, G = 1, 46 dB, automotive, input impedance 50 kΩ (CP-SAT: none in 60 s)",
      dict(gain=1, floor=46, tmin=-40, tmax=125, req=YIELD_99 + ", min_input_impedance: 50k")),
     ("yield, G = 2, 50 dB, automotive, 20 kΩ and 6 µV noise (CP-SAT: 34.4 unproven)",

@@ -103,6 +103,7 @@ from .pairbounds import (
     gain_spread_fits,
     gain_spread_floor,
     gain_window,
+    pair_ranges,
     passing_counts,
     screen_pairs,
 )
@@ -153,6 +154,10 @@ class _Half:
     def __init__(self, logs: Array, pairs: list[NDArray[np.int64]]) -> None:
         self.logs = logs
         self.pairs = pairs
+        #: Per ratio, the value indices of its first value pair (``pairs[k][0]``), as rows.
+        self.heads = (
+            np.array([p[0] for p in pairs], dtype=np.int64) if pairs else np.zeros((0, 2), np.int64)
+        )
 
 
 @dataclass(frozen=True)
@@ -398,8 +403,7 @@ class ClassQuadSearch:
         aa = rho_b / (1.0 + rho_b)
         # Ratio pairs with |ln c − ln a| ≤ Λ (a within [c·e^−Λ, c·e^Λ]), nominal gain inside
         # the window, passing the linearised yield conditions.
-        lo_b = np.searchsorted(aa, cc * math.exp(-balance), side="left")
-        hi_b = np.searchsorted(aa, cc * math.exp(balance), side="right")
+        lo_b, hi_b = pair_ranges(cc, aa, balance, (low, high))
         counts = np.maximum(hi_b - lo_b, 0)
         ia_all = np.repeat(np.arange(cc.size), counts)
         ib_all = (
@@ -453,9 +457,8 @@ class ClassQuadSearch:
         static, alpha = factors
         temps = np.array(self._environment.delta_t_k)
         r = static[:, :, None] * (1.0 + alpha[:, :, None] * temps[None, None, :])
-        rho_b = np.array(
-            [values[second.pairs[b][0][1]] / values[second.pairs[b][0][0]] for b in ib.tolist()]
-        )
+        heads = second.heads[ib]
+        rho_b = values[heads[:, 1]] / values[heads[:, 0]]
         need = spec.requirements.yield_target * float(spec.preferences.samples)
         ok = np.zeros(ia.size, dtype=bool)
         order = np.argsort(ia, kind="stable")

@@ -45,7 +45,7 @@ from optimizer.design import Design, Placement, Topology
 from optimizer.parts import DiscretePart, NetworkPart
 from optimizer.solve.classquads import UNIT_BOUND, ClassQuadSearch
 from optimizer.solve.environment import linear_environment
-from optimizer.solve.pairbounds import deviation_bounds, passing_counts, screen_pairs
+from optimizer.solve.pairbounds import deviation_bounds, pair_ranges, passing_counts, screen_pairs
 from optimizer.solve.problem import prepare
 from optimizer.solve.search import SearchStatus, pick
 from optimizer.solve.streams import frontier_applies
@@ -544,3 +544,40 @@ def test_gain_pass_counts_are_the_monte_carlos(
         )[0]
     )  # fmt: skip
     assert counted <= bound <= prefs.samples
+
+
+@settings(max_examples=300, deadline=None)
+@given(
+    seed=st.integers(0, 2**32 - 1),
+    gain=st.floats(0.1, 300.0),
+    accuracy=st.floats(1e-4, 0.05),
+    balance=st.floats(1e-4, 1.5),
+)
+def test_pair_ranges_hold_every_pair_the_exact_tests_can_keep(
+    seed: int, gain: float, accuracy: float, balance: float
+) -> None:
+    """``pairbounds.pair_ranges`` against a brute-force scan of its definition (the dividers
+    ``c = R2/(R1 + R2)``, ``a = R4/(R3 + R4)`` and the nominal gain ``(a + c)/(2(1 − c))`` of
+    the four-resistor difference amplifier, handbook form): every second-half divider with
+    ``|ln(c/a)| ≤ Λ`` and a nominal gain inside the window lies in its range, and the range
+    holds nothing that misses either by more than a relative 1e-6."""
+    rng = np.random.default_rng(seed)
+    rho = gain * np.exp(rng.uniform(-0.2, 0.2, 40))
+    c = rho / (1.0 + rho)
+    a = np.sort(c[rng.integers(0, c.size, 400)] * np.exp(rng.uniform(-2.0, 2.0, 400)))
+    a = a[a < 1.0]
+    window = (gain * (1.0 - accuracy), gain * (1.0 + accuracy))
+    lo, hi = pair_ranges(c, a, balance, window)
+    for k in range(c.size):
+        mismatch = np.abs(np.log(c[k] / a))
+        adm = (a + c[k]) / (2.0 * (1.0 - c[k]))
+        kept = (mismatch <= balance) & (adm >= window[0]) & (adm <= window[1])
+        inside = np.zeros(a.size, dtype=bool)
+        inside[lo[k] : hi[k]] = True
+        assert not np.any(kept & ~inside)
+        near = (
+            (mismatch <= balance * (1 + 1e-6) + 1e-9)
+            & (adm >= window[0] * (1 - 1e-6))
+            & (adm <= window[1] * (1 + 1e-6))
+        )
+        assert not np.any(inside & ~near)
