@@ -149,15 +149,32 @@ def serves(spec: Spec, env: LinearEnvironment) -> bool:
 
 class _Half:
     """The ratios one class pair's values reach inside the gain window: sorted unique
-    ``ln ρ`` (means included) and, per ratio, the value-index pairs that give it."""
+    ``ln ρ`` (means included) and, per ratio, the value-index pairs that give it
+    (``pairs[k]``: rows ``starts[k]`` to ``ends[k]`` of one array of them all)."""
 
-    def __init__(self, logs: Array, pairs: list[NDArray[np.int64]]) -> None:
+    def __init__(
+        self, logs: Array, stacked: NDArray[np.int64], starts: NDArray[np.int64],
+        ends: NDArray[np.int64],
+    ) -> None:  # fmt: skip
         self.logs = logs
-        self.pairs = pairs
+        self.pairs = _Slices(stacked, starts, ends)
         #: Per ratio, the value indices of its first value pair (``pairs[k][0]``), as rows.
-        self.heads = (
-            np.array([p[0] for p in pairs], dtype=np.int64) if pairs else np.zeros((0, 2), np.int64)
-        )
+        self.heads = stacked[starts]
+
+
+class _Slices:
+    """Row ranges of one array, indexed like a list of arrays (each a view)."""
+
+    def __init__(
+        self, rows: NDArray[np.int64], starts: NDArray[np.int64], ends: NDArray[np.int64]
+    ) -> None:
+        self._rows, self._starts, self._ends = rows, starts.tolist(), ends.tolist()
+
+    def __len__(self) -> int:
+        return len(self._starts)
+
+    def __getitem__(self, k: int) -> NDArray[np.int64]:
+        return self._rows[self._starts[k] : self._ends[k]]
 
 
 @dataclass(frozen=True)
@@ -315,16 +332,14 @@ class ClassQuadSearch:
         values = logs[rows, cols]
         order = np.argsort(values, kind="stable")
         values, rows, cols = values[order], rows[order], cols[order]
+        stacked = np.column_stack([ki[rows], kj[cols]]).astype(np.int64, copy=False)
         if not values.size:
-            half = self._halves[key] = _Half(values, [])
+            empty = np.zeros(0, dtype=np.int64)
+            half = self._halves[key] = _Half(values, stacked.reshape(0, 2), empty, empty)
             return half
         starts = np.r_[0, np.flatnonzero(np.diff(values) > SAME_RATIO) + 1].astype(np.int64)
         ends = np.r_[starts[1:], values.size].astype(np.int64)
-        pairs = [
-            np.column_stack([ki[rows[s:e]], kj[cols[s:e]]])
-            for s, e in zip(starts, ends, strict=True)
-        ]
-        half = self._halves[key] = _Half(values[starts], pairs)
+        half = self._halves[key] = _Half(values[starts], stacked, starts, ends)
         return half
 
     def _run(self) -> Iterator[Design]:
