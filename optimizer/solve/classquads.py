@@ -59,8 +59,10 @@ cheapest design is never lost; only such second-best
 designs are (``tests/solve/test_classquads.py`` checks exactly this against the reference).
 Keeping the dominated classes costs several times the search on the built-in catalog (G = 2,
 56 dB, five years: 3 s -> over 60 s), so they are dropped. With a per-line stock penalty the
-swap can cost more (two placements of one unstocked part pay one penalty), so such specs
-stay with CP-SAT.
+dominance is judged alike at every position too and on the part costs without the penalty (a
+dominator is stocked if the part is): judged on the per-placement charge, the swap could cost
+more (two placements of one unstocked part pay one penalty, the stocked dominator's higher
+price is paid twice). The penalty is then charged per line of an unstocked class.
 
 Every step is a necessary condition of the exact check, so the k-th design the stream's exact
 check passes is the k-th cheapest (ties: any order; siblings of one ratio pair share its
@@ -131,17 +133,16 @@ PAIR_BATCH = 16
 def serves(spec: Spec, env: LinearEnvironment) -> bool:
     """Whether the premises of the module docstring hold: the yield box applies
     (``yieldbox.serves``), the lowest-cost objective, no source or REF impedance at any
-    vertex, no per-line stock penalty (the classes it searches are those no other class
-    dominates at a value, ``solve.discrete``, judged on the per-placement charge: two
-    placements of one unstocked part pay one penalty), and no one-sided drift over a life (its
-    draws are shared by parts of one id, so they depend on the values). An output-noise
+    vertex, and no one-sided drift over a life (its draws are shared by parts of one id, so
+    they depend on the values). A per-line stock penalty is served on a block whose dominance
+    leaves the penalty out (``streams``: a stocked part is dominated only by stocked ones, so
+    the swap adds no penalty), charged per line like the line cost. An output-noise
     ceiling or an input-impedance floor is served: the designs are screened by those exact
     checks themselves before they leave the search (``quaddesigns.ValueChoices``)."""
     prefs, req = spec.preferences, spec.requirements
     return (
         yieldbox.serves(spec)
         and (req.drift_model is DriftModel.SYMMETRIC or env.life_h <= 0.0)
-        and not (prefs.stock is StockPolicy.PREFER and prefs.stock_penalty > 0.0)
         and prefs.objective is Objective.COST
         and not np.any(env.vertices)
     )
@@ -221,12 +222,20 @@ class ClassQuadSearch:
         # Per class: the Monte Carlo's bounds of its own variables (tolerance, tempco per K,
         # life drift), read from one of its parts.
         self._own = np.zeros((n, 3))
-        req = spec.requirements
+        req, prefs = spec.requirements, spec.preferences
+        # Per class: its part cost with placement (the block's per-placement stock penalty
+        # taken out) and what each BOM line of it costs: the line cost, plus the stock
+        # penalty when its parts are not stocked (``optimizer.cost``: charged per line).
+        self._part_cost = block.cost - block.penalty
+        penalty = prefs.stock_penalty if prefs.stock is StockPolicy.PREFER else 0.0
+        self._line_charge = np.full(n, prefs.line_cost)
         for c in range(n):
             present = block.part_row[c] >= 0
             if not present.any():
                 continue
             part = self._catalog.discrete_part(int(block.part_row[c][present][0]))
+            if part.stock_qty <= 0:  # stock is an attribute of the class
+                self._line_charge[c] += penalty
             mean, sigma = self._screen.position(part, None)
             self._centre[c] = mean / part.resistance_ohm
             self._sigma[c] = sigma
@@ -238,7 +247,7 @@ class ClassQuadSearch:
             )
             self._own[c] = (alone.tolerance[0], alone.tempco_per_k[0], alone.drift[0])
         self._halves: dict[tuple[int, int, int], _Half] = {}
-        self._choices = ValueChoices(spec, catalog, block, stop)
+        self._choices = ValueChoices(spec, catalog, block, stop, self._part_cost, self._line_charge)
         self._environment = environment_from_spec(spec)
         self._unit: dict[tuple[bool, ...], VariableValues] = {}
         self._bounds: dict[tuple[tuple[bool, ...], int, int, int], tuple[Array, Array]] = {}
@@ -275,7 +284,7 @@ class ClassQuadSearch:
         a, b = self._usable[i], self._usable[j]
         ca = np.repeat(a, b.size)
         cb = np.tile(b, a.size)
-        cost = self._block.cost[ca] + self._block.cost[cb]
+        cost = self._part_cost[ca] + self._part_cost[cb]
         var = self._sigma[ca] ** 2 + self._sigma[cb] ** 2
         order = np.lexsort((var, cost))
         return cost[order], var[order], ca[order], cb[order]
@@ -384,9 +393,12 @@ class ClassQuadSearch:
 
     def _bound(self, quad: tuple[int, int, int, int]) -> float:
         """The least cost of a design of these classes: parts and placements, one BOM line per
-        distinct class (no stock penalty: :func:`serves`)."""
-        parts = float(sum(self._block.cost[c] for c in quad))
-        return parts + self._spec.preferences.line_cost * len(set(quad))
+        distinct class (each with its stock penalty when its parts are not stocked)."""
+        parts = float(sum(self._part_cost[c] for c in quad))
+        charges = [float(self._line_charge[c]) for c in set(quad)]
+        if len(set(charges)) == 1:
+            return parts + charges[0] * len(charges)
+        return parts + sum(charges)
 
     def _pairs_of(self, quad: tuple[int, int, int, int]) -> _Batch | None:
         """The ratio pairs of one quadruple that pass the screens (module docstring, steps 2 and

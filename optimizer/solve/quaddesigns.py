@@ -42,9 +42,17 @@ class ValueChoices:
     designs in exact cost order; ``stop()`` ends a group early."""
 
     def __init__(
-        self, spec: Spec, catalog: Catalog, block: DiscreteBlock, stop: Callable[[], bool]
+        self,
+        spec: Spec,
+        catalog: Catalog,
+        block: DiscreteBlock,
+        stop: Callable[[], bool],
+        part_cost: Array,
+        line_charge: Array,
     ) -> None:
         self._spec, self._catalog, self._block, self._stop = spec, catalog, block, stop
+        # Per class: a part's cost with its placement, and the cost of each BOM line of it.
+        self._part_cost, self._line_charge = part_cost, line_charge
         # Parts looked up once (a table row costs a tenth of a millisecond, and a search can
         # place the same parts in many designs).
         self._part_cache: dict[int, DiscretePart] = {}
@@ -58,9 +66,10 @@ class ValueChoices:
         self, quad: tuple[int, int, int, int], first: NDArray[np.int64], second: NDArray[np.int64]
     ) -> list[tuple[float, CostGroup]]:
         """The value choices of one electrical design grouped by exact cost (``optimizer.cost``:
-        parts, placements, one line per distinct part id; no stock penalty: ``classquads.serves``),
-        each group's choices those nearest the middle of the resistance window first."""
-        block, prefs = self._block, self._spec.preferences
+        parts, placements, one line per distinct part id, the stock penalty once per line of an
+        unstocked part), each group's choices those nearest the middle of the resistance window
+        first."""
+        block = self._block
         rows_a = np.column_stack([block.part_row[quad[0], first[:, 0]],
                                   block.part_row[quad[1], first[:, 1]]])  # fmt: skip
         rows_b = np.column_stack([block.part_row[quad[2], second[:, 0]],
@@ -73,9 +82,12 @@ class ValueChoices:
             (r3 != r1) & (r3 != r2),
             (r4 != r1) & (r4 != r2) & (r4 != r3),
         ]
-        lines = sum(n.astype(float) for n in new)
-        parts = float(sum(block.cost[c] for c in quad))
-        cost = parts + prefs.line_cost * lines
+        parts = float(sum(self._part_cost[c] for c in quad))
+        charge = [float(self._line_charge[c]) for c in quad]
+        if len(set(charge)) == 1:  # one charge per line (no stock penalty, or all alike)
+            cost = parts + charge[0] * sum(n.astype(float) for n in new)
+        else:
+            cost = parts + sum(n * ch for n, ch in zip(new, charge, strict=True))
         middle = math.log(self._middle_ohm)
         near = (
             np.abs(np.log(block.values[first[:, 0]]) - middle)[:, None]

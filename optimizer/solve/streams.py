@@ -11,16 +11,17 @@ from __future__ import annotations
 import math
 import time
 from collections.abc import Callable, Iterator
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import TYPE_CHECKING
 
 from .. import interrupt
+from ..catalog import Catalog
 from ..cost import design_cost
 from ..design import Design, Topology
-from ..spec import CmrrBasis, Objective, Spec
+from ..spec import CmrrBasis, Objective, Spec, StockPolicy
 from . import classquads, yieldbox
 from .classquads import ClassQuadSearch
-from .discrete import build_discrete
+from .discrete import DiscreteBlock, build_discrete
 from .environment import LinearEnvironment
 from .frontier import discrete_frontier
 from .mixed import mixed_frontier
@@ -262,13 +263,7 @@ class FrontierStream(StreamProgress):
         self._screen_each = None if topology is Topology.PAIR_PLUS_DISCRETE else self._screen
         self._source: Iterator[Design]
         if topology is Topology.DISCRETE and self._screen is not None:
-            # With a BOM line cost, its own block: dominance judged alike at every position, so
-            # swapping a dominated part never adds a line (``optimizer.solve.classquads``).
-            block = (
-                build_discrete(catalog, spec, env, same_everywhere=True)
-                if spec.preferences.line_cost > 0.0
-                else problem.block
-            )
+            block = _class_block(spec, catalog, env, problem.block)
             self._source = ClassQuadSearch(
                 spec, catalog, env, block, self._stop, lambda: self.cost_ceiling
             )
@@ -395,3 +390,20 @@ def make_streams(problem: Problem, spec: Spec) -> list[ModelStream | FrontierStr
         if possible:
             streams.append(ModelStream(problem, frozenset({topology}), objective))
     return streams
+
+
+def _class_block(
+    spec: Spec, catalog: Catalog, env: LinearEnvironment, block: DiscreteBlock
+) -> DiscreteBlock:
+    """The classes the class-quadruple search runs on (``optimizer.solve.classquads``): with a
+    BOM line cost or a per-line stock penalty its own block, the dominance judged alike at
+    every position (swapping a dominated part never adds a line) and, with the penalty, on the
+    part costs without it (a stocked part is dominated only by a stocked one, so the swap adds
+    no penalty either); the problem's own block otherwise."""
+    prefs = spec.preferences
+    penalised = prefs.stock is StockPolicy.PREFER and prefs.stock_penalty > 0.0
+    if prefs.line_cost <= 0.0 and not penalised:
+        return block
+    if penalised:
+        spec = replace(spec, preferences=replace(prefs, stock_penalty=0.0))
+    return build_discrete(catalog, spec, env, same_everywhere=True)

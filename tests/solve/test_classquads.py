@@ -43,7 +43,7 @@ from optimizer.catalog import builtin_catalog, catalog_from_parts
 from optimizer.catalog.table import Catalog
 from optimizer.design import Design, Placement, Topology
 from optimizer.parts import DiscretePart, NetworkPart
-from optimizer.solve.classquads import UNIT_BOUND, ClassQuadSearch
+from optimizer.solve.classquads import UNIT_BOUND, ClassQuadSearch, serves
 from optimizer.solve.environment import linear_environment
 from optimizer.solve.pairbounds import deviation_bounds, pair_ranges, passing_counts, screen_pairs
 from optimizer.solve.problem import prepare
@@ -211,16 +211,22 @@ def test_the_vectorised_screen_is_the_design_screen(
     assert got == want
 
 
-def _medium(dominated: bool = False) -> Catalog:
+def _medium(dominated: bool = False, stocked: bool = False) -> Catalog:
     """Five invented grades at two values each (demo data): every one of its designs may need
     the Monte Carlo in the reference (no screen on the yield basis), so it stays small.
-    ``dominated`` adds grade F: grade B's tolerance, tempco and ratings at a higher cost."""
+    ``dominated`` adds grade F: grade B's tolerance, tempco and ratings at a higher cost.
+    ``stocked`` adds grades BS and CS: B's and C's figures at a higher price, in house stock
+    (with a stock penalty they compete with B and C; neither dominates the other)."""
     grades = [("A", 0.01, 100e-6, 1.0), ("B", 0.005, 50e-6, 2.5), ("C", 0.0025, 25e-6, 4.0),
               ("D", 0.001, 25e-6, 6.0), ("E", 0.0005, 10e-6, 11.0)]  # fmt: skip
     if dominated:
         grades.append(("F", 0.005, 50e-6, 3.0))
+    if stocked:
+        grades += [("BS", 0.005, 50e-6, 3.1), ("CS", 0.0025, 25e-6, 4.4)]
     parts = [
-        DiscretePart(f"MQ-{g}-{v:g}", v, t, tc, "0603", 0.1, 75.0, cost)
+        DiscretePart(
+            f"MQ-{g}-{v:g}", v, t, tc, "0603", 0.1, 75.0, cost, stock_qty=500 * g.endswith("S")
+        )
         for g, t, tc, cost in grades
         for v in (10e3, 20e3)
     ]
@@ -290,6 +296,41 @@ def test_plain_yield_specs_are_proven_over_the_builtin_catalog(
     floor = prepare(spec, cat).discrete_cost_floor()
     assert all(c.cost.total >= floor for c in result.ranked), purpose
     assert all(verify(c.design, spec).passed for c in result.ranked), purpose
+
+
+#: (purpose, gain, floor dB, temperature range, preferences): a per-line stock penalty on a
+#: catalog with stocked grades dearer than the unstocked ones (``_medium(stocked=True)``): the
+#: penalty is charged once per line of an unstocked part (``optimizer.cost``), so two
+#: placements of one unstocked part pay it once.
+STOCK_CASES = [
+    ("G = 2, 46 dB, industrial, penalty 0.8", 2.0, 46.0, (-20, 85),
+     ", stock: prefer, stock_penalty: 0.8"),
+    ("G = 1, 44 dB, automotive, penalty 1.5 and line cost 0.5", 1.0, 44.0, (-40, 125),
+     ", stock: prefer, stock_penalty: 1.5, line_cost: 0.5"),
+]  # fmt: skip
+
+
+@pytest.mark.parametrize(("purpose", "gain", "floor", "temps", "prefs"), STOCK_CASES,
+                         ids=[c[0] for c in STOCK_CASES])  # fmt: skip
+def test_a_stock_penalty_matches_the_independent_reference(
+    tmp_path: Path, purpose: str, gain: float, floor: float, temps: tuple[int, int], prefs: str
+) -> None:
+    """The class-quadruple search serves a per-line stock penalty (it went to CP-SAT before):
+    its five cheapest costs equal the independent reference's (``tests/reference/cheapest``,
+    which shares no code with the pick) and a stocked part is among them."""
+    spec = _spec(tmp_path, gain=gain, floor=floor, tmin=temps[0], tmax=temps[1],
+                 prefs=SAMPLES + prefs)  # fmt: skip
+    env = linear_environment(spec)
+    assert serves(spec, env) and frontier_applies(spec, Topology.DISCRETE, env), purpose
+    cat = _medium(stocked=True)
+    ref = cheapest(spec, cat, 5, max_checks=20000)
+    assert ref.complete, purpose
+    result = pick(spec, cat, verify, top=5, time_limit_s=120.0)
+    got = [c.cost.total for c in result.ranked]
+    assert got == pytest.approx(ref.costs, rel=1e-9), (purpose, got, ref.costs)
+    assert result.status is SearchStatus.OPTIMAL
+    assert any(p.part.stock_qty > 0 for c in result.ranked for p in c.design.placements)
+    assert all(verify(c.design, spec).passed for c in result.ranked)
 
 
 def test_the_ranking_leaves_out_exactly_the_designs_with_a_dominated_part(
