@@ -109,7 +109,7 @@ from .pairbounds import (
     passing_counts,
     screen_pairs,
 )
-from .quaddesigns import ValueChoices
+from .quaddesigns import ValueChoices, lines_cost
 from .screen import log_balance_limit
 
 __all__ = ["ClassQuadSearch", "serves"]
@@ -396,9 +396,7 @@ class ClassQuadSearch:
         distinct class (each with its stock penalty when its parts are not stocked)."""
         parts = float(sum(self._part_cost[c] for c in quad))
         charges = [float(self._line_charge[c]) for c in set(quad)]
-        if len(set(charges)) == 1:
-            return parts + charges[0] * len(charges)
-        return parts + sum(charges)
+        return float(parts + lines_cost(charges, [1] * len(charges)))
 
     def _pairs_of(self, quad: tuple[int, int, int, int]) -> _Batch | None:
         """The ratio pairs of one quadruple that pass the screens (module docstring, steps 2 and

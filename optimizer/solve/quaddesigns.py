@@ -7,8 +7,9 @@ parts fail the value checks (output noise, input impedance).
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Iterator
+from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
@@ -22,7 +23,13 @@ from ..spec import Spec
 from .discrete import DiscreteBlock
 from .frontier import cached_part
 
-__all__ = ["CostGroup", "ValueChoices", "nominal_impedance_reaches", "value_checks_pass"]
+__all__ = [
+    "CostGroup",
+    "ValueChoices",
+    "lines_cost",
+    "nominal_impedance_reaches",
+    "value_checks_pass",
+]
 
 Array = NDArray[np.float64]
 
@@ -83,11 +90,8 @@ class ValueChoices:
             (r4 != r1) & (r4 != r2) & (r4 != r3),
         ]
         parts = float(sum(self._part_cost[c] for c in quad))
-        charge = [float(self._line_charge[c]) for c in quad]
-        if len(set(charge)) == 1:  # one charge per line (no stock penalty, or all alike)
-            cost = parts + charge[0] * sum(n.astype(float) for n in new)
-        else:
-            cost = parts + sum(n * ch for n, ch in zip(new, charge, strict=True))
+        charges = [float(self._line_charge[c]) for c in quad]
+        cost = parts + lines_cost(charges, [n.astype(float) for n in new])
         middle = math.log(self._middle_ohm)
         near = (
             np.abs(np.log(block.values[first[:, 0]]) - middle)[:, None]
@@ -178,3 +182,13 @@ def nominal_impedance_reaches(
     differential = differential_input_resistance(r1, r3)
     common = common_mode_input_resistance(r1, r3, r4)
     return np.asarray((differential >= floor) & (common >= floor), dtype=bool)
+
+
+def lines_cost(charges: Sequence[float], counts: Sequence[Any]) -> Any:
+    """The BOM lines' cost (relative units): ``Σ countᵢ·chargeᵢ`` over the classes, each
+    ``chargeᵢ`` the line cost plus the stock penalty when the class is not stocked
+    (``optimizer.cost``), each ``countᵢ`` (a number or an array) its lines. When every charge
+    is the same it is ``charge·Σ countᵢ``, the floats the line cost alone gave."""
+    if len(set(charges)) == 1:
+        return charges[0] * sum(counts)
+    return sum(count * charge for count, charge in zip(counts, charges, strict=True))
