@@ -20,7 +20,7 @@ from dataclasses import dataclass
 
 from .design import Design
 from .parts import DiscretePart, NetworkPart
-from .spec import Preferences, StockPolicy
+from .spec import Preferences
 
 __all__ = ["CostBreakdown", "design_cost", "parts_cost"]
 
@@ -50,9 +50,7 @@ def parts_cost(
         parts += part.unit_cost
         lines[part.part_id] = part.in_stock
     unstocked = sum(1 for stocked in lines.values() if not stocked)
-    penalty = (
-        preferences.stock_penalty * unstocked if preferences.stock is StockPolicy.PREFER else 0.0
-    )
+    penalty = preferences.line_penalty * unstocked
     return CostBreakdown(
         parts=parts,
         placements=preferences.placement_cost * len(placed),

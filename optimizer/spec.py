@@ -352,6 +352,12 @@ class Preferences:
                 owner, "seed", f"expected a whole number of zero or more, got {self.seed!r}"
             )
 
+    @property
+    def line_penalty(self) -> float:
+        """The stock penalty charged per BOM line of a part not in house stock (relative
+        units): ``stock_penalty`` with ``stock: prefer``, 0 otherwise (``optimizer.cost``)."""
+        return self.stock_penalty if self.stock is StockPolicy.PREFER else 0.0
+
 
 @dataclass(frozen=True)
 class Spec:

@@ -94,7 +94,7 @@ from ..analysis.variation import (
 )
 from ..catalog import Catalog
 from ..design import Design, Placement
-from ..spec import DriftModel, Objective, Spec, StockPolicy
+from ..spec import DriftModel, Objective, Spec
 from . import yieldbox
 from .discrete import DiscreteBlock
 from .environment import LinearEnvironment
@@ -227,7 +227,7 @@ class ClassQuadSearch:
         # taken out) and what each BOM line of it costs: the line cost, plus the stock
         # penalty when its parts are not stocked (``optimizer.cost``: charged per line).
         self._part_cost = block.cost - block.penalty
-        penalty = prefs.stock_penalty if prefs.stock is StockPolicy.PREFER else 0.0
+        penalty = prefs.line_penalty
         self._line_charge = np.full(n, prefs.line_cost)
         for c in range(n):
             present = block.part_row[c] >= 0

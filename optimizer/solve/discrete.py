@@ -111,7 +111,7 @@ def build_discrete(
     rows = allowed_rows(frame, spec)
     if rows.size == 0:
         return _empty()
-    penalty = prefs.stock_penalty if prefs.stock is StockPolicy.PREFER else 0.0
+    penalty = prefs.line_penalty
     attrs = pd.DataFrame(
         {
             "cost": frame["unit_cost"].to_numpy(float)[rows]

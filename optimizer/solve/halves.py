@@ -17,7 +17,7 @@ from numpy.typing import NDArray
 from ..analysis.drift import drift_factor_bounds
 from ..analysis.formulas import derated_power
 from ..catalog import Catalog
-from ..spec import Preferences, Spec, StockPolicy
+from ..spec import Preferences, Spec
 from .discrete import allowed_rows
 from .environment import LinearEnvironment, life_drift
 from .screen import RATING_SCREEN, ScreenLimits, side_window, stress_floor, stress_share
@@ -227,7 +227,7 @@ def line_charges(
     the stock policy "prefer", ``line_cost`` otherwise. A part id has one class and value, so a
     design pays at least this for every distinct (class, value) it places: a lower bound of
     its per-line cost. Entries with no usable part are ``inf``."""
-    penalty = prefs.stock_penalty if prefs.stock is StockPolicy.PREFER else 0.0
+    penalty = prefs.line_penalty
     charge = prefs.line_cost + np.where(stocked, 0.0, penalty)
     return np.where(usable, charge, np.inf)
 

@@ -153,7 +153,7 @@ def _effective_cost(
     cost: NDArray[np.float64], stocked: NDArray[np.bool_], spec: Spec
 ) -> NDArray[np.float64]:
     prefs = spec.preferences
-    penalty = prefs.stock_penalty if prefs.stock is StockPolicy.PREFER else 0.0
+    penalty = prefs.line_penalty
     return cost + prefs.placement_cost + np.where(stocked, 0.0, penalty)
 
 

@@ -22,7 +22,7 @@ from dataclasses import replace
 
 from ..catalog import Catalog
 from ..design import Design, Topology
-from ..spec import Objective, Spec, StockPolicy
+from ..spec import Objective, Spec
 from .amplifier import amplifier_limits
 from .problem import prepare
 from .ranking import binding_requirement, family_key, tie_key
@@ -217,7 +217,7 @@ def _bound_later_streams(
     prefs = spec.preferences
     if prefs.objective is not Objective.COST:
         return
-    exact_cost = not (prefs.stock is StockPolicy.PREFER and prefs.stock_penalty > 0.0)
+    exact_cost = prefs.line_penalty <= 0.0
     bounded = [
         s
         for s in streams

@@ -18,7 +18,7 @@ from .. import interrupt
 from ..catalog import Catalog
 from ..cost import design_cost
 from ..design import Design, Topology
-from ..spec import CmrrBasis, Objective, Spec, StockPolicy
+from ..spec import CmrrBasis, Objective, Spec
 from . import classquads, yieldbox
 from .classquads import ClassQuadSearch
 from .discrete import DiscreteBlock, build_discrete
@@ -401,7 +401,7 @@ def _class_block(
     part costs without it (a stocked part is dominated only by a stocked one, so the swap adds
     no penalty either); the problem's own block otherwise."""
     prefs = spec.preferences
-    penalised = prefs.stock is StockPolicy.PREFER and prefs.stock_penalty > 0.0
+    penalised = prefs.line_penalty > 0.0
     if prefs.line_cost <= 0.0 and not penalised:
         return block
     if penalised:
